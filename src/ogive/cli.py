@@ -1,0 +1,87 @@
+"""Command line: argument parsing, wiring sub-commands to the packages, exit codes.
+
+Each sub-command lives in ``ogive.commands.<name>`` with ``add_arguments(parser)`` and
+``run(args) -> int``. Those modules import only the standard library at top level;
+heavy libraries (polars, scipy, textual) are imported inside ``run`` so that
+``ogive --help`` stays fast.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import os
+import sys
+from collections.abc import Sequence
+
+from . import __version__
+from .errors import EXIT_ERROR, EXIT_INTERRUPTED, OgiveError
+
+COMMANDS: dict[str, str] = {
+    "scan": "read sources once and summarise (and save) a sketch of one numeric field",
+    "show": "summarise a saved sketch; any quantiles with -q",
+    "merge": "merge saved sketches (per host, per day) into one",
+    "fit": "fit candidate probability models to a sketch and rank them",
+    "compare": "compare two distributions: quantile ladder with intervals, distances, shift",
+    "gate": "release check: exit 0/1/2 on quantile limits between a baseline and a candidate",
+    "plot": "text-mode Q-Q, detrended, P-P, CDF and shift plots",
+    "view": "open the keyboard-driven workspace on sources or sketches",
+    "demo": "open the workspace on the bundled demo data (a release that slowed the tail)",
+    "generate": "write the invented demo scenario as logs of any size (for trying and benchmarks)",
+}
+
+
+class _Parser(argparse.ArgumentParser):
+    """Usage mistakes exit with EXIT_ERROR so that 1 and 2 stay meaningful for ``gate``."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        self.print_usage(sys.stderr)
+        self.exit(EXIT_ERROR, f"{self.prog}: error: {message}\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="ogive",
+        description="Stream huge logs once into small mergeable quantile sketches, "
+        "fit probability models to them and compare distributions, in the terminal.",
+        epilog="Exit status: 0 done; 1 and 2 are used by 'gate'; 3 bad input or usage; 130 interrupted.",
+    )
+    parser.add_argument("--version", action="version", version=f"ogive {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for name, summary in COMMANDS.items():
+        module = importlib.import_module(f"ogive.commands.{name}")
+        p = sub.add_parser(
+            name,
+            help=summary,
+            description=getattr(module, "DESCRIPTION", summary),
+            epilog=getattr(module, "EPILOG", None),
+            formatter_class=argparse.RawDescriptionHelpFormatter,
+        )
+        module.add_arguments(p)
+        p.set_defaults(_run=module.run)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "_run", None):
+        parser.print_help()
+        return EXIT_ERROR
+    try:
+        return int(args._run(args))
+    except OgiveError as exc:
+        print(f"ogive: error: {exc}", file=sys.stderr)
+        return EXIT_ERROR
+    except KeyboardInterrupt:
+        print("ogive: interrupted", file=sys.stderr)
+        return EXIT_INTERRUPTED
+    except BrokenPipeError:
+        # A reader such as `head` went away: stop quietly, as other filters do.
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,68 @@
+"""What a scan is asked to do, and what it reports back while and after it runs.
+
+These types are the contract between the reader and its callers (the CLI's
+sub-commands and the terminal UI's background workers); the reader knows nothing of
+either.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from ..sketch import DEFAULT_COMPRESSION, DEFAULT_TAIL, SketchSet
+
+
+@dataclass(frozen=True)
+class ScanOptions:
+    format: str | None = None
+    """'csv', 'tsv', 'ndjson', 'text', 'parquet', or None to detect from the content."""
+    field: str | None = None
+    """NDJSON: dotted path of the value (``timing.total_ms``)."""
+    column: str | None = None
+    """CSV/TSV: column name, or 1-based index as digits."""
+    pattern: str | None = None
+    """Text lines: regex with one capture group or a named group ``value``."""
+    header: bool | None = None
+    """CSV/TSV: whether the first line is a header; None to detect."""
+    unit: str | None = None
+    """Unit the sketch is kept in (``ms``, ``s``, ``us``, ``ns``, or a plain label like ``bytes``)."""
+    input_unit: str | None = None
+    """Unit of numbers that carry no suffix."""
+    by: str | None = None
+    """Field/column whose distinct values each get a sketch."""
+    max_groups: int = 1000
+    time_field: str | None = None
+    time_format: str | None = None
+    """'iso', 'epoch_s', 'epoch_ms', 'epoch_us', 'clf', or None to detect."""
+    split_at: str | None = None
+    """A timestamp: values before it go to sketch 'before', the rest to 'after'."""
+    strict: bool = False
+    compression: float = DEFAULT_COMPRESSION
+    tail_size: int = DEFAULT_TAIL
+    chunk_bytes: int = 8 << 20
+
+
+@dataclass(frozen=True)
+class ScanProgress:
+    """A snapshot sent to the progress callback after each chunk (at most ~5 per second)."""
+
+    bytes_read: int
+    bytes_total: int | None
+    """None when unknown (stdin, compressed input whose size is not known)."""
+    rows: int
+    values: int
+    elapsed_s: float
+    source: str
+    sketches: SketchSet
+    """The sketches as they are now; read them only from the callback's thread."""
+
+
+@dataclass
+class ScanResult:
+    sketches: SketchSet
+    bytes_read: int = 0
+    elapsed_s: float = 0.0
+    warnings: list[str] = field(default_factory=list)
+    """Things the user must be told (group cap reached, time going backwards, ...)."""
+    partial: str | None = None
+    """Why the scan stopped early, or None when it read everything."""
