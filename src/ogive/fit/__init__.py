@@ -1,0 +1,1 @@
+"""Models and comparisons computed from sketches alone (numpy, scipy; no file reading)."""
