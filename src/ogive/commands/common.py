@@ -1,0 +1,257 @@
+"""What every sub-command that takes a distribution shares: source flags, loading, scanning.
+
+A distribution on the command line is either a saved sketch (``run.ogive`` or
+``run.ogive:GROUP``) or raw sources to scan (``app.log app.log.1.gz``). Which one is
+decided by the file's bytes, never its name, so a sketch renamed ``x.json`` still loads
+and an access log called ``a.ogive`` is still scanned.
+
+Only the standard library is imported at module level (``ogive --help`` stays fast);
+polars and the reader come in when a scan actually runs.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+from typing import TYPE_CHECKING
+
+from ..errors import OgiveError
+
+if TYPE_CHECKING:
+    from ..read.options import ScanOptions, ScanResult
+    from ..sketch import Sketch, SketchSet
+
+SNIFF_BYTES = 4096
+"""Enough to see the ``format`` key, which the codec writes first."""
+
+FORMAT_CHOICES = ("csv", "tsv", "ndjson", "text", "parquet")
+TIME_FORMAT_CHOICES = ("iso", "epoch_s", "epoch_ms", "epoch_us", "clf")
+
+
+def add_source_options(parser: argparse.ArgumentParser) -> None:
+    """The flags that say how to read raw sources; harmless when a sketch file is given."""
+    g = parser.add_argument_group("reading sources (ignored for saved sketches)")
+    g.add_argument(
+        "--format",
+        choices=FORMAT_CHOICES,
+        default=None,
+        help="how the records are laid out; by default it is worked out from the first bytes",
+    )
+    g.add_argument(
+        "--field",
+        metavar="PATH",
+        default=None,
+        help="NDJSON: dotted path to the number, e.g. timing.total_ms",
+    )
+    g.add_argument(
+        "--column",
+        metavar="NAME|N",
+        default=None,
+        help="CSV/TSV: the column holding the number, by header name or 1-based position",
+    )
+    g.add_argument(
+        "--pattern",
+        metavar="REGEX",
+        default=None,
+        help="free text: a regular expression whose single group (or group named 'value') is the number",
+    )
+    hdr = g.add_mutually_exclusive_group()
+    hdr.add_argument(
+        "--header",
+        dest="header",
+        action="store_true",
+        default=None,
+        help="CSV/TSV: the first line names the columns (normally guessed)",
+    )
+    hdr.add_argument(
+        "--no-header",
+        dest="header",
+        action="store_false",
+        help="CSV/TSV: the first line is already data",
+    )
+    g.add_argument(
+        "--unit",
+        default=None,
+        help="unit the sketch is kept in: ns, us, ms, s, m, h, or a label such as bytes "
+        "(no conversion); durations default to ms",
+    )
+    g.add_argument(
+        "--input-unit",
+        metavar="UNIT",
+        default=None,
+        help="unit of numbers written without a suffix (e.g. s when the log says 0.25 for 250 ms)",
+    )
+    g.add_argument(
+        "--by",
+        metavar="FIELD",
+        default=None,
+        help="keep a separate sketch for each distinct value of this column/field (host, route, ...)",
+    )
+    g.add_argument(
+        "--max-groups",
+        metavar="N",
+        type=_positive_int,
+        default=1000,
+        help="with --by: after N distinct values, further ones share the group FIELD=(other) (default 1000)",
+    )
+    g.add_argument(
+        "--time-field",
+        metavar="FIELD",
+        default=None,
+        help="column/field holding each record's timestamp (for --split-at and the time range)",
+    )
+    g.add_argument(
+        "--time-format",
+        choices=TIME_FORMAT_CHOICES,
+        default=None,
+        help="how timestamps are written; by default guessed from the values",
+    )
+    g.add_argument(
+        "--split-at",
+        metavar="TIME",
+        default=None,
+        help="a moment (e.g. a deploy, 2026-03-04T10:00:00Z): records before it go to sketch "
+        "'before', the rest to 'after'",
+    )
+    g.add_argument(
+        "--strict",
+        action="store_true",
+        help="stop at the first unusable record, naming file:line, instead of counting it",
+    )
+    g.add_argument(
+        "--compression",
+        metavar="DELTA",
+        type=float,
+        default=None,
+        help="t-digest compression: larger keeps more centroids, sharper quantiles, bigger files",
+    )
+    g.add_argument(
+        "--quiet",
+        action="store_true",
+        help="no progress line and no warnings on stderr",
+    )
+
+
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"expected at least 1, got {value}")
+    return value
+
+
+def options_from_args(args: argparse.Namespace) -> ScanOptions:
+    """ScanOptions from parsed flags; commands that lack some flags get the defaults."""
+    from ..read.options import ScanOptions
+
+    kwargs: dict[str, object] = {}
+    for name in (
+        "format",
+        "field",
+        "column",
+        "pattern",
+        "header",
+        "unit",
+        "input_unit",
+        "by",
+        "max_groups",
+        "time_field",
+        "time_format",
+        "split_at",
+        "strict",
+        "compression",
+    ):
+        value = getattr(args, name, None)
+        if value is not None:
+            kwargs[name] = value
+    return ScanOptions(**kwargs)  # type: ignore[arg-type]
+
+
+def is_sketch_file(path: str) -> bool:
+    """True when the file's first bytes are those of an ``.ogive`` sketch set."""
+    if path == "-" or not os.path.isfile(path):
+        return False
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(SNIFF_BYTES)
+    except OSError:
+        return False
+    return head.lstrip().startswith(b"{") and b'"ogive-sketch-set"' in head
+
+
+def _sketch_spec(spec: str) -> tuple[str, str | None] | None:
+    """(path, group) when ``spec`` names a sketch file, else None."""
+    from ..store import split_group
+
+    if is_sketch_file(spec):
+        return spec, None
+    path, group = split_group(spec)
+    if group is not None and is_sketch_file(path):
+        return path, group
+    return None
+
+
+def load_set(specs: list[str], args: argparse.Namespace) -> SketchSet:
+    """A saved sketch set (one file, optionally ``:GROUP``) or a fresh scan of the sources."""
+    from ..sketch import SketchSet
+    from ..store import load_sketches
+
+    if not specs:
+        raise OgiveError("no source given; name a file, '-' for standard input, or a saved .ogive sketch.")
+    if len(specs) == 1:
+        found = _sketch_spec(specs[0])
+        if found is not None:
+            path, group = found
+            sset = load_sketches(path)
+            if group is None:
+                return sset
+            if group not in sset.sketches:
+                raise OgiveError(f"{path} has no sketch named {group!r} (it has: {_few(sset.names())}).")
+            return SketchSet({group: sset[group]})
+    for spec in specs:
+        if _sketch_spec(spec) is not None:
+            raise OgiveError(
+                f"{spec} is a saved sketch; give it on its own, or merge sketches first with 'ogive merge'."
+            )
+    return scan_sources(specs, args).sketches
+
+
+def load_one(spec: str, args: argparse.Namespace) -> tuple[str, Sketch]:
+    """One distribution: a sketch file[:GROUP] or a source; several groups need a choice."""
+    sset = load_set([spec], args)
+    names = sset.names()
+    if len(names) == 1:
+        return names[0], sset[names[0]]
+    if not names:
+        raise OgiveError(f"{spec} gave no sketch at all.")
+    raise OgiveError(
+        f"{spec} holds {len(names)} sketches; choose one as {spec}:GROUP for a saved file, "
+        f"or drop --by/--split-at for a source (groups: {_few(names)})."
+    )
+
+
+def scan_sources(sources: list[str], args: argparse.Namespace) -> ScanResult:
+    """Scan with the progress line when stderr is a terminal; warnings go to stderr."""
+    from ..read import scan
+    from .progress import ProgressLine
+
+    options = options_from_args(args)
+    quiet = bool(getattr(args, "quiet", False))
+    line = ProgressLine(sys.stderr) if not quiet and sys.stderr.isatty() else None
+    try:
+        result = scan(sources, options, progress=line.update if line else None)
+    finally:
+        if line is not None:
+            line.clear()
+    if not quiet:
+        for warning in result.warnings:
+            print(f"ogive: warning: {warning}", file=sys.stderr)
+    return result
+
+
+def _few(names: list[str], limit: int = 8) -> str:
+    shown = ", ".join(names[:limit])
+    return shown + (f", … ({len(names) - limit} more)" if len(names) > limit else "")
