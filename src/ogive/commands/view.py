@@ -1,15 +1,43 @@
-"""`ogive view` (not built yet)."""
+"""`ogive view`: the keyboard-driven workspace on sources or saved sketches."""
 
 from __future__ import annotations
 
 import argparse
 
-from ..errors import OgiveError
+from .common import add_source_options
+
+DESCRIPTION = """\
+Open the workspace: every SOURCE (a log to scan in the background, or a saved .ogive
+sketch, optionally .ogive:GROUP) becomes a row in the Distributions list. The last one
+given is the subject and the first the reference, so `ogive view before.log after.log`
+reads "after against before"; change either with the keys 1 and 2.
+
+The screen calls the same functions as `ogive scan`, `fit` and `compare`, so numbers on
+screen and their --json output agree. A verdict of "higher"/"lower" means the two
+distribution-free intervals do not overlap at that quantile; "no clear change" means
+the data cannot tell, not that nothing changed.
+"""
+
+EPILOG = """\
+keys: o open · 1/2 subject/reference · g f c panes · v/V picture · l lin/log ·
+      w write .ogive · e export report · x stop scans · ? all keys · q quit
+"""
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    pass
+    parser.add_argument(
+        "sources", nargs="*", metavar="SOURCE_OR_SKETCH", help="logs to scan or .ogive sketches"
+    )
+    parser.add_argument(
+        "--subject", metavar="NAME", default=None, help="distribution to study (by its row name)"
+    )
+    parser.add_argument("--reference", metavar="NAME", default=None, help="distribution to hold it against")
+    add_source_options(parser)
 
 
 def run(args: argparse.Namespace) -> int:
-    raise OgiveError("'ogive view' is not built yet.")
+    from ..ui import OgiveApp
+    from .common import options_from_args
+
+    app = OgiveApp(args.sources, options_from_args(args), subject=args.subject, reference=args.reference)
+    return app.run() or 0

@@ -1,0 +1,43 @@
+"""The overlay that lists every key (read from the bindings, so it cannot drift)."""
+
+from __future__ import annotations
+
+from typing import ClassVar
+
+from rich.table import Table
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import VerticalScroll
+from textual.screen import ModalScreen
+from textual.widgets import Static
+
+
+class KeyHelp(ModalScreen[None]):
+    """Every key of the workspace, grouped by where it works.
+
+    | Key | Action |
+    | :- | :- |
+    | escape / ? | Close the overlay. |
+    | up / down | Scroll. |
+    """
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("escape", "dismiss", "Close"),
+        Binding("question_mark", "dismiss", "Close", show=False),
+    ]
+
+    def __init__(self, groups: list[tuple[str, list[tuple[str, str]]]]) -> None:
+        super().__init__()
+        self.groups = groups
+
+    def compose(self) -> ComposeResult:
+        table = Table(show_header=True, box=None, pad_edge=False, expand=True)
+        table.add_column("key", no_wrap=True)
+        table.add_column("does")
+        for title, rows in self.groups:
+            table.add_row(f"[bold]{title}[/]", "")
+            for key, text in rows:
+                table.add_row(key, text)
+        with VerticalScroll(id="help-box"):
+            yield Static("Keys — escape or ? closes", id="help-title")
+            yield Static(table, id="help-table")

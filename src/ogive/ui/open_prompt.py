@@ -1,0 +1,128 @@
+"""The prompt to open another log or sketch: path completion, how to read it, and a preview."""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+from typing import Any, ClassVar
+
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal, Vertical
+from textual.screen import ModalScreen
+from textual.suggester import SuggestFromList
+from textual.timer import Timer
+from textual.widgets import Input, Label, Static
+
+from ..errors import OgiveError
+from ..read.options import ScanOptions
+from . import preview
+from .path_input import PathInput
+
+FORMATS = ("auto", "csv", "tsv", "ndjson", "text", "parquet")
+
+
+@dataclass(frozen=True)
+class OpenRequest:
+    path: str
+    options: ScanOptions
+
+
+class OpenPrompt(ModalScreen[OpenRequest | None]):
+    """Open a file: type its path, say how to read it, check the preview, press enter.
+
+    | Key | Action |
+    | :- | :- |
+    | enter | Open with these settings. |
+    | tab | Complete the path; in other fields, next field. |
+    | shift+tab | Previous field. |
+    | escape | Cancel. |
+    """
+
+    BINDINGS: ClassVar[list[BindingType]] = [Binding("escape", "cancel", "Cancel")]
+
+    FIELDS: ClassVar[list[tuple[str, str, str]]] = [
+        ("format", "format", "auto, csv, tsv, ndjson, text, parquet"),
+        ("field", "field", "NDJSON: dotted path, e.g. timing.total_ms"),
+        ("column", "column", "CSV/TSV: name or 1-based number"),
+        ("pattern", "pattern", "text: regex with one group"),
+        ("unit", "unit", "ms, s, us, ns, or a label"),
+    ]
+
+    def __init__(self, start: str = "", base: ScanOptions | None = None) -> None:
+        super().__init__()
+        self.start = start
+        self.base = base or ScanOptions()
+        self._debounce: Timer | None = None
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="dialog", id="open-dialog"):
+            yield Static("Open a log or a .ogive sketch", classes="dialog-title")
+            with Horizontal(classes="field-row"):
+                yield Label("path", classes="field-label")
+                yield PathInput(self.start, id="open-path")
+            for key, label, hint in self.FIELDS:
+                with Horizontal(classes="field-row"):
+                    yield Label(label, classes="field-label")
+                    value = getattr(self.base, key, None) or ("auto" if key == "format" else "")
+                    suggester = SuggestFromList(FORMATS) if key == "format" else None
+                    yield Input(str(value), placeholder=hint, id=f"open-{key}", suggester=suggester)
+            yield Static("type a path to see a preview", id="open-preview")
+            yield Static("enter: open · tab: complete/next · escape: cancel", classes="dialog-hint")
+
+    def on_mount(self) -> None:
+        self.query_one("#open-path", PathInput).focus()
+        self.schedule_preview()
+
+    def options(self) -> ScanOptions:
+        values: dict[str, Any] = {}
+        for key, _, _ in self.FIELDS:
+            text = self.query_one(f"#open-{key}", Input).value.strip()
+            values[key] = None if not text or (key == "format" and text == "auto") else text
+        return dataclasses.replace(self.base, **values)
+
+    @property
+    def path(self) -> str:
+        return self.query_one("#open-path", PathInput).value.strip()
+
+    def on_input_changed(self, _event: Input.Changed) -> None:
+        self.schedule_preview()
+
+    def schedule_preview(self) -> None:
+        if self._debounce is not None:
+            self._debounce.stop()
+        self._debounce = self.set_timer(0.3, self.start_preview)
+
+    def start_preview(self) -> None:
+        path = self.path
+        if not path:
+            self.query_one("#open-preview", Static).update("type a path to see a preview")
+            return
+        self.query_one("#open-preview", Static).update(f"reading the start of {path} …")
+        self.run_preview(path, self.options())
+
+    @work(thread=True, exclusive=True, group="preview")
+    def run_preview(self, path: str, options: ScanOptions) -> None:
+        try:
+            text = preview.describe(path, options)
+        except OgiveError as exc:
+            text = f"cannot preview: {exc}"
+        self.app.call_from_thread(self._show_preview, path, text)
+
+    def _show_preview(self, path: str, text: str) -> None:
+        if path == self.path and self.is_mounted:
+            self.query_one("#open-preview", Static).update(text)
+
+    def on_input_submitted(self, _event: Input.Submitted) -> None:
+        if not self.path:
+            self.query_one("#open-preview", Static).update("a path is needed")
+            return
+        fmt = self.query_one("#open-format", Input).value.strip()
+        if fmt and fmt not in FORMATS:
+            self.query_one("#open-preview", Static).update(f"format must be one of {', '.join(FORMATS)}")
+            return
+        self.dismiss(OpenRequest(self.path, self.options()))
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)

@@ -1,0 +1,94 @@
+"""The picture: the subject against its reference as a text plot drawn by ``ogive.render``."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from rich.text import Text
+from textual.reactive import reactive
+from textual.widgets import Static
+
+from . import picture
+from .capabilities import Unavailable
+from .placeholder import notice
+from .state import Distribution, ReferenceChoice
+
+KINDS: tuple[str, ...] = ("qq", "detrended", "pp", "cdf", "shift")
+KIND_NAMES: dict[str, str] = {
+    "qq": "Q-Q",
+    "detrended": "detrended Q-Q",
+    "pp": "P-P",
+    "cdf": "CDF overlay",
+    "shift": "shift function",
+}
+
+
+class PlotPanel(Static):
+    """Redraws whenever its inputs change or it is resized; drawing is the renderer's job."""
+
+    kind: reactive[str] = reactive("qq")
+    """Which picture: one of :data:`KINDS`."""
+    log_axes: reactive[bool] = reactive(False)
+    """Log value axes (latency spans decades); P-P and shift ignore it where it means nothing."""
+
+    def __init__(self, **kwargs: Any) -> None:
+        super().__init__(**kwargs)
+        self.subject: Distribution | None = None
+        self.reference: ReferenceChoice | None = None
+        self.reference_dist: Distribution | None = None
+        self.comparison: Any = None
+        self.lines: list[str] = []
+        """What is on screen now (the export writes these)."""
+
+    @property
+    def title(self) -> str:
+        axes = "log" if self.log_axes else "linear"
+        return f"Picture: {KIND_NAMES[self.kind]} ({axes})"
+
+    def set_inputs(
+        self,
+        subject: Distribution | None,
+        reference: ReferenceChoice | None,
+        reference_dist: Distribution | None,
+        comparison: Any,
+    ) -> None:
+        self.subject, self.reference, self.reference_dist = subject, reference, reference_dist
+        self.comparison = comparison
+        self.redraw()
+
+    def watch_kind(self, _old: str, _new: str) -> None:
+        self.redraw()
+
+    def watch_log_axes(self, _old: bool, _new: bool) -> None:
+        self.redraw()
+
+    def on_resize(self) -> None:
+        self.redraw()
+
+    def redraw(self) -> None:
+        if not self.is_mounted:
+            return
+        self.border_title = self.title
+        width, height = self.content_size.width, self.content_size.height
+        if width < 10 or height < 4:
+            return
+        if self.subject is None:
+            self.lines = []
+            self.update(notice("No subject yet", "Highlight a distribution and press 1."))
+            return
+        try:
+            self.lines = picture.draw(
+                self.kind,
+                self.subject,
+                self.reference,
+                self.reference_dist,
+                self.comparison,
+                width=width,
+                height=height,
+                log_axes=self.log_axes,
+            )
+        except Unavailable as exc:
+            self.lines = []
+            self.update(notice(f"{KIND_NAMES[self.kind]} not available", str(exc)))
+            return
+        self.update(Text("\n".join(self.lines), no_wrap=True, overflow="crop"))

@@ -1,0 +1,77 @@
+"""What the workspace holds: the loaded distributions and the user's choices.
+
+Plain records, no statistics: every number the screen shows is asked of a
+:class:`~ogive.sketch.Sketch` or of the fit/compare functions the CLI also calls, so the
+screen and ``--json`` agree.
+"""
+
+from __future__ import annotations
+
+import threading
+from dataclasses import dataclass, field
+from typing import Any, Literal
+
+from ..read.options import ScanOptions
+from ..sketch import Sketch
+
+Role = Literal["subject", "reference"]
+
+
+@dataclass
+class Distribution:
+    """One row of the distributions list: a sketch and where it came from."""
+
+    name: str
+    sketch: Sketch
+    origin: str
+    """The file the sketch was read or scanned from."""
+    state: str = "ready"
+    """'scanning', 'ready', 'partial', 'failed'."""
+    note: str = ""
+    """Why a scan stopped early, or a warning the reader raised."""
+    job: ScanJob | None = None
+    """The scan filling this sketch, if it came from one."""
+
+
+@dataclass
+class ScanJob:
+    """A running scan of one source, so the user can stop it and the status line can show it."""
+
+    source: str
+    options: ScanOptions
+    cancel: threading.Event = field(default_factory=threading.Event)
+    bytes_read: int = 0
+    bytes_total: int | None = None
+    rows: int = 0
+    values: int = 0
+    elapsed_s: float = 0.0
+    done: bool = False
+    names: dict[str, str] = field(default_factory=dict)
+    """Distribution name given to each group of this scan, so every tick updates the same row."""
+
+    @property
+    def rows_per_s(self) -> float:
+        return self.rows / self.elapsed_s if self.elapsed_s > 0 else 0.0
+
+    @property
+    def eta_s(self) -> float | None:
+        """Seconds left at the average byte rate so far; None when the size is unknown."""
+        if not self.bytes_total or self.bytes_read <= 0 or self.elapsed_s <= 0:
+            return None
+        rate = self.bytes_read / self.elapsed_s
+        return max(self.bytes_total - self.bytes_read, 0) / rate
+
+
+@dataclass(frozen=True)
+class ReferenceChoice:
+    """What the subject is held against: another loaded sketch, or a fitted model of the subject."""
+
+    kind: Literal["sketch", "model"]
+    name: str
+    """The distribution's name, or the model's label."""
+    model: Any = None
+    """The fitted model object (has ``ppf``/``cdf``/``label``) when ``kind == 'model'``."""
+
+    @property
+    def label(self) -> str:
+        return self.name if self.kind == "sketch" else f"model {self.name}"

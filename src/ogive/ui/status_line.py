@@ -1,0 +1,41 @@
+"""The one-line status at the bottom: scan progress (bytes, rows/s, ETA) or the last event."""
+
+from __future__ import annotations
+
+from textual.reactive import reactive
+from textual.widgets import Static
+
+from . import fmt
+from .state import ScanJob
+
+
+class FeedStatus(Static):
+    """Shows the running scans, else the last thing that happened (saved, exported, failed)."""
+
+    message: reactive[str] = reactive("")
+    """The last event, shown when no scan is running."""
+
+    def show_jobs(self, jobs: list[ScanJob]) -> None:
+        running = [j for j in jobs if not j.done]
+        if not running:
+            self.update(self.message or "ready")
+            return
+        parts = [self.describe(j) for j in running[:2]]
+        if len(running) > 2:
+            parts.append(f"+{len(running) - 2} more")
+        self.update(" | ".join(parts))
+
+    @staticmethod
+    def describe(job: ScanJob) -> str:
+        name = job.source.rsplit("/", 1)[-1]
+        if job.bytes_total:
+            pct = 100.0 * job.bytes_read / job.bytes_total
+            done = f"{fmt.size(job.bytes_read)}/{fmt.size(job.bytes_total)} {pct:.0f}%"
+        else:
+            done = fmt.size(job.bytes_read)
+        eta = job.eta_s
+        tail = f" ETA {fmt.duration(eta)}" if eta is not None else ""
+        return f"scanning {name}: {done}, {fmt.count(job.rows_per_s)} rows/s{tail}"
+
+    def watch_message(self, value: str) -> None:
+        self.update(value or "ready")
