@@ -1,0 +1,230 @@
+"""The workspace driven headlessly at 80×24: load, pick roles, switch views, write, export.
+
+Numbers on screen are checked against numpy on the raw values (numpy.quantile, default
+linear method, Hyndman & Fan type 7) and against calling the comparison directly, which
+is what ``ogive compare --json`` prints.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from ogive.sketch import Sketch, SketchSet
+from ogive.store import load_sketches, save_sketches
+from ogive.ui import OgiveApp
+from ogive.ui.ask_path import AskPath
+from ogive.ui.fit_panel import ModelRanking
+from ogive.ui.help_overlay import KeyHelp
+from ogive.ui.open_prompt import OpenPrompt
+from ogive.ui.path_input import PathInput, complete_path
+from ogive.ui.plot_panel import PlotPanel
+from ogive.ui.screen_text import screen_text
+from ogive.ui.shelf import DistributionShelf
+
+os.environ.setdefault("NO_COLOR", "1")
+
+
+def _raw(seed: int, scale: float, n: int = 20_000) -> np.ndarray:
+    return np.random.default_rng(seed).lognormal(3.0, 0.5, n) * scale
+
+
+@pytest.fixture()
+def pair(tmp_path: Path) -> tuple[Path, Path, np.ndarray, np.ndarray]:
+    """Two saved sketches: 'after' is 'before' slowed by 30 % (a clear change)."""
+    a, b = _raw(1, 1.0), _raw(2, 1.3)
+    out = []
+    for name, values in (("before", a), ("after", b)):
+        s = Sketch("ms")
+        s.add(values)
+        path = tmp_path / f"{name}.ogive"
+        save_sketches(path, SketchSet({name: s}))
+        out.append(path)
+    return out[0], out[1], a, b
+
+
+async def _settle(app: OgiveApp, pilot: object) -> None:
+    await pilot.pause(0.2)  # type: ignore[attr-defined]
+    await app.workers.wait_for_complete()
+    await pilot.pause(0.2)  # type: ignore[attr-defined]
+
+
+async def test_roles_shelf_and_ladder(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
+    before, after, a, b = pair
+    app = OgiveApp([str(before), str(after)])
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _settle(app, pilot)
+        # last given is the subject, first the reference ("after against before")
+        assert app.subject == "after"
+        assert app.reference is not None and app.reference.name == "before"
+        text = screen_text(app)
+        assert "subject: after · reference: before" in text
+        # p50 on the shelf against numpy.quantile of the raw values; 4 significant
+        # digits are shown and the sketch's median error is far below that at n=20k.
+        p50 = float(np.quantile(b, 0.5))
+        shown = next(line for line in text.splitlines() if " after " in line and "ms" in line)
+        assert f"{p50:.2f}" in shown or f"{p50:.1f}" in shown
+        await pilot.press("c")
+        await pilot.pause(0.2)
+        text = screen_text(app)
+        assert "Quantile ladder" in text
+        p50_line = next(line for line in text.splitlines() if line.strip("│ ").startswith("p50"))
+        assert "higher" in p50_line
+        # the screen holds exactly what the shared comparison returns (what --json prints)
+        from ogive.fit.compare import compare_sketches
+
+        direct = compare_sketches(
+            app.dists["before"].sketch, app.dists["after"].sketch, labels=("before", "after")
+        )
+        assert app.comparison.to_dict() == direct.to_dict()
+
+
+async def test_swap_roles_and_refuse_same(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
+    before, after, _, _ = pair
+    app = OgiveApp([str(before), str(after)])
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _settle(app, pilot)
+        shelf = app.query_one(DistributionShelf)
+        assert shelf.has_focus
+        shelf.move_cursor(row=0)
+        await pilot.press("1")  # 'before' becomes the subject; 'after' takes the reference
+        await _settle(app, pilot)
+        assert app.subject == "before"
+        assert app.reference is not None and app.reference.name == "after"
+        await pilot.press("2")  # same row as reference: refused with a message
+        await pilot.pause(0.1)
+        assert app.reference.name == "after"
+        assert "must differ" in screen_text(app)
+        await pilot.press("c")
+        await _settle(app, pilot)
+        p50_line = next(ln for ln in screen_text(app).splitlines() if ln.strip("│ ").startswith("p50"))
+        assert "lower" in p50_line
+
+
+async def test_picture_modes_and_axes(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
+    before, after, _, _ = pair
+    app = OgiveApp([str(before), str(after)])
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _settle(app, pilot)
+        plot = app.query_one(PlotPanel)
+        seen = [plot.kind]
+        for _ in range(5):
+            await pilot.press("v")
+            seen.append(plot.kind)
+        assert seen == ["qq", "detrended", "pp", "cdf", "shift", "qq"]
+        await pilot.press("V")
+        assert plot.kind == "shift"
+        await pilot.press("l")
+        await pilot.pause(0.1)
+        assert plot.log_axes
+        assert "Picture: shift function (log)" in screen_text(app)
+
+
+async def test_write_and_export(pair: tuple[Path, Path, np.ndarray, np.ndarray], tmp_path: Path) -> None:
+    before, after, _, b = pair
+    app = OgiveApp([str(before), str(after)], save_dir=tmp_path)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _settle(app, pilot)
+        await pilot.press("w")
+        await pilot.pause(0.1)
+        assert isinstance(app.screen, AskPath)
+        target = tmp_path / "both.ogive"
+        app.screen.query_one(PathInput).value = str(target)
+        await pilot.press("enter")
+        await pilot.pause(0.1)
+        saved = load_sketches(target)
+        assert sorted(saved.names()) == ["after", "before"]
+        assert saved["after"].count == b.size
+        await pilot.press("e")
+        await pilot.pause(0.1)
+        app.screen.query_one(PathInput).value = str(tmp_path / "report")
+        await pilot.press("enter")
+        await pilot.pause(0.1)
+        md = (tmp_path / "report.md").read_text()
+        js = json.loads((tmp_path / "report.json").read_text())
+        assert "Subject: **after**" in md and "| p50 |" in md
+        assert js["subject"] == "after" and js["reference"] == {"kind": "sketch", "name": "before"}
+        assert js["comparison"]["ladder"][0]["verdict"] == "higher"
+        assert [d["summary"]["n"] for d in js["distributions"]] == [20_000, 20_000]
+        assert "exported" in screen_text(app)
+
+
+async def test_help_lists_every_key(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
+    before, after, _, _ = pair
+    app = OgiveApp([str(before), str(after)])
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _settle(app, pilot)
+        await pilot.press("question_mark")
+        await pilot.pause(0.2)
+        assert isinstance(app.screen, KeyHelp)
+        keys = [k for _, rows in app.screen.groups for k, _ in rows]
+        for binding in OgiveApp.BINDINGS:
+            key = binding.key if hasattr(binding, "key") else binding[0]  # type: ignore[index]
+            shown = {"question_mark": "?"}.get(key, key)
+            assert any(shown in k for k in keys), key
+        await pilot.press("escape")
+        await pilot.pause(0.1)
+        assert not isinstance(app.screen, KeyHelp)
+
+
+async def test_open_prompt_previews_and_opens(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
+    before, after, _, _ = pair
+    app = OgiveApp([str(before)])
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _settle(app, pilot)
+        # one distribution alone: nothing to compare against yet
+        assert app.reference is None or app.reference.kind == "model"
+        await pilot.press("o")
+        await pilot.pause(0.1)
+        assert isinstance(app.screen, OpenPrompt)
+        app.screen.query_one("#open-path", PathInput).value = str(after)
+        await pilot.pause(0.6)  # the preview waits 0.3 s for typing to stop
+        await app.screen.workers.wait_for_complete()
+        await pilot.pause(0.1)
+        assert "sketch file with 1 sketch" in screen_text(app)
+        await pilot.press("enter")
+        await _settle(app, pilot)
+        assert list(app.dists) == ["before", "after"]
+
+
+async def test_models_pane_says_why_when_empty(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
+    before, after, _, _ = pair
+    app = OgiveApp([str(before), str(after)])
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _settle(app, pilot)
+        await pilot.press("f")
+        await _settle(app, pilot)
+        models = app.query_one(ModelRanking)
+        assert models.has_focus
+        if app.fit_report is None:  # the fit package not installed: the pane must say so
+            assert "not available" in screen_text(app)
+        else:
+            assert models.row_count >= 1
+
+
+def test_complete_path(tmp_path: Path) -> None:
+    (tmp_path / "access-2026.log.gz").write_bytes(b"")
+    (tmp_path / "access-2027.log.gz").write_bytes(b"")
+    (tmp_path / "sketches").mkdir()
+    assert complete_path(str(tmp_path / "acc")) == str(tmp_path / "access-202")
+    assert complete_path(str(tmp_path / "sk")) == str(tmp_path / "sketches") + os.sep
+    assert complete_path(str(tmp_path / "zz")) is None
+
+
+async def test_fits_in_80x24_and_scales(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
+    before, after, _, _ = pair
+    for size in ((80, 24), (160, 48)):
+        app = OgiveApp([str(before), str(after)])
+        async with app.run_test(size=size) as pilot:
+            await _settle(app, pilot)
+            lines = screen_text(app).splitlines()
+            assert len(lines) == size[1]
+            assert max(len(line) for line in lines) <= size[0]
+            text = "\n".join(lines)
+            assert "Distributions" in text
+            if size == (160, 48):  # wide and tall: every pane at once
+                assert "Picture" in text and "Models" in text and "Quantile ladder" in text
