@@ -291,7 +291,9 @@ def _check_pair(a: Sketch, b: Sketch, labels: tuple[str, str]) -> None:
         )
 
 
-def _summary(labels: tuple[str, str], rows: tuple[LadderRow, ...], ks: KSResult, tail: tuple[TailBudget, ...]) -> str:
+def _summary(
+    labels: tuple[str, str], rows: tuple[LadderRow, ...], ks: KSResult, tail: tuple[TailBudget, ...]
+) -> str:
     a, b = labels
     up = [r.label for r in rows if r.verdict == "higher"]
     down = [r.label for r in rows if r.verdict == "lower"]

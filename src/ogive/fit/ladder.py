@@ -141,15 +141,15 @@ def local_rank_error(sketch: Sketch, position: FloatArray) -> FloatArray:
     return np.where(_exact_position(sketch, pos), 0.0, err)
 
 
-def quantile_intervals(sketch: Sketch, qs: FloatArray | tuple[float, ...], confidence: float) -> list[QuantileInterval]:
+def quantile_intervals(
+    sketch: Sketch, qs: FloatArray | tuple[float, ...], confidence: float
+) -> list[QuantileInterval]:
     """Point estimate and interval for each q, from the sketch alone (vectorised)."""
     qa = np.asarray(qs, dtype=np.float64)
     n = sketch.count
     if n == 0:
         nan = float("nan")
-        return [
-            QuantileInterval(float(q), nan, -np.inf, np.inf, confidence, 0, None, None, 0.0) for q in qa
-        ]
+        return [QuantileInterval(float(q), nan, -np.inf, np.inf, confidence, 0, None, None, 0.0) for q in qa]
     est = sketch.quantile(qa)
     lo_i, hi_i = order_statistic_ranks(n, qa, confidence)
     lo_pos, hi_pos = lo_i.astype(np.float64), hi_i.astype(np.float64)

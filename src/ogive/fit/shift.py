@@ -4,8 +4,9 @@ Method: K. A. Doksum, "Empirical probability plots and statistical inference for
 nonlinear models in the two-sample case", *Annals of Statistics* 2 (1974) 267–277,
 defines the shift function Δ(x) = Q_B(F_A(x)) − x: the amount each part of A must move
 to become B. R. R. Wilcox (*Introduction to Robust Estimation and Hypothesis Testing*,
-chapter 5, the shift function and comparing deciles; chapter cited from memory) evaluates it at the nine deciles with simultaneous
-intervals. Wilcox uses the Harrell–Davis estimator and bootstrap standard errors; a
+chapter 5, the shift function and comparing deciles; chapter cited from memory)
+evaluates it at the nine deciles with simultaneous intervals. Wilcox uses the
+Harrell–Davis estimator and bootstrap standard errors; a
 sketch has no resamples, so here each quantile gets the order-statistic interval of
 :mod:`ogive.fit.ladder` and the interval for Δ is [low_B − high_A, high_B − low_A].
 
