@@ -8,8 +8,9 @@ either.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
-from ..sketch import DEFAULT_COMPRESSION, DEFAULT_TAIL, SketchSet
+from ..sketch import DEFAULT_COMPRESSION, DEFAULT_TAIL, SketchSet, SkipTally
 
 
 @dataclass(frozen=True)
@@ -40,6 +41,8 @@ class ScanOptions:
     compression: float = DEFAULT_COMPRESSION
     tail_size: int = DEFAULT_TAIL
     chunk_bytes: int = 8 << 20
+    max_line_bytes: int = 64 << 20
+    """A line longer than this (no newline within it) is skipped as ``too_long``."""
 
 
 @dataclass(frozen=True)
@@ -66,3 +69,23 @@ class ScanResult:
     """Things the user must be told (group cap reached, time going backwards, ...)."""
     partial: str | None = None
     """Why the scan stopped early, or None when it read everything."""
+    lines_read: int = 0
+    rows_read: int = 0
+    skipped: dict[str, SkipTally] = field(default_factory=dict)
+    """Every skipped row of the scan by reason, including rows no sketch could own
+    (a bad timestamp under ``split_at``, a line too long to parse)."""
+    format: str = ""
+    """The record format that was used (detected or given)."""
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "sketches": {name: s.summary() for name, s in self.sketches.sketches.items()},
+            "bytes_read": self.bytes_read,
+            "elapsed_s": self.elapsed_s,
+            "lines_read": self.lines_read,
+            "rows_read": self.rows_read,
+            "skipped": {r: {"count": t.count, "examples": list(t.examples)} for r, t in self.skipped.items()},
+            "warnings": list(self.warnings),
+            "partial": self.partial,
+            "format": self.format,
+        }

@@ -1,0 +1,271 @@
+"""Deciding how a source is laid out, and parsing whole-line chunks of it with polars.
+
+A ``Layout`` is worked out once, from the first chunk of the first source, and then
+applied to every chunk of every source (rotated logs are one stream). Each parse
+returns one row per line of the chunk, in order, with the columns ``v`` (value text),
+and when asked ``g`` (group key) and ``t`` (timestamp text), so that row ``i`` is line
+``first_line + i`` and bad rows can be reported by line number.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+import polars as pl
+
+from ..errors import OgiveError
+from .options import ScanOptions
+
+SNIFF_LINES = 50
+_LINE_SEP = "\x1f"
+"""Unit separator: a byte that does not occur in text logs, so polars' CSV reader can hand
+us whole lines (much faster than splitting in Python). Chunks that do contain it are
+split in Python instead."""
+
+
+@dataclass(frozen=True)
+class Layout:
+    format: str
+    separator: str = ","
+    header: bool = False
+    header_line: bytes = b""
+    columns: tuple[int, ...] = ()
+    """CSV/TSV: 0-based indices of the value, group and time columns (v, g, t order)."""
+    names: tuple[str, ...] = ()
+    """The output names matching ``columns`` (a subset of v, g, t)."""
+    field_paths: tuple[tuple[str, str], ...] = ()
+    """NDJSON: (output name, JSONPath) pairs."""
+    pattern: str = ""
+    groups: tuple[tuple[str, int], ...] = ()
+    """Text: (output name, capture group index) pairs."""
+    description: str = ""
+    """How the value is found, for provenance: ``column latency_ms``."""
+
+    def parse(self, data: bytes) -> pl.DataFrame:
+        if self.format in ("csv", "tsv"):
+            return self._parse_csv(data)
+        lines = split_lines(data)
+        if self.format == "ndjson":
+            return pl.DataFrame(
+                [lines.str.json_path_match(path).alias(name) for name, path in self.field_paths]
+            )
+        return pl.DataFrame([lines.str.extract(self.pattern, idx).alias(name) for name, idx in self.groups])
+
+    def _parse_csv(self, data: bytes) -> pl.DataFrame:
+        try:
+            df = pl.read_csv(
+                data,
+                has_header=False,
+                separator=self.separator,
+                columns=list(self.columns),
+                infer_schema=False,
+                truncate_ragged_lines=True,
+                raise_if_empty=False,
+            )
+        except pl.exceptions.PolarsError as exc:
+            raise OgiveError(
+                f"cannot parse the {self.format.upper()} records: {str(exc).splitlines()[0]}"
+            ) from None
+        if df.width < len(self.columns):
+            # A chunk whose lines are all shorter than the widest column we need.
+            df = df.with_columns(
+                [pl.lit(None, dtype=pl.String).alias(f"_pad{i}") for i in range(len(self.columns) - df.width)]
+            )
+        return df.rename(dict(zip(df.columns, self.names, strict=True)))
+
+
+def split_lines(data: bytes) -> pl.Series:
+    """One String per line (CR of CRLF removed); a blank line gives null."""
+    if not data:
+        return pl.Series("line", [], dtype=pl.String)
+    if _LINE_SEP.encode() not in data:
+        df = pl.read_csv(
+            data,
+            has_header=False,
+            separator=_LINE_SEP,
+            quote_char=None,
+            infer_schema=False,
+            raise_if_empty=False,
+        )
+        if df.width == 1:
+            return df.to_series().alias("line")
+    text = data.decode("utf-8", errors="replace")
+    parts = text.split("\n")
+    if parts and parts[-1] == "":
+        parts.pop()
+    return pl.Series("line", [p.removesuffix("\r") or None for p in parts], dtype=pl.String)
+
+
+def _sample_lines(data: bytes) -> list[str]:
+    text = data[: 1 << 16].decode("utf-8", errors="replace")
+    lines = [ln.rstrip("\r") for ln in text.split("\n")[:SNIFF_LINES]]
+    return [ln for ln in lines if ln.strip()]
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text.strip().strip('"'))
+    except ValueError:
+        return False
+    return True
+
+
+def detect_format(data: bytes, options: ScanOptions) -> str:
+    if options.format:
+        return options.format
+    lines = _sample_lines(data)
+    if options.pattern:
+        return "text"
+    if lines and all(ln.lstrip().startswith("{") for ln in lines[:10]):
+        return "ndjson"
+    for fmt, sep in (("tsv", "\t"), ("csv", ","), ("csv", ";"), ("csv", "|")):
+        counts = {ln.count(sep) for ln in lines}
+        if lines and len(counts) == 1 and counts.pop() > 0:
+            return fmt if sep in "\t," else f"csv{sep}"
+    if options.column is not None and lines:
+        return "csv"  # a single-column file
+    raise OgiveError(
+        "the records look like free text; give --pattern with a regex whose group captures the number "
+        "(or --format to say what they are)."
+    )
+
+
+def plan(data: bytes, options: ScanOptions) -> Layout:
+    """The layout for this scan, from the first chunk's bytes and the options."""
+    fmt = detect_format(data, options)
+    if fmt.startswith("csv") or fmt == "tsv":
+        sep = "\t" if fmt == "tsv" else (fmt[3:] or ",")
+        return _plan_csv(data, options, "tsv" if fmt == "tsv" else "csv", sep)
+    if fmt == "ndjson":
+        return _plan_ndjson(options)
+    if fmt == "text":
+        return _plan_text(options)
+    raise OgiveError(f"unknown format {fmt!r}; use csv, tsv, ndjson, text or parquet.")
+
+
+def _plan_csv(data: bytes, options: ScanOptions, fmt: str, sep: str) -> Layout:
+    sample = data[: 1 << 16]
+    cut = sample.rfind(b"\n")
+    sample = sample[: cut + 1] if cut >= 0 else sample
+    rows = pl.read_csv(
+        sample,
+        has_header=False,
+        separator=sep,
+        infer_schema=False,
+        truncate_ragged_lines=True,
+        raise_if_empty=False,
+    )
+    first = [str(x) if x is not None else "" for x in rows.row(0)] if rows.height else []
+    header = options.header
+    if header is None:
+        wanted = [c for c in (options.column, options.by, options.time_field) if c is not None]
+        if any(not c.isdigit() for c in wanted):
+            header = True
+        else:
+            later = rows.slice(1, SNIFF_LINES)
+            numeric_later = any(_is_number(str(v)) for r in later.iter_rows() for v in r if v is not None)
+            header = bool(first) and not any(_is_number(f) for f in first if f) and numeric_later
+    names = first if header else []
+    header_line = data.split(b"\n", 1)[0] if header else b""
+
+    def resolve(spec: str, what: str) -> int:
+        if spec.isdigit():
+            idx = int(spec) - 1
+            if idx < 0:
+                raise OgiveError(f"{what} positions start at 1, got {spec}.")
+            return idx
+        if not header:
+            raise OgiveError(
+                f"{what} {spec!r} is a name, but the file has no header line; give a 1-based position."
+            )
+        if spec not in names:
+            raise OgiveError(f"no column named {spec!r} (the header has: {', '.join(names)}).")
+        return names.index(spec)
+
+    if options.column is None:
+        if rows.width == 1:
+            vcol = 0
+        else:
+            shown = ", ".join(names) if names else f"{rows.width} unnamed columns"
+            raise OgiveError(
+                f"several columns ({shown}); choose the value with --column NAME or a 1-based position."
+            )
+    else:
+        vcol = resolve(options.column, "--column")
+    cols: list[int] = [vcol]
+    outs: list[str] = ["v"]
+    for spec, out, what in ((options.by, "g", "--by"), (options.time_field, "t", "--time-field")):
+        if spec is not None:
+            idx = resolve(spec, what)
+            if idx in cols:
+                raise OgiveError(f"{what} names the same column as the value; choose another.")
+            cols.append(idx)
+            outs.append(out)
+    order = sorted(range(len(cols)), key=lambda i: cols[i])
+    label = options.column if options.column is not None else (names[0] if names else "1")
+    return Layout(
+        format=fmt,
+        separator=sep,
+        header=header,
+        header_line=header_line,
+        columns=tuple(cols[i] for i in order),
+        names=tuple(outs[i] for i in order),
+        description=f"column {label}",
+    )
+
+
+def _json_path(dotted: str) -> str:
+    parts = dotted.split(".")
+    if not all(parts):
+        raise OgiveError(f"the field path {dotted!r} has an empty part; write it like timing.total_ms.")
+    return "$." + ".".join(parts)
+
+
+def _plan_ndjson(options: ScanOptions) -> Layout:
+    if not options.field and not options.column:
+        raise OgiveError(
+            "the records are NDJSON; name the value with --field (a dotted path such as timing.total_ms)."
+        )
+    field = options.field or options.column or ""
+    paths = [("v", _json_path(field))]
+    if options.by:
+        paths.append(("g", _json_path(options.by)))
+    if options.time_field:
+        paths.append(("t", _json_path(options.time_field)))
+    return Layout(format="ndjson", field_paths=tuple(paths), description=f"field {field}")
+
+
+def _plan_text(options: ScanOptions) -> Layout:
+    pattern = options.pattern
+    if not pattern:
+        raise OgiveError("free-text records need --pattern, a regex whose group captures the number.")
+    try:
+        compiled = re.compile(pattern)
+    except re.error as exc:
+        raise OgiveError(f"the --pattern regex does not compile: {exc}.") from None
+    try:
+        pl.Series([""], dtype=pl.String).str.extract(pattern, 0)
+    except pl.exceptions.PolarsError as exc:
+        raise OgiveError(
+            f"the --pattern regex is not accepted by the parser: {str(exc).splitlines()[0]}."
+        ) from None
+    named = compiled.groupindex
+    if "value" in named:
+        vidx = named["value"]
+    elif compiled.groups == 1:
+        vidx = 1
+    else:
+        raise OgiveError(
+            f"the --pattern regex has {compiled.groups} groups; use exactly one, "
+            "or name the number (?P<value>...)."
+        )
+    groups = [("v", vidx)]
+    for spec, out, what in ((options.by, "g", "--by"), (options.time_field, "t", "--time-field")):
+        if spec is not None:
+            if spec not in named:
+                raise OgiveError(
+                    f"with free text, {what} {spec!r} must be a named group (?P<{spec}>...) of --pattern."
+                )
+            groups.append((out, named[spec]))
+    return Layout(format="text", pattern=pattern, groups=tuple(groups), description=f"pattern {pattern}")

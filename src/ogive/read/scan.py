@@ -1,0 +1,496 @@
+"""``scan``: sources in, named sketches out, one pass, bounded memory.
+
+The loop is: read a whole-line chunk (a background thread reads and decompresses the
+next one meanwhile; zlib, zstd and polars release the GIL), parse it with polars into
+value/group/time columns, turn values into float64 in the sketch unit, route rows to
+their sketch (``all``, ``FIELD=VALUE``, ``before``/``after``) and add them as one numpy
+batch per sketch. Nothing per row runs in Python except for bad-row examples.
+"""
+
+from __future__ import annotations
+
+import queue
+import threading
+import time
+from collections.abc import Callable, Iterator, Sequence
+
+import numpy as np
+import polars as pl
+from numpy.typing import NDArray
+
+from ..errors import OgiveError
+from ..sketch import Sketch, SketchSet, SkipTally
+from ..sketch.sketch import EXAMPLES_KEPT
+from . import records, sources, times, values
+from .options import ScanOptions, ScanProgress, ScanResult
+
+PROGRESS_INTERVAL_S = 0.2
+OTHER = "(other)"
+MISSING = "(missing)"
+BAD_TIMESTAMP = "bad_timestamp"
+TOO_LONG = "too_long"
+BAD_RECORD = "bad_record"
+
+REASON_TEXT = {
+    values.MISSING_FIELD: "the value is missing",
+    values.NOT_A_NUMBER: "the value is not a number",
+    values.UNKNOWN_UNIT: "the value has a unit suffix ogive does not know",
+    values.UNIT_MISMATCH: "the value is a duration but the sketch unit is not a time unit",
+    BAD_TIMESTAMP: "the timestamp is missing or unreadable",
+    TOO_LONG: "the line is longer than the longest line ogive will hold",
+    "no_match": "the --pattern regex does not match the line",
+}
+
+
+def scan(
+    sources_: Sequence[str],
+    options: ScanOptions,
+    *,
+    progress: Callable[[ScanProgress], None] | None = None,
+    cancel: Callable[[], bool] | None = None,
+) -> ScanResult:
+    """Read every source once, as one stream, into the sketches the options ask for.
+
+    Raises OgiveError for unusable input (unreadable file, corrupt compression, a
+    ``strict`` scan meeting a bad row); everything else that is wrong with single rows
+    is counted by reason in the sketches' provenance and in the result.
+    """
+    if not sources_:
+        raise OgiveError("no source given; name a file, or '-' for standard input.")
+    if options.chunk_bytes < 1 or options.max_groups < 1:
+        raise OgiveError("chunk_bytes and max_groups must be at least 1.")
+    if options.split_at is not None and not options.time_field:
+        raise OgiveError("--split-at needs --time-field, the column or field holding each record's time.")
+    state = _State(list(sources_), options)
+    start = time.monotonic()
+    last_report = 0.0
+    sizes: list[int | None] = []
+    done_bytes = 0
+    for name in sources_:
+        src = sources.Opened(name)
+        sizes.append(src.size)
+        try:
+            if src.is_parquet or options.format == "parquet":
+                state.scan_parquet(src)
+                done_bytes += src.size or 0
+                continue
+            header_checked = False
+            for chunk in _prefetch(sources.chunks(src, options.chunk_bytes, options.max_line_bytes)):
+                data, first_line = chunk.data, chunk.first_line
+                if chunk.too_long:
+                    state.unassigned(TOO_LONG, src.display, chunk.too_long)
+                    state.lines += len(chunk.too_long)
+                if state.layout is None and data:
+                    state.start(records.plan(data, options))
+                layout = state.layout
+                if layout is not None and layout.header and not header_checked and data:
+                    head, _, rest = data.partition(b"\n")
+                    if head.rstrip(b"\r") == layout.header_line.rstrip(b"\r"):
+                        data, first_line = rest, first_line + 1
+                        state.lines += 1
+                if data:
+                    header_checked = True
+                if layout is not None and data:
+                    state.feed(layout.parse(data), src.display, first_line)
+                now = time.monotonic()
+                if progress is not None and now - last_report >= PROGRESS_INTERVAL_S:
+                    last_report = now
+                    total = sum(s for s in sizes if s) if all(sizes) and len(sizes) == len(sources_) else None
+                    pos = src.raw_pos if src.size else state.bytes_seen
+                    progress(
+                        ScanProgress(
+                            done_bytes + pos,
+                            total,
+                            state.rows,
+                            state.values,
+                            now - start,
+                            src.display,
+                            state.sset(),
+                        )
+                    )
+                state.bytes_seen += len(chunk.data)
+                if cancel is not None and cancel():
+                    state.partial = f"stopped on request in {src.display} at line {first_line + chunk.lines}"
+                    break
+            done_bytes += src.size if src.size else 0
+        finally:
+            src.close()
+        if state.partial:
+            break
+    return state.finish(time.monotonic() - start)
+
+
+def _prefetch(it: Iterator[sources.Chunk], depth: int = 2) -> Iterator[sources.Chunk]:
+    """Run ``it`` in a thread, ``depth`` chunks ahead, re-raising its errors here."""
+    q: queue.Queue[tuple[str, object]] = queue.Queue(maxsize=depth)
+    stop = threading.Event()
+
+    def work() -> None:
+        try:
+            for item in it:
+                while not stop.is_set():
+                    try:
+                        q.put(("item", item), timeout=0.1)
+                        break
+                    except queue.Full:
+                        continue
+                if stop.is_set():
+                    return
+            q.put(("end", None))
+        except BaseException as exc:  # handed to the consumer, raised there
+            q.put(("error", exc))
+
+    thread = threading.Thread(target=work, name="ogive-reader", daemon=True)
+    thread.start()
+    try:
+        while True:
+            kind, payload = q.get()
+            if kind == "item":
+                yield payload  # type: ignore[misc]
+            elif kind == "error":
+                raise payload  # type: ignore[misc]
+            else:
+                return
+    finally:
+        stop.set()
+        while thread.is_alive():
+            try:
+                q.get_nowait()
+            except queue.Empty:
+                thread.join(0.05)
+
+
+class _State:
+    """Sketches under construction and the scan's running counts."""
+
+    def __init__(self, names: list[str], options: ScanOptions) -> None:
+        self.options = options
+        self.source_names = ["<stdin>" if n == "-" else n for n in names]
+        self.layout: records.Layout | None = None
+        self.sketches: dict[str, Sketch] = {}
+        self.skipped: dict[str, SkipTally] = {}
+        self.warnings: list[str] = []
+        self.lines = 0
+        self.rows = 0
+        self.values = 0
+        self.bytes_seen = 0
+        self.partial: str | None = None
+        self.unit: str | None = None
+        self.time_format = options.time_format
+        self.split_us = None if options.split_at is None else times.parse_moment(options.split_at)
+        self.groups: dict[str, str] = {}
+        self.overflow: set[str] = set()
+        self.suffixed = 0
+        self.unsuffixed = 0
+        self.times: dict[str, list[float]] = {}
+        self.bad_time_kept = 0
+        self.description = ""
+
+    # ----------------------------------------------------------------- setup
+    def start(self, layout: records.Layout) -> None:
+        self.layout = layout
+        self.description = layout.description
+
+    def _decide_unit(self, col: pl.Series) -> str:
+        o = self.options
+        if o.unit is not None:
+            return values.canonical_unit(o.unit)
+        if o.input_unit is not None and values.is_time_unit(o.input_unit):
+            return "ms"
+        if values.has_suffix(col.head(2000)):
+            return "ms"
+        return o.input_unit or ""
+
+    def sketch(self, name: str) -> Sketch:
+        s = self.sketches.get(name)
+        if s is None:
+            o = self.options
+            s = Sketch(self.unit or "", compression=o.compression, tail_size=o.tail_size)
+            s.provenance.sources = list(self.source_names)
+            s.provenance.field = self.description
+            self.sketches[name] = s
+        return s
+
+    def sset(self) -> SketchSet:
+        return SketchSet(dict(self.sketches))
+
+    # ----------------------------------------------------------------- skips
+    def _tally(self, reason: str, count: int, examples: list[str]) -> None:
+        if count:
+            self.skipped.setdefault(reason, SkipTally()).add(count, examples)
+
+    def unassigned(self, reason: str, display: str, line_numbers: list[int]) -> None:
+        """Rows no sketch can own: counted in the result (and in 'all' when that is the only sketch)."""
+        examples = [f"{display}:{n}" for n in line_numbers[:EXAMPLES_KEPT]]
+        if self.options.strict and line_numbers:
+            self._strict(reason, examples[0])
+        self._tally(reason, len(line_numbers), examples)
+        if not self.options.by and self.options.split_at is None and self.unit is not None:
+            self.sketch("all").provenance.skip(reason, len(line_numbers), examples)
+
+    def _strict(self, reason: str, where: str) -> None:
+        raise OgiveError(
+            f"{where}: {REASON_TEXT.get(reason, reason)} ({reason}); stopped because of --strict."
+        )
+
+    # ----------------------------------------------------------------- rows
+    def feed(self, df: pl.DataFrame, display: str, first_line: int) -> None:
+        n = df.height
+        if n == 0:
+            return
+        o = self.options
+        self.lines += n
+        self.rows += n
+        vcol = df.get_column("v")
+        if self.unit is None:
+            self.unit = self._decide_unit(vcol)
+        pv = values.parse_values(vcol, input_unit=o.input_unit, target_unit=self.unit)
+        self.suffixed += pv.suffixed
+        self.unsuffixed += pv.unsuffixed
+        reasons = dict(pv.reasons)
+        if self.layout is not None and self.layout.format == "text" and values.MISSING_FIELD in reasons:
+            reasons["no_match"] = reasons.pop(values.MISSING_FIELD)
+        ok = pv.ok
+        tus: NDArray[np.float64] | None = None
+        if "t" in df.columns:
+            tcol = df.get_column("t")
+            if self.time_format is None:
+                self.time_format = times.detect_format(tcol)
+            tus = (
+                times.parse_times(tcol, self.time_format)
+                if self.time_format is not None
+                else np.full(n, np.nan)
+            )
+            bad_t = ~np.isfinite(tus)
+            if self.split_us is not None:
+                bt = bad_t & ok
+                if bt.any():
+                    reasons[BAD_TIMESTAMP] = bt
+                    ok = ok & ~bad_t
+            else:
+                self.bad_time_kept += int((bad_t & ok).sum())
+        if o.strict and reasons:
+            first = min((int(np.argmax(m)), r) for r, m in reasons.items())
+            self._strict(first[1], f"{display}:{first_line + first[0]}")
+
+        names = self._route(df, tus)
+        if isinstance(names, str):
+            self._add(names, pv.values, ok, reasons, tus, display, first_line, None)
+        else:
+            for name, idx in names:
+                self._add(name, pv.values, ok, reasons, tus, display, first_line, idx)
+
+    def _route(
+        self, df: pl.DataFrame, tus: NDArray[np.float64] | None
+    ) -> str | list[tuple[str, NDArray[np.int64]]]:
+        o = self.options
+        halves: NDArray[np.bool_] | None = None
+        if self.split_us is not None and tus is not None:
+            halves = tus >= self.split_us  # NaN compares False; such rows are already skipped
+        if not o.by and halves is None:
+            return "all"
+        n = df.height
+        if o.by:
+            g = df.get_column("g").cast(pl.String)
+            distinct = g.unique().to_list()
+            mapping: dict[str | None, str] = {}
+            for value in distinct:
+                key = MISSING if value is None else value
+                if key not in self.groups:
+                    if len(self.groups) < o.max_groups:
+                        self.groups[key] = f"{o.by}={key}"
+                    else:
+                        if len(self.overflow) < 100_000:
+                            self.overflow.add(key)
+                        mapping[value] = f"{o.by}={OTHER}"
+                        continue
+                mapping[value] = self.groups[key]
+            labels = list(dict.fromkeys(mapping.values()))
+            code_of = {lab: i for i, lab in enumerate(labels)}
+            codes = (
+                g.fill_null(MISSING)
+                .replace_strict(
+                    {(MISSING if k is None else k): code_of[v] for k, v in mapping.items()},
+                    return_dtype=pl.Int64,
+                )
+                .to_numpy()
+            )
+        else:
+            labels = [""]
+            codes = np.zeros(n, dtype=np.int64)
+        if halves is not None:
+            codes = codes * 2 + halves.astype(np.int64)
+            names = []
+            for lab in labels:
+                for half in ("before", "after"):
+                    names.append(f"{half}/{lab}" if lab else half)
+        else:
+            names = labels
+        order = np.argsort(codes, kind="stable")
+        sorted_codes = codes[order]
+        bounds = np.flatnonzero(np.diff(sorted_codes)) + 1
+        out = []
+        for part in np.split(order, bounds):
+            if part.size:
+                out.append((names[int(codes[part[0]])], part))
+        return out
+
+    def _add(
+        self,
+        name: str,
+        vals: NDArray[np.float64],
+        ok: NDArray[np.bool_],
+        reasons: dict[str, NDArray[np.bool_]],
+        tus: NDArray[np.float64] | None,
+        display: str,
+        first_line: int,
+        idx: NDArray[np.int64] | None,
+    ) -> None:
+        s = self.sketch(name)
+        prov = s.provenance
+        if idx is None:
+            sel_ok = ok
+            good = vals if ok.all() else vals[ok]
+            rows = vals.size
+        else:
+            sel_ok = ok[idx]
+            good = vals[idx][sel_ok]
+            rows = idx.size
+        prov.rows_read += rows
+        s.add(good)
+        self.values += good.size
+        for reason, mask in reasons.items():
+            m = mask if idx is None else mask[idx]
+            count = int(m.sum())
+            if not count:
+                continue
+            where = np.flatnonzero(m)[:EXAMPLES_KEPT]
+            lines = where if idx is None else idx[where]
+            examples = [f"{display}:{first_line + int(i)}" for i in lines]
+            self._tally(reason, count, examples)
+            if reason != BAD_TIMESTAMP:  # a row without a time belongs to neither half
+                prov.skip(reason, count, examples)
+        if tus is not None:
+            t = tus if idx is None else tus[idx]
+            t = t[np.isfinite(t) & sel_ok] if sel_ok.size else t[:0]
+            if t.size:
+                lo, hi = float(t.min()), float(t.max())
+                span = self.times.setdefault(name, [lo, hi])
+                span[0], span[1] = min(span[0], lo), max(span[1], hi)
+
+    # ----------------------------------------------------------------- parquet
+    def scan_parquet(self, src: sources.Opened) -> None:
+        o = self.options
+        if src.name == "-" or src.compression is not None:
+            raise OgiveError(
+                f"{src.display}: Parquet must be a plain file on disk (not stdin or compressed)."
+            )
+        want = o.column or o.field
+        if not want:
+            raise OgiveError(f"{src.display} is Parquet; name the value column with --column (or --field).")
+        try:
+            lf = pl.scan_parquet(src.name)
+            schema = lf.collect_schema()
+        except pl.exceptions.PolarsError as exc:
+            raise OgiveError(f"{src.display}: cannot read Parquet: {str(exc).splitlines()[0]}") from None
+        names = list(schema.names())
+
+        def column(spec: str, out: str) -> pl.Expr:
+            if spec.isdigit() and spec not in names:
+                i = int(spec) - 1
+                if not 0 <= i < len(names):
+                    raise OgiveError(
+                        f"{src.display} has {len(names)} columns; position {spec} is out of range."
+                    )
+                return pl.col(names[i]).alias(out)
+            head, *rest = spec.split(".")
+            if head not in names:
+                raise OgiveError(f"{src.display} has no column {head!r} (it has: {', '.join(names[:20])}).")
+            expr = pl.col(head)
+            for part in rest:
+                expr = expr.struct.field(part)
+            return expr.alias(out)
+
+        exprs = [column(want, "v")]
+        if o.by:
+            exprs.append(column(o.by, "g").cast(pl.String))
+        if o.time_field:
+            tcol = column(o.time_field, "t")
+            exprs.append(tcol)
+        if self.layout is None:
+            self.start(records.Layout(format="parquet", description=f"column {want}"))
+        line = 1
+        try:
+            for batch in lf.select(exprs).collect_batches(chunk_size=1 << 20):
+                if "t" in batch.columns and batch.schema["t"] != pl.String:
+                    t = batch.get_column("t")
+                    if t.dtype.is_temporal():
+                        batch = batch.with_columns(
+                            pl.col("t").dt.replace_time_zone(None).dt.epoch("us").cast(pl.String)
+                        )
+                        self.time_format = self.time_format or "epoch_us"
+                    else:
+                        batch = batch.with_columns(pl.col("t").cast(pl.String))
+                self.feed(batch, f"{src.display} row", line)
+                line += batch.height
+        except pl.exceptions.PolarsError as exc:
+            raise OgiveError(f"{src.display}: cannot read Parquet: {str(exc).splitlines()[0]}") from None
+
+    # ----------------------------------------------------------------- end
+    def finish(self, elapsed: float) -> ScanResult:
+        o = self.options
+        if self.unit is None:
+            self.unit = values.canonical_unit(o.unit) if o.unit else (o.input_unit or "")
+        if not self.sketches:
+            if self.split_us is not None:
+                for half in ("before", "after"):
+                    self.sketch(half)
+            elif not o.by:
+                self.sketch("all")
+        for name, s in self.sketches.items():
+            s.provenance.lines_read = self.lines
+            s.provenance.partial = self.partial
+            span = self.times.get(name)
+            if span:
+                s.provenance.time_first, s.provenance.time_last = times.iso(span[0]), times.iso(span[1])
+        if self.overflow:
+            more = "+" if len(self.overflow) >= 100_000 else ""
+            self.warnings.append(
+                f"--by {o.by}: more than {o.max_groups} distinct values; {len(self.overflow)}{more} further "
+                f"values share the group {o.by}={OTHER} (raise --max-groups to keep them apart)."
+            )
+        if self.suffixed and self.unsuffixed and o.input_unit is None and values.is_time_unit(self.unit):
+            self.warnings.append(
+                f"{self.unsuffixed} values had no unit suffix while {self.suffixed} did; "
+                f"the bare numbers were taken to be in {self.unit} (say otherwise with --input-unit)."
+            )
+        if self.bad_time_kept:
+            self.warnings.append(
+                f"{self.bad_time_kept} rows had a missing or unreadable timestamp; their values were kept "
+                "but they do not count towards the time range."
+            )
+        unowned = {r: t for r, t in self.skipped.items() if r in (TOO_LONG, BAD_TIMESTAMP)}
+        for reason, tally in unowned.items():
+            if self.split_us is not None or (o.by and reason == TOO_LONG):
+                self.warnings.append(
+                    f"{tally.count} lines could not be given to any sketch ({reason}), first at "
+                    f"{', '.join(tally.examples)}."
+                )
+        ordered = sorted(self.sketches.items(), key=lambda kv: _sort_key(kv[0]))
+        return ScanResult(
+            sketches=SketchSet(dict(ordered)),
+            bytes_read=self.bytes_seen,
+            elapsed_s=elapsed,
+            warnings=self.warnings,
+            partial=self.partial,
+            lines_read=self.lines,
+            rows_read=self.rows,
+            skipped=self.skipped,
+            format=self.layout.format if self.layout else "",
+        )
+
+
+def _sort_key(name: str) -> tuple[int, int, str]:
+    half = 0 if name.startswith("before") else (1 if name.startswith("after") else 0)
+    other = 1 if name.endswith(f"={OTHER}") else 0
+    return (half, other, name)

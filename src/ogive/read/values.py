@@ -1,0 +1,180 @@
+"""Numbers and durations from text, vectorised in polars, converted to one unit.
+
+Two paths keep the common case fast: a plain cast to Float64 handles ordinary numbers
+(``12``, ``0.25``, ``1e3``, ``nan``); only the rows that cast leaves empty go through
+the regular expressions for a unit suffix (``250ms``, ``1.5 s``, ``800µs``) or a
+compound duration (``1m30.5s``, ``2h5m``). No Python code runs per row.
+
+NaN and infinities are passed on as values: the Sketch counts them (``nan_count``,
+``inf_count``) in one place, so they are not also counted here as skipped rows.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import polars as pl
+from numpy.typing import NDArray
+
+TIME_UNITS: dict[str, float] = {
+    "ns": 1e-9,
+    "us": 1e-6,
+    "µs": 1e-6,  # micro sign U+00B5
+    "μs": 1e-6,  # Greek mu U+03BC
+    "ms": 1e-3,
+    "s": 1.0,
+    "sec": 1.0,
+    "m": 60.0,
+    "min": 60.0,
+    "h": 3600.0,
+}
+"""Seconds per unit for every suffix we accept."""
+
+CANONICAL = {"µs": "us", "μs": "us", "sec": "s", "min": "m"}
+
+# A number and one suffix, with optional space: "250ms", "1.5 s", "-3us".
+_SINGLE = r"^([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-zµμ]+)$"
+# Compound durations, largest unit first, no spaces: "1h2m3.5s", "1m30s", "2s500ms".
+_NUM = r"(\d+(?:\.\d*)?|\.\d+)"
+_COMPOUND = (
+    rf"^{_NUM}h(?:{_NUM}m)?(?:{_NUM}s)?(?:{_NUM}ms)?$"
+    rf"|^{_NUM}m{_NUM}s(?:{_NUM}ms)?$"
+    rf"|^{_NUM}s{_NUM}ms(?:{_NUM}(?:us|µs|μs))?$"
+    rf"|^{_NUM}ms{_NUM}(?:us|µs|μs)$"
+)
+_COMPOUND_SECONDS = (3600.0, 60.0, 1.0, 1e-3, 60.0, 1.0, 1e-3, 1.0, 1e-3, 1e-6, 1e-3, 1e-6)
+"""Seconds per capture group of ``_COMPOUND``, in group order."""
+
+MISSING_FIELD = "missing_field"
+NOT_A_NUMBER = "not_a_number"
+UNKNOWN_UNIT = "unknown_unit"
+UNIT_MISMATCH = "unit_mismatch"
+
+
+def canonical_unit(unit: str) -> str:
+    return CANONICAL.get(unit, unit)
+
+
+def is_time_unit(unit: str | None) -> bool:
+    return unit is not None and unit in TIME_UNITS
+
+
+@dataclass
+class ParsedValues:
+    """Values of one batch in the target unit; rows that gave none carry a reason."""
+
+    values: NDArray[np.float64]
+    """One per row; NaN where the row gave no value (see ``reasons``)."""
+    ok: NDArray[np.bool_]
+    """True where ``values`` holds the row's value (NaN/inf from the data included)."""
+    reasons: dict[str, NDArray[np.bool_]]
+    """Per skip reason, a row mask (only reasons that occurred)."""
+    suffixed: int
+    """How many rows carried a time suffix (tells whether the field is a duration)."""
+    unsuffixed: int
+    """How many rows were plain numbers."""
+
+
+def has_suffix(sample: pl.Series) -> bool:
+    """Whether any value of a sample carries a time suffix (decides the default unit)."""
+    s = sample.cast(pl.String).drop_nulls().str.strip_chars()
+    plain = s.cast(pl.Float64, strict=False).is_not_null()
+    rest = s.filter(~plain)
+    if rest.is_empty():
+        return False
+    single = rest.str.extract(_SINGLE, 2).is_in(list(TIME_UNITS))
+    return bool(single.any()) or bool(rest.str.contains(_COMPOUND).any())
+
+
+def parse_values(
+    col: pl.Series,
+    *,
+    input_unit: str | None,
+    target_unit: str,
+) -> ParsedValues:
+    """Parse a String (or numeric) column into float64 in ``target_unit``.
+
+    Unsuffixed numbers are in ``input_unit`` (when None they are taken to be in the
+    target unit already). With a non-time target (``bytes``, ``""``) no conversion
+    happens and a time suffix is counted as ``unit_mismatch``.
+    """
+    n = col.len()
+    time_target = is_time_unit(target_unit)
+    plain_factor = 1.0
+    if input_unit is not None and time_target and is_time_unit(input_unit):
+        plain_factor = TIME_UNITS[input_unit] / TIME_UNITS[target_unit]
+
+    if col.dtype.is_numeric():
+        vals = col.cast(pl.Float64)
+        missing = vals.is_null().to_numpy()
+        out = vals.fill_null(np.nan).to_numpy().astype(np.float64, copy=True)
+        if plain_factor != 1.0:
+            out *= plain_factor
+        reasons = {MISSING_FIELD: missing} if missing.any() else {}
+        return ParsedValues(out, ~missing, reasons, 0, int(n - missing.sum()))
+
+    fast = col.cast(pl.Float64, strict=False)
+    if fast.null_count() == 0:
+        out = fast.to_numpy().astype(np.float64, copy=plain_factor != 1.0)
+        if plain_factor != 1.0:
+            out *= plain_factor
+        return ParsedValues(out, np.ones(n, dtype=bool), {}, 0, n)
+    return _slow(col, fast, plain_factor, time_target, target_unit)
+
+
+def _slow(
+    col: pl.Series, fast: pl.Series, plain_factor: float, time_target: bool, target_unit: str
+) -> ParsedValues:
+    n = col.len()
+    stripped = col.str.strip_chars()
+    plain = fast.fill_null(stripped.cast(pl.Float64, strict=False))
+    out = (plain * plain_factor).fill_null(np.nan).to_numpy().astype(np.float64, copy=True)
+    ok = plain.is_not_null().to_numpy().copy()
+    unsuffixed = int(ok.sum())
+    missing = (col.is_null() | (stripped.str.len_bytes() == 0)).to_numpy()
+    todo = ~ok & ~missing
+    reasons: dict[str, NDArray[np.bool_]] = {}
+    suffixed = 0
+    if todo.any():
+        idx = np.flatnonzero(todo)
+        rest = stripped.gather(idx)
+        number = rest.str.extract(_SINGLE, 1).cast(pl.Float64, strict=False)
+        unit = rest.str.extract(_SINGLE, 2)
+        factor = unit.replace_strict(TIME_UNITS, default=None, return_dtype=pl.Float64)
+        single_ok = (number.is_not_null() & factor.is_not_null()).to_numpy()
+        unknown = (number.is_not_null() & factor.is_null()).to_numpy()
+        secs = (number * factor).fill_null(np.nan).to_numpy()
+        # Compound forms for what the single-suffix form did not take.
+        groups = rest.str.extract_groups(_COMPOUND)
+        comp_secs = np.zeros(rest.len())
+        comp_any = np.zeros(rest.len(), dtype=bool)
+        for i, field in enumerate(groups.struct.fields):
+            part = groups.struct.field(field).cast(pl.Float64, strict=False)
+            present = part.is_not_null().to_numpy()
+            comp_any |= present
+            comp_secs += np.where(present, part.fill_null(0.0).to_numpy(), 0.0) * _COMPOUND_SECONDS[i]
+        comp_ok = comp_any & ~single_ok
+        unknown &= ~comp_ok
+        dur_ok = single_ok | comp_ok
+        dur_secs = np.where(single_ok, secs, comp_secs)
+        suffixed = int(dur_ok.sum())
+        if time_target:
+            out[idx[dur_ok]] = dur_secs[dur_ok] / TIME_UNITS[target_unit]
+            ok[idx[dur_ok]] = True
+        elif dur_ok.any():
+            reasons[UNIT_MISMATCH] = _mask(n, idx[dur_ok])
+        if unknown.any():
+            reasons[UNKNOWN_UNIT] = _mask(n, idx[unknown])
+        nan_rows = ~dur_ok & ~unknown
+        if nan_rows.any():
+            reasons[NOT_A_NUMBER] = _mask(n, idx[nan_rows])
+    if missing.any():
+        reasons[MISSING_FIELD] = missing
+    return ParsedValues(out, ok, reasons, suffixed, unsuffixed)
+
+
+def _mask(n: int, idx: NDArray[np.intp]) -> NDArray[np.bool_]:
+    m = np.zeros(n, dtype=bool)
+    m[idx] = True
+    return m
