@@ -1,15 +1,113 @@
-"""`ogive demo` (not built yet)."""
+"""`ogive demo`: the workspace on the bundled demo data, with the telling comparison chosen."""
 
 from __future__ import annotations
 
 import argparse
+import importlib
+import os
+import tempfile
+from pathlib import Path
+from typing import Any
 
 from ..errors import OgiveError
 
+DESCRIPTION = """\
+Open the workspace on the bundled demo data: the request latencies of an invented
+service before and after a release. The subject is 'after' and the reference
+'before', so the quantile ladder answers "did the release slow anything down, and
+where?" straight away. The demo logs are read from demo_logs/ in the source tree; when
+that folder is missing (an installed copy) a small set is generated into a cache folder.
+"""
+
+EPILOG = "The same data by hand: ogive view demo_logs/before… demo_logs/after…  (see README)."
+
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    pass
+    parser.add_argument(
+        "--folder",
+        metavar="DIR",
+        default=None,
+        help="use demo logs from this folder instead of the bundled ones",
+    )
+
+
+def demo_folder() -> Path:
+    """demo_logs/ beside src/ in a source checkout."""
+    return Path(__file__).resolve().parents[3] / "demo_logs"
+
+
+def pick_pair(folder: Path) -> tuple[Path, Path] | None:
+    """The 'before' and 'after' logs of the folder (first match of each, by name)."""
+    files = sorted(p for p in folder.iterdir() if p.is_file()) if folder.is_dir() else []
+    before = next((p for p in files if p.name.startswith("before")), None)
+    after = next((p for p in files if p.name.startswith("after")), None)
+    return (before, after) if before and after else None
+
+
+def _cache_folder() -> Path:
+    base = os.environ.get("XDG_CACHE_HOME") or str(Path.home() / ".cache")
+    folder = Path(base) / "ogive" / "demo_logs"
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError:
+        folder = Path(tempfile.mkdtemp(prefix="ogive-demo-"))
+    return folder
+
+
+def generate_small(folder: Path) -> None:
+    """Write a small demo set with ``ogive.demo`` (the same generator as the bundled files)."""
+    try:
+        demo = importlib.import_module("ogive.demo")
+    except ImportError:
+        raise OgiveError(
+            "the demo logs (demo_logs/) are missing and the generator ogive.demo is not installed; "
+            "run 'ogive view' on your own logs instead."
+        ) from None
+    write = getattr(demo, "write_demo", None)
+    if not callable(write):
+        raise OgiveError("the demo logs are missing and ogive.demo offers no write_demo() to make them.")
+    write(folder, small=True)
+
+
+def demo_options() -> Any:
+    """How to read the demo logs: the generator says, so the two cannot drift apart."""
+    from ..read.options import ScanOptions
+
+    try:
+        demo = importlib.import_module("ogive.demo")
+    except ImportError:
+        return ScanOptions()
+    made = getattr(demo, "scan_options", None)
+    return made() if callable(made) else ScanOptions()
 
 
 def run(args: argparse.Namespace) -> int:
-    raise OgiveError("'ogive demo' is not built yet.")
+    folder = Path(args.folder) if args.folder else demo_folder()
+    pair = pick_pair(folder)
+    if pair is None and args.folder:
+        raise OgiveError(f"{folder} holds no before*/after* logs.")
+    if pair is None:
+        folder = _cache_folder()
+        pair = pick_pair(folder)
+        if pair is None:
+            generate_small(folder)
+            pair = pick_pair(folder)
+        if pair is None:
+            raise OgiveError(f"generating the demo logs into {folder} gave no before*/after* files.")
+    before, after = pair
+    from ..ui import OgiveApp
+
+    app = OgiveApp(
+        [str(before), str(after)],
+        demo_options(),
+        subject=_stem(after),
+        reference=_stem(before),
+    )
+    return app.run() or 0
+
+
+def _stem(path: Path) -> str:
+    """The row name the workspace gives a scanned file (its name without log suffixes)."""
+    from ..ui.app import row_stem
+
+    return row_stem(str(path))

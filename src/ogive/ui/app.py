@@ -54,6 +54,34 @@ def snapshot(sketch: Sketch) -> Sketch:
     return out
 
 
+LOG_SUFFIXES = (
+    ".gz",
+    ".zst",
+    ".bz2",
+    ".xz",
+    ".log",
+    ".ndjson",
+    ".jsonl",
+    ".json",
+    ".csv",
+    ".tsv",
+    ".txt",
+    ".parquet",
+)
+
+
+def row_stem(source: str) -> str:
+    """``/var/log/before.ndjson.gz`` -> ``before``: the row name of a scanned file."""
+    stem = Path(source).name
+    changed = True
+    while changed:
+        changed = False
+        for suffix in LOG_SUFFIXES:
+            if stem.endswith(suffix) and len(stem) > len(suffix):
+                stem, changed = stem[: -len(suffix)], True
+    return stem
+
+
 class ScanTick(Message):
     def __init__(self, job: ScanJob, progress: ScanProgress, sketches: dict[str, Sketch]) -> None:
         super().__init__()
@@ -215,9 +243,7 @@ class OgiveApp(App[int]):
         return name
 
     def _name_for(self, job: ScanJob, group: str, groups: int) -> str:
-        stem = Path(job.source).name
-        for suffix in (".gz", ".zst", ".log", ".ndjson", ".jsonl", ".csv", ".tsv", ".txt", ".parquet"):
-            stem = stem.removesuffix(suffix)
+        stem = row_stem(job.source)
         if group not in job.names:
             job.names[group] = self._unique(stem if groups == 1 else f"{stem}:{group}", job)
         return job.names[group]

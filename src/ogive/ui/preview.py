@@ -27,7 +27,24 @@ RAW_LINES = 4
 
 
 def first_lines(path: str, limit: int = RAW_LINES, width: int = 200) -> list[str]:
-    """The first lines as text (gzip and zstd opened by their suffix), for the user to read."""
+    """The first lines as text, opened the way the reader opens them (compression by magic bytes)."""
+    try:
+        from ..read.sources import Opened
+    except ImportError:
+        return _first_lines_plain(path, limit, width)
+    src = Opened(path)
+    try:
+        if src.is_parquet:
+            return ["(parquet: columns, not lines)"]
+        data = src.read(PREVIEW_BYTES)
+    except OgiveError as exc:
+        return [str(exc)]
+    finally:
+        src.close()
+    return [line[:width] for line in data.decode("utf-8", errors="replace").splitlines()[:limit]]
+
+
+def _first_lines_plain(path: str, limit: int, width: int) -> list[str]:
     p = Path(path)
     try:
         with p.open("rb") as raw:
@@ -38,10 +55,6 @@ def first_lines(path: str, limit: int = RAW_LINES, width: int = 200) -> list[str
     try:
         if head[:2] == b"\x1f\x8b":
             data = gzip.GzipFile(fileobj=io.BytesIO(head)).read1(PREVIEW_BYTES)  # type: ignore[attr-defined]
-        elif head[:4] == b"\x28\xb5\x2f\xfd":
-            import zstandard
-
-            data = zstandard.ZstdDecompressor().decompressobj().decompress(head)
     except Exception:  # a truncated compressed head: show what decodes
         data = b""
     lines = data.decode("utf-8", errors="replace").splitlines()
@@ -102,6 +115,13 @@ def summarise_head(result: Any) -> list[str]:
         for reason, tally in list(prov.skipped.items())[:3]:
             where = ", ".join(tally.examples[:2])
             lines.append(f"  skipped {tally.count}: {reason}" + (f" ({where})" if where else ""))
+    fmt_used = getattr(result, "format", "")
+    scan_skipped = getattr(result, "skipped", None)
+    if scan_skipped:
+        total = sum(t.count for t in scan_skipped.values())
+        lines.append(f"bad rows in the scan (all sketches): {total}")
+    if fmt_used:
+        lines.insert(0, f"read as {fmt_used}")
     for w in getattr(result, "warnings", [])[:2]:
         lines.append(f"note: {w}")
     if getattr(result, "bytes_read", 0) >= PREVIEW_BYTES:
