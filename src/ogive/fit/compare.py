@@ -29,7 +29,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ..sketch import Sketch, SketchSet
-from .ladder import LADDER_QS, LadderRow, ladder
+from .ladder import LADDER_QS, LadderRow, ladder, local_rank_error
 from .shift import ShiftFunction, shift_function
 
 FloatArray = NDArray[np.float64]
@@ -204,6 +204,14 @@ def g_test_2x2(k1: float, n1: float, k2: float, n2: float) -> tuple[float, float
     return g, float(stats.chi2.sf(g, 1))
 
 
+def _count_error(s: Sketch, x: float) -> float:
+    """How far the sketch's count of values <= x may be off (0 where the buffers are exact)."""
+    if s.exact or (s.high.size and x >= s.high[0]) or (s.low.size and x < s.low[-1]):
+        return 0.0
+    pos = np.array(float(s.rank(np.array(x))) - 1.0)
+    return float(local_rank_error(s, pos))
+
+
 def tail_budget(a: Sketch, b: Sketch, q: float, *, confidence: float = 0.95) -> TailBudget:
     from ..sketch import quantile_label
 
@@ -211,7 +219,8 @@ def tail_budget(a: Sketch, b: Sketch, q: float, *, confidence: float = 0.95) -> 
     cut = float(a.quantile(np.array(q)))
     ka = float(na - a.rank(np.array(cut)))
     kb = float(nb - b.rank(np.array(cut)))
-    ea, eb = a.rank_error_bound() * na, b.rank_error_bound() * nb
+    ea = _count_error(a, cut)
+    eb = _count_error(b, cut)
     kb_lo, kb_hi = max(kb - eb, 0.0), min(kb + eb, float(nb))
     ka_lo, ka_hi = max(ka - ea, 0.0), min(ka + ea, float(na))
     pa, pb = ka / na, kb / nb

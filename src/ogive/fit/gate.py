@@ -5,17 +5,17 @@ A limit ``p99=+5%`` says "B's p99 may be at most 5 % above A's p99"; ``p50=+2ms`
 
 * ``exceeded`` — B's lowest plausible quantile is above what the limit allows even at
   A's highest plausible quantile. This is the claim a failing gate makes.
-* ``holds`` — no credible evidence that the limit is exceeded. With ``strict`` the
+* ``holds`` — no credible evidence that the limit is exceeded. With ``prove`` the
   data must also *show* the limit is met (B's highest plausible quantile within what
   A's lowest allows); otherwise the limit is ``undecided``.
 * ``undecided`` — the data cannot decide: too few values to bound that quantile (p99.99
-  needs well over 10,000 values), or, with ``strict``, the interval straddles the limit.
+  needs well over 10,000 values), or, with ``prove``, the interval straddles the limit.
 
 Confidence. Intervals come from :mod:`ogive.fit.ladder` (order statistics, Conover
 1999 section 3.2). With L limits each interval is taken at 1 − (1 − confidence)/(2L)
 (Bonferroni over the 2L intervals; no independence assumed), so with probability at
 least ``confidence`` every interval covers at once, and then every ``exceeded`` (and,
-with ``strict``, every shown ``holds``) is true together. A pass is not a guarantee:
+with ``prove``, every shown ``holds``) is true together. A pass is not a guarantee:
 it says the data gave no such evidence, nothing about quantiles not listed, and
 nothing about traffic that was not in the sample.
 """
@@ -141,7 +141,7 @@ class GateResult:
     unit: str
     confidence: float
     per_interval_confidence: float
-    strict: bool
+    prove: bool
     checks: tuple[LimitCheck, ...]
 
     @property
@@ -164,7 +164,7 @@ class GateResult:
             "unit": self.unit,
             "confidence": self.confidence,
             "per_interval_confidence": self.per_interval_confidence,
-            "strict": self.strict,
+            "prove": self.prove,
             "outcome": self.outcome,
             "exit_code": self.exit_code,
             "checks": [c.to_dict() for c in self.checks],
@@ -185,7 +185,7 @@ def _fmt(x: float, unit: str) -> str:
     return f"{x:.4g} {unit}".rstrip()
 
 
-def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, strict: bool) -> LimitCheck:
+def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, prove: bool) -> LimitCheck:
     lab = limit.label
     allowed_hi = limit.allowed(a.high)
     allowed_lo = limit.allowed(a.low)
@@ -214,8 +214,8 @@ def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, st
         f"B's {lab} ({_fmt(b.estimate, unit)}, plausibly {_fmt(b.low, unit)} to {_fmt(b.high, unit)}) "
         f"against {_fmt(allowed_pt, unit)} allowed: the interval reaches both sides of the limit"
     )
-    if strict:
-        return LimitCheck(limit, UNDECIDED, a, b, allowed_pt, straddle + "; --strict needs it shown within.")
+    if prove:
+        return LimitCheck(limit, UNDECIDED, a, b, allowed_pt, straddle + "; --prove needs it shown within.")
     return LimitCheck(limit, HOLDS, a, b, allowed_pt, straddle + ", so no credible evidence it is exceeded.")
 
 
@@ -235,7 +235,7 @@ def gate(
     limits: list[Limit],
     *,
     confidence: float = 0.95,
-    strict: bool = False,
+    prove: bool = False,
     labels: tuple[str, str] = ("A", "B"),
 ) -> GateResult:
     """Check every limit; intervals at a Bonferroni level so the claims hold jointly."""
@@ -254,5 +254,5 @@ def gate(
     qs = tuple(lim.q for lim in limits)
     ia = quantile_intervals(a, qs, each)
     ib = quantile_intervals(b, qs, each)
-    checks = tuple(_check(lim, x, y, a.unit, strict) for lim, x, y in zip(limits, ia, ib, strict=True))
-    return GateResult(labels, a.unit, confidence, each, strict, checks)
+    checks = tuple(_check(lim, x, y, a.unit, prove) for lim, x, y in zip(limits, ia, ib, strict=True))
+    return GateResult(labels, a.unit, confidence, each, prove, checks)
