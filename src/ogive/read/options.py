@@ -41,6 +41,9 @@ class ScanOptions:
     compression: float = DEFAULT_COMPRESSION
     tail_size: int = DEFAULT_TAIL
     chunk_bytes: int = 8 << 20
+    lazy_files: bool = True
+    """Uncompressed files on disk go through polars' own streaming reader (faster);
+    False forces the chunked reader everywhere (tests use it to cover both)."""
     max_line_bytes: int = 64 << 20
     """A line longer than this (no newline within it) is skipped as ``too_long``."""
 

@@ -10,6 +10,7 @@ and when asked ``g`` (group key) and ``t`` (timestamp text), so that row ``i`` i
 from __future__ import annotations
 
 import re
+from collections.abc import Iterator
 from dataclasses import dataclass
 
 import polars as pl
@@ -42,17 +43,32 @@ class Layout:
     description: str = ""
     """How the value is found, for provenance: ``column latency_ms``."""
 
-    def parse(self, data: bytes) -> pl.DataFrame:
+    def parse(self, data: bytes, *, numeric: bool = False) -> tuple[pl.DataFrame, bool]:
+        """Rows of ``data``; with ``numeric`` a CSV value column is first tried as Float64.
+
+        Returns the frame and whether the numeric attempt held (callers stop trying
+        once a chunk of durations or other text needed the String path).
+        """
         if self.format in ("csv", "tsv"):
-            return self._parse_csv(data)
+            if numeric:
+                try:
+                    return self._parse_csv(data, numeric=True), True
+                except pl.exceptions.PolarsError:
+                    pass
+            return self._parse_csv(data, numeric=False), False
         lines = split_lines(data)
         if self.format == "ndjson":
-            return pl.DataFrame(
-                [lines.str.json_path_match(path).alias(name) for name, path in self.field_paths]
-            )
-        return pl.DataFrame([lines.str.extract(self.pattern, idx).alias(name) for name, idx in self.groups])
+            cols = [lines.str.json_path_match(path).alias(name) for name, path in self.field_paths]
+            return pl.DataFrame(cols), False
+        return pl.DataFrame(
+            [lines.str.extract(self.pattern, idx).alias(name) for name, idx in self.groups]
+        ), False
 
-    def _parse_csv(self, data: bytes) -> pl.DataFrame:
+    def _parse_csv(self, data: bytes, *, numeric: bool) -> pl.DataFrame:
+        # Letting the reader parse floats itself skips a String column and a cast: the
+        # fast path for the usual plain-number latency column. Any non-number makes it
+        # raise, and the chunk is read again as text (durations, bad rows).
+        overrides = {_csv_name(self.columns[self.names.index("v")]): pl.Float64} if numeric else None
         try:
             df = pl.read_csv(
                 data,
@@ -60,19 +76,67 @@ class Layout:
                 separator=self.separator,
                 columns=list(self.columns),
                 infer_schema=False,
+                schema_overrides=overrides,
                 truncate_ragged_lines=True,
                 raise_if_empty=False,
             )
         except pl.exceptions.PolarsError as exc:
-            raise OgiveError(
-                f"cannot parse the {self.format.upper()} records: {str(exc).splitlines()[0]}"
-            ) from None
+            if numeric:
+                raise
+            first = str(exc).splitlines()[0]
+            raise OgiveError(f"cannot parse the {self.format.upper()} records: {first}") from None
         if df.width < len(self.columns):
             # A chunk whose lines are all shorter than the widest column we need.
             df = df.with_columns(
                 [pl.lit(None, dtype=pl.String).alias(f"_pad{i}") for i in range(len(self.columns) - df.width)]
             )
         return df.rename(dict(zip(df.columns, self.names, strict=True)))
+
+
+_CSV_BASE = int(pl.read_csv(b"x\n", has_header=False).columns[0].rsplit("_", 1)[1])
+"""Polars names header-less columns ``column_N``; whether N starts at 0 or 1 is probed."""
+
+
+def _csv_name(index: int) -> str:
+    return f"column_{index + _CSV_BASE}"
+
+
+def lazy_batches(layout: Layout, path: str, skip: int, *, numeric: bool) -> Iterator[pl.DataFrame]:
+    """Batches of ``layout.parse``'s shape from polars' streaming reader, after ``skip`` lines."""
+    if layout.format in ("csv", "tsv"):
+        vname = _csv_name(layout.columns[layout.names.index("v")])
+        lf = pl.scan_csv(
+            path,
+            has_header=False,
+            separator=layout.separator,
+            infer_schema=False,
+            schema_overrides={vname: pl.Float64} if numeric else None,
+            truncate_ragged_lines=True,
+            skip_rows=skip,
+            raise_if_empty=False,
+        )
+        width = len(lf.collect_schema())
+        exprs = [
+            (pl.col(_csv_name(c)) if c < width else pl.lit(None, dtype=pl.String)).alias(n)
+            for c, n in zip(layout.columns, layout.names, strict=True)
+        ]
+    else:
+        lf = pl.scan_csv(
+            path,
+            has_header=False,
+            separator=_LINE_SEP,
+            quote_char=None,
+            infer_schema=False,
+            truncate_ragged_lines=True,
+            skip_rows=skip,
+            raise_if_empty=False,
+        )
+        line = pl.first()
+        if layout.format == "ndjson":
+            exprs = [line.str.json_path_match(p).alias(name) for name, p in layout.field_paths]
+        else:
+            exprs = [line.str.extract(layout.pattern, idx).alias(name) for name, idx in layout.groups]
+    yield from lf.select(exprs).collect_batches()
 
 
 def split_lines(data: bytes) -> pl.Series:

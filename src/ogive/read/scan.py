@@ -9,10 +9,15 @@ batch per sketch. Nothing per row runs in Python except for bad-row examples.
 
 from __future__ import annotations
 
+import os
 import queue
 import threading
 import time
+from collections import deque
 from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import Future, ThreadPoolExecutor
+from dataclasses import dataclass
+from typing import TypeVar
 
 import numpy as np
 import polars as pl
@@ -24,6 +29,7 @@ from ..sketch.sketch import EXAMPLES_KEPT
 from . import records, sources, times, values
 from .options import ScanOptions, ScanProgress, ScanResult
 
+_T = TypeVar("_T")
 PROGRESS_INTERVAL_S = 0.2
 OTHER = "(other)"
 MISSING = "(missing)"
@@ -63,42 +69,65 @@ def scan(
         raise OgiveError("--split-at needs --time-field, the column or field holding each record's time.")
     state = _State(list(sources_), options)
     start = time.monotonic()
-    last_report = 0.0
-    sizes: list[int | None] = []
+    sizes = [_file_size(name) for name in sources_]
+    total = sum(s for s in sizes if s is not None) if all(s is not None for s in sizes) else None
     done_bytes = 0
-    for name in sources_:
-        src = sources.Opened(name)
-        sizes.append(src.size)
-        try:
-            if src.is_parquet or options.format == "parquet":
-                state.scan_parquet(src)
-                done_bytes += src.size or 0
-                continue
-            header_checked = False
-            for chunk in _prefetch(sources.chunks(src, options.chunk_bytes, options.max_line_bytes)):
-                data, first_line = chunk.data, chunk.first_line
-                if chunk.too_long:
-                    state.unassigned(TOO_LONG, src.display, chunk.too_long)
-                    state.lines += len(chunk.too_long)
-                if state.layout is None and data:
-                    state.start(records.plan(data, options))
-                layout = state.layout
-                if layout is not None and layout.header and not header_checked and data:
-                    head, _, rest = data.partition(b"\n")
-                    if head.rstrip(b"\r") == layout.header_line.rstrip(b"\r"):
-                        data, first_line = rest, first_line + 1
-                        state.lines += 1
-                if data:
-                    header_checked = True
-                if layout is not None and data:
-                    state.feed(layout.parse(data), src.display, first_line)
-                now = time.monotonic()
-                if progress is not None and now - last_report >= PROGRESS_INTERVAL_S:
-                    last_report = now
-                    total = sum(s for s in sizes if s) if all(sizes) and len(sizes) == len(sources_) else None
-                    pos = src.raw_pos if src.size else state.bytes_seen
-                    progress(
-                        ScanProgress(
+    last_report = 0.0
+    # One worker parses chunk k+1 (polars, numpy: GIL mostly released) while this thread
+    # adds chunk k to the sketches; results are committed strictly in order.
+    pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="ogive-parse")
+    pending: deque[Future[_Prepared]] = deque()
+
+    def drain(keep: int) -> None:
+        while len(pending) > keep:
+            state.commit(pending.popleft().result())
+
+    try:
+        for name in sources_:
+            src = sources.Opened(name)
+            try:
+                if src.is_parquet or options.format == "parquet":
+                    state.scan_parquet(src)
+                    done_bytes += src.size or 0
+                    continue
+                lazy = options.lazy_files and src.compression is None and src.size is not None
+                if lazy and state.scan_plain_file(src, progress, cancel, start, done_bytes, total):
+                    done_bytes += src.size or 0
+                    if state.partial:
+                        break
+                    continue
+                header_checked = False
+                for chunk in _prefetch(sources.chunks(src, options.chunk_bytes, options.max_line_bytes)):
+                    data, first_line = chunk.data, chunk.first_line
+                    if chunk.too_long:
+                        drain(0)
+                        state.unassigned(TOO_LONG, src.display, chunk.too_long)
+                        state.lines += len(chunk.too_long)
+                    if state.layout is None and data:
+                        state.start(records.plan(data, options))
+                    layout = state.layout
+                    if layout is not None and layout.header and not header_checked and data:
+                        head, _, rest = data.partition(b"\n")
+                        if head.rstrip(b"\r") == layout.header_line.rstrip(b"\r"):
+                            data, first_line = rest, first_line + 1
+                            state.lines += 1
+                    if data:
+                        header_checked = True
+                    if layout is not None and data:
+                        if state.unit is None:
+                            df, state.numeric = layout.parse(data, numeric=state.numeric)
+                            state.feed(df, src.display, first_line)
+                        else:
+                            pending.append(
+                                pool.submit(state.parse_and_prepare, data, src.display, first_line)
+                            )
+                            drain(1)
+                    state.bytes_seen += len(chunk.data)
+                    now = time.monotonic()
+                    if progress is not None and now - last_report >= PROGRESS_INTERVAL_S:
+                        last_report = now
+                        pos = src.raw_pos if src.size else state.bytes_seen
+                        snapshot = ScanProgress(
                             done_bytes + pos,
                             total,
                             state.rows,
@@ -107,20 +136,36 @@ def scan(
                             src.display,
                             state.sset(),
                         )
-                    )
-                state.bytes_seen += len(chunk.data)
-                if cancel is not None and cancel():
-                    state.partial = f"stopped on request in {src.display} at line {first_line + chunk.lines}"
-                    break
-            done_bytes += src.size if src.size else 0
-        finally:
-            src.close()
-        if state.partial:
-            break
+                        progress(snapshot)
+                    if cancel is not None and cancel():
+                        state.partial = (
+                            f"stopped on request in {src.display} at line {first_line + chunk.lines}"
+                        )
+                        break
+                drain(0)
+                done_bytes += src.size if src.size else 0
+            finally:
+                src.close()
+            if state.partial:
+                break
+        drain(0)
+    finally:
+        for fut in pending:
+            fut.cancel()
+        pool.shutdown(wait=True)
     return state.finish(time.monotonic() - start)
 
 
-def _prefetch(it: Iterator[sources.Chunk], depth: int = 2) -> Iterator[sources.Chunk]:
+def _file_size(name: str) -> int | None:
+    if name == "-":
+        return None
+    try:
+        return os.path.getsize(name) if os.path.isfile(name) else None
+    except OSError:
+        return None
+
+
+def _prefetch(it: Iterator[_T], depth: int = 2) -> Iterator[_T]:
     """Run ``it`` in a thread, ``depth`` chunks ahead, re-raising its errors here."""
     q: queue.Queue[tuple[str, object]] = queue.Queue(maxsize=depth)
     stop = threading.Event()
@@ -160,6 +205,22 @@ def _prefetch(it: Iterator[sources.Chunk], depth: int = 2) -> Iterator[sources.C
                 thread.join(0.05)
 
 
+@dataclass
+class _Prepared:
+    rows: int
+    values: NDArray[np.float64]
+    ok: NDArray[np.bool_]
+    reasons: dict[str, NDArray[np.bool_]]
+    tus: NDArray[np.float64] | None
+    groups: pl.Series | None
+    suffixed: int
+    unsuffixed: int
+    bad_time_kept: int
+    time_format: str | None
+    display: str
+    first_line: int
+
+
 class _State:
     """Sketches under construction and the scan's running counts."""
 
@@ -185,6 +246,8 @@ class _State:
         self.times: dict[str, list[float]] = {}
         self.bad_time_kept = 0
         self.description = ""
+        self.numeric = True
+        """Try reading a CSV value column as Float64 until a chunk shows it is not plain numbers."""
 
     # ----------------------------------------------------------------- setup
     def start(self, layout: records.Layout) -> None:
@@ -235,32 +298,39 @@ class _State:
 
     # ----------------------------------------------------------------- rows
     def feed(self, df: pl.DataFrame, display: str, first_line: int) -> None:
-        n = df.height
-        if n == 0:
-            return
+        """Parse and add one frame in this thread (first chunk, Parquet batches)."""
+        self.ready(df)
+        self.commit(self.prepare(df, display, first_line))
+
+    def parse_and_prepare(self, data: bytes, display: str, first_line: int) -> _Prepared:
+        assert self.layout is not None
+        df, held = self.layout.parse(data, numeric=self.numeric)
+        self.numeric = self.numeric and held
+        return self.prepare(df, display, first_line)
+
+    def ready(self, df: pl.DataFrame) -> None:
+        """Decide, from the first frame, what later frames are parsed against."""
+        if self.unit is None and df.height:
+            self.unit = self._decide_unit(df.get_column("v"))
+        if self.time_format is None and "t" in df.columns:
+            self.time_format = times.detect_format(df.get_column("t"))
+
+    def prepare(self, df: pl.DataFrame, display: str, first_line: int) -> _Prepared:
+        """The thread-safe half of a chunk: values, reasons, times (polars and numpy only)."""
         o = self.options
-        self.lines += n
-        self.rows += n
-        vcol = df.get_column("v")
-        if self.unit is None:
-            self.unit = self._decide_unit(vcol)
-        pv = values.parse_values(vcol, input_unit=o.input_unit, target_unit=self.unit)
-        self.suffixed += pv.suffixed
-        self.unsuffixed += pv.unsuffixed
+        n = df.height
+        pv = values.parse_values(df.get_column("v"), input_unit=o.input_unit, target_unit=self.unit or "")
         reasons = dict(pv.reasons)
         if self.layout is not None and self.layout.format == "text" and values.MISSING_FIELD in reasons:
             reasons["no_match"] = reasons.pop(values.MISSING_FIELD)
         ok = pv.ok
         tus: NDArray[np.float64] | None = None
+        bad_time_kept = 0
+        fmt = self.time_format
         if "t" in df.columns:
             tcol = df.get_column("t")
-            if self.time_format is None:
-                self.time_format = times.detect_format(tcol)
-            tus = (
-                times.parse_times(tcol, self.time_format)
-                if self.time_format is not None
-                else np.full(n, np.nan)
-            )
+            fmt = fmt or times.detect_format(tcol)
+            tus = times.parse_times(tcol, fmt) if fmt is not None else np.full(n, np.nan)
             bad_t = ~np.isfinite(tus)
             if self.split_us is not None:
                 bt = bad_t & ok
@@ -268,20 +338,46 @@ class _State:
                     reasons[BAD_TIMESTAMP] = bt
                     ok = ok & ~bad_t
             else:
-                self.bad_time_kept += int((bad_t & ok).sum())
-        if o.strict and reasons:
-            first = min((int(np.argmax(m)), r) for r, m in reasons.items())
-            self._strict(first[1], f"{display}:{first_line + first[0]}")
+                bad_time_kept = int((bad_t & ok).sum())
+        g = df.get_column("g").cast(pl.String) if "g" in df.columns else None
+        return _Prepared(
+            n,
+            pv.values,
+            ok,
+            reasons,
+            tus,
+            g,
+            pv.suffixed,
+            pv.unsuffixed,
+            bad_time_kept,
+            fmt,
+            display,
+            first_line,
+        )
 
-        names = self._route(df, tus)
+    def commit(self, p: _Prepared) -> None:
+        """The ordered half: strict check, routing to sketches, adding, counting."""
+        if p.rows == 0:
+            return
+        self.lines += p.rows
+        self.rows += p.rows
+        self.suffixed += p.suffixed
+        self.unsuffixed += p.unsuffixed
+        self.bad_time_kept += p.bad_time_kept
+        if self.time_format is None:
+            self.time_format = p.time_format
+        if self.options.strict and p.reasons:
+            first = min((int(np.argmax(m)), r) for r, m in p.reasons.items())
+            self._strict(first[1], f"{p.display}:{p.first_line + first[0]}")
+        names = self._route(p.rows, p.groups, p.tus)
         if isinstance(names, str):
-            self._add(names, pv.values, ok, reasons, tus, display, first_line, None)
+            self._add(names, p.values, p.ok, p.reasons, p.tus, p.display, p.first_line, None)
         else:
             for name, idx in names:
-                self._add(name, pv.values, ok, reasons, tus, display, first_line, idx)
+                self._add(name, p.values, p.ok, p.reasons, p.tus, p.display, p.first_line, idx)
 
     def _route(
-        self, df: pl.DataFrame, tus: NDArray[np.float64] | None
+        self, n: int, g: pl.Series | None, tus: NDArray[np.float64] | None
     ) -> str | list[tuple[str, NDArray[np.int64]]]:
         o = self.options
         halves: NDArray[np.bool_] | None = None
@@ -289,9 +385,7 @@ class _State:
             halves = tus >= self.split_us  # NaN compares False; such rows are already skipped
         if not o.by and halves is None:
             return "all"
-        n = df.height
-        if o.by:
-            g = df.get_column("g").cast(pl.String)
+        if o.by and g is not None:
             distinct = g.unique().to_list()
             mapping: dict[str | None, str] = {}
             for value in distinct:
@@ -377,6 +471,80 @@ class _State:
                 lo, hi = float(t.min()), float(t.max())
                 span = self.times.setdefault(name, [lo, hi])
                 span[0], span[1] = min(span[0], lo), max(span[1], hi)
+
+    # ----------------------------------------------------------------- plain files
+    def scan_plain_file(
+        self,
+        src: sources.Opened,
+        progress: Callable[[ScanProgress], None] | None,
+        cancel: Callable[[], bool] | None,
+        start: float,
+        done_bytes: int,
+        total: int | None,
+    ) -> bool:
+        """Let polars' own streaming reader walk an uncompressed file (its fastest path).
+
+        The layout still comes from our first chunk; rows arrive in order, so row ``i``
+        is line ``first + i``. Returns False when the file must go the chunked way
+        instead (the layout does not suit the lazy reader).
+        """
+        with open(src.name, "rb") as fh:  # a separate handle: ``src`` stays at offset 0
+            head = fh.read(min(self.options.chunk_bytes, 1 << 20))
+        cut = head.rfind(b"\n")
+        if cut < 0:
+            return False  # one huge line, or empty: the chunked path handles both
+        sample = head[: cut + 1]
+        if self.layout is None:
+            self.start(records.plan(sample, self.options))
+        layout = self.layout
+        assert layout is not None
+        skip = 0
+        if layout.header:
+            top = sample.split(b"\n", 1)[0].rstrip(b"\r")
+            skip = 1 if top == layout.header_line.rstrip(b"\r") else 0
+        avg_line = max(1.0, len(sample) / max(1, sample.count(b"\n")))
+        last_report = 0.0
+        done_rows = 0
+        numeric = self.numeric
+        self.lines += skip
+        while True:
+            try:
+                for batch in _prefetch(
+                    records.lazy_batches(layout, src.name, skip + done_rows, numeric=numeric)
+                ):
+                    if batch.height == 0:
+                        continue
+                    self.ready(batch)
+                    self.commit(self.prepare(batch, src.display, 1 + skip + done_rows))
+                    done_rows += batch.height
+                    now = time.monotonic()
+                    if progress is not None and now - last_report >= PROGRESS_INTERVAL_S:
+                        last_report = now
+                        pos = min(int((skip + done_rows) * avg_line), src.size or 0)
+                        progress(
+                            ScanProgress(
+                                done_bytes + pos,
+                                total,
+                                self.rows,
+                                self.values,
+                                now - start,
+                                src.display,
+                                self.sset(),
+                            )
+                        )
+                    if cancel is not None and cancel():
+                        self.partial = f"stopped on request in {src.display} at line {skip + done_rows}"
+                        break
+                break
+            except pl.exceptions.PolarsError as exc:
+                if numeric:
+                    numeric = False  # a value that is not a plain number: go on reading text
+                    self.numeric = False
+                    continue
+                first = str(exc).splitlines()[0]
+                raise OgiveError(f"{src.display}: cannot parse the records: {first}") from None
+        self.bytes_seen += src.size or 0
+        return True
 
     # ----------------------------------------------------------------- parquet
     def scan_parquet(self, src: sources.Opened) -> None:
