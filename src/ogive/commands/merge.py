@@ -1,15 +1,130 @@
-"""`ogive merge` (not built yet)."""
+"""`ogive merge`: one sketch set from many (per host, per day, per rotated file).
+
+Sketches are merged by name: every file's ``all`` goes into ``all``, every
+``host=ck-web-01`` into ``host=ck-web-01``, ``before`` into ``before``. A t-digest merge
+is as good as scanning the concatenated data (within the sketch's own error), which is
+what makes "sketch on each host, merge at home" work.
+"""
 
 from __future__ import annotations
 
 import argparse
+import sys
+from typing import TYPE_CHECKING
 
 from ..errors import OgiveError
 
+if TYPE_CHECKING:
+    from ..sketch import Sketch, SketchSet
+
+DESCRIPTION = """\
+Merge saved sketch sets into one: sketches with the same name are combined (a file of
+one sketch merges into that name), other names are carried over. Sketches of different
+units or of different fields are refused, because their union would be meaningless,
+unless --force says they measure the same thing."""
+
+EPILOG = """\
+examples:
+  for h in web-1 web-2 web-3; do
+    ssh $h ogive scan /var/log/app.log --pattern 'dur=(\\S+)' -o - > $h.ogive
+  done
+  ogive merge web-*.ogive -o fleet.ogive
+  ogive merge mon.ogive tue.ogive wed.ogive -o week.ogive --json"""
+
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    pass
+    parser.add_argument(
+        "inputs", nargs="+", metavar="SKETCH.ogive", help="sketch files to merge (two or more)"
+    )
+    parser.add_argument(
+        "-o", "--output", metavar="ALL.ogive", required=True, help="where to write ('-' for stdout)"
+    )
+    parser.add_argument(
+        "--force",
+        action="store_true",
+        help="merge even when units or fields differ (you vouch that they measure the same thing)",
+    )
+    parser.add_argument("--json", action="store_true", help="print the merged summary as JSON on stdout")
+    parser.add_argument("--quiet", action="store_true", help="print nothing but errors")
+
+
+def _clash(name: str, what: str, first: tuple[str, str], other: tuple[str, str]) -> str:
+    return (
+        f"cannot merge sketch '{name}': {first[0]} has {what} '{first[1] or '(none)'}' but {other[0]} has "
+        f"'{other[1] or '(none)'}'; use --force if they measure the same thing."
+    )
+
+
+def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[SketchSet, list[str]]:
+    """Merge by sketch name; returns the set and the warnings a forced merge owes the user."""
+    from ..sketch import SketchSet, merge
+
+    out: dict[str, Sketch] = {}
+    origin: dict[str, str] = {}
+    warnings: list[str] = []
+    for path, sset in named:
+        for name in sset.names():
+            s = sset[name]
+            if name not in out:
+                out[name], origin[name] = s, path  # the loaded sets are ours to fold into
+                continue
+            have = out[name]
+            for what, a, b in (
+                ("unit", have.unit, s.unit),
+                ("field", have.provenance.field, s.provenance.field),
+            ):
+                if a != b:
+                    if not force:
+                        raise OgiveError(_clash(name, what, (origin[name], a), (path, b)))
+                    warnings.append(
+                        f"'{name}': merged {what} '{b or '(none)'}' from {path} "
+                        f"into '{a or '(none)'}' (--force)"
+                    )
+            if have.unit == s.unit:
+                out[name] = merge(have, s)
+            else:
+                have.merge(s)  # forced: the first file's unit labels the result
+    return SketchSet(out), warnings
 
 
 def run(args: argparse.Namespace) -> int:
-    raise OgiveError("'ogive merge' is not built yet.")
+    import json
+
+    from ..render.summary import summarise, summary_lines
+    from ..store import load_sketches, save_sketches
+
+    if len(args.inputs) < 2:
+        raise OgiveError("merge needs two or more sketch files; to look at one, use 'ogive show'.")
+    if args.output in args.inputs:
+        # Allowed in principle (the write is atomic), but it is almost always a slip of a glob.
+        raise OgiveError(f"-o {args.output} is also an input; write the merge to a new file.")
+    if args.output == "-" and args.json:
+        raise OgiveError(
+            "-o - and --json both want standard output; write the sketch to a file or drop --json."
+        )
+    seen = {p for p in args.inputs if args.inputs.count(p) > 1}
+    if seen:
+        raise OgiveError(f"{sorted(seen)[0]} is given more than once; its values would be counted twice.")
+    named = [(path, load_sketches(path)) for path in args.inputs]
+    merged, warnings = merge_sets(named, force=args.force)
+    save_sketches(args.output, merged)
+    summary = summarise(merged, warnings)
+    if args.json:
+        doc = summary.to_dict()
+        doc["inputs"] = list(args.inputs)
+        doc["output"] = args.output
+        json.dump(doc, sys.stdout, indent=2, allow_nan=False)
+        sys.stdout.write("\n")
+        return 0
+    out = sys.stderr if args.output == "-" else sys.stdout
+    if args.quiet:
+        for w in warnings:
+            print(f"ogive: warning: {w}", file=sys.stderr)
+        return 0
+    for line in summary_lines(summary):
+        print(line, file=out)
+    n = len(merged.names())
+    print(
+        f"\nmerged {len(args.inputs)} files into {n} sketch{'es' if n != 1 else ''}: {args.output}", file=out
+    )
+    return 0

@@ -1,15 +1,99 @@
-"""`ogive scan` (not built yet)."""
+"""`ogive scan`: read sources once, print the summary, and keep the sketch for later.
+
+The sketch file is the point: every later question (``show``, ``fit``, ``compare``,
+``gate``) is answered from it, and ``-o -`` lets a remote host send it back over SSH
+while the table goes to stderr, so nothing but the sketch lands in the redirect.
+"""
 
 from __future__ import annotations
 
 import argparse
+import json
+import sys
 
 from ..errors import OgiveError
+from .common import add_source_options
+
+DESCRIPTION = """\
+Read one or more sources once, in bounded memory, into a quantile sketch of one numeric
+field, and print its summary: count, rows skipped by reason, min, p50, p90, p99, p99.9,
+p99.99 and max. Several sources are one stream (rotated logs: app.log app.log.1
+app.log.2.gz). Compression (gzip, zstd, bz2, xz) is recognised from the bytes, '-' reads
+standard input. Rows that cannot be used are counted by reason, with the first few
+locations, and listed under the table: nothing is dropped silently."""
+
+EPILOG = """\
+examples:
+  ogive scan demo_logs/checkout-before.log --pattern 'dur=(\\S+)' -o before.ogive
+  ogive scan demo_logs/checkout-day.csv --column latency_ms --by host
+  ogive scan demo_logs/checkout-day.csv --column latency_ms \\
+      --time-field timestamp --split-at 2026-03-04T13:00:00Z -o day.ogive
+  ogive scan demo_logs/checkout-after.ndjson.gz --field timing.total_ms --json
+  ssh web-1 ogive scan /var/log/app.log --pattern 'dur=(\\S+)' -o - > web-1.ogive
+
+With -o - the sketch goes to standard output and the summary to standard error.
+The quantiles come from a t-digest with the 1024 smallest and largest values kept
+exactly: min, max and the extreme tail are exact; the middle is estimated."""
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    pass
+    parser.add_argument("sources", nargs="+", metavar="SOURCE", help="files to read ('-' for standard input)")
+    parser.add_argument(
+        "-o",
+        "--output",
+        metavar="OUT.ogive",
+        help="save the sketch set here (written atomically); '-' sends it to standard output",
+    )
+    parser.add_argument(
+        "--json", action="store_true", help="print one JSON document on stdout instead of the table"
+    )
+    add_source_options(parser)
 
 
 def run(args: argparse.Namespace) -> int:
-    raise OgiveError("'ogive scan' is not built yet.")
+    from ..render.summary import summarise, summary_lines
+    from ..store import save_sketches
+    from .common import scan_sources
+
+    to_stdout = args.output == "-"
+    if to_stdout and args.json:
+        raise OgiveError(
+            "-o - and --json both want standard output; save the sketch to a file or drop --json."
+        )
+    if to_stdout and sys.stdout.isatty():
+        raise OgiveError(
+            "-o - would write the sketch file onto the terminal; redirect it (> host.ogive) or name a file."
+        )
+    if args.output and args.output != "-" and args.output in args.sources:
+        raise OgiveError(f"-o {args.output} is also a source; choose another output name.")
+
+    result = scan_sources(list(args.sources), args)
+    warnings = list(result.warnings)
+    if result.partial:
+        warnings.append(f"the scan stopped early: {result.partial}")
+    # Without --quiet the warnings were already printed on stderr as they came; the table
+    # repeats them only when they would otherwise be lost. JSON always carries them.
+    summary = summarise(
+        result.sketches, warnings if (args.json or args.quiet) else warnings[len(result.warnings) :]
+    )
+    if args.output:
+        save_sketches(args.output, result.sketches)
+    if args.json:
+        doc = summary.to_dict()
+        doc["bytes_read"] = result.bytes_read
+        doc["elapsed_s"] = round(result.elapsed_s, 6)
+        doc["output"] = args.output
+        json.dump(doc, sys.stdout, indent=2, allow_nan=False)
+        sys.stdout.write("\n")
+        return 0
+    out = sys.stderr if to_stdout else sys.stdout
+    lines = summary_lines(summary)
+    if args.output and not to_stdout:
+        lines += [
+            "",
+            f"saved {len(summary.sketches)} sketch{'es' if len(summary.sketches) != 1 else ''} "
+            f"to {args.output}",
+        ]
+    for line in lines:
+        print(line, file=out)
+    return 0

@@ -1,0 +1,329 @@
+"""The summary of a sketch set as text lines and as a JSON-ready dict.
+
+Shared by ``scan``, ``show`` and ``merge`` so the three always print the same thing for
+the same sketch. Nothing here computes a statistic: every number is asked of the sketch
+(its counts, its quantiles), and this module only lays it out.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from ..sketch import Sketch, SketchSet, quantile_label
+
+LADDER = (0.5, 0.9, 0.99, 0.999, 0.9999)
+"""The quantiles every summary shows, between min and max."""
+
+_TIME_SECONDS = {"ns": 1e-9, "us": 1e-6, "ms": 1e-3, "s": 1.0, "m": 60.0, "h": 3600.0}
+_TIME_STEPS = (("ns", 1e-9), ("µs", 1e-6), ("ms", 1e-3), ("s", 1.0))
+
+
+# ---------------------------------------------------------------------- numbers
+def _sig3(x: float) -> str:
+    """Three significant figures without exponent for the range a table shows."""
+    a = abs(x)
+    if a >= 100:
+        return f"{x:.0f}"
+    if a >= 10:
+        return f"{x:.1f}"
+    if a >= 1:
+        return f"{x:.2f}"
+    return f"{x:.3g}"
+
+
+def format_value(value: float, unit: str) -> str:
+    """A value for people: time units rescaled (412 µs, 12.3 ms, 1.20 s, 4.5 min), others as is.
+
+    Three significant figures: enough to read a tail, and the digest's own error is
+    larger than the fourth figure anywhere but at the exact tails.
+    """
+    if value is None or not math.isfinite(value):
+        return "–"
+    if unit in _TIME_SECONDS:
+        if value == 0:
+            return f"0 {unit}"
+        # Round to three figures first, then choose the unit, so 999.7 µs reads 1.00 ms.
+        seconds = float(f"{value * _TIME_SECONDS[unit]:.3g}")
+        a = abs(seconds)
+        if a >= 3 * 3600:
+            return f"{_sig3(seconds / 3600)} h"
+        if a >= 600:
+            return f"{_sig3(seconds / 60)} min"
+        name, scale = _TIME_STEPS[0]
+        for step, size in _TIME_STEPS:
+            if a >= size:
+                name, scale = step, size
+        return f"{_sig3(seconds / scale)} {name}"
+    if abs(value) < 1e7 and (value == int(value) or abs(value) >= 100):
+        text = f"{value:,.0f}"
+    elif abs(value) >= 1e7:
+        text = f"{value:.4g}"
+    else:
+        text = _sig3(value)
+    return f"{text} {unit}" if unit else text
+
+
+def _json_number(x: float) -> float | None:
+    return float(x) if math.isfinite(x) else None
+
+
+# ---------------------------------------------------------------------- the result
+@dataclass(frozen=True)
+class SketchSummary:
+    name: str
+    unit: str
+    n: int
+    minimum: float
+    maximum: float
+    mean: float
+    quantiles: tuple[tuple[float, float], ...]
+    """(q, value) pairs in the sketch's unit."""
+    skipped: tuple[tuple[str, int, tuple[str, ...]], ...]
+    """(reason, count, first example locations) for rows kept out of the sketch."""
+    nan_count: int
+    inf_count: int
+    negative_count: int
+    zero_count: int
+    exact: bool
+    """True when every value is held exactly (small sketches)."""
+    sources: tuple[str, ...]
+    field: str
+    lines_read: int
+    rows_read: int
+    time_first: str | None
+    time_last: str | None
+    partial: str | None
+    compression: float
+
+    @property
+    def skipped_total(self) -> int:
+        return sum(c for _, c, _ in self.skipped) + self.nan_count + self.inf_count
+
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {
+            "name": self.name,
+            "unit": self.unit,
+            "n": self.n,
+            "min": _json_number(self.minimum),
+        }
+        out.update({quantile_label(q): _json_number(v) for q, v in self.quantiles})
+        out.update(
+            {
+                "max": _json_number(self.maximum),
+                "mean": _json_number(self.mean),
+                "skipped": {r: {"count": c, "examples": list(e)} for r, c, e in self.skipped},
+                "skipped_total": self.skipped_total,
+                "nan_count": self.nan_count,
+                "inf_count": self.inf_count,
+                "negative_count": self.negative_count,
+                "zero_count": self.zero_count,
+                "exact": self.exact,
+                "sources": list(self.sources),
+                "field": self.field,
+                "lines_read": self.lines_read,
+                "rows_read": self.rows_read,
+                "time_first": self.time_first,
+                "time_last": self.time_last,
+                "partial": self.partial,
+                "compression": self.compression,
+            }
+        )
+        return out
+
+
+@dataclass(frozen=True)
+class SetSummary:
+    sketches: tuple[SketchSummary, ...]
+    warnings: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"sketches": {s.name: s.to_dict() for s in self.sketches}, "warnings": list(self.warnings)}
+
+
+def summarise_sketch(name: str, s: Sketch, qs: Sequence[float] = LADDER) -> SketchSummary:
+    p = s.provenance
+    values = s.quantile(np.asarray(qs, dtype=np.float64)) if s.count else np.full(len(qs), np.nan)
+    return SketchSummary(
+        name=name,
+        unit=s.unit,
+        n=s.count,
+        minimum=s.min,
+        maximum=s.max,
+        mean=s.mean,
+        quantiles=tuple((float(q), float(v)) for q, v in zip(qs, values, strict=True)),
+        skipped=tuple(
+            (r, t.count, tuple(t.examples)) for r, t in sorted(p.skipped.items(), key=lambda kv: -kv[1].count)
+        ),
+        nan_count=s.nan_count,
+        inf_count=s.inf_count,
+        negative_count=s.negative_count,
+        zero_count=s.zero_count,
+        exact=s.exact,
+        sources=tuple(p.sources),
+        field=p.field,
+        lines_read=p.lines_read,
+        rows_read=p.rows_read,
+        time_first=p.time_first,
+        time_last=p.time_last,
+        partial=p.partial,
+        compression=s.compression,
+    )
+
+
+def summarise(sset: SketchSet, warnings: Sequence[str] = (), qs: Sequence[float] = LADDER) -> SetSummary:
+    return SetSummary(
+        sketches=tuple(summarise_sketch(name, sset[name], qs) for name in sset.names()),
+        warnings=tuple(warnings),
+    )
+
+
+def summary_dict(
+    sset: SketchSet, warnings: Sequence[str] = (), qs: Sequence[float] = LADDER
+) -> dict[str, Any]:
+    return summarise(sset, warnings, qs).to_dict()
+
+
+# ---------------------------------------------------------------------- text
+def _table(header: Sequence[str], rows: Sequence[Sequence[str]], left: int = 1) -> list[str]:
+    """Columns padded to their widest cell; the first ``left`` columns left-aligned."""
+    widths = [max(len(h), *(len(r[i]) for r in rows)) if rows else len(h) for i, h in enumerate(header)]
+
+    def line(cells: Sequence[str]) -> str:
+        parts = [
+            c.ljust(w) if i < left else c.rjust(w) for i, (c, w) in enumerate(zip(cells, widths, strict=True))
+        ]
+        return "  ".join(parts).rstrip()
+
+    return [line(header), *(line(r) for r in rows)]
+
+
+def _short(name: str, limit: int = 28) -> str:
+    return name if len(name) <= limit else name[: limit - 1] + "…"
+
+
+def _describe(summary: SetSummary) -> list[str]:
+    """Where the numbers come from: sources, field, unit, time range (shared ones once)."""
+    if not summary.sketches:
+        return []
+    out: list[str] = []
+    sources: list[str] = []
+    for s in summary.sketches:
+        sources.extend(x for x in s.sources if x not in sources)
+    if sources:
+        shown = ", ".join(sources[:4]) + (f", … ({len(sources) - 4} more)" if len(sources) > 4 else "")
+        out.append(f"source: {shown}")
+    fields = sorted({s.field for s in summary.sketches if s.field})
+    units = sorted({s.unit for s in summary.sketches})
+    bits = []
+    if fields:
+        bits.append("value: " + "; ".join(fields))
+    bits.append("unit: " + (", ".join(u or "none (numbers as written)" for u in units)))
+    # Groups and splits of one scan each record the whole scan's line count: show it once.
+    lines = max(s.lines_read for s in summary.sketches)
+    if lines:
+        bits.append(f"lines read: {lines:,}")
+    out.append("   ".join(bits))
+    firsts = [s.time_first for s in summary.sketches if s.time_first]
+    lasts = [s.time_last for s in summary.sketches if s.time_last]
+    if firsts and lasts:
+        out.append(f"time: {min(firsts)} to {max(lasts)}")
+    return out
+
+
+def summary_lines(summary: SetSummary) -> list[str]:
+    """The whole summary: provenance, the quantile table, skipped rows, notes, warnings."""
+    out = _describe(summary)
+    header = ["sketch", "n", "skipped", "min", *(quantile_label(q) for q, _ in _first_ladder(summary)), "max"]
+    rows = []
+    for s in summary.sketches:
+        rows.append(
+            [
+                _short(s.name),
+                f"{s.n:,}",
+                f"{s.skipped_total:,}",
+                format_value(s.minimum, s.unit),
+                *(format_value(v, s.unit) for _, v in s.quantiles),
+                format_value(s.maximum, s.unit),
+            ]
+        )
+    if out:
+        out.append("")
+    out.extend(_table(header, rows))
+    out.extend(_skipped_lines(summary))
+    out.extend(_notes(summary))
+    for w in summary.warnings:
+        out.append(f"warning: {w}")
+    return out
+
+
+def _first_ladder(summary: SetSummary) -> tuple[tuple[float, float], ...]:
+    return summary.sketches[0].quantiles if summary.sketches else tuple((q, math.nan) for q in LADDER)
+
+
+def _skipped_lines(summary: SetSummary) -> list[str]:
+    """Rows kept out of the sketch, by reason, with where to look: never a silent drop."""
+    lines: list[str] = []
+    many = len(summary.sketches) > 1
+    for s in summary.sketches:
+        items = list(s.skipped)
+        if s.nan_count:
+            items.append(("NaN value", s.nan_count, ()))
+        if s.inf_count:
+            items.append(("infinite value", s.inf_count, ()))
+        for reason, count, examples in items:
+            where = f" (first at {_locations(examples)})" if examples else ""
+            prefix = f"{_short(s.name)}: " if many else ""
+            lines.append(f"  {prefix}{reason.replace('_', ' ')}: {count:,}{where}")
+    if not lines:
+        return []
+    return ["", "skipped rows (not in the sketch):", *lines]
+
+
+def _locations(examples: Sequence[str]) -> str:
+    """'a.log:3', 'a.log:9', 'b.log:4' -> 'a.log:3, 9; b.log:4' (file named once)."""
+    parts: list[tuple[str, list[str]]] = []
+    for ex in examples:
+        where, sep, line = ex.rpartition(":")
+        if not sep or not line.isdigit():
+            where, line = ex, ""
+        if parts and parts[-1][0] == where and line:
+            parts[-1][1].append(line)
+        else:
+            parts.append((where, [line] if line else []))
+    return "; ".join(f"{w}:{', '.join(ls)}" if ls else w for w, ls in parts)
+
+
+def _qlabel(q: float) -> str:
+    return "min" if q == 0 else "max" if q == 1 else quantile_label(q)
+
+
+def _notes(summary: SetSummary) -> list[str]:
+    notes: list[str] = []
+    for s in summary.sketches:
+        tag = f"{_short(s.name)}: " if len(summary.sketches) > 1 else ""
+        if s.negative_count:
+            notes.append(f"{tag}{s.negative_count:,} negative values (kept in the sketch)")
+        if s.partial:
+            notes.append(f"{tag}PARTIAL: {s.partial}")
+        if s.n == 0:
+            notes.append(f"{tag}no usable values at all")
+    if summary.sketches and all(s.exact for s in summary.sketches if s.n):
+        notes.append("every value is held exactly: these quantiles are exact, not estimated")
+    return ["", *notes] if notes else []
+
+
+def quantile_lines(summary: SetSummary) -> list[str]:
+    """Only the asked-for quantiles (``show -q``): one row per sketch."""
+    if not summary.sketches:
+        return []
+    header = ["sketch", "n", *(_qlabel(q) for q, _ in summary.sketches[0].quantiles)]
+    rows = [
+        [_short(s.name), f"{s.n:,}", *(format_value(v, s.unit) for _, v in s.quantiles)]
+        for s in summary.sketches
+    ]
+    return _table(header, rows)
