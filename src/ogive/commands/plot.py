@@ -1,15 +1,239 @@
-"""`ogive plot` (not built yet)."""
+"""`ogive plot`: a text-mode Q-Q, detrended, P-P, CDF or shift plot of one or two distributions."""
 
 from __future__ import annotations
 
 import argparse
+import os
+import shutil
+import sys
+from typing import Any
 
 from ..errors import OgiveError
+from .common import add_source_options
+
+KINDS = ("qq", "detrended", "pp", "cdf", "shift")
+
+DESCRIPTION = """\
+Draw one distribution against a reference in the terminal, as braille dots (or plain
+ASCII with --ascii). With two distributions, B is read against A (A is the baseline,
+as in 'compare'); with --model FAMILY, A is read against a model of that family fitted
+to A. A and B are saved sketches (run.ogive, run.ogive:GROUP) or sources to scan with
+the reading options below.
+
+Kinds (the "subject" is B, or A under --model; the reference is A, or the model):
+  qq         subject quantiles (y) against reference quantiles (x) with the line
+             y = x; above the line the subject is larger (slower) at that
+             probability. p50, p90, p99 and p99.9 are marked.
+  detrended  the subject's deviation from the reference in % along a tail-stretching
+             probability axis: tail departures too small to see on a Q-Q plot show.
+  pp         the subject's CDF against the reference's at the same values (the body).
+  cdf        both CDFs on one value axis.
+  shift      B − A at the deciles and tail quantiles with simultaneous intervals
+             (needs B; Doksum's shift function).
+
+The dashed band on qq, detrended and pp plots is a 95 % simultaneous band from the
+Dvoretzky–Kiefer–Wolfowitz inequality (sketch error included): if the subject really
+followed the reference, the whole curve would stay inside it 95 times in 100. A curve that
+leaves it shows a real difference; one that stays inside is not proof of a good fit, only
+that these data cannot tell — and in the far tail the band is wide for that reason.
+"""
+
+EPILOG = """\
+examples:
+  ogive plot before.ogive after.ogive
+  ogive plot api.ogive --model lognormal --kind detrended
+  ogive plot runs.ogive:before runs.ogive:after --kind shift --width 100 --height 30
+  ogive plot access.log.gz --model gamma --format text --pattern ' (\\d+)ms$' --ascii
+
+Colour is added only on a terminal and never when NO_COLOR is set; the series are told
+apart by their glyphs and the legend, not by colour.
+"""
+
+DEFAULT_MAX = (120, 40)
+"""Largest size picked from the terminal when --width/--height are not given."""
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    pass
+    parser.add_argument(
+        "a", metavar="A", help="the distribution under study: a sketch file[:GROUP] or a source"
+    )
+    parser.add_argument(
+        "b", metavar="B", nargs="?", default=None, help="the reference distribution (sketch or source)"
+    )
+    parser.add_argument(
+        "--model",
+        metavar="FAMILY",
+        default=None,
+        help="use a model of this family fitted to A as the reference (e.g. lognormal, gamma, weibull)",
+    )
+    parser.add_argument("--kind", choices=KINDS, default="qq", help="which plot (default qq)")
+    parser.add_argument(
+        "--width", type=_size, default=None, help="columns (default: terminal width, at most 120)"
+    )
+    parser.add_argument(
+        "--height", type=_size, default=None, help="lines (default: terminal height, at most 40)"
+    )
+    parser.add_argument("--ascii", action="store_true", help="plain ASCII instead of Unicode braille")
+    parser.add_argument(
+        "--linear",
+        action="store_true",
+        help="linear value axes (default: log when every value is positive)",
+    )
+    parser.add_argument(
+        "--no-band", dest="band", action="store_false", help="leave out the simultaneous band"
+    )
+    parser.add_argument(
+        "--confidence",
+        type=float,
+        default=0.95,
+        help="level of the band and of the shift intervals (default 0.95)",
+    )
+    add_source_options(parser)
+
+
+def _size(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number of cells, got {text!r}") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"expected a positive number of cells, got {value}")
+    return value
+
+
+def plot_size(width: int | None, height: int | None) -> tuple[int, int]:
+    """The requested size, or the terminal's (one line spared for the prompt), capped."""
+    from ..render import MIN_HEIGHT, MIN_WIDTH
+
+    term = shutil.get_terminal_size((80, 24))
+    w = width if width is not None else max(min(term.columns, DEFAULT_MAX[0]), MIN_WIDTH)
+    h = height if height is not None else max(min(term.lines - 1, DEFAULT_MAX[1]), MIN_HEIGHT)
+    if w < MIN_WIDTH or h < MIN_HEIGHT:
+        raise OgiveError(
+            f"a plot needs at least {MIN_WIDTH}×{MIN_HEIGHT} cells; --width {w} --height {h} is smaller."
+        )
+    return w, h
+
+
+def _load(spec: str, args: argparse.Namespace) -> tuple[str, Any]:
+    try:
+        from .common import load_one
+    except ImportError:  # pragma: no cover - only before the reader lands
+        from ..store import load_one as load_saved
+
+        return load_saved(spec)
+    return load_one(spec, args)
+
+
+def _fitted_model(sketch: Any, family: str) -> tuple[Any, str]:
+    """A model of ``family`` fitted to the sketch by the fit package, and its label."""
+    try:
+        from ..fit import fit_sketch  # type: ignore[attr-defined]
+    except ImportError:
+        raise OgiveError(
+            "model fitting is not available in this build; compare against a second distribution B instead."
+        ) from None
+    try:
+        report = fit_sketch(sketch, families=[family])
+    except ValueError as exc:
+        raise OgiveError(f"cannot fit {family!r}: {exc}") from None
+    models = list(getattr(report, "models", None) or [])
+    if not models:
+        raise OgiveError(f"no {family!r} model could be fitted to these values.")
+    model = models[0]
+    return model, str(getattr(model, "label", family))
 
 
 def run(args: argparse.Namespace) -> int:
-    raise OgiveError("'ogive plot' is not built yet.")
+    import numpy as np
+
+    from .. import render
+    from ..fit import curves
+    from ..fit.qq import pairs_from_model, pairs_from_sketches
+
+    if args.b is not None and args.model is not None:
+        raise OgiveError("give either a second distribution B or --model FAMILY, not both.")
+    if args.b is None and args.model is None:
+        raise OgiveError(
+            "nothing to plot A against; name a second distribution B or a model with --model FAMILY."
+        )
+    if not 0 < args.confidence < 1:
+        raise OgiveError(f"--confidence must lie strictly between 0 and 1, got {args.confidence}.")
+    width, height = plot_size(args.width, args.height)
+    name_a, a = _load(args.a, args)
+    if a.count == 0:
+        raise OgiveError(f"{args.a} holds no values; there is nothing to plot.")
+    log = False if args.linear else None
+    opts: dict[str, Any] = {"width": width, "height": height, "ascii_only": args.ascii}
+
+    # With two distributions B is read against A (A the baseline), as in 'compare';
+    # with --model, A is read against the model.
+    if args.model is not None:
+        if args.kind == "shift":
+            raise OgiveError("the shift function compares two distributions; give B instead of --model.")
+        model, ref_name = _fitted_model(a, args.model)
+        subject, subj_name, reference = a, name_a, model
+        pairs = pairs_from_model(a, model, subject_label=name_a, reference_label=ref_name)
+        if args.band:
+            eps = curves.band_epsilon(a, confidence=args.confidence)
+            pairs = curves.with_dkw_band(pairs, model.ppf, eps, confidence=args.confidence)
+    else:
+        name_b, b = _load(args.b, args)
+        if b.count == 0:
+            raise OgiveError(f"{args.b} holds no values; there is nothing to plot.")
+        if a.unit != b.unit:
+            raise OgiveError(
+                f"A is in {a.unit or 'no unit'!r} and B in {b.unit or 'no unit'!r}; "
+                "rescan one with the same --unit."
+            )
+        if name_a == name_b:
+            name_a, name_b = "A", "B"
+        if args.kind == "shift":
+            from ..fit.shift import shift_function
+
+            sf = shift_function(a, b, confidence=args.confidence, labels=(name_a, name_b))
+            _emit(render.shift_plot(sf, **opts))
+            return 0
+        subject, subj_name, reference, ref_name = b, name_b, a, name_a
+        pairs = pairs_from_sketches(b, a, subject_label=name_b, reference_label=name_a)
+        if args.band:
+            eps = curves.band_epsilon(b, a, confidence=args.confidence)
+            pairs = curves.with_dkw_band(pairs, a.quantile, eps, confidence=args.confidence)
+
+    if args.kind == "qq":
+        lines = render.qq_plot(pairs, log=log, **opts)
+    elif args.kind == "detrended":
+        lines = render.detrended_plot(pairs, **opts)
+    elif args.kind == "pp":
+        pp = curves.pp_from_sketches(
+            subject,
+            reference,
+            subject_label=subj_name,
+            reference_label=ref_name,
+            confidence=args.confidence if args.band else None,
+        )
+        lines = render.pp_plot(pp, **opts)
+    elif args.kind == "cdf":
+        if args.model is not None:
+            p = curves.cdf_probs()
+            overlay = curves.CDFOverlay(
+                (
+                    curves.CDFSeries(np.asarray(reference.ppf(p), dtype=np.float64), p, ref_name),
+                    curves.CDFSeries(subject.quantile(p), p, subj_name),
+                ),
+                a.unit,
+            )
+        else:
+            overlay = curves.cdf_from_sketches({ref_name: reference, subj_name: subject})
+        lines = render.cdf_plot(overlay, log=log, **opts)
+    else:  # pragma: no cover - argparse restricts the choices
+        raise OgiveError(f"unknown plot kind {args.kind!r}.")
+    _emit(lines)
+    return 0
+
+
+def _emit(lines: Any) -> None:
+    from ..render import ansi_lines, color_allowed
+
+    out = ansi_lines(lines) if color_allowed(sys.stdout) and not os.environ.get("NO_COLOR") else list(lines)
+    sys.stdout.write("\n".join(out) + "\n")

@@ -1,0 +1,375 @@
+"""The numbers behind the plots that :mod:`ogive.fit.qq` does not already give.
+
+P-P points, CDF overlay series, detrended Q-Q series, the points at p50/p90/p99/p99.9,
+and a simultaneous band from the Dvoretzky–Kiefer–Wolfowitz inequality — all from
+sketches (or from quantile pairs, which came from sketches), so the renderer only
+draws. Every function costs a few hundred sketch queries, whatever n is.
+
+DKW band. A. Dvoretzky, J. Kiefer and J. Wolfowitz, *Ann. Math. Statist.* 27 (1956)
+642–669, with the tight constant of P. Massart, "The tight constant in the
+Dvoretzky–Kiefer–Wolfowitz inequality", *Ann. Probab.* 18 (1990) 1269–1283:
+P(sup_x |F_n(x) − F(x)| > ε) ≤ 2·exp(−2nε²), so ε = sqrt(ln(2/α) / (2n)) holds for
+the whole curve at once at level 1 − α. A sketch's CDF is itself off by at most its
+rank error, which is added to ε. For two sketches both empirical CDFs must stay within
+their own ε of a common F (α/2 each, Bonferroni), so they differ by at most the sum.
+On a Q-Q plot the band is [Q_ref(p − ε), Q_ref(p + ε)] at x = Q_ref(p): if the subject
+follows the reference, every subject quantile lies inside it with probability at least
+1 − α; where p ± ε leaves [0, 1] the band is unbounded (±inf).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any, Protocol
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ..sketch import Sketch, quantile_label
+from .qq import QuantilePairs
+
+FloatArray = NDArray[np.float64]
+
+MARK_QS: tuple[float, ...] = (0.5, 0.9, 0.99, 0.999)
+"""The quantiles a plot names: where engineers read a latency distribution."""
+
+
+class CDFModel(Protocol):
+    """A reference with a CDF (a fitted family, a frozen scipy distribution)."""
+
+    def cdf(self, x: FloatArray) -> FloatArray: ...
+
+
+def _list(a: FloatArray | None) -> list[float | None] | None:
+    if a is None:
+        return None
+    return [float(v) if np.isfinite(v) else None for v in a]
+
+
+# ---------------------------------------------------------------- DKW band
+def dkw_epsilon(n: int, confidence: float = 0.95) -> float:
+    """Half-width of the DKW–Massart band for an empirical CDF of ``n`` values."""
+    if n < 1:
+        raise ValueError(f"n must be at least 1, got {n!r}.")
+    if not 0 < confidence < 1:
+        raise ValueError(f"confidence must lie strictly between 0 and 1, got {confidence!r}.")
+    return math.sqrt(math.log(2.0 / (1.0 - confidence)) / (2.0 * n))
+
+
+def band_epsilon(subject: Sketch, reference: Sketch | None = None, *, confidence: float = 0.95) -> float:
+    """ε for subject vs a model (``reference`` None) or vs a second sketch, sketch error included."""
+    if reference is None:
+        return dkw_epsilon(subject.count, confidence) + subject.rank_error_bound()
+    alpha_each = (1.0 - confidence) / 2.0
+    return (
+        dkw_epsilon(subject.count, 1.0 - alpha_each)
+        + dkw_epsilon(reference.count, 1.0 - alpha_each)
+        + subject.rank_error_bound()
+        + reference.rank_error_bound()
+    )
+
+
+def with_dkw_band(
+    pairs: QuantilePairs,
+    reference_ppf: Callable[[FloatArray], FloatArray],
+    epsilon: float,
+    *,
+    confidence: float = 0.95,
+) -> QuantilePairs:
+    """``pairs`` with band_low/high = Q_ref(p ∓ ε): the simultaneous band of the module text.
+
+    ``reference_ppf`` is the reference's quantile function (``model.ppf`` or
+    ``sketch.quantile``); ``epsilon`` from :func:`band_epsilon`.
+    """
+    p = pairs.probs
+    lo_p, hi_p = p - epsilon, p + epsilon
+    low = np.full(p.shape, -np.inf)
+    high = np.full(p.shape, np.inf)
+    inside_lo, inside_hi = lo_p > 0, hi_p < 1
+    if inside_lo.any():
+        low[inside_lo] = np.asarray(reference_ppf(lo_p[inside_lo]), dtype=np.float64)
+    if inside_hi.any():
+        high[inside_hi] = np.asarray(reference_ppf(hi_p[inside_hi]), dtype=np.float64)
+    label = f"{confidence:.0%} simultaneous band (DKW, ε={epsilon:.3g})"
+    return dataclasses.replace(pairs, band_low=low, band_high=high, band_label=label)
+
+
+# ---------------------------------------------------------------- marks
+@dataclass(frozen=True)
+class Mark:
+    """One named quantile on a Q-Q curve."""
+
+    q: float
+    reference: float
+    subject: float
+
+    @property
+    def label(self) -> str:
+        return quantile_label(self.q)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"q": self.q, "label": self.label, "reference": self.reference, "subject": self.subject}
+
+
+def _logit(p: FloatArray) -> FloatArray:
+    pc = np.clip(p, 1e-300, 1 - 1e-16)
+    return np.asarray(np.log(pc / (1 - pc)), dtype=np.float64)
+
+
+def marks_from_pairs(pairs: QuantilePairs, qs: tuple[float, ...] = MARK_QS) -> tuple[Mark, ...]:
+    """The named quantiles inside the pairs' probability range (interpolated in logit p).
+
+    A quantile beyond the grid (p99.9 of 500 values) is left out: the data say nothing there.
+    """
+    p = pairs.probs
+    if p.size == 0:
+        return ()
+    lp = _logit(p)
+    out = []
+    for q in qs:
+        if p[0] - 1e-12 <= q <= p[-1] + 1e-12:
+            lq = float(_logit(np.array([q]))[0])
+            out.append(
+                Mark(q, float(np.interp(lq, lp, pairs.reference)), float(np.interp(lq, lp, pairs.subject)))
+            )
+    return tuple(out)
+
+
+# ---------------------------------------------------------------- detrended
+@dataclass(frozen=True)
+class Detrended:
+    """Deviation of subject from reference at each probability (the detrended Q-Q view)."""
+
+    probs: FloatArray
+    reference: FloatArray
+    deviation: FloatArray
+    """``subject / reference − 1`` when ``relative``, else ``subject − reference`` in ``unit``."""
+    relative: bool
+    unit: str
+    reference_label: str
+    subject_label: str
+    band_low: FloatArray | None = None
+    band_high: FloatArray | None = None
+    band_label: str = ""
+    marks: tuple[Mark, ...] = ()
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "unit": self.unit,
+            "relative": self.relative,
+            "reference_label": self.reference_label,
+            "subject_label": self.subject_label,
+            "probs": self.probs.tolist(),
+            "reference": _list(self.reference),
+            "deviation": _list(self.deviation),
+            "band_low": _list(self.band_low),
+            "band_high": _list(self.band_high),
+            "band_label": self.band_label,
+            "marks": [m.to_dict() for m in self.marks],
+        }
+
+
+def detrended_from_pairs(pairs: QuantilePairs) -> Detrended:
+    """Relative deviation where every reference quantile is positive, absolute otherwise.
+
+    Relative reads best for latency (a 10 % slower tail is 10 % at 5 ms or at 5 s); a
+    reference at or below zero (a normal model's lower tail) has no relative scale.
+    """
+    ref = pairs.reference
+    relative = bool(np.all(ref[np.isfinite(ref)] > 0))
+
+    def dev(v: FloatArray) -> FloatArray:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.asarray(v / ref - 1.0 if relative else v - ref, dtype=np.float64)
+
+    low = dev(pairs.band_low) if pairs.band_low is not None else None
+    high = dev(pairs.band_high) if pairs.band_high is not None else None
+    marks = tuple(
+        dataclasses.replace(
+            m, subject=(m.subject / m.reference - 1.0) if relative else m.subject - m.reference
+        )
+        for m in marks_from_pairs(pairs)
+    )
+    return Detrended(
+        probs=pairs.probs,
+        reference=ref,
+        deviation=dev(pairs.subject),
+        relative=relative,
+        unit=pairs.unit,
+        reference_label=pairs.reference_label,
+        subject_label=pairs.subject_label,
+        band_low=low,
+        band_high=high,
+        band_label=pairs.band_label,
+        marks=marks,
+    )
+
+
+# ---------------------------------------------------------------- P-P
+@dataclass(frozen=True)
+class PPPoints:
+    """(F_ref(x), F_subject(x)) along x: both in [0, 1]; the diagonal means agreement."""
+
+    reference_p: FloatArray
+    subject_p: FloatArray
+    reference_label: str
+    subject_label: str
+    epsilon: float | None = None
+    """Half-width of a simultaneous band around the diagonal, if known."""
+    band_label: str = ""
+    marks: tuple[Mark, ...] = ()
+    """Mark.reference/subject hold probabilities here."""
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "reference_label": self.reference_label,
+            "subject_label": self.subject_label,
+            "reference_p": self.reference_p.tolist(),
+            "subject_p": self.subject_p.tolist(),
+            "epsilon": self.epsilon,
+            "band_label": self.band_label,
+            "marks": [m.to_dict() for m in self.marks],
+        }
+
+
+def _pp_marks(ref_p: FloatArray, subj_p: FloatArray, qs: tuple[float, ...]) -> tuple[Mark, ...]:
+    out = []
+    for q in qs:
+        if ref_p.size and ref_p[0] <= q <= ref_p[-1]:
+            out.append(Mark(q, q, float(np.interp(q, ref_p, subj_p))))
+    return tuple(out)
+
+
+def pp_from_sketches(
+    subject: Sketch,
+    reference: Sketch | CDFModel,
+    *,
+    subject_label: str = "subject",
+    reference_label: str = "reference",
+    probs: FloatArray | None = None,
+    confidence: float | None = 0.95,
+) -> PPPoints:
+    """Exact sketch CDFs at the reference's quantiles (x spread evenly in reference p).
+
+    The x grid is the reference quantiles at ``probs`` (default 201 evenly spaced
+    probabilities): P-P plots are read on a linear probability scale, so even spacing
+    is what shows.
+    """
+    p = np.linspace(0.0, 1.0, 201) if probs is None else np.asarray(probs, dtype=np.float64)
+    if isinstance(reference, Sketch):
+        x = reference.quantile(p)
+        ref_p = reference.cdf(x)
+        eps = band_epsilon(subject, reference, confidence=confidence) if confidence else None
+    else:
+        ppf = getattr(reference, "ppf", None)
+        if ppf is None:
+            raise ValueError("the reference model needs a ppf (quantile function) for a P-P plot.")
+        with np.errstate(all="ignore"):
+            x = np.asarray(ppf(p), dtype=np.float64)
+        ref_p = np.asarray(reference.cdf(x), dtype=np.float64)
+        ref_p = np.where(np.isfinite(x), ref_p, p)
+        eps = band_epsilon(subject, None, confidence=confidence) if confidence else None
+    subj_p = np.where(
+        np.isfinite(x), subject.cdf(np.where(np.isfinite(x), x, 0.0)), np.where(x > 0, 1.0, 0.0)
+    )
+    label = f"{confidence:.0%} simultaneous band (DKW, ε={eps:.3g})" if eps is not None and confidence else ""
+    return PPPoints(
+        ref_p, subj_p, reference_label, subject_label, eps, label, _pp_marks(ref_p, subj_p, MARK_QS)
+    )
+
+
+def pp_from_pairs(pairs: QuantilePairs, *, epsilon: float | None = None) -> PPPoints:
+    """P-P points from quantile pairs alone: F_subject(Q_ref(p)) by inverting the subject's quantiles.
+
+    An approximation (linear between grid points, clamped beyond the grid) for callers
+    that hold only pairs; :func:`pp_from_sketches` is exact.
+    """
+    subj = np.maximum.accumulate(np.where(np.isfinite(pairs.subject), pairs.subject, -np.inf))
+    subj_p = np.interp(pairs.reference, subj, pairs.probs, left=0.0, right=1.0)
+    label = f"simultaneous band (DKW, ε={epsilon:.3g})" if epsilon is not None else ""
+    return PPPoints(
+        pairs.probs,
+        np.asarray(subj_p, dtype=np.float64),
+        pairs.reference_label,
+        pairs.subject_label,
+        epsilon,
+        label,
+        _pp_marks(pairs.probs, np.asarray(subj_p, dtype=np.float64), MARK_QS),
+    )
+
+
+# ---------------------------------------------------------------- CDF overlay
+@dataclass(frozen=True)
+class CDFSeries:
+    values: FloatArray
+    probs: FloatArray
+    label: str
+
+
+@dataclass(frozen=True)
+class CDFOverlay:
+    """Empirical CDFs of two (or more) distributions in one unit, as (value, p) curves."""
+
+    series: tuple[CDFSeries, ...]
+    unit: str
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "unit": self.unit,
+            "series": [
+                {"label": s.label, "values": _list(s.values), "probs": s.probs.tolist()} for s in self.series
+            ],
+        }
+
+
+def cdf_probs(points: int = 241, edge: float = 1e-4) -> FloatArray:
+    """Even in p through the body plus logit-spaced tails, so both ends of the curve are drawn."""
+    body = np.linspace(0.0, 1.0, points)
+    t = np.linspace(math.log(edge / (1 - edge)), -math.log(edge / (1 - edge)), 60)
+    tails = 1 / (1 + np.exp(-t))
+    return np.unique(np.concatenate((body, tails)))
+
+
+def cdf_from_sketches(sketches: dict[str, Sketch], *, probs: FloatArray | None = None) -> CDFOverlay:
+    if not sketches:
+        raise ValueError("a CDF overlay needs at least one sketch.")
+    units = {s.unit for s in sketches.values()}
+    if len(units) > 1:
+        raise ValueError(f"sketches in different units ({', '.join(sorted(units))}) cannot share one axis.")
+    p = cdf_probs() if probs is None else probs
+    series = tuple(CDFSeries(s.quantile(p), p, name) for name, s in sketches.items())
+    return CDFOverlay(series, units.pop())
+
+
+def cdf_from_pairs(pairs: QuantilePairs) -> CDFOverlay:
+    """Reference and subject CDFs traced by their quantiles (exact at the grid)."""
+    return CDFOverlay(
+        (
+            CDFSeries(pairs.reference, pairs.probs, pairs.reference_label),
+            CDFSeries(pairs.subject, pairs.probs, pairs.subject_label),
+        ),
+        pairs.unit,
+    )
+
+
+# ---------------------------------------------------------------- shift function input
+class ShiftLike(Protocol):
+    """What the shift plot draws; :class:`ogive.fit.shift.ShiftFunction` has it."""
+
+    @property
+    def probs(self) -> FloatArray: ...
+    @property
+    def delta(self) -> FloatArray: ...
+    @property
+    def delta_low(self) -> FloatArray: ...
+    @property
+    def delta_high(self) -> FloatArray: ...
+    @property
+    def unit(self) -> str: ...
+    @property
+    def labels(self) -> tuple[str, str]: ...
+    @property
+    def confidence(self) -> float: ...

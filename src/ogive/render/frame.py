@@ -1,0 +1,337 @@
+"""The frame around a canvas: tick labels, axis lines, header legend, point labels.
+
+Layout of a ``width`` × ``height`` plot (every line at most ``width`` cells, exactly
+``height`` lines)::
+
+    header (1 line below 20 rows, 2 from 20): y-axis name, legend, x-axis name if it
+    did not fit below
+    y tick labels │ canvas rows
+                  └──┬───────┬──  (axis line with tick marks)
+                     10ms    100ms   x name →
+
+Point labels (p50, p99, …) are placed beside their marks at the first free spot of a
+few candidates; a label that finds none is left out rather than drawn over another.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import NDArray
+
+from .canvas import Canvas, Layer
+from .ticks import Scale, Tick, choose_ticks
+
+MIN_WIDTH, MIN_HEIGHT = 40, 12
+"""The smallest plot that stays readable; smaller requests are refused, not squeezed."""
+
+Span = tuple[int, int, str]
+"""(start, end, role) of a run of cells in one line; the role names its colour."""
+
+
+class PlotLines(list[str]):
+    """The plot's lines, with optional colour spans per line (``spans[i]`` for line i).
+
+    A plain ``list[str]`` to everything that only prints; the spans let a caller add
+    colour when it wants to (never needed to tell series apart).
+    """
+
+    spans: list[list[Span]]
+
+
+@dataclass(frozen=True)
+class LegendItem:
+    glyph: str
+    text: str
+    role: str
+
+
+@dataclass
+class PlacedLabel:
+    """A text label on the plot area (0-based row/col inside the canvas)."""
+
+    text: str
+    row: int
+    col: int
+    anchor: tuple[int, int]
+    """The (row, col) of the mark it names."""
+
+
+@dataclass
+class Figure:
+    """One plot being assembled; ``lines()`` gives the finished text."""
+
+    width: int
+    height: int
+    xscale: Scale
+    yscale: Scale
+    xfmt: Callable[[float, int], str]
+    yfmt: Callable[[float, int], str]
+    ascii_only: bool = False
+    x_title: str = ""
+    y_title: str = ""
+    legend: list[LegendItem] = field(default_factory=list)
+    header_rows: int = 0
+    ylabel_width: int = 0
+    canvas: Canvas = field(init=False)
+    xticks: list[Tick] = field(init=False)
+    yticks: list[Tick] = field(init=False)
+    overlay: dict[tuple[int, int], tuple[str, str]] = field(default_factory=dict)
+    labels: list[PlacedLabel] = field(default_factory=list)
+    marks: dict[str, tuple[int, int]] = field(default_factory=dict)
+    """Mark name -> (row, col) inside the canvas."""
+    _pending: list[tuple[str, int, int]] = field(default_factory=list)
+
+    def __post_init__(self) -> None:
+        if self.width < MIN_WIDTH or self.height < MIN_HEIGHT:
+            raise ValueError(
+                f"a plot needs at least {MIN_WIDTH}×{MIN_HEIGHT} cells; got {self.width}×{self.height}."
+            )
+        self.header_rows = 1 if self.height < 20 else 2
+        rows = self.height - self.header_rows - 2
+        self.yticks = [t for t in choose_ticks(self.yscale, rows, self.yfmt, horizontal=False) if t.major]
+        self.ylabel_width = max([len(t.label) for t in self.yticks] + [1])
+        cols = self.width - self.ylabel_width - 1
+        self.xticks = choose_ticks(self.xscale, cols, self.xfmt, horizontal=True, min_gap=2)
+        self.canvas = Canvas(cols, rows, ascii_only=self.ascii_only)
+
+    # ------------------------------------------------------------ coordinates
+    def to_dots(
+        self, x: NDArray[np.float64], y: NDArray[np.float64]
+    ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+        xd = self.xscale.forward(np.asarray(x, dtype=np.float64)) * (self.canvas.dot_width - 1)
+        yd = (1 - self.yscale.forward(np.asarray(y, dtype=np.float64))) * (self.canvas.dot_height - 1)
+        return xd, yd
+
+    def to_cell(self, x: float, y: float) -> tuple[int, int] | None:
+        xd, yd = self.to_dots(np.array([x]), np.array([y]))
+        if not (np.isfinite(xd[0]) and np.isfinite(yd[0])):
+            return None
+        c, r = int(np.rint(xd[0])) // 2, int(np.rint(yd[0])) // 4
+        if 0 <= c < self.canvas.cols and 0 <= r < self.canvas.rows:
+            return r, c
+        return None
+
+    def glyph(self, unicode_glyph: str, ascii_glyph: str) -> str:
+        return ascii_glyph if self.ascii_only else unicode_glyph
+
+    # ------------------------------------------------------------ series
+    def line(
+        self,
+        layer: Layer,
+        x: NDArray[np.float64],
+        y: NDArray[np.float64],
+        *,
+        dash: tuple[int, int] | None = None,
+    ) -> None:
+        idx = self.canvas.layer(layer)
+        xd, yd = self.to_dots(x, y)
+        self.canvas.polyline(idx, xd, yd, dash=dash)
+
+    def line_dots(
+        self,
+        layer: Layer,
+        xd: NDArray[np.float64],
+        yd: NDArray[np.float64],
+        *,
+        dash: tuple[int, int] | None = None,
+    ) -> None:
+        idx = self.canvas.layer(layer)
+        self.canvas.polyline(idx, xd, yd, dash=dash)
+
+    def put(self, row: int, col: int, text: str, role: str) -> None:
+        for i, ch in enumerate(text):
+            if 0 <= col + i < self.canvas.cols and 0 <= row < self.canvas.rows:
+                self.overlay[(row, col + i)] = (ch, role)
+
+    def mark(self, name: str, x: float, y: float, glyph: str, *, label: str | None = None) -> None:
+        """A named point drawn with ``glyph`` and labelled where the label fits."""
+        cell = self.to_cell(x, y)
+        if cell is None:
+            return
+        r, c = cell
+        self.marks[name] = cell
+        self.put(r, c, glyph, "mark")
+        if label:
+            self._pending.append((label, r, c))
+
+    def finish(self) -> Figure:
+        """Place the pending labels, after every mark is down (so none lands under one)."""
+        pending, self._pending = self._pending, []
+        for label, r, c in pending:
+            self._place_label(label, r, c)
+        return self
+
+    def _taken(self, row: int, col: int, length: int) -> bool:
+        if row < 0 or row >= self.canvas.rows or col < 0 or col + length > self.canvas.cols:
+            return True
+        for lab in self.labels:
+            if lab.row == row and col < lab.col + len(lab.text) + 1 and lab.col < col + length + 1:
+                return True
+        return any(mr == row and col <= mc < col + length for mr, mc in self.marks.values())
+
+    def _place_label(self, text: str, r: int, c: int) -> None:
+        """Beside the mark if possible; never nearer to another mark than to its own.
+
+        Cost: rows away from the mark weigh most (a label on its mark's row cannot be
+        misread), then hidden data cells, then hidden lines and bands.
+        """
+        n = len(text)
+        candidates = [
+            (r, c + 2), (r, c - n - 1), (r, c + 1), (r, c - n),
+            (r - 1, c + 1), (r + 1, c + 1), (r - 1, c - n), (r + 1, c - n),
+            (r - 1, c - n // 2), (r + 1, c - n // 2),
+        ]  # fmt: skip
+        glyphs, roles = self.canvas.cells()
+        best: tuple[int, int] | None = None
+        best_cost = float("inf")
+        for row, col in candidates:
+            if self._taken(row, col, n) or not self._nearest_is_own(row, col, n, (r, c)):
+                continue
+            cost = 4.0 * abs(row - r)
+            for k in range(col, col + n):
+                if (row, k) in self.overlay:
+                    cost += 3.0
+                elif roles[row][k] in ("subject", "second"):
+                    cost += 2.0
+                elif glyphs[row][k] != " ":
+                    cost += 0.5
+            if cost < best_cost:
+                best, best_cost = (row, col), cost
+        if best is None:
+            return
+        self.labels.append(PlacedLabel(text, best[0], best[1], (r, c)))
+        self.put(best[0], best[1], text, "label")
+
+    def _nearest_is_own(self, row: int, col: int, n: int, own: tuple[int, int]) -> bool:
+        def dist(cell: tuple[int, int]) -> float:
+            mr, mc = cell
+            gap = max(col - mc, mc - (col + n - 1), 0)
+            return abs(mr - row) * 2.0 + gap
+
+        mine = dist(own)
+        return all(dist(m) > mine for m in self.marks.values() if m != own)
+
+    # ------------------------------------------------------------ output
+    def lines(self) -> PlotLines:
+        self.finish()
+        W = self.width
+        glyphs, roles = self.canvas.cells()
+        for (r, c), (ch, role) in self.overlay.items():
+            glyphs[r][c] = ch
+            roles[r][c] = role
+        a = self.ascii_only
+        v_axis, v_tick = ("|", "+") if a else ("│", "┤")
+        corner, h_axis, h_tick, h_minor = ("+", "-", "+", "-") if a else ("└", "─", "┬", "┴")
+        rows: list[list[tuple[str, str]]] = []
+
+        # Header: y title, legend items, x title when the bottom line has no room.
+        x_label_cells, x_title_placed = self._x_label_line()
+        items: list[tuple[str, str]] = []  # (text, role) tokens
+        head: list[list[tuple[str, str]]] = []
+        y_title = self.y_title
+        tokens: list[list[tuple[str, str]]] = []
+        if y_title:
+            tokens.append([(("^ " if a else "↑ ") + y_title, "title")])
+        for item in self.legend:
+            tokens.append([(item.glyph, item.role), (" " + item.text, "legend")])
+        if not x_title_placed and self.x_title:
+            tokens.append([(self.x_title + (" ->" if a else " →"), "title")])
+        del items
+        current: list[tuple[str, str]] = []
+        for tok in tokens:
+            tok_len = sum(len(t) for t, _ in tok)
+            cur_len = sum(len(t) for t, _ in current)
+            gap = 2 if current else 0
+            if cur_len + gap + tok_len <= W:
+                if current:
+                    current.append(("  ", ""))
+                current.extend(tok)
+                continue
+            if current:
+                head.append(current)
+                current = []
+            if len(head) >= self.header_rows:
+                break
+            if tok_len > W:
+                text = "".join(t for t, _ in tok)
+                tok = [(text[: W - 1] + ("~" if a else "…"), tok[0][1])]
+            current.extend(tok)
+        if current and len(head) < self.header_rows:
+            head.append(current)
+        while len(head) < self.header_rows:
+            head.append([])
+        for h in head[: self.header_rows]:
+            cells: list[tuple[str, str]] = []
+            for text, role in h:
+                cells.extend((ch, role) for ch in text)
+            rows.append(cells[:W])
+
+        ytick_rows: dict[int, str] = {}
+        for t in self.yticks:
+            rr = int(np.rint((1 - t.position) * (self.canvas.dot_height - 1))) // 4
+            ytick_rows.setdefault(rr, t.label)
+        for r in range(self.canvas.rows):
+            label = ytick_rows.get(r)
+            cells = [(ch, "axis") for ch in (label or "").rjust(self.ylabel_width)]
+            cells.append((v_tick if label is not None else v_axis, "axis"))
+            cells.extend((glyphs[r][c], roles[r][c]) for c in range(self.canvas.cols))
+            rows.append(cells)
+
+        axis = [(" ", "")] * self.ylabel_width + [(corner, "axis")]
+        marks = [h_axis] * self.canvas.cols
+        for t in self.xticks:
+            c = int(np.rint(t.position * (self.canvas.dot_width - 1))) // 2
+            if 0 <= c < self.canvas.cols:
+                if t.major:
+                    marks[c] = h_tick
+                elif not a and marks[c] == h_axis:
+                    marks[c] = h_minor
+        axis.extend((m, "axis") for m in marks)
+        rows.append(axis)
+        rows.append(x_label_cells)
+
+        out = PlotLines()
+        out.spans = []
+        for cells in rows:
+            cells = cells[:W]
+            text = "".join(ch for ch, _ in cells).rstrip()
+            out.append(text)
+            spans: list[Span] = []
+            for i, (_, role) in enumerate(cells[: len(text)]):
+                if not role:
+                    continue
+                if spans and spans[-1][2] == role and spans[-1][1] == i:
+                    spans[-1] = (spans[-1][0], i + 1, role)
+                else:
+                    spans.append((i, i + 1, role))
+            out.spans.append(spans)
+        assert len(out) == self.height
+        return out
+
+    def _x_label_line(self) -> tuple[list[tuple[str, str]], bool]:
+        W = self.width
+        cells: list[tuple[str, str]] = [(" ", "")] * W
+        last_end = -1
+        left = self.ylabel_width + 1
+        for t in self.xticks:
+            if not t.major:
+                continue
+            c = left + int(np.rint(t.position * (self.canvas.dot_width - 1))) // 2
+            start = max(min(c - (len(t.label) - 1) // 2, W - len(t.label)), 0)
+            if start <= last_end + 1:
+                continue
+            for i, ch in enumerate(t.label):
+                cells[start + i] = (ch, "axis")
+            last_end = start + len(t.label) - 1
+        placed = False
+        if self.x_title:
+            title = self.x_title + (" ->" if self.ascii_only else " →")
+            start = W - len(title)
+            if start > last_end + 2:
+                for i, ch in enumerate(title):
+                    cells[start + i] = (ch, "title")
+                placed = True
+        return cells, placed

@@ -1,0 +1,427 @@
+"""The text plots: Q-Q, detrended Q-Q, P-P, CDF overlay and shift function.
+
+Every plot is a pure function ``(data, width, height, options) -> list[str]`` that
+returns exactly ``height`` lines of at most ``width`` cells, legend and labels
+included. The ``*_figure`` variants return the assembled :class:`Figure` (marks, label
+positions) for callers and tests that need to know where things landed.
+
+No statistics here: the numbers come from :mod:`ogive.fit.qq`,
+:mod:`ogive.fit.curves` and :mod:`ogive.fit.shift`; this module only scales and draws.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ..fit.curves import (
+    CDFOverlay,
+    Detrended,
+    PPPoints,
+    ShiftLike,
+    cdf_from_pairs,
+    detrended_from_pairs,
+    marks_from_pairs,
+    pp_from_pairs,
+)
+from ..fit.qq import QuantilePairs
+from .canvas import Layer
+from .frame import Figure, LegendItem, PlotLines
+from .ticks import Scale, format_percent, format_value, make_scale
+
+FloatArray = NDArray[np.float64]
+
+# Glyphs: (unicode, ascii). Braille layers have unicode None.
+SUBJECT = ("•", "*")
+SECOND = ("∘", "o")
+MARK = ("◆", "O")
+UP, DOWN = ("↑", "^"), ("↓", "v")
+
+
+def _fmt(unit: str, ascii_only: bool) -> Callable[[float, int], str]:
+    return lambda v, d: format_value(v, unit, digits=d, ascii_only=ascii_only)
+
+
+def _pct(v: float, _d: int) -> str:
+    return format_percent(v)
+
+
+def _prob(v: float, d: int) -> str:
+    text = f"{v:.{max(d - 1, 1)}f}".rstrip("0").rstrip(".")
+    return text if text not in ("", "-0") else "0"
+
+
+def _axis_kind(log: bool | None, *arrays: FloatArray) -> str:
+    """'log' when asked, or when not said and every finite value is positive."""
+    finite = np.concatenate([a[np.isfinite(a)] for a in arrays]) if arrays else np.empty(0)
+    positive = finite.size > 0 and bool(np.all(finite > 0))
+    if log is None:
+        return "log" if positive else "linear"
+    return "log" if (log and positive) else "linear"
+
+
+def _with_unit(text: str, unit: str) -> str:
+    return f"{text} ({unit})" if unit and unit not in text else text
+
+
+def _braille(role: str, ascii_glyph: str, priority: int = 0) -> Layer:
+    return Layer(role, None, ascii_glyph, priority)
+
+
+def _marker(role: str, glyphs: tuple[str, str], priority: int = 1) -> Layer:
+    return Layer(role, glyphs[0], glyphs[1], priority)
+
+
+def _band_legend(label: str, fig: Figure) -> LegendItem:
+    short = label.split(" (")[0] if label else "band"
+    return LegendItem(fig.glyph("⠒", ":"), short, "band")
+
+
+# ---------------------------------------------------------------- Q-Q
+def qq_figure(
+    pairs: QuantilePairs,
+    *,
+    width: int,
+    height: int,
+    log: bool | None = None,
+    ascii_only: bool = False,
+    marks: bool = True,
+) -> Figure:
+    ref, sub = pairs.reference, pairs.subject
+    kind = _axis_kind(log, ref, sub)
+    scale = make_scale(kind, np.concatenate((ref, sub)))
+    fmt = _fmt(pairs.unit, ascii_only)
+    fig = Figure(
+        width,
+        height,
+        xscale=scale,
+        yscale=scale,
+        xfmt=fmt,
+        yfmt=fmt,
+        ascii_only=ascii_only,
+        x_title=pairs.reference_label,
+        y_title=_with_unit(pairs.subject_label, pairs.unit),
+    )
+    W, H = fig.canvas.dot_width, fig.canvas.dot_height
+    if pairs.band_low is not None and pairs.band_high is not None:
+        band = _braille("band", ":")
+        fig.line(band, ref, pairs.band_low, dash=(2, 2))
+        fig.line(band, ref, pairs.band_high, dash=(2, 2))
+        fig.legend.append(_band_legend(pairs.band_label, fig))
+    # Same scale on both axes: the y = x line runs corner to corner.
+    fig.line_dots(_braille("reference", "."), np.array([0.0, W - 1.0]), np.array([H - 1.0, 0.0]))
+    fig.line(_marker("subject", SUBJECT), ref, sub)
+    fig.legend[:0] = [
+        LegendItem(fig.glyph(*SUBJECT), "quantiles", "subject"),
+        LegendItem(fig.glyph("⠤", "."), "y = x", "reference"),
+    ]
+    if marks:
+        for m in marks_from_pairs(pairs):
+            fig.mark(m.label, m.reference, m.subject, fig.glyph(*MARK), label=m.label)
+    return fig.finish()
+
+
+def qq_plot(
+    pairs: QuantilePairs,
+    *,
+    width: int,
+    height: int,
+    log: bool | None = None,
+    ascii_only: bool = False,
+    marks: bool = True,
+) -> PlotLines:
+    """Subject quantiles (y) against reference quantiles (x) with the 45° line.
+
+    Above the line: the subject is slower (larger) than the reference at that
+    probability. ``log`` None picks a log axis when every value is positive.
+    """
+    return qq_figure(pairs, width=width, height=height, log=log, ascii_only=ascii_only, marks=marks).lines()
+
+
+# ---------------------------------------------------------------- detrended
+def _robust_range(values: list[FloatArray], cap_from: FloatArray) -> FloatArray:
+    """Band values within 4× the data's own spread (a runaway band edge would flatten the data)."""
+    data = cap_from[np.isfinite(cap_from)]
+    limit = 4 * max(float(np.abs(data).max()) if data.size else 0.0, 0.01)
+    keep = [v[np.isfinite(v) & (np.abs(v) <= limit)] for v in values]
+    return np.concatenate([data, *keep, np.array([0.0])])
+
+
+def detrended_figure(
+    data: QuantilePairs | Detrended,
+    *,
+    width: int,
+    height: int,
+    x_axis: str = "prob",
+    log: bool | None = None,
+    ascii_only: bool = False,
+) -> Figure:
+    d = detrended_from_pairs(data) if isinstance(data, QuantilePairs) else data
+    if x_axis not in ("prob", "value"):
+        raise ValueError(f"x_axis must be 'prob' or 'value', got {x_axis!r}.")
+    if x_axis == "prob":
+        x = d.probs
+        xscale = make_scale("logit", x, pad=0.02)
+        xfmt: Callable[[float, int], str] = _prob
+        x_title = f"probability ({d.reference_label})"
+    else:
+        x = d.reference
+        xscale = make_scale(_axis_kind(log, x), x)
+        xfmt = _fmt(d.unit, ascii_only)
+        x_title = d.reference_label
+    bands = [b for b in (d.band_low, d.band_high) if b is not None]
+    yscale = make_scale("linear", _robust_range(bands, d.deviation), pad=0.05)
+    fig = Figure(
+        width,
+        height,
+        xscale=xscale,
+        yscale=yscale,
+        xfmt=xfmt,
+        yfmt=_pct if d.relative else _fmt(d.unit, ascii_only),
+        ascii_only=ascii_only,
+        x_title=x_title,
+        y_title=(
+            f"{d.subject_label} vs {d.reference_label}" + (", relative" if d.relative else f" ({d.unit})")
+        ),
+    )
+    if d.band_low is not None and d.band_high is not None:
+        band = _braille("band", ":")
+        fig.line(band, x, d.band_low, dash=(2, 2))
+        fig.line(band, x, d.band_high, dash=(2, 2))
+        fig.legend.append(_band_legend(d.band_label, fig))
+    xs = np.array([xscale.lo, xscale.hi])
+    fig.line(_braille("reference", "."), xs, np.zeros(2))
+    fig.line(_marker("subject", SUBJECT), x, d.deviation)
+    fig.legend[:0] = [
+        LegendItem(fig.glyph(*SUBJECT), "deviation", "subject"),
+        LegendItem(fig.glyph("⠤", "."), "same", "reference"),
+    ]
+    for m in d.marks:
+        mx = m.q if x_axis == "prob" else m.reference
+        fig.mark(m.label, mx, m.subject, fig.glyph(*MARK), label=m.label)
+    return fig.finish()
+
+
+def detrended_plot(
+    data: QuantilePairs | Detrended,
+    *,
+    width: int,
+    height: int,
+    x_axis: str = "prob",
+    log: bool | None = None,
+    ascii_only: bool = False,
+) -> PlotLines:
+    """How far the subject sits from the reference, in % of the reference, along p.
+
+    On the logit probability axis (``x_axis='prob'``) each decade of the tail (p90,
+    p99, p99.9) gets equal room, so a 5 % tail departure that a plain Q-Q plot hides
+    at terminal resolution is plain to see. ``log`` applies to ``x_axis='value'``.
+    """
+    return detrended_figure(
+        data, width=width, height=height, x_axis=x_axis, log=log, ascii_only=ascii_only
+    ).lines()
+
+
+# ---------------------------------------------------------------- P-P
+def pp_figure(
+    data: QuantilePairs | PPPoints,
+    *,
+    width: int,
+    height: int,
+    log: bool | None = None,
+    ascii_only: bool = False,
+) -> Figure:
+    del log  # probabilities: a log axis means nothing here
+    pp = pp_from_pairs(data) if isinstance(data, QuantilePairs) else data
+    unit = Scale("linear", 0.0, 1.0)
+    fig = Figure(
+        width,
+        height,
+        xscale=unit,
+        yscale=unit,
+        xfmt=_prob,
+        yfmt=_prob,
+        ascii_only=ascii_only,
+        x_title=f"F {pp.reference_label}",
+        y_title=f"F {pp.subject_label}",
+    )
+    W, H = fig.canvas.dot_width, fig.canvas.dot_height
+    if pp.epsilon is not None and pp.epsilon > 0:
+        band = _braille("band", ":")
+        e = pp.epsilon
+        fig.line(band, np.array([0.0, 1.0 - e]), np.array([e, 1.0]), dash=(2, 2))
+        fig.line(band, np.array([e, 1.0]), np.array([0.0, 1.0 - e]), dash=(2, 2))
+        fig.legend.append(_band_legend(pp.band_label, fig))
+    fig.line_dots(_braille("reference", "."), np.array([0.0, W - 1.0]), np.array([H - 1.0, 0.0]))
+    fig.line(_marker("subject", SUBJECT), pp.reference_p, pp.subject_p)
+    fig.legend[:0] = [
+        LegendItem(fig.glyph(*SUBJECT), "P-P", "subject"),
+        LegendItem(fig.glyph("⠤", "."), "y = x", "reference"),
+    ]
+    for m in pp.marks:
+        fig.mark(m.label, m.reference, m.subject, fig.glyph(*MARK), label=m.label)
+    return fig.finish()
+
+
+def pp_plot(
+    data: QuantilePairs | PPPoints,
+    *,
+    width: int,
+    height: int,
+    log: bool | None = None,
+    ascii_only: bool = False,
+) -> PlotLines:
+    """F_subject against F_reference at the same x: the body's fit, read on [0, 1].
+
+    ``log`` is accepted for a uniform call signature and ignored (both axes are
+    probabilities).
+    """
+    return pp_figure(data, width=width, height=height, log=log, ascii_only=ascii_only).lines()
+
+
+# ---------------------------------------------------------------- CDF overlay
+def cdf_figure(
+    data: QuantilePairs | CDFOverlay,
+    *,
+    width: int,
+    height: int,
+    log: bool | None = None,
+    prob_axis: str = "linear",
+    ascii_only: bool = False,
+) -> Figure:
+    ov = cdf_from_pairs(data) if isinstance(data, QuantilePairs) else data
+    if prob_axis not in ("linear", "logit"):
+        raise ValueError(f"prob_axis must be 'linear' or 'logit', got {prob_axis!r}.")
+    values = [s.values for s in ov.series]
+    xscale = make_scale(_axis_kind(log, *values), np.concatenate(values))
+    if prob_axis == "logit":
+        probs = np.concatenate([s.probs for s in ov.series])
+        yscale = make_scale("logit", probs, pad=0.02)
+    else:
+        yscale = Scale("linear", 0.0, 1.0)
+    fig = Figure(
+        width,
+        height,
+        xscale=xscale,
+        yscale=yscale,
+        xfmt=_fmt(ov.unit, ascii_only),
+        yfmt=_prob,
+        ascii_only=ascii_only,
+        x_title="value",
+        y_title="P(X <= x)" if ascii_only else "P(X ≤ x)",
+    )
+    styles = [
+        (_braille("reference", "."), fig.glyph("⠤", ".")),
+        (_marker("subject", SUBJECT), fig.glyph(*SUBJECT)),
+        (_marker("second", SECOND, priority=2), fig.glyph(*SECOND)),
+    ]
+    for s, (layer, glyph) in zip(ov.series, styles, strict=False):
+        fig.line(layer, s.values, s.probs)
+        fig.legend.append(LegendItem(glyph, s.label, layer.role))
+    return fig.finish()
+
+
+def cdf_plot(
+    data: QuantilePairs | CDFOverlay,
+    *,
+    width: int,
+    height: int,
+    log: bool | None = None,
+    prob_axis: str = "linear",
+    ascii_only: bool = False,
+) -> PlotLines:
+    """Two (up to three) CDFs on one value axis: the first as a braille line, the others as markers.
+
+    With pairs, the reference is the first series and the subject the second.
+    ``prob_axis='logit'`` stretches the tails.
+    """
+    return cdf_figure(
+        data, width=width, height=height, log=log, prob_axis=prob_axis, ascii_only=ascii_only
+    ).lines()
+
+
+# ---------------------------------------------------------------- shift function
+def _shift_of(data: Any) -> ShiftLike:
+    """A ShiftFunction, or anything holding one as ``.shift`` (a Comparison)."""
+    inner = getattr(data, "shift", None)
+    if inner is not None and hasattr(inner, "delta"):
+        return inner  # type: ignore[no-any-return]
+    if hasattr(data, "delta") and hasattr(data, "probs"):
+        return data  # type: ignore[no-any-return]
+    raise TypeError("shift_plot needs a ShiftFunction (or a Comparison holding one as .shift).")
+
+
+def shift_figure(
+    data: Any,
+    *,
+    width: int,
+    height: int,
+    log: bool | None = None,
+    ascii_only: bool = False,
+) -> Figure:
+    del log  # differences can be negative: the value axis is always linear
+    sf = _shift_of(data)
+    probs = np.asarray(sf.probs, dtype=np.float64)
+    delta = np.asarray(sf.delta, dtype=np.float64)
+    low = np.asarray(sf.delta_low, dtype=np.float64)
+    high = np.asarray(sf.delta_high, dtype=np.float64)
+    xscale = make_scale("logit", probs, pad=0.06)
+    yscale = make_scale("linear", np.concatenate((delta, low, high, np.array([0.0]))), pad=0.06)
+    a, b = sf.labels
+    fig = Figure(
+        width,
+        height,
+        xscale=xscale,
+        yscale=yscale,
+        xfmt=_prob,
+        yfmt=_fmt(sf.unit, ascii_only),
+        ascii_only=ascii_only,
+        x_title=f"quantile of {a}",
+        y_title=_with_unit(f"{b} − {a}" if not ascii_only else f"{b} - {a}", sf.unit),
+    )
+    fig.line(_braille("reference", "."), np.array([xscale.lo, xscale.hi]), np.zeros(2))
+    interval = _braille("band", "|")
+    idx = fig.canvas.layer(interval)
+    xd, _ = fig.to_dots(probs, delta)
+    _, lo_d = fig.to_dots(probs, np.where(np.isfinite(low), low, yscale.lo))
+    _, hi_d = fig.to_dots(probs, np.where(np.isfinite(high), high, yscale.hi))
+    for i in range(probs.size):
+        fig.canvas.polyline(idx, np.array([xd[i], xd[i]]), np.array([lo_d[i], hi_d[i]]))
+    # Points only, not joined: a joining line would hide the intervals, which are the message.
+    pts = fig.canvas.layer(_marker("subject", SUBJECT, priority=2))
+    xd_pts, yd_pts = fig.to_dots(probs, delta)
+    fig.canvas.dots(pts, xd_pts, yd_pts)
+    top, bottom = 0, fig.canvas.rows - 1
+    for i in range(probs.size):
+        col = int(np.rint(xd[i])) // 2
+        if not np.isfinite(high[i]):
+            fig.put(top, col, fig.glyph(*UP), "band")
+        if not np.isfinite(low[i]):
+            fig.put(bottom, col, fig.glyph(*DOWN), "band")
+    fig.legend.extend(
+        [
+            LegendItem(fig.glyph(*SUBJECT), "shift", "subject"),
+            LegendItem(fig.glyph("⡇", "|"), f"{sf.confidence:.0%} simultaneous", "band"),
+        ]
+    )
+    return fig.finish()
+
+
+def shift_plot(
+    data: Any,
+    *,
+    width: int,
+    height: int,
+    log: bool | None = None,
+    ascii_only: bool = False,
+) -> PlotLines:
+    """B − A at each decile and tail quantile, with its simultaneous interval.
+
+    Above zero: B is slower there. An interval that does not reach zero is a credible
+    change; arrows mark intervals the data cannot bound. ``log`` is ignored (differences
+    can be negative). Accepts a ShiftFunction or a Comparison (its ``.shift``).
+    """
+    return shift_figure(data, width=width, height=height, log=log, ascii_only=ascii_only).lines()

@@ -1,0 +1,286 @@
+"""Axis scales, tick choice and tick labels for the text plots (formatting only).
+
+Ticks follow the usual 1-2-5 rule for linear axes (steps of 1, 2 or 5 times a power
+of ten), decades with 2 and 5 in between for log axes, and the trade's quantile names
+(p50, p99, p99.9) on the logit probability axis. A tick is kept only when its label
+fits beside its neighbours, so the axes stay readable at 40 columns.
+
+Durations are written in the unit a person would say: ``250ms``, ``1.5s``, ``2m``.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..sketch import quantile_label
+
+TIME_UNITS: dict[str, float] = {
+    "ns": 1e-9,
+    "us": 1e-6,
+    "µs": 1e-6,
+    "ms": 1e-3,
+    "s": 1.0,
+    "m": 60.0,
+    "min": 60.0,
+    "h": 3600.0,
+}
+"""Seconds per unit, for the units a sketch may carry."""
+
+_SPOKEN: tuple[tuple[str, float], ...] = (("h", 3600.0), ("m", 60.0), ("s", 1.0), ("ms", 1e-3), ("µs", 1e-6))
+
+
+def is_time_unit(unit: str) -> bool:
+    return unit in TIME_UNITS
+
+
+def _trim(x: float, digits: int) -> str:
+    """``x`` with at most ``digits`` significant digits and no trailing zeros."""
+    if x == 0:
+        return "0"
+    mag = math.floor(math.log10(abs(x)))
+    decimals = max(digits - 1 - mag, 0)
+    text = f"{x:.{decimals}f}"
+    if "." in text:
+        text = text.rstrip("0").rstrip(".")
+    return "0" if text in ("-0", "") else text
+
+
+def format_value(value: float, unit: str, *, digits: int = 3, ascii_only: bool = False) -> str:
+    """A compact label: durations in a spoken unit, other numbers with k/M/G.
+
+    >>> format_value(1500, "ms"), format_value(0.25, "s"), format_value(120, "s")
+    ('1.5s', '250ms', '2m')
+    """
+    if not math.isfinite(value):
+        return "inf" if value > 0 else "-inf" if value < 0 else "nan"
+    if value == 0:
+        return "0"
+    if unit in TIME_UNITS:
+        seconds = value * TIME_UNITS[unit]
+        mag = abs(seconds)
+        for name, size in _SPOKEN:
+            if mag >= size * 0.9995 or (name == "µs" and mag >= 1e-6 * 0.9995):
+                label = "us" if (name == "µs" and ascii_only) else name
+                return _trim(seconds / size, digits) + label
+        return _trim(seconds / 1e-9, digits) + "ns"
+    mag = abs(value)
+    for size, suffix in ((1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k")):
+        if mag >= size * 0.9995:
+            return _trim(value / size, digits) + suffix
+    if mag < 1e-3:
+        return f"{value:.{max(digits - 1, 0)}e}"
+    return _trim(value, digits)
+
+
+def format_percent(value: float) -> str:
+    """A relative deviation: ``0.1`` -> ``+10%``."""
+    if value == 0:
+        return "0"
+    text = _trim(value * 100, 3)
+    return ("+" if value > 0 else "") + text + "%"
+
+
+def distinct_labels(values: Sequence[float], fmt: Callable[[float, int], str]) -> list[str]:
+    """Labels with just enough digits that neighbouring ticks never read the same."""
+    labels: list[str] = []
+    for digits in range(2, 8):
+        labels = [fmt(v, digits) for v in values]
+        if len(set(labels)) == len(labels):
+            return labels
+    return labels
+
+
+# ---------------------------------------------------------------- scales
+@dataclass(frozen=True)
+class Scale:
+    """A monotone map from data values to [0, 1] along an axis."""
+
+    kind: str
+    """'linear', 'log' or 'logit' (probabilities, tails stretched)."""
+    lo: float
+    hi: float
+    """Data range shown, in data units (probabilities for 'logit')."""
+
+    def forward(self, x: np.ndarray) -> np.ndarray:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t = _transform(self.kind, np.asarray(x, dtype=np.float64))
+            a, b = _transform(self.kind, np.array([self.lo, self.hi]))
+            return np.asarray((t - a) / (b - a), dtype=np.float64)
+
+
+def _transform(kind: str, x: np.ndarray) -> np.ndarray:
+    if kind == "log":
+        return np.where(x > 0, np.log10(np.where(x > 0, x, 1.0)), -np.inf)
+    if kind == "logit":
+        xc = np.clip(x, 1e-15, 1 - 1e-15)
+        out = np.log10(xc / (1 - xc))
+        return np.where(x <= 0, -np.inf, np.where(x >= 1, np.inf, out))
+    return x
+
+
+def _inverse(kind: str, t: float) -> float:
+    if kind == "log":
+        return float(10**t)
+    if kind == "logit":
+        return float(1 / (1 + 10 ** (-t)))
+    return t
+
+
+def make_scale(kind: str, values: np.ndarray, *, pad: float = 0.03, include: Sequence[float] = ()) -> Scale:
+    """A scale covering every finite value (positive ones on log), padded a little.
+
+    The padding keeps the extreme points off the frame line so they stay visible.
+    """
+    v = np.asarray(values, dtype=np.float64)
+    v = v[np.isfinite(v)]
+    if kind == "log":
+        v = v[v > 0]
+    elif kind == "logit":
+        v = v[(v > 0) & (v < 1)]
+    extra = np.asarray([x for x in include if math.isfinite(x)], dtype=np.float64)
+    v = np.concatenate((v, extra))
+    if v.size == 0:
+        return Scale(kind, *((0.1, 0.9) if kind == "logit" else (1.0, 10.0) if kind == "log" else (0.0, 1.0)))
+    t = _transform(kind, v)
+    a, b = float(t.min()), float(t.max())
+    if b - a <= 0:
+        width = abs(a) * 0.1 if (a != 0 and kind == "linear") else 0.5
+        a, b = a - width, b + width
+    span = b - a
+    a, b = a - pad * span, b + pad * span
+    return Scale(kind, _inverse(kind, a), _inverse(kind, b))
+
+
+# ---------------------------------------------------------------- ticks
+@dataclass(frozen=True)
+class Tick:
+    value: float
+    label: str
+    position: float
+    """Place along the axis in [0, 1]."""
+    major: bool = True
+    """Minor ticks get a tick mark but no label."""
+
+
+def nice_step(span: float, max_ticks: int) -> float:
+    """The smallest 1-2-5 step giving at most ``max_ticks`` intervals over ``span``."""
+    raw = span / max(max_ticks, 1)
+    if raw <= 0 or not math.isfinite(raw):
+        return 1.0
+    mag = 10 ** math.floor(math.log10(raw))
+    for m in (1.0, 2.0, 5.0, 10.0):
+        if m * mag >= raw * (1 - 1e-9):
+            return m * mag
+    return 10 * mag
+
+
+def _linear_candidates(lo: float, hi: float, max_ticks: int) -> list[float]:
+    step = nice_step(hi - lo, max_ticks)
+    first = math.ceil(lo / step - 1e-9)
+    last = math.floor(hi / step + 1e-9)
+    return [round(k * step, 12) for k in range(first, last + 1)]
+
+
+def _log_candidates(lo: float, hi: float, mantissas: Sequence[int]) -> list[float]:
+    out = []
+    for d in range(math.floor(math.log10(lo)) - 1, math.ceil(math.log10(hi)) + 1):
+        for m in mantissas:
+            v = m * 10.0**d
+            if lo <= v <= hi:
+                out.append(float(f"{v:.12g}"))
+    return out
+
+
+LOGIT_LADDER: tuple[float, ...] = (
+    0.5,
+    0.9,
+    0.1,
+    0.99,
+    0.01,
+    0.999,
+    0.001,
+    0.9999,
+    0.0001,
+    0.99999,
+    0.00001,
+    0.999999,
+    0.75,
+    0.25,
+)
+"""Probabilities labelled on a logit axis, most important first."""
+
+
+def prob_label(p: float) -> str:
+    return quantile_label(p)
+
+
+def choose_ticks(
+    scale: Scale,
+    length: int,
+    fmt: Callable[[float, int], str],
+    *,
+    horizontal: bool,
+    min_gap: int = 1,
+) -> list[Tick]:
+    """Ticks whose labels fit: ``length`` is the axis size in cells.
+
+    Horizontal labels need their width plus ``min_gap`` between neighbours; vertical
+    ones need one free row between them.
+    """
+
+    def fits(cands: list[float], labels: list[str]) -> bool:
+        pos = scale.forward(np.asarray(cands)) * (length - 1)
+        if horizontal:
+            for i in range(1, len(cands)):
+                need = (len(labels[i - 1]) + len(labels[i])) / 2 + min_gap
+                if pos[i] - pos[i - 1] < need:
+                    return False
+        else:
+            cells = np.round(pos)
+            if np.any(np.diff(cells) < 2):
+                return False
+        return True
+
+    def build(cands: list[float], major: bool = True) -> list[Tick]:
+        labels = distinct_labels(cands, fmt) if major else [""] * len(cands)
+        pos = scale.forward(np.asarray(cands, dtype=np.float64))
+        return [Tick(v, lab, float(p), major) for v, lab, p in zip(cands, labels, pos, strict=True)]
+
+    if scale.kind == "logit":
+        chosen: list[float] = []
+        for p in LOGIT_LADDER:
+            if not scale.lo <= p <= scale.hi:
+                continue
+            trial = sorted([*chosen, p])
+            if fits(trial, [prob_label(x) for x in trial]):
+                chosen = trial
+        return [Tick(p, prob_label(p), float(scale.forward(np.array([p]))[0])) for p in chosen]
+
+    if scale.kind == "log":
+        best: list[Tick] = []
+        for mant in ((1,), (1, 2, 5), (1, 2, 3, 5, 7)):
+            cands = _log_candidates(scale.lo, scale.hi, mant)
+            if len(cands) >= 2 and fits(cands, distinct_labels(cands, fmt)):
+                best = build(cands)
+        if len(best) >= 2:
+            if all(_is_decade(t.value) for t in best):
+                minor = [v for v in _log_candidates(scale.lo, scale.hi, (2, 5))]
+                best = sorted(best + build(minor, major=False), key=lambda t: t.position)
+            return best
+        # Less than a decade shown: 1-2-5 steps placed on the log axis.
+    for max_ticks in range(max(length // 2, 2), 0, -1):
+        cands = _linear_candidates(scale.lo, scale.hi, max_ticks)
+        if scale.kind == "log":
+            cands = [c for c in cands if c > 0]
+        if len(cands) >= 1 and fits(cands, distinct_labels(cands, fmt)):
+            return build(cands)
+    return []
+
+
+def _is_decade(v: float) -> bool:
+    lg = math.log10(v)
+    return abs(lg - round(lg)) < 1e-9
