@@ -57,7 +57,11 @@ def sketch_to_dict(s: Sketch) -> dict[str, Any]:
         "inf_count": s.inf_count,
         "negative_count": s.negative_count,
         "zero_count": s.zero_count,
-        "centroids": {"mean": _floats(means), "weight": _floats(weights), "pure": [int(x) for x in pure]},
+        "centroids": {
+            "mean": _means(means, pure),
+            "weight": _floats(weights),
+            "pure": [int(x) for x in pure],
+        },
         "low": _floats(s.low),
         "high": _floats(s.high),
         "provenance": {
@@ -71,6 +75,24 @@ def sketch_to_dict(s: Sketch) -> dict[str, Any]:
             "partial": p.partial,
         },
     }
+
+
+MEAN_DIGITS = 12
+"""Significant digits kept for the mean of a mixed centroid.
+
+Why not all 17: such a mean is an average that the quantile function interpolates
+between, and 12 digits (relative change below 5e-12) is far below the sketch's own error,
+while the five digits saved per centroid pay for about 10% more centroids in the same
+file. Exact data (pure centroids, the tail buffers, min/max) keep every digit. The
+rounding is idempotent, so a loaded sketch writes back byte for byte.
+"""
+
+
+def _means(means: np.ndarray, pure: np.ndarray) -> list[float | int]:
+    out = _floats(means)
+    for i in np.flatnonzero(~pure).tolist():
+        out[i] = float(f"{means[i]:.{MEAN_DIGITS}g}")
+    return out
 
 
 def _floats(a: np.ndarray) -> list[float | int]:

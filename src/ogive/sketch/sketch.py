@@ -121,15 +121,27 @@ class Sketch:
         self._fold_tails(arr, arr)
 
     def _fold_tails(self, low_in: FloatArray, high_in: FloatArray) -> None:
+        """Keep the ``tail_size`` smallest and largest values seen.
+
+        Once a buffer is full only values strictly beyond its innermost entry can
+        change it (an equal value would replace an equal value), so one comparison pass
+        leaves a handful of candidates to partition instead of the whole batch.
+        """
         k = self.tail_size
-        lo = np.concatenate((self.low, low_in))
-        if lo.size > k:
-            lo = np.partition(lo, k - 1)[:k]
-        self.low = np.sort(lo)
-        hi = np.concatenate((self.high, high_in))
-        if hi.size > k:
-            hi = np.partition(hi, hi.size - k)[hi.size - k :]
-        self.high = np.sort(hi)
+        if self.low.size >= k:
+            low_in = low_in[low_in < self.low[-1]]
+        if low_in.size:
+            lo = np.concatenate((self.low, low_in))
+            if lo.size > k:
+                lo = np.partition(lo, k - 1)[:k]
+            self.low = np.sort(lo)
+        if self.high.size >= k:
+            high_in = high_in[high_in > self.high[0]]
+        if high_in.size:
+            hi = np.concatenate((self.high, high_in))
+            if hi.size > k:
+                hi = np.partition(hi, hi.size - k)[hi.size - k :]
+            self.high = np.sort(hi)
 
     def merge(self, other: Sketch) -> None:
         """Fold ``other`` into this sketch (same unit checked by the caller)."""
