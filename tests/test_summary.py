@@ -1,0 +1,94 @@
+"""The summary renderer: readable numbers, the numbers the sketch holds, nothing hidden."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+
+from ogive.render.summary import LADDER, format_value, quantile_lines, summarise, summary_dict, summary_lines
+from ogive.sketch import Sketch, SketchSet
+
+
+@pytest.mark.parametrize(
+    ("value", "unit", "text"),
+    [
+        (0.412, "ms", "412 µs"),
+        (12.345, "ms", "12.3 ms"),
+        (1204.0, "ms", "1.20 s"),
+        (999.96, "ms", "1.00 s"),  # rounds up across the unit boundary
+        (0.9997, "ms", "1.00 ms"),
+        (4.2, "us", "4.20 µs"),
+        (700_000.0, "ms", "11.7 min"),
+        (0.0, "ms", "0 ms"),
+        (-5.5, "ms", "-5.50 ms"),
+        (1834.0, "bytes", "1,834 bytes"),
+        (0.25, "", "0.25"),
+        (float("nan"), "ms", "–"),
+    ],
+)
+def test_format_value(value: float, unit: str, text: str) -> None:
+    assert format_value(value, unit) == text
+
+
+def _small_set() -> tuple[SketchSet, np.ndarray]:
+    rng = np.random.default_rng(11)
+    values = rng.lognormal(np.log(5.0), 0.6, 1500)
+    s = Sketch("ms")
+    s.add(values)
+    s.provenance.sources = ["a.log", "b.log"]
+    s.provenance.field = "pattern dur=(\\S+)"
+    s.provenance.lines_read = 1503
+    s.provenance.skip("not_a_number", 2, ["a.log:7", "b.log:9"])
+    s.provenance.skip("missing_field", 1, ["a.log:30"])
+    return SketchSet({"all": s}), values
+
+
+def test_numbers_are_the_sketch_quantiles_which_here_are_exact() -> None:
+    sset, values = _small_set()
+    doc = summary_dict(sset)
+    row = doc["sketches"]["all"]
+    # 1500 values <= 2 * tail_size: the sketch holds them all, so its quantiles must equal
+    # numpy.quantile's default (linear, Hyndman & Fan type 7) on the raw values.
+    expect = np.quantile(values, LADDER)
+    got = [row[k] for k in ("p50", "p90", "p99", "p99.9", "p99.99")]
+    np.testing.assert_allclose(got, expect, rtol=1e-12)
+    assert row["min"] == values.min() and row["max"] == values.max()
+    assert row["n"] == 1500 and row["skipped_total"] == 3
+    assert row["skipped"]["not_a_number"] == {"count": 2, "examples": ["a.log:7", "b.log:9"]}
+    json.dumps(doc, allow_nan=False)  # valid strict JSON
+
+
+def test_text_shows_provenance_table_and_every_skip_reason() -> None:
+    sset, values = _small_set()
+    lines = summary_lines(summarise(sset, warnings=["something to know"]))
+    text = "\n".join(lines)
+    assert lines[0] == "source: a.log, b.log"
+    header = next(ln for ln in lines if ln.startswith("sketch"))
+    assert header.split() == ["sketch", "n", "skipped", "min", "p50", "p90", "p99", "p99.9", "p99.99", "max"]
+    row = lines[lines.index(header) + 1].split("  ")
+    assert row[0] == "all"
+    assert format_value(float(np.quantile(values, 0.5)), "ms") in text
+    assert "not a number: 2 (first at a.log:7; b.log:9)" in text
+    assert "missing field: 1 (first at a.log:30)" in text
+    assert "every value is held exactly" in text
+    assert lines[-1] == "warning: something to know"
+    assert max(len(ln) for ln in lines if not ln.startswith(("source", "value"))) <= 90
+
+
+def test_empty_and_nan_sketches_render_without_failing() -> None:
+    s = Sketch("ms")
+    s.add(np.array([np.nan, np.inf]))
+    sset = SketchSet({"all": s})
+    text = "\n".join(summary_lines(summarise(sset)))
+    assert "NaN value: 1" in text and "infinite value: 1" in text and "no usable values" in text
+    doc = summary_dict(sset)
+    assert doc["sketches"]["all"]["p50"] is None
+    json.dumps(doc, allow_nan=False)
+
+
+def test_quantile_lines_names_min_and_max() -> None:
+    sset, _ = _small_set()
+    lines = quantile_lines(summarise(sset, qs=[0.0, 0.5, 0.999, 1.0]))
+    assert lines[0].split() == ["sketch", "n", "min", "p50", "p99.9", "max"]
