@@ -41,9 +41,11 @@ class ScanOptions:
     compression: float = DEFAULT_COMPRESSION
     tail_size: int = DEFAULT_TAIL
     chunk_bytes: int = 8 << 20
-    lazy_files: bool = True
-    """Uncompressed files on disk go through polars' own streaming reader (faster);
-    False forces the chunked reader everywhere (tests use it to cover both)."""
+    lazy_files: bool = False
+    """Let polars' own streaming reader walk uncompressed files on disk instead of our
+    chunked reader. Off by default: measured at 200-700 MB it was at best ~1.5x faster
+    and at worst slower on a loaded machine, and its peak memory (~300 MB and growing
+    with file size) breaks the flat 250 MB budget the chunked reader keeps (~155 MB)."""
     max_line_bytes: int = 64 << 20
     """A line longer than this (no newline within it) is skipped as ``too_long``."""
 

@@ -19,6 +19,8 @@ from ..errors import OgiveError
 from .options import ScanOptions
 
 SNIFF_LINES = 50
+LAZY_BATCH_ROWS = 200_000
+"""Rows per batch from polars' streaming reader: bounds its buffers (memory stays flat)."""
 _LINE_SEP = "\x1f"
 """Unit separator: a byte that does not occur in text logs, so polars' CSV reader can hand
 us whole lines (much faster than splitting in Python). Chunks that do contain it are
@@ -136,7 +138,7 @@ def lazy_batches(layout: Layout, path: str, skip: int, *, numeric: bool) -> Iter
             exprs = [line.str.json_path_match(p).alias(name) for name, p in layout.field_paths]
         else:
             exprs = [line.str.extract(layout.pattern, idx).alias(name) for name, idx in layout.groups]
-    yield from lf.select(exprs).collect_batches()
+    yield from lf.select(exprs).collect_batches(chunk_size=LAZY_BATCH_ROWS)
 
 
 def split_lines(data: bytes) -> pl.Series:

@@ -386,7 +386,7 @@ class _State:
         if not o.by and halves is None:
             return "all"
         if o.by and g is not None:
-            distinct = g.unique().to_list()
+            distinct = g.unique(maintain_order=True).to_list()
             mapping: dict[str | None, str] = {}
             for value in distinct:
                 key = MISSING if value is None else value
