@@ -344,6 +344,10 @@ def cdf_plot(
 
 
 # ---------------------------------------------------------------- shift function
+def _unbounded(a: FloatArray) -> FloatArray:
+    return np.where(np.abs(a) >= 1e300, np.sign(a) * np.inf, a)
+
+
 def _shift_of(data: Any) -> ShiftLike:
     """A ShiftFunction, or anything holding one as ``.shift`` (a Comparison)."""
     inner = getattr(data, "shift", None)
@@ -366,8 +370,9 @@ def shift_figure(
     sf = _shift_of(data)
     probs = np.asarray(sf.probs, dtype=np.float64)
     delta = np.asarray(sf.delta, dtype=np.float64)
-    low = np.asarray(sf.delta_low, dtype=np.float64)
-    high = np.asarray(sf.delta_high, dtype=np.float64)
+    # Unbounded ends may arrive as ±inf or as ±float max (numpy.nan_to_num's default).
+    low = _unbounded(np.asarray(sf.delta_low, dtype=np.float64))
+    high = _unbounded(np.asarray(sf.delta_high, dtype=np.float64))
     xscale = make_scale("logit", probs, pad=0.06)
     yscale = make_scale("linear", np.concatenate((delta, low, high, np.array([0.0]))), pad=0.06)
     a, b = sf.labels

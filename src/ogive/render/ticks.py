@@ -136,7 +136,7 @@ def make_scale(kind: str, values: np.ndarray, *, pad: float = 0.03, include: Seq
     The padding keeps the extreme points off the frame line so they stay visible.
     """
     v = np.asarray(values, dtype=np.float64)
-    v = v[np.isfinite(v)]
+    v = v[np.isfinite(v) & (np.abs(v) < 1e300)]
     if kind == "log":
         v = v[v > 0]
     elif kind == "logit":
