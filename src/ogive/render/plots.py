@@ -345,7 +345,7 @@ def cdf_plot(
 
 # ---------------------------------------------------------------- shift function
 def _unbounded(a: FloatArray) -> FloatArray:
-    return np.where(np.abs(a) >= 1e300, np.sign(a) * np.inf, a)
+    return np.where(a >= 1e300, np.inf, np.where(a <= -1e300, -np.inf, a))
 
 
 def _shift_of(data: Any) -> ShiftLike:
