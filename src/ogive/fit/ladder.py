@@ -153,10 +153,9 @@ def quantile_intervals(
     est = sketch.quantile(qa)
     lo_i, hi_i = order_statistic_ranks(n, qa, confidence)
     lo_pos, hi_pos = lo_i.astype(np.float64), hi_i.astype(np.float64)
-    lo_w = local_rank_error(sketch, lo_pos)
-    hi_w = local_rank_error(sketch, hi_pos)
-    lo_val = sketch.value_at(np.clip(lo_pos - lo_w, 0, n - 1))
-    hi_val = sketch.value_at(np.clip(hi_pos + hi_w, 0, n - 1))
+    lo_w, hi_w = np.split(local_rank_error(sketch, np.concatenate((lo_pos, hi_pos))), 2)
+    both = sketch.value_at(np.clip(np.concatenate((lo_pos - lo_w, hi_pos + hi_w)), 0, n - 1))
+    lo_val, hi_val = np.split(both, 2)
     lo_ok, hi_ok = lo_i >= 0, hi_i < n
     out = []
     for k, q in enumerate(qa):
