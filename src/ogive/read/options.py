@@ -37,6 +37,10 @@ class ScanOptions:
     """'iso', 'epoch_s', 'epoch_ms', 'epoch_us', 'clf', or None to detect."""
     split_at: str | None = None
     """A timestamp: values before it go to sketch 'before', the rest to 'after'."""
+    window: str | None = None
+    """Width of consecutive time windows (``30s``, ``10m``, ``1h``, ``1d``): each window gets a
+    sketch named by its start in ISO 8601 UTC (``ogive.fit.windows.window_names`` does the
+    naming from epoch seconds; ``parse_window`` the width). None: no windows."""
     strict: bool = False
     compression: float = DEFAULT_COMPRESSION
     tail_size: int = DEFAULT_TAIL

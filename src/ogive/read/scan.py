@@ -31,6 +31,8 @@ from .options import ScanOptions, ScanProgress, ScanResult
 
 _T = TypeVar("_T")
 PROGRESS_INTERVAL_S = 0.2
+PARSE_WORKERS = 2
+"""Chunks parsed at once; memory in flight is about (workers + 3) chunks."""
 OTHER = "(other)"
 MISSING = "(missing)"
 BAD_TIMESTAMP = "bad_timestamp"
@@ -73,9 +75,10 @@ def scan(
     total = sum(s for s in sizes if s is not None) if all(s is not None for s in sizes) else None
     done_bytes = 0
     last_report = 0.0
-    # One worker parses chunk k+1 (polars, numpy: GIL mostly released) while this thread
-    # adds chunk k to the sketches; results are committed strictly in order.
-    pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="ogive-parse")
+    # Workers parse the next chunks (polars and numpy release the GIL; an eager
+    # str.extract is single-threaded, so two chunks at once use both cores) while this
+    # thread adds the oldest parsed chunk to the sketches; commits stay strictly in order.
+    pool = ThreadPoolExecutor(max_workers=PARSE_WORKERS, thread_name_prefix="ogive-parse")
     pending: deque[Future[_Prepared]] = deque()
 
     def drain(keep: int) -> None:
@@ -121,7 +124,7 @@ def scan(
                             pending.append(
                                 pool.submit(state.parse_and_prepare, data, src.display, first_line)
                             )
-                            drain(1)
+                            drain(PARSE_WORKERS)
                     state.bytes_seen += len(chunk.data)
                     now = time.monotonic()
                     if progress is not None and now - last_report >= PROGRESS_INTERVAL_S:
