@@ -243,3 +243,12 @@ def test_time_labels_read_as_spoken() -> None:
     assert format_value(750, "us") == "750µs"
     assert format_value(750, "us", ascii_only=True) == "750us"
     assert format_value(2_500_000, "bytes") == "2.5M"
+
+
+def test_marks_in_one_cell_share_one_label() -> None:
+    # Few distinct values (integer status-like latencies): p90, p99 and p99.9 are all 10 ms.
+    a = _sketch(np.repeat([1.0, 2.0, 3.0, 10.0], 1000))
+    b = _sketch(np.repeat([1.0, 2.0, 4.0, 10.0], 1000))
+    fig = render.qq_figure(pairs_from_sketches(b, a), width=50, height=14)
+    _check_labels(fig)
+    assert "p90/p99/p99.9" in {lab.text for lab in fig.labels}

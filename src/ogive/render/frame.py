@@ -160,9 +160,21 @@ class Figure:
     def finish(self) -> Figure:
         """Place the pending labels, after every mark is down (so none lands under one)."""
         pending, self._pending = self._pending, []
+        # Marks that share a cell (a step-shaped quantile function, few values) share
+        # one label, "p90/p99", instead of scattering labels around one glyph.
+        by_cell: dict[tuple[int, int], list[str]] = {}
         for label, r, c in pending:
-            self._place_label(label, r, c)
+            by_cell.setdefault((r, c), []).append(label)
+        for (r, c), names in by_cell.items():
+            text = "/".join(names)
+            if len(names) > 2 and not self._fits_somewhere(text, r, c):
+                text = f"{names[0]}-{names[-1]}"
+            self._place_label(text, r, c)
         return self
+
+    def _fits_somewhere(self, text: str, r: int, c: int) -> bool:
+        n = len(text)
+        return any(not self._taken(row, col, n) for row, col in self._candidates(n, r, c))
 
     def _taken(self, row: int, col: int, length: int) -> bool:
         if row < 0 or row >= self.canvas.rows or col < 0 or col + length > self.canvas.cols:
@@ -179,11 +191,7 @@ class Figure:
         misread), then hidden data cells, then hidden lines and bands.
         """
         n = len(text)
-        candidates = [
-            (r, c + 2), (r, c - n - 1), (r, c + 1), (r, c - n),
-            (r - 1, c + 1), (r + 1, c + 1), (r - 1, c - n), (r + 1, c - n),
-            (r - 1, c - n // 2), (r + 1, c - n // 2),
-        ]  # fmt: skip
+        candidates = self._candidates(n, r, c)
         glyphs, roles = self.canvas.cells()
         best: tuple[int, int] | None = None
         best_cost = float("inf")
@@ -204,6 +212,14 @@ class Figure:
             return
         self.labels.append(PlacedLabel(text, best[0], best[1], (r, c)))
         self.put(best[0], best[1], text, "label")
+
+    @staticmethod
+    def _candidates(n: int, r: int, c: int) -> list[tuple[int, int]]:
+        return [
+            (r, c + 2), (r, c - n - 1), (r, c + 1), (r, c - n),
+            (r - 1, c + 1), (r + 1, c + 1), (r - 1, c - n), (r + 1, c - n),
+            (r - 1, c - n // 2), (r + 1, c - n // 2),
+        ]  # fmt: skip
 
     def _nearest_is_own(self, row: int, col: int, n: int, own: tuple[int, int]) -> bool:
         def dist(cell: tuple[int, int]) -> float:
