@@ -164,25 +164,34 @@ def requests(rng: np.random.Generator, ts_us: NDArray[np.int64]) -> pl.DataFrame
 
 def _statuses(rng: np.random.Generator, r: NDArray[np.int64]) -> NDArray[np.int64]:
     u = rng.random(r.size)
-    path = np.array([x.path for x in ROUTES])[r]
-    status = np.where(path == "/api/cart/items", 201, 200)
-    status = np.where((path == "/api/catalog") & (u < 0.07), 304, status)
-    status = np.where((path == "/api/catalog") & (u >= 0.07) & (u < 0.082), 404, status)
-    status = np.where((path == "/api/cart/items") & (u < 0.01), 400, status)
-    status = np.where((path == "/api/checkout") & (u < 0.015), 402, status)
-    status = np.where((path == "/api/checkout") & (u >= 0.015) & (u < 0.02), 409, status)
+    cart_items, catalog, checkout = (
+        _route_index(p) for p in ("/api/cart/items", "/api/catalog", "/api/checkout")
+    )
+    status = np.where(r == cart_items, 201, 200)
+    status = np.where((r == catalog) & (u < 0.07), 304, status)
+    status = np.where((r == catalog) & (u >= 0.07) & (u < 0.082), 404, status)
+    status = np.where((r == cart_items) & (u < 0.01), 400, status)
+    status = np.where((r == checkout) & (u < 0.015), 402, status)
+    status = np.where((r == checkout) & (u >= 0.015) & (u < 0.02), 409, status)
     return status.astype(np.int64)
+
+
+def _route_index(path: str) -> int:
+    return next(i for i, x in enumerate(ROUTES) if x.path == path)
 
 
 _HEX = np.frombuffer(b"0123456789abcdef", dtype=np.uint8)
 
 
 def _hex_ids(rng: np.random.Generator, n: int, width: int = 24) -> pl.Series:
-    digits = rng.integers(0, 16, size=(n, width), dtype=np.uint8)
-    return pl.Series(_HEX[digits].view(f"S{width}").ravel()).cast(pl.String)
+    # Random bytes split into nibbles: half the draws of one integer per hex digit.
+    raw = np.frombuffer(rng.bytes(n * width // 2), dtype=np.uint8).reshape(n, width // 2)
+    nibbles = np.empty((n, width), dtype=np.uint8)
+    nibbles[:, 0::2] = raw >> 4
+    nibbles[:, 1::2] = raw & 15
+    return pl.Series(_HEX[nibbles].view(f"S{width}").ravel()).cast(pl.String)
 
 
-# ---------------------------------------------------------------------- formatting
 _TS = "%Y-%m-%dT%H:%M:%S%.3fZ"
 CSV_HEADER = "timestamp,host,method,route,status,latency_ms,bytes,request_id"
 TEXT_PATTERN = r"dur=(\S+)"

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 
 from ..errors import OgiveError
@@ -53,7 +54,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from ..render.summary import summarise, summary_lines
     from ..store import save_sketches
-    from .common import scan_sources
+    from .common import is_sketch_file, scan_sources
 
     to_stdout = args.output == "-"
     if to_stdout and args.json:
@@ -66,6 +67,17 @@ def run(args: argparse.Namespace) -> int:
         )
     if args.output and args.output != "-" and args.output in args.sources:
         raise OgiveError(f"-o {args.output} is also a source; choose another output name.")
+
+    for src in args.sources:
+        if is_sketch_file(src):
+            raise OgiveError(f"{src} is a saved sketch, not a log; look at it with 'ogive show {src}'.")
+    if args.output and not to_stdout:
+        # Fail before a long scan, not after it.
+        folder = os.path.dirname(args.output) or "."
+        if not os.path.isdir(folder):
+            raise OgiveError(f"cannot write {args.output}: the folder {folder} does not exist.")
+        if not os.access(folder, os.W_OK):
+            raise OgiveError(f"cannot write {args.output}: the folder {folder} is not writable.")
 
     result = scan_sources(list(args.sources), args)
     warnings = list(result.warnings)

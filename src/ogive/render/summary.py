@@ -312,7 +312,7 @@ def _notes(summary: SetSummary) -> list[str]:
             notes.append(f"{tag}PARTIAL: {s.partial}")
         if s.n == 0:
             notes.append(f"{tag}no usable values at all")
-    if summary.sketches and all(s.exact for s in summary.sketches if s.n):
+    if any(s.n for s in summary.sketches) and all(s.exact for s in summary.sketches if s.n):
         notes.append("every value is held exactly: these quantiles are exact, not estimated")
     return ["", *notes] if notes else []
 
