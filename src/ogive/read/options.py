@@ -56,7 +56,12 @@ class ScanOptions:
 
 @dataclass(frozen=True)
 class ScanProgress:
-    """A snapshot sent to the progress callback after each chunk (at most ~5 per second)."""
+    """A snapshot sent to the progress callback after each chunk.
+
+    At most ~5 per second, except when the scan also has a ``cancel`` callback: then
+    after every chunk, so that a caller deciding to stop (a preview of the first KB)
+    sees current figures.
+    """
 
     bytes_read: int
     bytes_total: int | None

@@ -100,6 +100,7 @@ def scan(
                         break
                     continue
                 header_checked = False
+                seen_at_start = state.bytes_seen
                 for chunk in _prefetch(sources.chunks(src, options.chunk_bytes, options.max_line_bytes)):
                     data, first_line = chunk.data, chunk.first_line
                     if chunk.too_long:
@@ -127,9 +128,14 @@ def scan(
                             drain(PARSE_WORKERS)
                     state.bytes_seen += len(chunk.data)
                     now = time.monotonic()
-                    if progress is not None and now - last_report >= PROGRESS_INTERVAL_S:
+                    if progress is not None and (
+                        cancel is not None or now - last_report >= PROGRESS_INTERVAL_S
+                    ):
                         last_report = now
-                        pos = src.raw_pos if src.size else state.bytes_seen
+                        # Compressed: the file offset (what the size measures); plain: bytes
+                        # consumed (the reader thread's offset runs ahead).
+                        plain_pos = state.bytes_seen - seen_at_start
+                        pos = src.raw_pos if src.size and src.compression else plain_pos
                         snapshot = ScanProgress(
                             done_bytes + pos,
                             total,
@@ -142,7 +148,7 @@ def scan(
                         progress(snapshot)
                     if cancel is not None and cancel():
                         state.partial = (
-                            f"stopped on request in {src.display} at line {first_line + chunk.lines}"
+                            f"stopped on request in {src.display} after line {first_line + chunk.lines - 1}"
                         )
                         break
                 drain(0)
@@ -521,7 +527,9 @@ class _State:
                     self.commit(self.prepare(batch, src.display, 1 + skip + done_rows))
                     done_rows += batch.height
                     now = time.monotonic()
-                    if progress is not None and now - last_report >= PROGRESS_INTERVAL_S:
+                    if progress is not None and (
+                        cancel is not None or now - last_report >= PROGRESS_INTERVAL_S
+                    ):
                         last_report = now
                         pos = min(int((skip + done_rows) * avg_line), src.size or 0)
                         progress(
@@ -536,7 +544,7 @@ class _State:
                             )
                         )
                     if cancel is not None and cancel():
-                        self.partial = f"stopped on request in {src.display} at line {skip + done_rows}"
+                        self.partial = f"stopped on request in {src.display} after line {skip + done_rows}"
                         break
                 break
             except pl.exceptions.PolarsError as exc:
