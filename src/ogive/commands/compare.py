@@ -135,6 +135,10 @@ def num(x: float | None) -> str:
     return f"{x:.4g}"
 
 
+def _with_unit(x: float, unit: str) -> str:
+    return f"{num(x)} {unit}" if unit else num(x)
+
+
 def _signed(x: float) -> str:
     s = num(x)
     return s if s.startswith("-") or s in ("unbounded", "-") else "+" + s
@@ -184,10 +188,11 @@ def format_comparison(c: Comparison, sketches: tuple[Sketch, Sketch], sources: t
     lines += [
         "",
         "Distances",
-        f"  Kolmogorov-Smirnov D = {ks.distance:.4g} at {num(ks.at)} {u}; called above {ks.threshold:.4g} "
+        f"  Kolmogorov-Smirnov D = {ks.distance:.4g} at {_with_unit(ks.at, u)}; "
+        f"called above {ks.threshold:.4g} "
         f"(critical {ks.critical:.4g} + sketch error {ks.slack:.2g}); p = {ks.p_value:.3g}: "
         + ("differs" if ks.differs else "no clear difference"),
-        f"  Wasserstein-1 = {num(w.distance)} {u}"
+        f"  Wasserstein-1 = {_with_unit(w.distance, u)}"
         + (f" ({w.relative:.1%} of {a_lab}'s mean)" if math.isfinite(w.relative) else ""),
         "",
         f"Shift function {b_lab} - {a_lab} ({c.shift.confidence:.0%} simultaneous band)",
@@ -211,7 +216,7 @@ def format_comparison(c: Comparison, sketches: tuple[Sketch, Sketch], sources: t
     lines += ["", f"Tail budget (share of {b_lab} above {a_lab}'s cut; G test)"]
     for t in c.tail:
         lines.append(
-            f"  above {a_lab} {t.label.split()[-1]} = {num(t.cut)} {u}: {a_lab} {t.a_share:.3%}, "
+            f"  above {a_lab} {t.label.split()[-1]} = {_with_unit(t.cut, u)}: {a_lab} {t.a_share:.3%}, "
             f"{b_lab} {t.b_share:.3%} (x{t.ratio:.2f}); G = {t.g:.3g}, p = {t.p_value:.3g}: {t.verdict}"
         )
     for note in c.notes:
@@ -288,18 +293,26 @@ def _scan_windows(args: argparse.Namespace, width: float) -> Any:
     """Scan one source with the reader's window option (a sketch per window)."""
     import dataclasses
 
+    from ..fit.windows import looks_like_windows
     from ..read.options import ScanOptions
     from .common import options_from_args
 
     if "window" not in {f.name for f in dataclasses.fields(ScanOptions)}:
         raise OgiveError("this install's reader cannot cut by time; scan with --window is not available.")
-    from ..read import scan  # type: ignore[attr-defined]
+    from ..read import scan
 
-    options = dataclasses.replace(options_from_args(args), window=args.window)  # type: ignore[call-arg]
+    options = dataclasses.replace(options_from_args(args), window=args.window)
     result = scan([args.a], options)
     if not getattr(args, "quiet", False):
         for warning in result.warnings:
             print(f"ogive: warning: {warning}", file=sys.stderr)
+    if not looks_like_windows(result.sketches.names()):
+        # The option exists but this reader did not cut by time: say so instead of
+        # comparing one sketch with nothing.
+        raise OgiveError(
+            "the reader in this build does not cut sources into time windows yet; "
+            "use --split-at TIME for a before/after comparison, or compare saved per-window sketches."
+        )
     return result.sketches
 
 

@@ -172,7 +172,7 @@ class TailBudget:
     g: float
     p_value: float
     verdict: str
-    """'more of B above', 'less of B above' or 'no clear change'."""
+    """'more above the cut', 'less above the cut' or 'no clear change' (B against A)."""
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -234,7 +234,7 @@ def tail_budget(a: Sketch, b: Sketch, q: float, *, confidence: float = 0.95) -> 
     alpha = 1.0 - confidence
     verdict = "no clear change"
     if p < alpha:
-        verdict = "more of B above" if pb > pa else "less of B above"
+        verdict = "more above the cut" if pb > pa else "less above the cut"
     return TailBudget(
         label=f"above A {quantile_label(q)}",
         q=q,

@@ -57,6 +57,14 @@ def window_name(start_epoch_s: float) -> str:
     return dt.strftime(fmt)
 
 
+_NAME = re.compile(r"^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d(\.\d+)?Z$")
+
+
+def looks_like_windows(names: list[str]) -> bool:
+    """True when every sketch name is a window start as :func:`window_name` writes it."""
+    return bool(names) and all(_NAME.match(n) for n in names)
+
+
 @dataclass(frozen=True)
 class WindowRow:
     name: str
