@@ -14,7 +14,8 @@ Format 1, top level::
     }
 
 SKETCH holds ``unit``, ``compression``, ``scale``, ``tail_size``, the counts (``count``,
-``sum``, ``nan_count``, ``inf_count``, ``negative_count``, ``zero_count``), the digest
+``sum``, ``nan_count``, ``inf_count``, ``negative_count``, ``zero_count``), the rank
+error inherited from merges (``merge_slack``, positions, optional: 0 when absent), the digest
 (``centroids``: parallel arrays ``mean``, ``weight``, ``pure``), the exact tails
 (``low``, ``high``: sorted arrays) and ``provenance`` (sources, field, lines and rows
 read, rows skipped by reason with example locations, first/last timestamp, partial).
@@ -57,6 +58,7 @@ def sketch_to_dict(s: Sketch) -> dict[str, Any]:
         "inf_count": s.inf_count,
         "negative_count": s.negative_count,
         "zero_count": s.zero_count,
+        "merge_slack": s.merge_slack,
         "centroids": {
             "mean": _means(means, pure),
             "weight": _floats(weights),
@@ -202,6 +204,10 @@ def sketch_from_dict(body: Any) -> Sketch:
     s.total = float(body["sum"])
     for name in ("nan_count", "inf_count", "negative_count", "zero_count"):
         setattr(s, name, _int(body, name))
+    slack = body.get("merge_slack", 0.0)  # absent in files written before it existed
+    if not isinstance(slack, (int, float)) or isinstance(slack, bool) or not 0 <= slack < math.inf:
+        raise ValueError("'merge_slack' must be a non-negative number")
+    s.merge_slack = float(slack)
     p = body["provenance"]
     s.provenance = Provenance(
         sources=[str(x) for x in p["sources"]],
