@@ -145,7 +145,8 @@ def requests(rng: np.random.Generator, ts_us: NDArray[np.int64]) -> pl.DataFrame
     latency = np.where(timed_out, TIMEOUT_MS + rng.exponential(4.0, n), latency)
     status = np.where(limited, 429, np.where(failed, 500, np.where(timed_out, 504, status)))
     size = np.where(limited | failed | timed_out, 160.0, np.where(status == 304, 0.0, size))
-    cache = np.where(~cached, 2, np.where(miss | failed | timed_out, 1, 0))
+    # Rejected at the edge (429) never reaches the cache: it counts as neither hit nor miss.
+    cache = np.where(~cached | limited, 2, np.where(miss | failed | timed_out, 1, 0))
 
     return pl.DataFrame(
         {
