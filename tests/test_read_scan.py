@@ -258,11 +258,13 @@ def test_parquet(tmp_path: Path, raw: np.ndarray) -> None:
     _check(r.sketches["host=h0"].quantile(QS), raw[0::2])
 
 
-def test_corrupt_gzip_names_offset(tmp_path: Path, raw: np.ndarray) -> None:
-    path = tmp_path / "cut.gz"
-    blob = gzip.compress(_csv_text(raw).encode())
+@pytest.mark.parametrize("kind", ["gzip", "zstd", "bz2", "xz"])
+def test_truncated_compressed_input_names_offset(tmp_path: Path, raw: np.ndarray, kind: str) -> None:
+    path = tmp_path / "cut.bin"
+    blob = COMPRESSORS[kind](_csv_text(raw).encode())
     path.write_bytes(blob[: len(blob) // 2])
-    with pytest.raises(OgiveError, match=r"corrupt or truncated gzip data near compressed byte offset \d+"):
+    message = rf"corrupt or truncated {kind} data near compressed byte offset \d+"
+    with pytest.raises(OgiveError, match=message):
         scan([str(path)], ScanOptions(column="latency_ms", chunk_bytes=1 << 12))
 
 

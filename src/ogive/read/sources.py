@@ -79,10 +79,7 @@ class Opened:
         if self.compression == "xz":
             return lzma.LZMAFile(self.raw, "rb")  # type: ignore[return-value]
         if self.compression == "zstd":
-            import zstandard
-
-            reader = zstandard.ZstdDecompressor().stream_reader(self.raw, read_across_frames=True)
-            return reader  # type: ignore[return-value]
+            return _ZstdStream(self.raw)  # type: ignore[return-value]
         return self.raw
 
     @property
@@ -110,7 +107,7 @@ class Opened:
         kind = self.compression or "plain"
         return OgiveError(
             f"{self.display}: corrupt or truncated {kind} data near compressed byte offset "
-            f"{self.raw_pos} ({exc}); the values before that point were read."
+            f"{self.raw_pos} ({exc})."
         )
 
     def close(self) -> None:
@@ -118,6 +115,49 @@ class Opened:
             self.stream.close()
         if self.name != "-":
             self.raw.close()
+
+
+class _ZstdStream:
+    """Zstandard frames one after another, with truncation detected.
+
+    ``zstandard``'s stream reader ends quietly when the input stops inside a frame;
+    a log cut off mid-copy must be reported, so frames are decoded here with a
+    decompression object per frame and an unfinished frame at end of input raises.
+    """
+
+    def __init__(self, raw: BinaryIO) -> None:
+        import zstandard
+
+        self._zstd = zstandard
+        self.raw = raw
+        self._dobj = zstandard.ZstdDecompressor().decompressobj()
+        self._fresh = True  # no input given to the current frame yet
+        self._out = bytearray()
+
+    def read(self, n: int) -> bytes:
+        while len(self._out) < n:
+            data = self.raw.read(1 << 20)
+            if not data:
+                if not self._fresh and not self._dobj.eof:
+                    raise EOFError("compressed input ended inside a zstd frame")
+                break
+            self._feed(data)
+        out = bytes(self._out[:n])
+        del self._out[:n]
+        return out
+
+    def _feed(self, data: bytes) -> None:
+        while data:
+            self._fresh = False
+            self._out += self._dobj.decompress(data)
+            if not self._dobj.eof:
+                return
+            data = self._dobj.unused_data
+            self._dobj = self._zstd.ZstdDecompressor().decompressobj()
+            self._fresh = True
+
+    def close(self) -> None:
+        pass
 
 
 def chunks(src: Opened, chunk_bytes: int, max_line_bytes: int) -> Iterator[Chunk]:
