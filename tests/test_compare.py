@@ -185,3 +185,19 @@ def test_compare_command_errors_exit_3(tmp_path, capsys) -> None:  # type: ignor
     assert err.startswith("ogive: error:") and "Traceback" not in err
     assert main(["compare", str(pa)]) == 3
     assert main(["compare", str(pa), str(pb), "--confidence", "1.5"]) == 3
+
+
+def test_compare_windows_from_saved_file(tmp_path, capsys) -> None:  # type: ignore[no-untyped-def]
+    # Saved per-window sketches (named by window start) are compared with the first.
+    rng = np.random.default_rng(27)
+    names = [str(n) for n in window_names(np.array([0.0, 600.0, 1200.0]), 600.0)]
+    factors = (1.0, 1.0, 1.4)
+    sset = SketchSet(
+        {n: _sketch(rng.lognormal(3, 0.5, 10_000) * f) for n, f in zip(names, factors, strict=True)}
+    )
+    path = tmp_path / "w.ogive"
+    save_sketches(path, sset)
+    assert main(["compare", str(path), "--window", "10m", "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["flagged"] == [names[2]]
+    assert main(["compare", str(path), "--window", "ten"]) == 3
