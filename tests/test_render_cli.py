@@ -76,3 +76,64 @@ def test_bad_requests_are_one_line_errors(
     assert main(["plot", *(x.format(**spec) for x in args)]) == EXIT_ERROR
     err = capsys.readouterr().err
     assert message in err and err.count("\n") == 1 and "Traceback" not in err
+
+
+def test_json_gives_the_numbers_behind_each_plot(runs: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    import json
+
+    for kind, key in (("qq", "subject"), ("detrended", "deviation"), ("pp", "subject_p"), ("shift", "delta")):
+        assert main(["plot", f"{runs}:before", f"{runs}:after", "--kind", kind, "--json"]) == 0
+        data = json.loads(capsys.readouterr().out)
+        assert data["kind"] == kind and key in data
+
+
+class _Wrapped:
+    """A scipy frozen distribution behind the fit package's model interface."""
+
+    def __init__(self, dist: object, label: str) -> None:
+        self.dist, self.label = dist, label
+
+    def ppf(self, q: np.ndarray) -> np.ndarray:
+        return np.asarray(self.dist.ppf(q))  # type: ignore[attr-defined]
+
+    def cdf(self, x: np.ndarray) -> np.ndarray:
+        return np.asarray(self.dist.cdf(x))  # type: ignore[attr-defined]
+
+
+def test_model_reference_uses_the_fit_package(
+    runs: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    import types
+
+    import scipy.stats as st
+
+    import ogive.fit
+
+    seen: list[object] = []
+
+    def fake_fit(sketch: Sketch, families: list[str] | None = None) -> object:
+        seen.append(families)
+        # Stand-in until the fit package lands: scipy's lognormal at the fixture's parameters.
+        return types.SimpleNamespace(models=[_Wrapped(st.lognorm(0.5, scale=80.0), "lognormal(σ=0.5)")])
+
+    monkeypatch.setattr(ogive.fit, "fit_sketch", fake_fit, raising=False)
+    for kind in ("qq", "detrended", "pp", "cdf"):
+        args = [
+            "plot",
+            f"{runs}:before",
+            "--model",
+            "lognormal",
+            "--kind",
+            kind,
+            "--width",
+            "60",
+            "--height",
+            "16",
+        ]
+        assert main(args) == 0
+        lines = capsys.readouterr().out.rstrip("\n").split("\n")
+        assert len(lines) == 16 and max(map(len, lines)) <= 60
+        assert "lognormal" in "\n".join(lines)
+    assert seen == [["lognormal"]] * 4
+    assert main(["plot", f"{runs}:before", "--model", "lognormal", "--kind", "shift"]) == EXIT_ERROR
+    assert "compares two distributions" in capsys.readouterr().err

@@ -252,3 +252,15 @@ def test_marks_in_one_cell_share_one_label() -> None:
     fig = render.qq_figure(pairs_from_sketches(b, a), width=50, height=14)
     _check_labels(fig)
     assert "p90/p99/p99.9" in {lab.text for lab in fig.labels}
+
+
+def test_axis_names_and_series_legend_survive_the_smallest_size() -> None:
+    p = probability_grid(10_000, 80)
+    model, data = st.lognorm(0.4, scale=50), st.lognorm(0.6, scale=55)
+    pairs = QuantilePairs(p, model.ppf(p), data.ppf(p), "ms", "gamma fit", "checkout")
+    for ascii_only in (False, True):
+        head = render.qq_plot(pairs, width=40, height=12, ascii_only=ascii_only)[0]
+        assert "checkout" in head and "gamma fit" in head
+        # Two CDFs: both series must be named, since they differ only by glyph.
+        head = render.cdf_plot(pairs, width=40, height=12, ascii_only=ascii_only)[0]
+        assert "checkout" in head and "gamma fit" in head

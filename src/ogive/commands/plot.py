@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import math
 import os
 import shutil
 import sys
@@ -83,6 +84,11 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--no-band", dest="band", action="store_false", help="leave out the simultaneous band"
     )
     parser.add_argument(
+        "--json",
+        action="store_true",
+        help="print the numbers behind the plot as one JSON object instead of drawing it",
+    )
+    parser.add_argument(
         "--confidence",
         type=float,
         default=0.95,
@@ -145,11 +151,8 @@ def _fitted_model(sketch: Any, family: str) -> tuple[Any, str]:
 
 
 def run(args: argparse.Namespace) -> int:
-    import numpy as np
-
     from .. import render
-    from ..fit import curves
-    from ..fit.qq import pairs_from_model, pairs_from_sketches
+    from ..fit.curves import plot_inputs
 
     if args.b is not None and args.model is not None:
         raise OgiveError("give either a second distribution B or --model FAMILY, not both.")
@@ -159,77 +162,59 @@ def run(args: argparse.Namespace) -> int:
         )
     if not 0 < args.confidence < 1:
         raise OgiveError(f"--confidence must lie strictly between 0 and 1, got {args.confidence}.")
-    width, height = plot_size(args.width, args.height)
+    width, height = (0, 0) if args.json else plot_size(args.width, args.height)
     name_a, a = _load(args.a, args)
     if a.count == 0:
         raise OgiveError(f"{args.a} holds no values; there is nothing to plot.")
-    log = False if args.linear else None
-    opts: dict[str, Any] = {"width": width, "height": height, "ascii_only": args.ascii}
 
     # With two distributions B is read against A (A the baseline), as in 'compare';
     # with --model, A is read against the model.
+    reference: Any
     if args.model is not None:
         if args.kind == "shift":
             raise OgiveError("the shift function compares two distributions; give B instead of --model.")
-        model, ref_name = _fitted_model(a, args.model)
-        subject, subj_name, reference = a, name_a, model
-        pairs = pairs_from_model(a, model, subject_label=name_a, reference_label=ref_name)
-        if args.band:
-            eps = curves.band_epsilon(a, confidence=args.confidence)
-            pairs = curves.with_dkw_band(pairs, model.ppf, eps, confidence=args.confidence)
+        reference, ref_name = _fitted_model(a, args.model)
+        subject, subj_name = a, name_a
     else:
         name_b, b = _load(args.b, args)
-        if b.count == 0:
-            raise OgiveError(f"{args.b} holds no values; there is nothing to plot.")
-        if a.unit != b.unit:
-            raise OgiveError(
-                f"A is in {a.unit or 'no unit'!r} and B in {b.unit or 'no unit'!r}; "
-                "rescan one with the same --unit."
-            )
         if name_a == name_b:
             name_a, name_b = "A", "B"
-        if args.kind == "shift":
-            from ..fit.shift import shift_function
-
-            sf = shift_function(a, b, confidence=args.confidence, labels=(name_a, name_b))
-            _emit(render.shift_plot(sf, **opts))
-            return 0
         subject, subj_name, reference, ref_name = b, name_b, a, name_a
-        pairs = pairs_from_sketches(b, a, subject_label=name_b, reference_label=name_a)
-        if args.band:
-            eps = curves.band_epsilon(b, a, confidence=args.confidence)
-            pairs = curves.with_dkw_band(pairs, a.quantile, eps, confidence=args.confidence)
-
-    if args.kind == "qq":
-        lines = render.qq_plot(pairs, log=log, **opts)
-    elif args.kind == "detrended":
-        lines = render.detrended_plot(pairs, **opts)
-    elif args.kind == "pp":
-        pp = curves.pp_from_sketches(
+    try:
+        data = plot_inputs(
+            args.kind,
             subject,
             reference,
             subject_label=subj_name,
             reference_label=ref_name,
-            confidence=args.confidence if args.band else None,
+            band=args.band,
+            confidence=args.confidence,
         )
-        lines = render.pp_plot(pp, **opts)
-    elif args.kind == "cdf":
-        if args.model is not None:
-            p = curves.cdf_probs()
-            overlay = curves.CDFOverlay(
-                (
-                    curves.CDFSeries(np.asarray(reference.ppf(p), dtype=np.float64), p, ref_name),
-                    curves.CDFSeries(subject.quantile(p), p, subj_name),
-                ),
-                a.unit,
-            )
-        else:
-            overlay = curves.cdf_from_sketches({ref_name: reference, subj_name: subject})
-        lines = render.cdf_plot(overlay, log=log, **opts)
-    else:  # pragma: no cover - argparse restricts the choices
-        raise OgiveError(f"unknown plot kind {args.kind!r}.")
-    _emit(lines)
+    except ValueError as exc:
+        raise OgiveError(str(exc)) from None
+    if args.json:
+        import json
+
+        from ..fit.curves import detrended_from_pairs
+
+        shown = detrended_from_pairs(data) if args.kind == "detrended" else data
+        out = _finite({"kind": args.kind, **shown.to_dict()})
+        sys.stdout.write(json.dumps(out, allow_nan=False) + "\n")
+        return 0
+    log = False if args.linear else None
+    _emit(render.draw(args.kind, data, width=width, height=height, log=log, ascii_only=args.ascii))
     return 0
+
+
+def _finite(value: Any) -> Any:
+    """JSON has no infinity: an unbounded band end or interval is written as null."""
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {k: _finite(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_finite(v) for v in value]
+    return value
 
 
 def _emit(lines: Any) -> None:

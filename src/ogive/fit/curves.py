@@ -373,3 +373,92 @@ class ShiftLike(Protocol):
     def labels(self) -> tuple[str, str]: ...
     @property
     def confidence(self) -> float: ...
+
+
+# ---------------------------------------------------------------- one entry for every plot
+PLOT_KINDS: tuple[str, ...] = ("qq", "detrended", "pp", "cdf", "shift")
+
+
+class QuantileCDFModel(Protocol):
+    """A fitted model as the plots need it: quantile function and CDF."""
+
+    def ppf(self, q: FloatArray) -> FloatArray: ...
+    def cdf(self, x: FloatArray) -> FloatArray: ...
+
+
+def plot_inputs(
+    kind: str,
+    subject: Sketch,
+    reference: Sketch | QuantileCDFModel,
+    *,
+    subject_label: str = "subject",
+    reference_label: str = "reference",
+    band: bool = True,
+    confidence: float = 0.95,
+) -> Any:
+    """The result object each plot kind draws, with the subject read against the reference.
+
+    ``qq``/``detrended`` -> QuantilePairs (with the DKW band when ``band``), ``pp`` ->
+    PPPoints, ``cdf`` -> CDFOverlay, ``shift`` -> ShiftFunction (subject − reference;
+    needs a sketch as reference). The CLI and the workspace both call this, so the same
+    inputs give the same picture everywhere. Raises ValueError (a full sentence).
+    """
+    from .qq import pairs_from_model, pairs_from_sketches
+
+    if kind not in PLOT_KINDS:
+        raise ValueError(f"kind must be one of {', '.join(PLOT_KINDS)}; got {kind!r}.")
+    if subject.count == 0:
+        raise ValueError(f"{subject_label!r} holds no values; there is nothing to plot.")
+    is_sketch = isinstance(reference, Sketch)
+    if is_sketch:
+        assert isinstance(reference, Sketch)
+        if reference.count == 0:
+            raise ValueError(f"{reference_label!r} holds no values; there is nothing to plot.")
+        if reference.unit != subject.unit:
+            raise ValueError(
+                f"{subject_label!r} is in {subject.unit or 'no unit'!r} and {reference_label!r} in "
+                f"{reference.unit or 'no unit'!r}; rescan one with the same --unit."
+            )
+    if kind == "shift":
+        if not isinstance(reference, Sketch):
+            raise ValueError(
+                "the shift function compares two sketches; a model has no sampling error to show."
+            )
+        from .shift import shift_function
+
+        return shift_function(
+            reference, subject, confidence=confidence, labels=(reference_label, subject_label)
+        )
+    if kind == "pp":
+        return pp_from_sketches(
+            subject,
+            reference,
+            subject_label=subject_label,
+            reference_label=reference_label,
+            confidence=confidence if band else None,
+        )
+    if kind == "cdf":
+        if isinstance(reference, Sketch):
+            return cdf_from_sketches({reference_label: reference, subject_label: subject})
+        p = cdf_probs()
+        with np.errstate(all="ignore"):
+            ref_q = np.asarray(reference.ppf(p), dtype=np.float64)
+        return CDFOverlay(
+            (CDFSeries(ref_q, p, reference_label), CDFSeries(subject.quantile(p), p, subject_label)),
+            subject.unit,
+        )
+    if isinstance(reference, Sketch):
+        pairs = pairs_from_sketches(
+            subject, reference, subject_label=subject_label, reference_label=reference_label
+        )
+        if band:
+            eps = band_epsilon(subject, reference, confidence=confidence)
+            pairs = with_dkw_band(pairs, reference.quantile, eps, confidence=confidence)
+    else:
+        pairs = pairs_from_model(
+            subject, reference, subject_label=subject_label, reference_label=reference_label
+        )
+        if band:
+            eps = band_epsilon(subject, confidence=confidence)
+            pairs = with_dkw_band(pairs, reference.ppf, eps, confidence=confidence)
+    return pairs

@@ -243,42 +243,32 @@ class Figure:
         corner, h_axis, h_tick, h_minor = ("+", "-", "+", "-") if a else ("└", "─", "┬", "┴")
         rows: list[list[tuple[str, str]]] = []
 
-        # Header: y title, legend items, x title when the bottom line has no room.
+        # Header: axis names first (a plot without them cannot be read), then legend
+        # items; each goes on the first header line with room, or is left out.
         x_label_cells, x_title_placed = self._x_label_line()
-        items: list[tuple[str, str]] = []  # (text, role) tokens
-        head: list[list[tuple[str, str]]] = []
-        y_title = self.y_title
         tokens: list[list[tuple[str, str]]] = []
-        if y_title:
-            tokens.append([(("^ " if a else "↑ ") + y_title, "title")])
+        if self.y_title:
+            tokens.append([(("^ " if a else "↑ ") + self.y_title, "title")])
+        if not x_title_placed and self.x_title:
+            tokens.append([(("-> " if a else "→ ") + self.x_title, "title")])
         for item in self.legend:
             tokens.append([(item.glyph, item.role), (" " + item.text, "legend")])
-        if not x_title_placed and self.x_title:
-            tokens.append([(self.x_title + (" ->" if a else " →"), "title")])
-        del items
-        current: list[tuple[str, str]] = []
-        for tok in tokens:
+        head: list[list[tuple[str, str]]] = [[] for _ in range(self.header_rows)]
+        for n, tok in enumerate(tokens):
             tok_len = sum(len(t) for t, _ in tok)
-            cur_len = sum(len(t) for t, _ in current)
-            gap = 2 if current else 0
-            if cur_len + gap + tok_len <= W:
-                if current:
-                    current.append(("  ", ""))
-                current.extend(tok)
-                continue
-            if current:
-                head.append(current)
-                current = []
-            if len(head) >= self.header_rows:
-                break
-            if tok_len > W:
-                text = "".join(t for t, _ in tok)
-                tok = [(text[: W - 1] + ("~" if a else "…"), tok[0][1])]
-            current.extend(tok)
-        if current and len(head) < self.header_rows:
-            head.append(current)
-        while len(head) < self.header_rows:
-            head.append([])
+            for line in head:
+                used = sum(len(t) for t, _ in line)
+                gap = 2 if line else 0
+                if used + gap + tok_len <= W:
+                    if line:
+                        line.append(("  ", ""))
+                    line.extend(tok)
+                    break
+                if not line and n < 2:
+                    # An axis name longer than the whole width: shortened, never dropped.
+                    text = "".join(t for t, _ in tok)
+                    line.append((text[: W - 1] + ("~" if a else "…"), tok[0][1]))
+                    break
         for h in head[: self.header_rows]:
             cells: list[tuple[str, str]] = []
             for text, role in h:

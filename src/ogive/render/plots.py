@@ -310,7 +310,7 @@ def cdf_figure(
         xfmt=_fmt(ov.unit, ascii_only),
         yfmt=_prob,
         ascii_only=ascii_only,
-        x_title="value",
+        x_title="",  # the tick labels carry the unit; the legend needs the room
         y_title="P(X <= x)" if ascii_only else "P(X ≤ x)",
     )
     styles = [
@@ -430,3 +430,26 @@ def shift_plot(
     can be negative). Accepts a ShiftFunction or a Comparison (its ``.shift``).
     """
     return shift_figure(data, width=width, height=height, log=log, ascii_only=ascii_only).lines()
+
+
+# ---------------------------------------------------------------- dispatch
+def draw(
+    kind: str,
+    data: Any,
+    *,
+    width: int,
+    height: int,
+    log: bool | None = None,
+    ascii_only: bool = False,
+) -> PlotLines:
+    """Draw ``data`` (from :func:`ogive.fit.curves.plot_inputs`) as plot ``kind``."""
+    table: dict[str, Callable[..., PlotLines]] = {
+        "qq": qq_plot,
+        "detrended": detrended_plot,
+        "pp": pp_plot,
+        "cdf": cdf_plot,
+        "shift": shift_plot,
+    }
+    if kind not in table:
+        raise ValueError(f"kind must be one of {', '.join(table)}; got {kind!r}.")
+    return table[kind](data, width=width, height=height, log=log, ascii_only=ascii_only)
