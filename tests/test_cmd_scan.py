@@ -277,3 +277,51 @@ def test_sketch_to_stdout_table_to_stderr(tmp_path: Path) -> None:
     (tmp_path / "remote.ogive").write_bytes(proc.stdout)
     assert load_sketches(tmp_path / "remote.ogive")["all"].count == 12_000 - 4
     assert b"p99.99" in proc.stderr and b"Traceback" not in proc.stderr
+
+
+def test_group_cap_warning_reaches_json(capsys: pytest.CaptureFixture[str]) -> None:
+    flags = ["--column", "latency_ms", "--unit", "ms", "--by", "host", "--max-groups", "2", "--json"]
+    code, out, err = _run(capsys, "scan", str(DEMO / "checkout-day.csv"), *flags)
+    assert code == 0
+    doc = json.loads(out)
+    assert "host=(other)" in doc["sketches"] and len(doc["sketches"]) == 3
+    assert any("max-groups" in w for w in doc["warnings"])
+    assert "warning" in err  # also told on stderr, as it happened
+    assert sum(s["n"] for s in doc["sketches"].values()) == 24_000 - 6
+
+
+def test_merge_to_stdout_and_json(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+    a, b = tmp_path / "a.ogive", tmp_path / "b.ogive"
+    for name, out_file in (("checkout-before.log", a), ("checkout-after.log.gz", b)):
+        assert (
+            _run(capsys, "scan", str(DEMO / name), "--pattern", PATTERN, "-o", str(out_file), "--quiet")[0]
+            == 0
+        )
+    proc = subprocess.run(
+        [sys.executable, "-m", "ogive", "merge", str(a), str(b), "-o", "-"], capture_output=True, check=False
+    )
+    assert proc.returncode == 0 and b"merged 2 files" in proc.stderr
+    (tmp_path / "m.ogive").write_bytes(proc.stdout)
+    assert load_sketches(tmp_path / "m.ogive")["all"].count == 2 * (12_000 - 4)
+    code, out, _ = _run(capsys, "merge", str(a), str(b), "-o", str(tmp_path / "j.ogive"), "--json")
+    doc = json.loads(out)
+    assert code == 0 and doc["sketches"]["all"]["n"] == 2 * (12_000 - 4)
+    assert doc["sketches"]["all"]["skipped_total"] == 8
+
+
+def test_scan_refuses_a_sketch_and_an_unwritable_output(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    s = tmp_path / "s.ogive"
+    assert (
+        _run(
+            capsys, "scan", str(DEMO / "checkout-before.log"), "--pattern", PATTERN, "-o", str(s), "--quiet"
+        )[0]
+        == 0
+    )
+    code, _, err = _run(capsys, "scan", str(s))
+    assert code == 3 and "ogive show" in err
+    code, _, err = _run(
+        capsys, "scan", str(DEMO / "checkout-before.log"), "--pattern", PATTERN, "-o", "/no/such/x.ogive"
+    )
+    assert code == 3 and "does not exist" in err

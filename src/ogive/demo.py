@@ -424,6 +424,8 @@ def write(
             os.chmod(tmp, 0o666 & ~umask)  # an ordinary file, not mkstemp's private 0600
             os.replace(tmp, path)
             tmp = None
+    except BrokenPipeError:
+        raise  # the reader (`| head`) went away: the CLI ends quietly, as filters do
     except OSError as exc:
         raise OgiveError(f"cannot write {path}: {exc.strerror or exc}; nothing was kept.") from None
     finally:
