@@ -51,7 +51,12 @@ def test_ks_on_large_sketches_within_slack(large_pair: tuple[np.ndarray, np.ndar
     ks = ks_distance(_sketch(x), _sketch(y))
     ref = stats.ks_2samp(x, y).statistic
     assert abs(ks.distance - ref) <= ks.slack
-    assert ks.differs == (ks.distance - ks.slack > ks.critical)
+    assert ks.differs == (ks.distance - ks.slack_at > ks.critical)
+    assert 0.0 <= ks.slack_at <= ks.slack
+    # The call rests on the gap at ks.at: on the raw data (numpy) it is at least distance - slack_at.
+    fa = np.searchsorted(np.sort(x), ks.at, side="right") / x.size
+    fb = np.searchsorted(np.sort(y), ks.at, side="right") / y.size
+    assert abs(fa - fb) >= ks.distance - ks.slack_at
 
 
 def test_ks_does_not_call_same_distribution() -> None:

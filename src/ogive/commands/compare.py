@@ -190,7 +190,7 @@ def format_comparison(c: Comparison, sketches: tuple[Sketch, Sketch], sources: t
         "Distances",
         f"  Kolmogorov-Smirnov D = {ks.distance:.4g} at {_with_unit(ks.at, u)}; "
         f"called above {ks.threshold:.4g} "
-        f"(critical {ks.critical:.4g} + sketch error {ks.slack:.2g}); p = {ks.p_value:.3g}: "
+        f"(critical {ks.critical:.4g} + sketch error {ks.slack_at:.2g}); p = {ks.p_value:.3g}: "
         + ("differs" if ks.differs else "no clear difference"),
         f"  Wasserstein-1 = {_with_unit(w.distance, u)}"
         + (f" ({w.relative:.1%} of {a_lab}'s mean)" if math.isfinite(w.relative) else ""),

@@ -55,22 +55,27 @@ class KSResult:
     Method: N. Smirnov (1948), "Table for estimating the goodness of fit of empirical
     distributions", *Ann. Math. Statist.* 19, 279–281: under no difference,
     sqrt(nm/(n+m))·D has the Kolmogorov limit distribution. Each sketch's CDF may be
-    off by its rank error, so the true distance lies in [distance - slack, distance +
-    slack]; the difference is called only when even ``distance - slack`` passes the
-    critical value, and the p-value is computed at ``distance - slack``.
+    off by its rank error, so the true distance lies within ``slack`` (both sketches'
+    whole-digest bounds) of ``distance``. For the call only a lower bound is needed, and
+    at the point ``at`` where the gap was seen the true gap is at least ``distance -
+    slack_at`` (the local errors there, which are far smaller in the tails); the
+    difference is called only when that passes the critical value, and the p-value is
+    computed at it.
     """
 
     distance: float
     at: float
     """The value where the CDFs are furthest apart."""
     slack: float
-    """Sum of the two sketches' rank errors (fraction of n)."""
+    """Sum of the two sketches' whole-digest rank errors (fraction of n)."""
+    slack_at: float
+    """Sum of the two sketches' local rank errors at ``at`` (fraction of n)."""
     critical: float
     """Asymptotic critical value at 1 - confidence, before the slack."""
     threshold: float
-    """``critical + slack``: what ``distance`` must exceed to be called a difference."""
+    """``critical + slack_at``: what ``distance`` must exceed to be called a difference."""
     p_value: float
-    """Asymptotic, at ``max(distance - slack, 0)`` (conservative)."""
+    """Asymptotic, at ``max(distance - slack_at, 0)`` (conservative)."""
     differs: bool
     confidence: float
 
@@ -79,6 +84,7 @@ class KSResult:
             "distance": self.distance,
             "at": _num(self.at),
             "slack": self.slack,
+            "slack_at": self.slack_at,
             "critical": self.critical,
             "threshold": self.threshold,
             "p_value": self.p_value,
@@ -98,18 +104,20 @@ def ks_distance(a: Sketch, b: Sketch, *, confidence: float = 0.95) -> KSResult:
     i = int(np.argmax(gap))
     d = float(gap[i])
     slack = a.rank_error_bound() + b.rank_error_bound()
+    slack_at = min(_count_error(a, float(x[i])) / a.count + _count_error(b, float(x[i])) / b.count, slack)
     n, m = a.count, b.count
     scale = np.sqrt(n * m / (n + m))
     crit = float(stats.kstwobign.isf(1.0 - confidence) / scale)
-    p = float(stats.kstwobign.sf(max(d - slack, 0.0) * scale))
+    p = float(stats.kstwobign.sf(max(d - slack_at, 0.0) * scale))
     return KSResult(
         distance=d,
         at=float(x[i]),
         slack=slack,
+        slack_at=slack_at,
         critical=crit,
-        threshold=crit + slack,
+        threshold=crit + slack_at,
         p_value=min(p, 1.0),
-        differs=d > crit + slack,
+        differs=d > crit + slack_at,
         confidence=confidence,
     )
 
