@@ -111,7 +111,7 @@ def test_model_reference_uses_the_fit_package(
 
     seen: list[object] = []
 
-    def fake_fit(sketch: Sketch, families: list[str] | None = None) -> object:
+    def fake_fit(sketch: Sketch, families: list[str] | None = None, **_: object) -> object:
         seen.append(families)
         # Stand-in until the fit package lands: scipy's lognormal at the fixture's parameters.
         return types.SimpleNamespace(models=[_Wrapped(st.lognorm(0.5, scale=80.0), "lognormal(σ=0.5)")])

@@ -132,20 +132,28 @@ def _load(spec: str, args: argparse.Namespace) -> tuple[str, Any]:
 
 
 def _fitted_model(sketch: Any, family: str) -> tuple[Any, str]:
-    """A model of ``family`` fitted to the sketch by the fit package, and its label."""
+    """A model of ``family`` fitted to the sketch by :func:`ogive.fit.fit_sketch`, and its label."""
     try:
-        from ..fit import fit_sketch  # type: ignore[attr-defined]
+        from ..fit import fit_sketch
     except ImportError:
         raise OgiveError(
             "model fitting is not available in this build; compare against a second distribution B instead."
         ) from None
     try:
-        report = fit_sketch(sketch, families=[family])
+        # No bootstrap: p-values are not drawn, and they would cost seconds.
+        report = fit_sketch(sketch, families=[family], bootstrap=0)
     except ValueError as exc:
         raise OgiveError(f"cannot fit {family!r}: {exc}") from None
     models = list(getattr(report, "models", None) or [])
     if not models:
-        raise OgiveError(f"no {family!r} model could be fitted to these values.")
+        if getattr(report, "tail_models", None):
+            raise OgiveError(
+                f"{family!r} describes only the tail beyond a threshold; plot it with 'ogive fit', "
+                "or pick a family for the whole distribution."
+            )
+        reasons = [getattr(x, "reason", "") for x in getattr(report, "not_fitted", ())]
+        why = f": {reasons[0]}" if reasons and reasons[0] else "."
+        raise OgiveError(f"no {family!r} model could be fitted to these values{why}")
     model = models[0]
     return model, str(getattr(model, "label", family))
 
