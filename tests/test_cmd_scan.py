@@ -325,3 +325,27 @@ def test_scan_refuses_a_sketch_and_an_unwritable_output(
         capsys, "scan", str(DEMO / "checkout-before.log"), "--pattern", PATTERN, "-o", "/no/such/x.ogive"
     )
     assert code == 3 and "does not exist" in err
+
+
+def test_saved_sketch_gives_the_same_numbers_exactly(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    out_file = tmp_path / "d.ogive"
+    flags = [
+        "--column",
+        "latency_ms",
+        "--unit",
+        "ms",
+        "--by",
+        "host",
+        "--json",
+        "--quiet",
+        "-o",
+        str(out_file),
+    ]
+    code, scanned, _ = _run(capsys, "scan", str(DEMO / "checkout-day.csv"), *flags)
+    assert code == 0
+    code, shown, _ = _run(capsys, "show", str(out_file), "--json")
+    assert code == 0
+    # Every number, including the digest-estimated middle quantiles, survives the file.
+    assert json.loads(shown)["sketches"] == json.loads(scanned)["sketches"]
