@@ -264,3 +264,22 @@ def test_axis_names_and_series_legend_survive_the_smallest_size() -> None:
         # Two CDFs: both series must be named, since they differ only by glyph.
         head = render.cdf_plot(pairs, width=40, height=12, ascii_only=ascii_only)[0]
         assert "checkout" in head and "gamma fit" in head
+
+
+def test_two_sample_band_holds_under_no_change_and_flags_a_real_one() -> None:
+    rng = np.random.default_rng(8)
+    a = _sketch(rng.gamma(2.0, 30.0, 20_000))
+    same = _sketch(rng.gamma(2.0, 30.0, 20_000))
+    slower = _sketch(rng.gamma(2.0, 33.0, 20_000))  # 10 % slower everywhere
+
+    def outside(b: Sketch) -> int:
+        pairs = with_dkw_band(pairs_from_sketches(b, a), a.quantile, band_epsilon(b, a))
+        assert pairs.band_low is not None and pairs.band_high is not None
+        return int(np.sum((pairs.subject < pairs.band_low) | (pairs.subject > pairs.band_high)))
+
+    # DKW–Massart (see ogive.fit.curves): under no change the whole curve stays inside
+    # with probability >= 95 %; this seed is one such draw.
+    assert outside(same) == 0
+    # A 10 % scale change moves the CDF by up to 0.052 (scipy.stats.gamma CDFs), beyond
+    # ε = 2 × 0.0105 (plus sketch rank error) here.
+    assert outside(slower) > 0
