@@ -314,8 +314,8 @@ def blocks(
     seed: int = 0,
     bad_rows: int = 0,
     block_rows: int = 100_000,
-) -> Iterator[tuple[bytes, int]]:
-    """(bytes, rows in them) blocks of the scenario; the CSV header comes first.
+) -> Iterator[tuple[bytes, int, int]]:
+    """(bytes, rows, spoilt rows) blocks of the scenario; the CSV header comes first.
 
     With ``size_bytes`` the row count is fixed up front from the width of a probe of
     2000 rows, so the timestamps can spread evenly over the phase; the file lands within
@@ -349,8 +349,8 @@ def blocks(
         if first:
             k = min(bad_rows, target)
             # Spread evenly, never on the first line, so a header stays recognisable.
-            bad_at = np.unique(np.linspace(target * 0.05, target * 0.95, k).astype(np.int64) + 1)[:k]
-            bad_at = np.minimum(bad_at, target - 1)
+            spread = np.linspace(target * 0.05, target * 0.95, k).astype(np.int64) + 1
+            bad_at = np.unique(np.minimum(spread, target - 1))
         idx = np.arange(done, done + n, dtype=np.int64)
         # Evenly spread, strictly increasing times: row i sits in slot i of the span.
         ts = t0 + ((idx + rng.random(n)) * (span / target)).astype(np.int64)
@@ -368,7 +368,7 @@ def blocks(
             body = header + body
             first = False
         done += n
-        yield body, n
+        yield body, n, int(mine.size)
 
 
 def write(
@@ -391,7 +391,7 @@ def write(
     if compress is None:
         compress = path.endswith(".gz")
     began = time.perf_counter()
-    total = rows_done = 0
+    total = rows_done = spoilt = 0
     out: IO[bytes] | gzip.GzipFile
     tmp: str | None = None
     if path == "-":
@@ -407,12 +407,13 @@ def write(
     try:
         # mtime=0 keeps gzip output identical for identical seeds.
         out = gzip.GzipFile(fileobj=raw, mode="wb", compresslevel=6, mtime=0) if compress else raw
-        for body, n in blocks(
+        for body, n, bad in blocks(
             fmt, phase, rows=rows, size_bytes=size_bytes, seed=seed, bad_rows=bad_rows, block_rows=block_rows
         ):
             out.write(body)
             total += len(body)
             rows_done += n
+            spoilt += bad
         if compress:
             out.close()
         raw.flush()
@@ -440,7 +441,7 @@ def write(
         format=fmt,
         phase=phase,
         rows=rows_done,
-        bad_rows=min(bad_rows, rows_done),
+        bad_rows=spoilt,
         bytes_written=total,
         compressed=compress,
         span_start=start.strftime("%Y-%m-%dT%H:%M:%SZ"),

@@ -141,7 +141,8 @@ def run(args: argparse.Namespace) -> int:
         bad = f", {r.bad_rows} spoilt on purpose" if r.bad_rows else ""
         print(
             f"wrote {r.path}: {r.format}{gz}, phase {r.phase} ({r.span_start} to {r.span_end}), "
-            f"{r.rows:,} rows{bad}, {mb:.1f} MB uncompressed in {r.elapsed_s:.1f} s ({rate:.0f} MB/s)",
+            f"{r.rows:,} row{'' if r.rows == 1 else 's'}{bad}, "
+            f"{mb:.1f} MB uncompressed in {r.elapsed_s:.1f} s ({rate:.0f} MB/s)",
             file=report,
         )
     return 0
