@@ -33,6 +33,7 @@ from typing import Any
 import numpy as np
 
 from .. import __version__
+from .digest import DEFAULT_COMPRESSION
 from .sketch import Provenance, Sketch, SketchSet, SkipTally
 
 FORMAT = "ogive-sketch-set"
@@ -146,7 +147,12 @@ def loads(data: bytes) -> SketchSet:
             f"this one reads up to version {VERSION}."
         )
     want = doc.get("checksum")
-    got = "sha256:" + hashlib.sha256(_canonical(doc)).hexdigest()
+    try:
+        got = "sha256:" + hashlib.sha256(_canonical(doc)).hexdigest()
+    except ValueError:  # json.loads takes NaN/Infinity tokens that we never write
+        raise SketchFormatError(
+            "the sketch file holds a non-finite number (NaN or Infinity), which the format never contains."
+        ) from None
     if want != got:
         raise SketchFormatError("the sketch file's checksum does not match: it was edited or damaged.")
     raw = doc.get("sketches")
@@ -156,7 +162,11 @@ def loads(data: bytes) -> SketchSet:
     for name, body in raw.items():
         try:
             out.sketches[name] = sketch_from_dict(body)
-        except (KeyError, TypeError, ValueError) as exc:
+        except KeyError as exc:
+            raise SketchFormatError(
+                f"sketch {name!r} in the file is malformed: it lacks the field {exc}."
+            ) from None
+        except (TypeError, ValueError) as exc:
             raise SketchFormatError(f"sketch {name!r} in the file is malformed: {exc}.") from None
     return out
 
@@ -188,6 +198,10 @@ def sketch_from_dict(body: Any) -> Sketch:
         scale=str(body["scale"]),
     )
     cents = body["centroids"]
+    if not isinstance(cents, dict):
+        raise ValueError("'centroids' must be an object of arrays")
+    if not isinstance(body["provenance"], dict):
+        raise ValueError("'provenance' must be an object")
     means, weights = _array(cents, "mean"), _array(cents, "weight")
     pure = _array(cents, "pure")
     if not (means.size == weights.size == pure.size):
@@ -229,7 +243,9 @@ def from_tdigest_dict(doc: Any, unit: str = "") -> Sketch:
     """A sketch from ``tdigest.TDigest.to_dict()`` (the PyPI ``tdigest`` package).
 
     That format keeps centroids only, so the imported sketch has no exact tails: its
-    minimum, maximum and extreme quantiles are the digest's approximations.
+    minimum, maximum and extreme quantiles are the digest's approximations. Its
+    centroids may overlap in value (that package clusters in arrival order), which
+    ``Sketch.rank_error_bound`` does not account for.
     """
     if not isinstance(doc, dict) or not isinstance(doc.get("centroids"), list):
         raise SketchFormatError("not a tdigest export (no 'centroids' list).")
@@ -240,9 +256,10 @@ def from_tdigest_dict(doc: Any, unit: str = "") -> Sketch:
         raise SketchFormatError("a tdigest centroid lacks a numeric 'm' or 'c'.") from None
     if not np.isfinite(means).all() or np.any(weights <= 0):
         raise SketchFormatError("a tdigest centroid has a non-finite mean or a weight <= 0.")
-    delta = doc.get("delta", 0.01)
-    compression = max(10.0, 1.0 / float(delta)) if isinstance(delta, (int, float)) and delta > 0 else 100.0
-    s = Sketch(unit, compression=max(compression, 100.0), tail_size=1)
+    # Room for every imported centroid: regrouping them at that package's nominal
+    # compression (1 / delta) would throw away most of its resolution, because it
+    # keeps far more centroids per unit of compression than the k1 scale does.
+    s = Sketch(unit, compression=max(DEFAULT_COMPRESSION, 2.0 * means.size), tail_size=1)
     s.digest.add_centroids(means, weights)
     s.count = round(float(weights.sum()))
     s.total = float((means * weights).sum())
