@@ -137,3 +137,10 @@ def test_model_reference_uses_the_fit_package(
     assert seen == [["lognormal"]] * 4
     assert main(["plot", f"{runs}:before", "--model", "lognormal", "--kind", "shift"]) == EXIT_ERROR
     assert "compares two distributions" in capsys.readouterr().err
+
+
+def test_detrended_along_value(runs: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    args = ["plot", f"{runs}:before", f"{runs}:after", "--kind", "detrended", "--along", "value"]
+    assert main([*args, "--width", "70", "--height", "18"]) == 0
+    lines = capsys.readouterr().out.rstrip("\n").split("\n")
+    assert len(lines) == 18 and "100ms" in lines[-1] and "p50" not in lines[-1]

@@ -84,6 +84,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--no-band", dest="band", action="store_false", help="leave out the simultaneous band"
     )
     parser.add_argument(
+        "--along",
+        choices=("prob", "value"),
+        default="prob",
+        help="detrended: x axis is probability on a tail-stretching scale (prob, default) "
+        "or the reference's value",
+    )
+    parser.add_argument(
         "--json",
         action="store_true",
         help="print the numbers behind the plot as one JSON object instead of drawing it",
@@ -210,7 +217,13 @@ def run(args: argparse.Namespace) -> int:
         sys.stdout.write(json.dumps(out, allow_nan=False) + "\n")
         return 0
     log = False if args.linear else None
-    _emit(render.draw(args.kind, data, width=width, height=height, log=log, ascii_only=args.ascii))
+    if args.kind == "detrended":
+        lines = render.detrended_plot(
+            data, width=width, height=height, x_axis=args.along, log=log, ascii_only=args.ascii
+        )
+    else:
+        lines = render.draw(args.kind, data, width=width, height=height, log=log, ascii_only=args.ascii)
+    _emit(lines)
     return 0
 
 
