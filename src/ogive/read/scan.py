@@ -79,15 +79,33 @@ def scan(
     # str.extract is single-threaded, so two chunks at once use both cores) while this
     # thread adds the oldest parsed chunk to the sketches; commits stay strictly in order.
     pool = ThreadPoolExecutor(max_workers=PARSE_WORKERS, thread_name_prefix="ogive-parse")
-    pending: deque[Future[_Prepared]] = deque()
+    pending: deque[_Job] = deque()
+    next_line = 1  # of the current source; advanced as parsed chunks are committed in order
+
+    def commit(job: _Job) -> None:
+        nonlocal next_line
+        if job.too_long:
+            numbers = list(range(next_line, next_line + job.too_long))
+            state.unassigned(TOO_LONG, job.display, numbers)
+            state.lines += job.too_long
+            next_line += job.too_long
+        if job.header:
+            state.lines += 1
+            next_line += 1
+        prepared = job.result()
+        if prepared is not None:
+            prepared.first_line = next_line
+            state.commit(prepared)
+            next_line += prepared.rows
 
     def drain(keep: int) -> None:
         while len(pending) > keep:
-            state.commit(pending.popleft().result())
+            commit(pending.popleft())
 
     try:
         for name in sources_:
             src = sources.Opened(name)
+            next_line = 1
             try:
                 if src.is_parquet or options.format == "parquet":
                     state.scan_parquet(src)
@@ -102,30 +120,27 @@ def scan(
                 header_checked = False
                 seen_at_start = state.bytes_seen
                 for chunk in _prefetch(sources.chunks(src, options.chunk_bytes, options.max_line_bytes)):
-                    data, first_line = chunk.data, chunk.first_line
-                    if chunk.too_long:
-                        drain(0)
-                        state.unassigned(TOO_LONG, src.display, chunk.too_long)
-                        state.lines += len(chunk.too_long)
+                    data = chunk.data
+                    job = _Job(src.display, chunk.too_long)
                     if state.layout is None and data:
                         state.start(records.plan(data, options))
                     layout = state.layout
                     if layout is not None and layout.header and not header_checked and data:
                         head, _, rest = data.partition(b"\n")
                         if head.rstrip(b"\r") == layout.header_line.rstrip(b"\r"):
-                            data, first_line = rest, first_line + 1
-                            state.lines += 1
+                            data, job.header = rest, True
                     if data:
                         header_checked = True
                     if layout is not None and data:
                         if state.unit is None:
+                            # The first chunk decides the unit and time form: parse it here.
                             df, state.numeric = layout.parse(data, numeric=state.numeric)
-                            state.feed(df, src.display, first_line)
+                            state.ready(df)
+                            job.done = state.prepare(df, src.display, 0)
                         else:
-                            pending.append(
-                                pool.submit(state.parse_and_prepare, data, src.display, first_line)
-                            )
-                            drain(PARSE_WORKERS)
+                            job.future = pool.submit(state.parse_and_prepare, data, src.display)
+                    pending.append(job)
+                    drain(PARSE_WORKERS)
                     state.bytes_seen += len(chunk.data)
                     now = time.monotonic()
                     if progress is not None and (
@@ -147,9 +162,8 @@ def scan(
                         )
                         progress(snapshot)
                     if cancel is not None and cancel():
-                        state.partial = (
-                            f"stopped on request in {src.display} after line {first_line + chunk.lines - 1}"
-                        )
+                        drain(0)
+                        state.partial = f"stopped on request in {src.display} after line {next_line - 1}"
                         break
                 drain(0)
                 done_bytes += src.size if src.size else 0
@@ -159,8 +173,9 @@ def scan(
                 break
         drain(0)
     finally:
-        for fut in pending:
-            fut.cancel()
+        for job in pending:
+            if job.future is not None:
+                job.future.cancel()
         pool.shutdown(wait=True)
     return state.finish(time.monotonic() - start)
 
@@ -212,6 +227,22 @@ def _prefetch(it: Iterator[_T], depth: int = 2) -> Iterator[_T]:
                 q.get_nowait()
             except queue.Empty:
                 thread.join(0.05)
+
+
+@dataclass
+class _Job:
+    """One chunk on its way to the sketches, committed in source order."""
+
+    display: str
+    too_long: int = 0
+    """Lines skipped just before this chunk for being too long."""
+    header: bool = False
+    """The chunk's first line was the header and was taken off."""
+    future: Future[_Prepared] | None = None
+    done: _Prepared | None = None
+
+    def result(self) -> _Prepared | None:
+        return self.future.result() if self.future is not None else self.done
 
 
 @dataclass
@@ -311,11 +342,11 @@ class _State:
         self.ready(df)
         self.commit(self.prepare(df, display, first_line))
 
-    def parse_and_prepare(self, data: bytes, display: str, first_line: int) -> _Prepared:
+    def parse_and_prepare(self, data: bytes, display: str) -> _Prepared:
         assert self.layout is not None
         df, held = self.layout.parse(data, numeric=self.numeric)
         self.numeric = self.numeric and held
-        return self.prepare(df, display, first_line)
+        return self.prepare(df, display, 0)
 
     def ready(self, df: pl.DataFrame) -> None:
         """Decide, from the first frame, what later frames are parsed against."""
