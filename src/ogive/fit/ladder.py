@@ -13,16 +13,13 @@ sketch that holds every value gives the same interval as scipy on the raw data.
 A sketch does not hold the order statistics themselves. The rank found above is mapped
 through the sketch's quantile function ``value_at(position)``, and the position is pushed
 outwards by the sketch's own rank error (``Sketch.rank_error_bound()``) so the interval
-also covers what the digest's interpolation may have moved. The sketch's bound is one
-number for the whole digest (half its largest centroid, sized for the median); near the
-tails centroids are far smaller, so :func:`local_rank_error` uses twice the half-weight
-of the largest interpolating centroid among the five around the position, capped by the
-sketch's bound. Measured on 10^6-value lognormal, rounded-gamma and bimodal data, built
-in one pass, merged from ten parts, and fed in sorted order
-(``tests/test_compare_ladder.py`` repeats a small version), the worst rank error seen was
-0.42 of the un-doubled local half-weight, so the factor 2 leaves room; it is a measured
-margin, not a proof. Where the position falls in the exact tail buffers (the extreme
-tail, small sketches) nothing is widened: those order statistics are known exactly.
+also covers what the digest's interpolation may have moved. The widening is the
+sketch's own bound for the centroid pair that answers that position
+(``Sketch.rank_error_at``: the worst case between two adjacent centroids, plus the slack
+inherited from merges), not one figure for the whole digest: centroids near the tails
+are far smaller than at the median, so tail intervals stay tight. Where the position
+falls in the exact tail buffers (the extreme tail, small sketches) the bound is zero:
+those order statistics are known exactly.
 
 When the needed rank lies beyond the data (p99.99 from 5,000 values), that side of the
 interval is unbounded (``-inf`` / ``inf``): the data cannot bound it, and callers say so
@@ -120,24 +117,23 @@ def _exact_position(sketch: Sketch, pos: FloatArray) -> NDArray[np.bool_]:
     return (np.ceil(pos) <= nl - 1) | (np.floor(pos) >= n - nh)
 
 
-LOCAL_MARGIN = 2.0
-"""Safety factor on the local rank error (see the module docstring for the measurement)."""
-
-
 def local_rank_error(sketch: Sketch, position: FloatArray) -> FloatArray:
-    """Rank error, in positions, of ``value_at`` near each position (0 where exact)."""
+    """Rank error, in positions, of ``value_at`` at each position (0 where exact).
+
+    The sketch's per-pair bound (``rank_error_at``), never more than its whole-digest
+    bound; sketches without the per-pair bound fall back to the whole-digest one.
+    """
     pos = np.asarray(position, dtype=np.float64)
-    if sketch.exact or sketch.count == 0:
+    n = sketch.count
+    if sketch.exact or n == 0:
         return np.zeros(pos.shape)
-    glob = sketch.rank_error_bound() * sketch.count
-    _, w, pure = sketch.digest.centroids()
-    if w.size == 0:
-        return np.zeros(pos.shape)
-    half = np.where(pure, 0.0, w / 2.0)
-    before = np.cumsum(w) - w
-    j = np.clip(np.searchsorted(before, pos, side="right") - 1, 0, w.size - 1)
-    near = np.max(np.stack([half[np.clip(j + k, 0, w.size - 1)] for k in range(-2, 3)]), axis=0)
-    err = np.minimum(LOCAL_MARGIN * near, glob)
+    glob = sketch.rank_error_bound() * n
+    at = getattr(sketch, "rank_error_at", None)
+    if at is None:
+        err = np.full(pos.shape, glob)
+    else:
+        q = np.clip(pos / (n - 1), 0.0, 1.0) if n > 1 else np.zeros(pos.shape)
+        err = np.minimum(np.asarray(at(q), dtype=np.float64) * n, glob)
     return np.where(_exact_position(sketch, pos), 0.0, err)
 
 
