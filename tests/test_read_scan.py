@@ -287,3 +287,23 @@ def test_free_text_without_pattern_is_a_clear_error(tmp_path: Path) -> None:
     path.write_text("started the thing\nit took a while\n")
     with pytest.raises(OgiveError, match="--pattern"):
         scan([str(path)], ScanOptions())
+
+
+@pytest.mark.parametrize("fmt", ["csv", "text", "ndjson"])
+def test_blank_lines_keep_line_numbers(tmp_path: Path, fmt: str) -> None:
+    body = {
+        "csv": ["name,ms", "a,1", "", "b,x", "c,3"],
+        "text": ["took=1ms", "took=2ms", "", "took=?ms", "took=3ms"],
+        "ndjson": ['{"v": 1}', '{"v": 2}', "", '{"v": "x"}', '{"v": 3}'],
+    }[fmt]
+    path = tmp_path / "blank.txt"
+    path.write_text("\n".join(body) + "\n")
+    opts = {
+        "csv": ScanOptions(column="ms"),
+        "text": ScanOptions(pattern=r"took=(\S+)ms"),
+        "ndjson": ScanOptions(field="v"),
+    }
+    r = scan([str(path)], opts[fmt])
+    assert r.sketches["all"].count == (2 if fmt == "csv" else 3)
+    where = [ex for t in r.skipped.values() for ex in t.examples]
+    assert f"{path}:4" in where and f"{path}:3" in where  # the blank line and the bad value
