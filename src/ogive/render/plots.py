@@ -76,7 +76,8 @@ def _marker(role: str, glyphs: tuple[str, str], priority: int = 1) -> Layer:
 
 
 def _band_legend(label: str, fig: Figure) -> LegendItem:
-    short = label.split(" (")[0] if label else "band"
+    # "95% band": the long name and method stay in the data (band_label) and --help.
+    short = label.split(" (")[0].replace(" simultaneous", "") if label else "band"
     return LegendItem(fig.glyph("⠒", ":"), short, "band")
 
 
