@@ -206,3 +206,22 @@ def test_compare_windows_from_saved_file(tmp_path, capsys) -> None:  # type: ign
     doc = json.loads(capsys.readouterr().out)
     assert doc["flagged"] == [names[2]]
     assert main(["compare", str(path), "--window", "ten"]) == 3
+
+
+def test_compare_one_source_split_by_group(tmp_path, capsys) -> None:  # type: ignore[no-untyped-def]
+    # One invented CSV through the reader: route r1 slows down after the split, r0 does not.
+    rng = np.random.default_rng(28)
+    lines = ["ts,route,ms"]
+    for i in range(6000):
+        route = f"r{i % 2}"
+        v = rng.lognormal(3.0, 0.4) * (1.5 if i >= 3000 and route == "r1" else 1.0)
+        lines.append(f"{1767225600 + i},{route},{v:.3f}")
+    src = tmp_path / "s.csv"
+    src.write_text("\n".join(lines) + "\n")
+    split = "2026-01-01T00:50:00Z"  # 1767225600 + 3000 s
+    argv = ["compare", str(src), "--column", "ms", "--time-field", "ts", "--time-format", "epoch_s"]
+    assert main([*argv, "--split-at", split, "--by", "route", "--json", "--quiet"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert [r["group"] for r in doc["rows"]] == ["route=r1", "route=r0"]
+    assert doc["rows"][0]["p99"]["verdict"] == "higher"
+    assert main([*argv, "--by", "route", "--quiet"]) == 3

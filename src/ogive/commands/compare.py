@@ -90,6 +90,25 @@ def run(args: argparse.Namespace) -> int:
             raise OgiveError(str(exc)) from None
         _emit(args, groups.to_dict(), lambda: format_groups(groups))
         return 0
+    if args.by and args.b is None:
+        from ..sketch import SketchSet
+
+        sset = load_set([args.a], args)
+        halves: tuple[SketchSet, SketchSet] = (SketchSet(), SketchSet())
+        for name in sset.names():
+            side, _, group = name.partition("/")
+            if side in ("before", "after") and group:
+                halves[side == "after"].sketches[group] = sset[name]
+        if not halves[0].sketches and not halves[1].sketches:
+            raise OgiveError(
+                "--by with one source needs --split-at TIME (groups before and after it), or give A and B."
+            )
+        try:
+            groups = compare_groups(halves[0], halves[1], labels=("before", "after"), confidence=conf)
+        except ValueError as exc:
+            raise OgiveError(str(exc)) from None
+        _emit(args, groups.to_dict(), lambda: format_groups(groups))
+        return 0
     if args.b is None:
         sset = load_set([args.a], args)
         names = sset.names()
