@@ -271,6 +271,14 @@ def choose_ticks(
                 minor = [v for v in _log_candidates(scale.lo, scale.hi, (2, 5))]
                 best = sorted(best + build(minor, major=False), key=lambda t: t.position)
             return best
+        # Too many decades for the room: every 2nd, 3rd, ... decade, the rest as minor ticks.
+        decades = _log_candidates(scale.lo, scale.hi, (1,))
+        if len(decades) >= 3:
+            for every in (2, 3, 4, 5, 6, 10):
+                major = [v for v in decades if round(math.log10(v)) % every == 0]
+                if len(major) >= 2 and fits(major, distinct_labels(major, fmt)):
+                    minor = [v for v in decades if v not in major]
+                    return sorted(build(major) + build(minor, major=False), key=lambda t: t.position)
         # Less than a decade shown: 1-2-5 steps placed on the log axis.
     for max_ticks in range(max(length // 2, 2), 0, -1):
         cands = _linear_candidates(scale.lo, scale.hi, max_ticks)
