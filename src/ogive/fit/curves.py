@@ -14,7 +14,10 @@ rank error, which is added to ε. For two sketches both empirical CDFs must stay
 their own ε of a common F (α/2 each, Bonferroni), so they differ by at most the sum.
 On a Q-Q plot the band is [Q_ref(p − ε), Q_ref(p + ε)] at x = Q_ref(p): if the subject
 follows the reference, every subject quantile lies inside it with probability at least
-1 − α; where p ± ε leaves [0, 1] the band is unbounded (±inf).
+1 − α; where p ± ε leaves [0, 1] the band is unbounded (±inf). Against a model fitted
+to the same data the band is conservative (the fit already pulled the model towards
+the data, as in Lilliefors' correction to the KS test), so a curve leaving it is all
+the stronger evidence of misfit.
 """
 
 from __future__ import annotations
