@@ -9,6 +9,7 @@ and when asked ``g`` (group key) and ``t`` (timestamp text), so that row ``i`` i
 
 from __future__ import annotations
 
+import dataclasses
 import re
 from collections.abc import Iterator
 from dataclasses import dataclass
@@ -186,8 +187,10 @@ def detect_format(data: bytes, options: ScanOptions) -> str:
     if lines and all(ln.lstrip().startswith("{") for ln in lines[:10]):
         return "ndjson"
     for fmt, sep in (("tsv", "\t"), ("csv", ","), ("csv", ";"), ("csv", "|")):
-        counts = {ln.count(sep) for ln in lines}
-        if lines and len(counts) == 1 and counts.pop() > 0:
+        counts = [ln.count(sep) for ln in lines]
+        common = max(set(counts), key=counts.count) if counts else 0
+        # Most lines, not all: a quoted field may hold the separator now and then.
+        if common > 0 and counts.count(common) >= 0.9 * len(counts):
             return fmt if sep in "\t," else f"csv{sep}"
     if options.column is not None and lines:
         return "csv"  # a single-column file
@@ -211,6 +214,9 @@ def plan(data: bytes, options: ScanOptions) -> Layout:
 
 
 def _plan_csv(data: bytes, options: ScanOptions, fmt: str, sep: str) -> Layout:
+    if options.column is None and options.field is not None:
+        # --field on a CSV: take it as the column rather than refusing.
+        options = dataclasses.replace(options, column=options.field)
     sample = data[: 1 << 16]
     cut = sample.rfind(b"\n")
     sample = sample[: cut + 1] if cut >= 0 else sample
