@@ -31,7 +31,7 @@ from collections.abc import Callable
 import numpy as np
 from numpy.typing import NDArray
 
-from ogive.sketch import Sketch, SketchSet, dumps
+from ogive.sketch import DEFAULT_COMPRESSION, Sketch, SketchSet, dumps
 from ogive.sketch.digest import TDigest, _merge_sorted
 
 QS = np.array([0.5, 0.9, 0.99, 0.999, 0.9999])
@@ -109,7 +109,7 @@ def study(n: int, scales: list[str], compressions: list[float], seed: int) -> No
                 )
     print("\n## Ingest speed, this code vs the general flush path, same data, same run")
     x = data["continuous"]
-    for scale, c in (("k1", 1000.0), ("k2", 1000.0)):
+    for scale, c in (("k1", DEFAULT_COMPRESSION), ("k2", DEFAULT_COMPRESSION)):
         _, fast = build(x, c, scale)
         _, slow = build(x, c, scale, general=True)
         print(

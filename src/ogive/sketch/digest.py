@@ -16,6 +16,11 @@ Where this implementation departs from the paper's sequential loop, and why:
   interpolating between two pure centroids would invent values that never occur; a
   pure centroid answers its whole rank range with its single value instead, so ties
   give exact quantiles and a right-continuous CDF.
+* A flush (``_absorb_sorted``) never builds the merged run: the ~10^3 centroids stay a
+  side array whose places among the ~10^6 sorted values are computed, so the values
+  are touched by the sort, one equality pass and one ``reduceat``. Folding in other
+  centroids (merges, loading) takes the plain path, ``_regroup(_merge_sorted(...))``;
+  both give the same clusters (tested).
 """
 
 from __future__ import annotations

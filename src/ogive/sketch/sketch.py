@@ -11,6 +11,7 @@ most ``2 * tail_size`` values is exact everywhere.
 from __future__ import annotations
 
 import dataclasses
+import math
 from dataclasses import dataclass
 from typing import Any
 
@@ -103,22 +104,29 @@ class Sketch:
 
     # ------------------------------------------------------------------ building
     def add(self, values: ArrayLike) -> None:
+        """Fold in a batch of values; NaN and infinities are counted, not sketched."""
         arr = np.asarray(values, dtype=np.float64).ravel()
         if arr.size == 0:
             return
-        finite = np.isfinite(arr)
-        if not finite.all():
+        # A finite sum proves every value finite: one pass instead of two on the
+        # common path (a sum that overflows just takes the careful path).
+        with np.errstate(over="ignore", invalid="ignore"):
+            total = float(arr.sum())
+        if not math.isfinite(total):
+            finite = np.isfinite(arr)
             bad = arr[~finite]
-            nans = int(np.isnan(bad).sum())
+            nans = int(np.count_nonzero(np.isnan(bad)))
             self.nan_count += nans
             self.inf_count += bad.size - nans
             arr = arr[finite]
             if arr.size == 0:
                 return
+            with np.errstate(over="ignore"):
+                total = float(arr.sum())  # inf only if huge finite values overflow
         self.count += arr.size
-        self.total += float(arr.sum())
-        self.negative_count += int((arr < 0).sum())
-        self.zero_count += int((arr == 0).sum())
+        self.total += total
+        self.negative_count += int(np.count_nonzero(arr < 0))
+        self.zero_count += int(np.count_nonzero(arr == 0))
         self.digest.add(arr)
         self._fold_tails(arr, arr)
 
