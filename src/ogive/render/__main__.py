@@ -8,13 +8,14 @@ from __future__ import annotations
 
 import shutil
 import sys
+from typing import Any
 
 import numpy as np
 
 from ..fit.curves import dkw_epsilon, with_dkw_band
 from ..fit.qq import QuantilePairs, probability_grid
 from ..fit.shift import ShiftFunction
-from . import cdf_plot, detrended_plot, pp_plot, qq_plot, shift_plot
+from . import draw
 
 
 def main(argv: list[str]) -> int:
@@ -47,15 +48,14 @@ def main(argv: list[str]) -> int:
         unit="ms",
         labels=("before", "after"),
     )
-    for plot, inputs in (
-        (qq_plot, pairs),
-        (detrended_plot, pairs),
-        (pp_plot, pairs),
-        (cdf_plot, pairs),
-        (shift_plot, shift),
-    ):
-        print("\n".join(plot(inputs, width=width, height=height, ascii_only=ascii_only)))
-        print()
+    kinds: list[tuple[str, Any]] = [("qq", pairs), ("detrended", pairs), ("pp", pairs), ("cdf", pairs)]
+    kinds.append(("shift", shift))
+    try:
+        for kind, inputs in kinds:
+            print("\n".join(draw(kind, inputs, width=width, height=height, ascii_only=ascii_only)))
+            print()
+    except BrokenPipeError:  # piped into head: stop quietly
+        return 0
     return 0
 
 
