@@ -41,6 +41,7 @@ class Canvas:
         self.ascii_only = ascii_only
         self.layers: list[Layer] = []
         self._bits: list[NDArray[np.int64]] = []
+        self._cells: tuple[list[list[str]], list[list[str]]] | None = None
 
     @property
     def dot_width(self) -> int:
@@ -53,6 +54,7 @@ class Canvas:
     def layer(self, layer: Layer) -> int:
         self.layers.append(layer)
         self._bits.append(np.zeros((self.rows, self.cols), dtype=np.int64))
+        self._cells = None
         return len(self.layers) - 1
 
     # ------------------------------------------------------------ drawing
@@ -69,6 +71,7 @@ class Canvas:
             & (y < self.dot_height)
         )
         xi, yi = x[ok].astype(np.int64), y[ok].astype(np.int64)
+        self._cells = None
         np.bitwise_or.at(self._bits[index], (yi // 4, xi // 2), _BITS[xi % 2, yi % 4])
 
     def polyline(
@@ -113,7 +116,13 @@ class Canvas:
 
     # ------------------------------------------------------------ output
     def cells(self) -> tuple[list[list[str]], list[list[str]]]:
-        """(glyphs, roles) per cell; role '' where the cell is empty."""
+        """(glyphs, roles) per cell; role '' where the cell is empty (fresh lists, cached work)."""
+        if self._cells is None:
+            self._cells = self._compose()
+        glyphs, roles = self._cells
+        return [row[:] for row in glyphs], [row[:] for row in roles]
+
+    def _compose(self) -> tuple[list[list[str]], list[list[str]]]:
         glyphs = [[" "] * self.cols for _ in range(self.rows)]
         roles = [[""] * self.cols for _ in range(self.rows)]
         best = np.full((self.rows, self.cols), -1, dtype=np.int64)
