@@ -243,3 +243,19 @@ def test_summary_fields() -> None:
     d = build(x).summary()
     assert list(d) == ["n", "unit", "min", "p50", "p90", "p99", "p99.9", "p99.99", "max", "mean"]
     assert d["p50"] == pytest.approx(np.quantile(x, 0.5), rel=1e-12)
+
+
+def test_caller_may_reuse_its_array_after_add() -> None:
+    """A reader refills one buffer per chunk; the sketch must have kept its own copy."""
+    rng = np.random.default_rng(13)
+    chunks = [rng.lognormal(2, 1, 5000) for _ in range(4)]
+    buf = np.empty(5000)
+    s = Sketch("ms", compression=100.0, tail_size=8)
+    for c in chunks:
+        buf[:] = c
+        s.add(buf)
+    buf[:] = -1.0  # scribble before the digest flushes
+    whole = np.concatenate(chunks)
+    assert s.min == whole.min()
+    q = np.linspace(0, 1, 101)
+    assert rank_error(whole, s.quantile(q), q).max() <= s.rank_error_bound() + 1 / whole.size

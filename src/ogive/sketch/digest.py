@@ -70,8 +70,11 @@ class TDigest:
 
     # ------------------------------------------------------------------ building
     def add(self, values: ArrayLike) -> None:
-        """Buffer finite values; flushes when the buffer is full."""
-        arr = np.asarray(values, dtype=np.float64).ravel()
+        """Buffer finite values; flushes when the buffer is full.
+
+        The values are copied: a reader may refill the array it handed over.
+        """
+        arr = np.array(values, dtype=np.float64, copy=True).ravel()
         if arr.size == 0:
             return
         self._buf.append(arr)
@@ -97,7 +100,7 @@ class TDigest:
         """Merge the buffer into the centroids."""
         if not self._buf:
             return
-        incoming = np.concatenate(self._buf) if len(self._buf) > 1 else self._buf[0].copy()
+        incoming = np.concatenate(self._buf) if len(self._buf) > 1 else self._buf[0]
         _sort_floats(incoming)
         self._buf = []
         self._buf_n = 0
