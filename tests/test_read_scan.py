@@ -66,7 +66,7 @@ def test_csv_every_compression(tmp_path: Path, raw: np.ndarray, kind: str, lazy:
     path.write_bytes(COMPRESSORS[kind](_csv_text(raw).encode()))
     r = scan([str(path)], ScanOptions(column="latency_ms", chunk_bytes=1 << 14, lazy_files=lazy))
     s = r.sketches["all"]
-    assert r.format == "csv" and s.count == N and s.unit == ""
+    assert r.format == "csv" and s.count == N and s.unit == "ms"  # from the name latency_ms
     _check(s.quantile(QS), raw)
     assert s.provenance.lines_read == N + 1 and s.provenance.rows_read == N
     assert s.provenance.sources == [str(path)]
@@ -307,3 +307,24 @@ def test_blank_lines_keep_line_numbers(tmp_path: Path, fmt: str) -> None:
     assert r.sketches["all"].count == (2 if fmt == "csv" else 3)
     where = [ex for t in r.skipped.values() for ex in t.examples]
     assert f"{path}:4" in where and f"{path}:3" in where  # the blank line and the bad value
+
+
+def test_ragged_rows_do_not_narrow_the_chunk(tmp_path: Path) -> None:
+    path = tmp_path / "ragged.csv"
+    # Line 2 is short and starts the file's only chunk; the last line is cut off.
+    path.write_text("a,b,ms\nx\ny,z,5\ny,z,6,extra\ny,z")
+    r = scan([str(path)], ScanOptions(column="ms", lazy_files=False))
+    s = r.sketches["all"]
+    assert s.count == 2 and s.max == 6.0
+    assert s.provenance.skipped["missing_field"].examples == [f"{path}:2", f"{path}:5"]
+
+
+def test_unit_from_the_column_name(tmp_path: Path) -> None:
+    path = tmp_path / "u.csv"
+    path.write_text("host,latency_s\na,0.25\nb,1.5\n")
+    r = scan([str(path)], ScanOptions(column="latency_s"))
+    s = r.sketches["all"]
+    assert s.unit == "ms" and s.max == 1500.0
+    assert any("from the name 'latency_s'" in w for w in r.warnings)
+    # An explicit --input-unit wins over the name.
+    assert scan([str(path)], ScanOptions(column="latency_s", input_unit="ms")).sketches["all"].max == 1.5

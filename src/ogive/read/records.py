@@ -34,6 +34,8 @@ class Layout:
     separator: str = ","
     header: bool = False
     header_line: bytes = b""
+    width: int = 0
+    """CSV/TSV: fields per record (from the sample, at least the widest column used)."""
     columns: tuple[int, ...] = ()
     """CSV/TSV: 0-based indices of the value, group and time columns (v, g, t order)."""
     names: tuple[str, ...] = ()
@@ -71,15 +73,18 @@ class Layout:
         # Letting the reader parse floats itself skips a String column and a cast: the
         # fast path for the usual plain-number latency column. Any non-number makes it
         # raise, and the chunk is read again as text (durations, bad rows).
-        overrides = {_csv_name(self.columns[self.names.index("v")]): pl.Float64} if numeric else None
+        # The full width is given as a schema, so that a short (ragged) first line
+        # cannot narrow the frame for the whole chunk: short rows get nulls instead.
+        vcol = self.columns[self.names.index("v")]
+        schema = {f"c{i}": pl.Float64 if numeric and i == vcol else pl.String for i in range(self.width)}
         try:
             df = pl.read_csv(
                 data,
                 has_header=False,
                 separator=self.separator,
                 columns=list(self.columns),
-                infer_schema=False,
-                schema_overrides=overrides,
+                schema=schema,
+                missing_columns="insert",
                 truncate_ragged_lines=True,
                 raise_if_empty=False,
             )
@@ -88,11 +93,6 @@ class Layout:
                 raise
             first = str(exc).splitlines()[0]
             raise OgiveError(f"cannot parse the {self.format.upper()} records: {first}") from None
-        if df.width < len(self.columns):
-            # A chunk whose lines are all shorter than the widest column we need.
-            df = df.with_columns(
-                [pl.lit(None, dtype=pl.String).alias(f"_pad{i}") for i in range(len(self.columns) - df.width)]
-            )
         return df.rename(dict(zip(df.columns, self.names, strict=True)))
 
 
@@ -281,6 +281,7 @@ def _plan_csv(data: bytes, options: ScanOptions, fmt: str, sep: str) -> Layout:
         separator=sep,
         header=header,
         header_line=header_line,
+        width=max(rows.width, max(cols) + 1),
         columns=tuple(cols[i] for i in order),
         names=tuple(outs[i] for i in order),
         description=f"column {label}",

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import os
 import queue
+import re
 import threading
 import time
 from collections import deque
@@ -30,6 +31,17 @@ from . import records, sources, times, values
 from .options import ScanOptions, ScanProgress, ScanResult
 
 _T = TypeVar("_T")
+_NAME_UNITS = {
+    "ns": "ns",
+    "us": "us",
+    "µs": "us",
+    "ms": "ms",
+    "millis": "ms",
+    "s": "s",
+    "sec": "s",
+    "secs": "s",
+}
+_NAME_UNIT = re.compile(r"[a-z0-9][_\-](ns|us|µs|ms|millis|s|sec|secs)$", re.IGNORECASE)
 PROGRESS_INTERVAL_S = 0.2
 PARSE_WORKERS = 2
 """Chunks parsed at once; memory in flight is about (workers + 3) chunks."""
@@ -286,6 +298,8 @@ class _State:
         self.times: dict[str, list[float]] = {}
         self.bad_time_kept = 0
         self.description = ""
+        self.input_unit = options.input_unit
+        """Unit of bare numbers: the option, else one read from the value's name."""
         self.numeric = True
         """Try reading a CSV value column as Float64 until a chunk shows it is not plain numbers."""
 
@@ -296,13 +310,24 @@ class _State:
 
     def _decide_unit(self, col: pl.Series) -> str:
         o = self.options
+        if o.input_unit is None:
+            # A name such as latency_ms or timing.total_s says what bare numbers are
+            # (common practice in telemetry exports); told in a warning, overridable.
+            name = self.description.split(" ", 1)[-1].rsplit(".", 1)[-1]
+            found = _NAME_UNIT.search(name)
+            if found:
+                self.input_unit = values.canonical_unit(_NAME_UNITS[found.group(1).lower()])
+                self.warnings.append(
+                    f"numbers without a suffix are taken to be in {self.input_unit}, from the name "
+                    f"{name!r} (say otherwise with --input-unit)."
+                )
         if o.unit is not None:
             return values.canonical_unit(o.unit)
-        if o.input_unit is not None and values.is_time_unit(o.input_unit):
+        if self.input_unit is not None and values.is_time_unit(self.input_unit):
             return "ms"
         if values.has_suffix(col.head(2000)):
             return "ms"
-        return o.input_unit or ""
+        return self.input_unit or ""
 
     def sketch(self, name: str) -> Sketch:
         s = self.sketches.get(name)
@@ -357,9 +382,8 @@ class _State:
 
     def prepare(self, df: pl.DataFrame, display: str, first_line: int) -> _Prepared:
         """The thread-safe half of a chunk: values, reasons, times (polars and numpy only)."""
-        o = self.options
         n = df.height
-        pv = values.parse_values(df.get_column("v"), input_unit=o.input_unit, target_unit=self.unit or "")
+        pv = values.parse_values(df.get_column("v"), input_unit=self.input_unit, target_unit=self.unit or "")
         reasons = dict(pv.reasons)
         if self.layout is not None and self.layout.format == "text" and values.MISSING_FIELD in reasons:
             reasons["no_match"] = reasons.pop(values.MISSING_FIELD)
@@ -669,7 +693,7 @@ class _State:
                 f"--by {o.by}: more than {o.max_groups} distinct values; {len(self.overflow)}{more} further "
                 f"values share the group {o.by}={OTHER} (raise --max-groups to keep them apart)."
             )
-        if self.suffixed and self.unsuffixed and o.input_unit is None and values.is_time_unit(self.unit):
+        if self.suffixed and self.unsuffixed and self.input_unit is None and values.is_time_unit(self.unit):
             self.warnings.append(
                 f"{self.unsuffixed} values had no unit suffix while {self.suffixed} did; "
                 f"the bare numbers were taken to be in {self.unit} (say otherwise with --input-unit)."

@@ -17,7 +17,7 @@ import sys
 import zlib
 from collections.abc import Iterator
 from dataclasses import dataclass
-from typing import BinaryIO
+from typing import BinaryIO, cast
 
 from ..errors import OgiveError
 
@@ -59,6 +59,8 @@ class Opened:
                 pass
         self._head = self._peek()
         self.compression = next((kind for magic, kind in MAGIC.items() if self._head.startswith(magic)), None)
+        self._counted_raw = _Counted(self.raw)
+        self._counted = cast(BinaryIO, self._counted_raw)
         self.stream = self._wrap()
 
     def _peek(self) -> bytes:
@@ -69,13 +71,13 @@ class Opened:
 
     def _wrap(self) -> BinaryIO:
         if self.compression == "gzip":
-            return gzip.GzipFile(fileobj=self.raw, mode="rb")  # type: ignore[return-value]
+            return gzip.GzipFile(fileobj=self._counted, mode="rb")  # type: ignore[return-value]
         if self.compression == "bz2":
-            return bz2.BZ2File(self.raw, "rb")  # type: ignore[return-value]
+            return bz2.BZ2File(self._counted, "rb")  # type: ignore[return-value]
         if self.compression == "xz":
-            return lzma.LZMAFile(self.raw, "rb")  # type: ignore[return-value]
+            return lzma.LZMAFile(self._counted, "rb")  # type: ignore[return-value]
         if self.compression == "zstd":
-            return _ZstdStream(self.raw)  # type: ignore[return-value]
+            return _ZstdStream(self._counted)  # type: ignore[return-value]
         return self.raw
 
     @property
@@ -84,10 +86,13 @@ class Opened:
 
     @property
     def raw_pos(self) -> int:
-        try:
-            return self.raw.tell()
-        except (OSError, ValueError):
-            return 0
+        """Compressed bytes consumed so far (counted: a pipe cannot tell its offset)."""
+        if self.compression is None:
+            try:
+                return self.raw.tell()
+            except (OSError, ValueError):
+                return 0
+        return self._counted_raw.count
 
     def read(self, n: int) -> bytes:
         try:
@@ -111,6 +116,25 @@ class Opened:
             self.stream.close()
         if self.name != "-":
             self.raw.close()
+
+
+class _Counted:
+    """A read-only file wrapper that counts the bytes handed out."""
+
+    def __init__(self, raw: BinaryIO) -> None:
+        self.raw = raw
+        self.count = 0
+
+    def read(self, n: int = -1) -> bytes:
+        data = self.raw.read(n)
+        self.count += len(data)
+        return data
+
+    def readable(self) -> bool:
+        return True
+
+    def close(self) -> None:
+        pass
 
 
 class _ZstdStream:
