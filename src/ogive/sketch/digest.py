@@ -177,28 +177,36 @@ class TDigest:
         """Merged-order start and end of every run of one repeated value heavy enough
         (``_HEAVY_RUN`` of k) to get clusters of its own; None when there is none."""
         n, k_n = x.size, m.size
-        vals: list[FloatArray] = []
+        vs: list[FloatArray] = []
+        ls: list[NDArray[np.intp]] = []
+        rs: list[NDArray[np.intp]] = []
         if n > 1:
             eq = x[1:] == x[:-1]
-            ties = int(np.count_nonzero(eq))
-            if 0 < ties <= n // 2:
-                vals.append(x[np.flatnonzero(eq)])
-            elif ties:
-                bounds = np.concatenate(([0], np.flatnonzero(~eq) + 1, [n]))
-                long = np.diff(bounds) >= 2
-                vals.append(x[bounds[:-1][long]])
+            if eq.any():
+                # Runs of >= 2 equal values, read off the tie mask (+1 where a run of
+                # ties begins, -1 just after it ends): no search, no sort of values.
+                d = np.diff(eq.view(np.int8), prepend=np.int8(0), append=np.int8(0))
+                run_l = np.flatnonzero(d == 1)
+                vs.append(x[run_l])
+                ls.append(run_l)
+                rs.append(np.flatnonzero(d == -1) + 1)
         if k_n:
             link = np.zeros(k_n, dtype=bool)
             link[:-1] |= (m[1:] == m[:-1]) & p[1:] & p[:-1]
             link[1:] |= link[:-1]
             meets_x = (at < n) & (x[np.minimum(at, max(n - 1, 0))] == m) if n else np.zeros(k_n, dtype=bool)
-            vals.append(m[p & ((w > 1) | link | meets_x)])
-        if not vals:
+            vc = np.unique(m[p & ((w > 1) | link | meets_x)])
+            lxc, rxc = np.searchsorted(x, vc, side="left"), np.searchsorted(x, vc, side="right")
+            alone = rxc - lxc < 2  # the others are already runs of x
+            vs.append(vc[alone])
+            ls.append(lxc[alone])
+            rs.append(rxc[alone])
+        if not vs:
             return None
-        v = np.unique(np.concatenate(vals))
+        v = np.concatenate(vs)
         if v.size == 0:
             return None
-        lx, rx = np.searchsorted(x, v, side="left"), np.searchsorted(x, v, side="right")
+        lx, rx = np.concatenate(ls), np.concatenate(rs)
         lc, rc = np.searchsorted(m, v, side="left"), np.searchsorted(m, v, side="right")
         # An impure centroid whose mean happens to equal v breaks the run: in merged
         # order centroids come before the plain values, so the run starts after it.
