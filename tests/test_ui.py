@@ -47,14 +47,22 @@ def pair(tmp_path: Path) -> tuple[Path, Path, np.ndarray, np.ndarray]:
     return out[0], out[1], a, b
 
 
+async def _idle(app: OgiveApp, pilot: object, limit_s: float = 30.0) -> None:
+    """Until no worker runs (exclusive workers may be cancelled, so no wait_for_complete)."""
+    waited = 0.0
+    while any(w.is_running for w in app.workers) and waited < limit_s:
+        await pilot.pause(0.05)  # type: ignore[attr-defined]
+        waited += 0.05
+
+
 async def _settle(app: OgiveApp, pilot: object) -> None:
     await pilot.pause(0.2)  # type: ignore[attr-defined]
-    await app.workers.wait_for_complete()
+    await _idle(app, pilot)
     await pilot.pause(0.2)  # type: ignore[attr-defined]
 
 
 async def test_roles_shelf_and_ladder(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
-    before, after, a, b = pair
+    before, after, _, b = pair
     app = OgiveApp([str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
@@ -118,10 +126,13 @@ async def test_picture_modes_and_axes(pair: tuple[Path, Path, np.ndarray, np.nda
         assert seen == ["qq", "detrended", "pp", "cdf", "shift", "qq"]
         await pilot.press("V")
         assert plot.kind == "shift"
+        assert plot.axes == "auto"
         await pilot.press("l")
         await pilot.pause(0.1)
-        assert plot.log_axes
-        assert "Picture: shift function (log)" in screen_text(app)
+        assert plot.axes == "log" and plot.log_axes is True
+        assert "Picture: shift function (log axes)" in screen_text(app)
+        await pilot.press("l")
+        assert plot.axes == "linear" and plot.log_axes is False
 
 
 async def test_write_and_export(pair: tuple[Path, Path, np.ndarray, np.ndarray], tmp_path: Path) -> None:
@@ -183,7 +194,7 @@ async def test_open_prompt_previews_and_opens(pair: tuple[Path, Path, np.ndarray
         assert isinstance(app.screen, OpenPrompt)
         app.screen.query_one("#open-path", PathInput).value = str(after)
         await pilot.pause(0.6)  # the preview waits 0.3 s for typing to stop
-        await app.screen.workers.wait_for_complete()
+        await _idle(app, pilot)
         await pilot.pause(0.1)
         assert "sketch file with 1 sketch" in screen_text(app)
         await pilot.press("enter")

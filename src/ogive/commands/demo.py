@@ -54,8 +54,12 @@ def _cache_folder() -> Path:
     return folder
 
 
+SMALL_ROWS = 60_000
+"""Rows per phase when the demo set has to be generated: a couple of seconds to scan."""
+
+
 def generate_small(folder: Path) -> None:
-    """Write a small demo set with ``ogive.demo`` (the same generator as the bundled files)."""
+    """Write a small before/after set with ``ogive.demo`` (the generator of the bundled files)."""
     try:
         demo = importlib.import_module("ogive.demo")
     except ImportError:
@@ -63,22 +67,31 @@ def generate_small(folder: Path) -> None:
             "the demo logs (demo_logs/) are missing and the generator ogive.demo is not installed; "
             "run 'ogive view' on your own logs instead."
         ) from None
-    write = getattr(demo, "write_demo", None)
-    if not callable(write):
-        raise OgiveError("the demo logs are missing and ogive.demo offers no write_demo() to make them.")
-    write(folder, small=True)
+    for phase, seed in (("before", 1), ("after", 2)):
+        demo.write(
+            str(folder / f"{phase}.ndjson.gz"), "ndjson", phase, rows=SMALL_ROWS, seed=seed, bad_rows=12
+        )
 
 
-def demo_options() -> Any:
-    """How to read the demo logs: the generator says, so the two cannot drift apart."""
+def demo_options(path: Path) -> Any:
+    """How to read one demo log, by the layout the generator gives each format.
+
+    The field, column and pattern are the generator's own constants where it names them,
+    so the demo and its data cannot drift apart.
+    """
     from ..read.options import ScanOptions
 
     try:
-        demo = importlib.import_module("ogive.demo")
+        demo: Any = importlib.import_module("ogive.demo")
     except ImportError:
-        return ScanOptions()
-    made = getattr(demo, "scan_options", None)
-    return made() if callable(made) else ScanOptions()
+        demo = None
+    name = path.name
+    if ".ndjson" in name or ".jsonl" in name:
+        return ScanOptions(format="ndjson", field="timing.total_ms", unit="ms")
+    if ".csv" in name:
+        return ScanOptions(format="csv", column="latency_ms", unit="ms")
+    pattern = getattr(demo, "TEXT_PATTERN", r"dur=(\S+)")
+    return ScanOptions(format="text", pattern=pattern, unit="ms")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -99,7 +112,7 @@ def run(args: argparse.Namespace) -> int:
 
     app = OgiveApp(
         [str(before), str(after)],
-        demo_options(),
+        per_source={str(p): demo_options(p) for p in (before, after)},
         subject=_stem(after),
         reference=_stem(before),
     )

@@ -9,7 +9,6 @@ keys are handled while a multi-GB file streams.
 
 from __future__ import annotations
 
-import threading
 import time
 from collections.abc import Sequence
 from pathlib import Path
@@ -20,6 +19,7 @@ from textual.app import App, ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Container, VerticalScroll
 from textual.message import Message
+from textual.screen import Screen
 from textual.widgets import Footer, Static
 
 from ..errors import OgiveError
@@ -43,6 +43,8 @@ REFRESH_S = 0.5
 FIT_EVERY_S = 5.0
 """While the subject is still streaming, refit at most this often (fitting is the costly part)."""
 PANES = ("picture", "models", "ladder")
+AXES = ("auto", "log", "linear")
+"""'auto' lets the renderer choose (log when every value is positive, as latencies are)."""
 
 
 def snapshot(sketch: Sketch) -> Sketch:
@@ -105,7 +107,7 @@ class OgiveApp(App[int]):
     | c | Show the comparison-ladder pane. |
     | v | Next picture: Q-Q → detrended → P-P → CDF → shift. |
     | V | Previous picture. |
-    | l | Toggle linear / log value axes. |
+    | l | Value axes: auto → log → linear. |
     | 1 | (Distributions) make the highlighted row the subject. |
     | 2 | (Distributions) make it the reference; (Models) make the highlighted model the reference. |
     | tab | Move between the lists. |
@@ -124,14 +126,14 @@ class OgiveApp(App[int]):
 
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("o", "open", "Open"),
-        Binding("g", "pane('picture')", "Picture"),
+        Binding("g", "pane('picture')", "Picture", show=False),
         Binding("f", "pane('models')", "Models"),
         Binding("c", "pane('ladder')", "Ladder"),
-        Binding("v", "cycle_kind(1)", "Next view"),
+        Binding("v", "cycle_kind(1)", "View"),
         Binding("V", "cycle_kind(-1)", "Prev view", show=False),
-        Binding("l", "toggle_log", "Lin/log"),
-        Binding("w", "save", "Write"),
-        Binding("e", "export", "Export"),
+        Binding("l", "toggle_log", "Axes"),
+        Binding("w", "save", "Write", show=False),
+        Binding("e", "export", "Export", show=False),
         Binding("x", "stop_scans", "Stop", show=False),
         Binding("question_mark", "help", "Keys"),
         Binding("q", "quit", "Quit"),
@@ -146,10 +148,13 @@ class OgiveApp(App[int]):
         subject: str | None = None,
         reference: str | None = None,
         save_dir: str | Path = ".",
+        per_source: dict[str, ScanOptions] | None = None,
     ) -> None:
         super().__init__()
         self.initial_sources = list(sources)
         self.options = options or ScanOptions()
+        self.per_source = dict(per_source or {})
+        """Reading options for particular sources (the demo's logs differ in layout)."""
         self.wanted_subject = subject
         self.wanted_reference = reference
         self.save_dir = Path(save_dir)
@@ -169,7 +174,7 @@ class OgiveApp(App[int]):
         self._fit_last = 0.0
         self._compare_busy = False
         self._compare_pending = False
-        self._lock = threading.Lock()
+        self._seq = 0
 
     # ------------------------------------------------------------------ layout
     def compose(self) -> ComposeResult:
@@ -183,15 +188,20 @@ class OgiveApp(App[int]):
         yield FeedStatus(id="status")
         yield Footer()
 
+    @property
+    def _ws(self) -> Screen[Any]:
+        """The workspace screen: widgets are looked up there even while a dialog is on top."""
+        return self.screen_stack[0] if self.screen_stack else self.screen
+
     def on_mount(self) -> None:
-        self.query_one("#shelf").border_title = "Distributions"
-        self.query_one("#models").border_title = "Models (fit to subject)"
-        self.query_one("#ladder").border_title = "Quantile ladder"
+        self._ws.query_one("#shelf").border_title = "Distributions"
+        self._ws.query_one("#models").border_title = "Models (fit to subject)"
+        self._ws.query_one("#ladder").border_title = "Quantile ladder"
         self.set_interval(REFRESH_S, self._refresh_if_dirty)
         self.refresh_all()
         for source in self.initial_sources:
-            self.open_source(source, self.options)
-        self.query_one(DistributionShelf).focus()
+            self.open_source(source, self.per_source.get(source, self.options))
+        self._ws.query_one(DistributionShelf).focus()
 
     # ------------------------------------------------------------------ opening
     def open_source(self, source: str, options: ScanOptions) -> None:
@@ -210,9 +220,10 @@ class OgiveApp(App[int]):
                 self.say(f"{file} has no sketch named {group!r}.")
                 return
             stem = Path(file).stem
-            for name in [group] if group is not None else sset.names():
+            seq = self._next_seq()
+            for i, name in enumerate([group] if group is not None else sset.names()):
                 label = stem if len(sset.sketches) == 1 else f"{stem}:{name}"
-                self.add_distribution(Distribution(label, sset[name], file))
+                self.add_distribution(Distribution(label, sset[name], file, seq=(seq, i)))
             self.say(f"loaded {file}")
             return
         if not Path(source).exists() and source != "-":
@@ -223,10 +234,14 @@ class OgiveApp(App[int]):
         except Unavailable as exc:
             self.say(str(exc))
             return
-        job = ScanJob(source, options)
+        job = ScanJob(source, options, seq=self._next_seq())
         self.jobs.append(job)
         self.scan_worker(job)
         self.refresh_all()
+
+    def _next_seq(self) -> int:
+        self._seq += 1
+        return self._seq
 
     def add_distribution(self, dist: Distribution) -> None:
         self.dists[dist.name] = dist
@@ -308,7 +323,11 @@ class OgiveApp(App[int]):
     def _take(self, job: ScanJob, sketches: dict[str, Sketch], *, state: str, note: str) -> None:
         for group, sketch in sketches.items():
             name = self._name_for(job, group, len(sketches))
-            self.dists[name] = Distribution(name, sketch, job.source, state=state, note=note, job=job)
+            order = (job.seq, list(job.names).index(group))
+            self.dists[name] = Distribution(
+                name, sketch, job.source, state=state, note=note, job=job, seq=order
+            )
+        self.dists = dict(sorted(self.dists.items(), key=lambda item: item[1].seq))
         self._auto_roles()
         self.request_analysis()
         self._dirty = True
@@ -467,30 +486,39 @@ class OgiveApp(App[int]):
             self._start_compare()
 
     # ------------------------------------------------------------------ drawing
+    @property
+    def _gone(self) -> bool:
+        """True once the workspace screen is gone (quitting): late worker results are dropped."""
+        return not self._ws.is_attached or not self._ws.query(FeedStatus)
+
     def _refresh_if_dirty(self) -> None:
-        self.query_one(FeedStatus).show_jobs(self.jobs)
+        if self._gone:
+            return
+        self._ws.query_one(FeedStatus).show_jobs(self.jobs)
         if self._dirty:
             self._dirty = False
             self.refresh_all()
 
     def refresh_all(self) -> None:
+        if self._gone:
+            return
         subj = self.dists.get(self.subject or "")
         ref = self.reference
         ref_dist = self.dists.get(ref.name) if ref is not None and ref.kind == "sketch" else None
         head = f"subject: {self.subject or '—'} · reference: {ref.label if ref else '—'}"
-        self.query_one("#headline", Static).update(head)
-        self.query_one(DistributionShelf).show(
+        self._ws.query_one("#headline", Static).update(head)
+        self._ws.query_one(DistributionShelf).show(
             list(self.dists.values()),
             self.subject,
             ref.name if ref is not None and ref.kind == "sketch" else None,
         )
-        self.query_one(PlotPanel).set_inputs(subj, ref, ref_dist, self.comparison)
+        self._ws.query_one(PlotPanel).set_inputs(subj, ref, ref_dist, self.comparison)
         self._show_models()
         self._show_ladder(subj, ref)
-        self.query_one(FeedStatus).show_jobs(self.jobs)
+        self._ws.query_one(FeedStatus).show_jobs(self.jobs)
 
     def _show_models(self) -> None:
-        table = self.query_one(ModelRanking)
+        table = self._ws.query_one(ModelRanking)
         if self.fit_report is not None:
             chosen = self.reference.name if self.reference and self.reference.kind == "model" else None
             table.show(self.fit_report, chosen)
@@ -503,7 +531,7 @@ class OgiveApp(App[int]):
                 table.add_row(self.fit_note)
 
     def _show_ladder(self, subj: Distribution | None, ref: ReferenceChoice | None) -> None:
-        ladder = self.query_one(LadderPanel)
+        ladder = self._ws.query_one(LadderPanel)
         if subj is None or ref is None:
             ladder.explain("No comparison", "Pick a subject (1) and a reference sketch (2) in Distributions.")
         elif ref.kind != "sketch":
@@ -519,23 +547,23 @@ class OgiveApp(App[int]):
     def action_pane(self, pane: str) -> None:
         self.pane = pane
         for name in PANES:
-            self.query_one(f"#{name}").set_class(name == pane, "-current")
+            self._ws.query_one(f"#{name}").set_class(name == pane, "-current")
         if pane == "models":
-            self.query_one(ModelRanking).focus()
+            self._ws.query_one(ModelRanking).focus()
         elif pane == "picture":
-            self.query_one(DistributionShelf).focus()
+            self._ws.query_one(DistributionShelf).focus()
 
     def action_cycle_kind(self, step: int) -> None:
-        plot = self.query_one(PlotPanel)
+        plot = self._ws.query_one(PlotPanel)
         plot.kind = KINDS[(KINDS.index(plot.kind) + step) % len(KINDS)]
         if self.pane != "picture":
             self.action_pane("picture")
         self.say(f"picture: {KIND_NAMES[plot.kind]}")
 
     def action_toggle_log(self) -> None:
-        plot = self.query_one(PlotPanel)
-        plot.log_axes = not plot.log_axes
-        self.say(f"value axes: {'log' if plot.log_axes else 'linear'}")
+        plot = self._ws.query_one(PlotPanel)
+        plot.axes = AXES[(AXES.index(plot.axes) + 1) % len(AXES)]
+        self.say(f"value axes: {plot.axes}")
 
     def action_open(self) -> None:
         def opened(req: OpenRequest | None) -> None:
@@ -604,7 +632,8 @@ class OgiveApp(App[int]):
         self.exit(0)
 
     def say(self, text: str) -> None:
-        self.query_one(FeedStatus).message = text
+        if not self._gone:
+            self._ws.query_one(FeedStatus).message = text
 
 
 def key_groups() -> list[tuple[str, list[tuple[str, str]]]]:

@@ -28,8 +28,8 @@ class PlotPanel(Static):
 
     kind: reactive[str] = reactive("qq")
     """Which picture: one of :data:`KINDS`."""
-    log_axes: reactive[bool] = reactive(False)
-    """Log value axes (latency spans decades); P-P and shift ignore it where it means nothing."""
+    axes: reactive[str] = reactive("auto")
+    """Value axes: 'auto' (the renderer picks log when every value is positive), 'log' or 'linear'."""
 
     def __init__(self, **kwargs: Any) -> None:
         super().__init__(**kwargs)
@@ -42,8 +42,12 @@ class PlotPanel(Static):
 
     @property
     def title(self) -> str:
-        axes = "log" if self.log_axes else "linear"
-        return f"Picture: {KIND_NAMES[self.kind]} ({axes})"
+        return f"Picture: {KIND_NAMES[self.kind]} ({self.axes} axes)"
+
+    @property
+    def log_axes(self) -> bool | None:
+        """What the renderer is asked for: None lets it choose."""
+        return {"auto": None, "log": True, "linear": False}[self.axes]
 
     def set_inputs(
         self,
@@ -59,7 +63,7 @@ class PlotPanel(Static):
     def watch_kind(self, _old: str, _new: str) -> None:
         self.redraw()
 
-    def watch_log_axes(self, _old: bool, _new: bool) -> None:
+    def watch_axes(self, _old: str, _new: str) -> None:
         self.redraw()
 
     def on_resize(self) -> None:
@@ -91,4 +95,13 @@ class PlotPanel(Static):
             self.lines = []
             self.update(notice(f"{KIND_NAMES[self.kind]} not available", str(exc)))
             return
-        self.update(Text("\n".join(self.lines), no_wrap=True, overflow="crop"))
+        except ValueError as exc:  # the renderer's own full-sentence refusal (too small, no data)
+            self.lines = []
+            self.update(notice(f"{KIND_NAMES[self.kind]} cannot be drawn here", str(exc)))
+            return
+        try:
+            from ..render import rich_text
+
+            self.update(rich_text(self.lines))
+        except ImportError:
+            self.update(Text("\n".join(self.lines), no_wrap=True, overflow="crop"))

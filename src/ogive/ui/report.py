@@ -38,7 +38,7 @@ def _as_dict(obj: Any) -> Any:
 
 
 def screen_state(app: OgiveApp) -> dict[str, Any]:
-    plot = app.query_one(PlotPanel)
+    plot = app._ws.query_one(PlotPanel)
     ref = app.reference
     return _clean(
         {
@@ -65,7 +65,7 @@ def screen_state(app: OgiveApp) -> dict[str, Any]:
 
 
 def markdown(app: OgiveApp) -> str:
-    plot = app.query_one(PlotPanel)
+    plot = app._ws.query_one(PlotPanel)
     ref = app.reference
     out = ["# ogive workspace report", ""]
     out.append(f"Subject: **{app.subject or '—'}** · reference: **{ref.label if ref else '—'}**")

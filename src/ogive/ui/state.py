@@ -31,6 +31,8 @@ class Distribution:
     """Why a scan stopped early, or a warning the reader raised."""
     job: ScanJob | None = None
     """The scan filling this sketch, if it came from one."""
+    seq: tuple[int, int] = (0, 0)
+    """Where the row goes: the order files were opened in, then the group's order."""
 
 
 @dataclass
@@ -39,6 +41,7 @@ class ScanJob:
 
     source: str
     options: ScanOptions
+    seq: int = 0
     cancel: threading.Event = field(default_factory=threading.Event)
     bytes_read: int = 0
     bytes_total: int | None = None

@@ -18,12 +18,17 @@ class FeedStatus(Static):
     def show_jobs(self, jobs: list[ScanJob]) -> None:
         running = [j for j in jobs if not j.done]
         if not running:
-            self.update(self.message or "ready")
+            self._show(self.message or "ready")
             return
         parts = [self.describe(j) for j in running[:2]]
         if len(running) > 2:
             parts.append(f"+{len(running) - 2} more")
-        self.update(" | ".join(parts))
+        self._show(" | ".join(parts))
+
+    def _show(self, text: str) -> None:
+        if text != getattr(self, "_shown", None):
+            self._shown = text
+            self.update(text)
 
     @staticmethod
     def describe(job: ScanJob) -> str:
@@ -38,4 +43,4 @@ class FeedStatus(Static):
         return f"scanning {name}: {done}, {fmt.count(job.rows_per_s)} rows/s{tail}"
 
     def watch_message(self, value: str) -> None:
-        self.update(value or "ready")
+        self._show(value or "ready")
