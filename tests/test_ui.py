@@ -26,6 +26,9 @@ from ogive.ui.plot_panel import PlotPanel
 from ogive.ui.screen_text import screen_text
 from ogive.ui.shelf import DistributionShelf
 
+FAST = ("lognormal", "gamma")
+"""Two families keep each fit well under a second; the ranking itself is the fit tests' job."""
+
 os.environ.setdefault("NO_COLOR", "1")
 
 
@@ -63,7 +66,7 @@ async def _settle(app: OgiveApp, pilot: object) -> None:
 
 async def test_roles_shelf_and_ladder(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
     before, after, _, b = pair
-    app = OgiveApp([str(before), str(after)])
+    app = OgiveApp(families=FAST, sources=[str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
         # last given is the subject, first the reference ("after against before")
@@ -93,7 +96,7 @@ async def test_roles_shelf_and_ladder(pair: tuple[Path, Path, np.ndarray, np.nda
 
 async def test_swap_roles_and_refuse_same(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
     before, after, _, _ = pair
-    app = OgiveApp([str(before), str(after)])
+    app = OgiveApp(families=FAST, sources=[str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
         shelf = app.query_one(DistributionShelf)
@@ -115,7 +118,7 @@ async def test_swap_roles_and_refuse_same(pair: tuple[Path, Path, np.ndarray, np
 
 async def test_picture_modes_and_axes(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
     before, after, _, _ = pair
-    app = OgiveApp([str(before), str(after)])
+    app = OgiveApp(families=FAST, sources=[str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
         plot = app.query_one(PlotPanel)
@@ -137,7 +140,7 @@ async def test_picture_modes_and_axes(pair: tuple[Path, Path, np.ndarray, np.nda
 
 async def test_write_and_export(pair: tuple[Path, Path, np.ndarray, np.ndarray], tmp_path: Path) -> None:
     before, after, _, b = pair
-    app = OgiveApp([str(before), str(after)], save_dir=tmp_path)
+    app = OgiveApp(families=FAST, sources=[str(before), str(after)], save_dir=tmp_path)
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
         await pilot.press("w")
@@ -166,7 +169,7 @@ async def test_write_and_export(pair: tuple[Path, Path, np.ndarray, np.ndarray],
 
 async def test_help_lists_every_key(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
     before, after, _, _ = pair
-    app = OgiveApp([str(before), str(after)])
+    app = OgiveApp(families=FAST, sources=[str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
         await pilot.press("question_mark")
@@ -184,7 +187,7 @@ async def test_help_lists_every_key(pair: tuple[Path, Path, np.ndarray, np.ndarr
 
 async def test_open_prompt_previews_and_opens(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
     before, after, _, _ = pair
-    app = OgiveApp([str(before)])
+    app = OgiveApp(families=FAST, sources=[str(before)])
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
         # one distribution alone: nothing to compare against yet
@@ -202,19 +205,38 @@ async def test_open_prompt_previews_and_opens(pair: tuple[Path, Path, np.ndarray
         assert list(app.dists) == ["before", "after"]
 
 
-async def test_models_pane_says_why_when_empty(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
+async def test_models_rank_and_a_model_becomes_the_reference(
+    pair: tuple[Path, Path, np.ndarray, np.ndarray],
+) -> None:
     before, after, _, _ = pair
-    app = OgiveApp([str(before), str(after)])
+    app = OgiveApp(families=FAST, sources=[str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
         await pilot.press("f")
         await _settle(app, pilot)
         models = app.query_one(ModelRanking)
         assert models.has_focus
-        if app.fit_report is None:  # the fit package not installed: the pane must say so
-            assert "not available" in screen_text(app)
-        else:
-            assert models.row_count >= 1
+        assert app.fit_report is not None, app.fit_note
+        # the table lists the fit package's ranking in its order (lognormal data: scipy's
+        # lognorm family must be among the fitted, both families fitted here)
+        labels = [c.label for c in app.fit_report.ranked]
+        assert models.row_count == len(labels) == 2
+        text = screen_text(app)
+        assert all(label in text for label in labels)
+        models.move_cursor(row=1)
+        await pilot.press("2")
+        await _settle(app, pilot)
+        assert app.reference is not None and app.reference.kind == "model"
+        assert app.reference.name == labels[1]
+        # the ladder compares sketches only, and says so
+        await pilot.press("c")
+        await pilot.pause(0.1)
+        assert "the reference is a model" in screen_text(app)
+        # Q-Q against the model is drawn from the model's own quantile function
+        await pilot.press("g")
+        await pilot.pause(0.2)
+        assert "Picture: Q-Q" in screen_text(app)
+        assert app.query_one(PlotPanel).lines  # drawn, not a notice
 
 
 def test_complete_path(tmp_path: Path) -> None:
@@ -229,7 +251,7 @@ def test_complete_path(tmp_path: Path) -> None:
 async def test_fits_in_80x24_and_scales(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
     before, after, _, _ = pair
     for size in ((80, 24), (160, 48)):
-        app = OgiveApp([str(before), str(after)])
+        app = OgiveApp(families=FAST, sources=[str(before), str(after)])
         async with app.run_test(size=size) as pilot:
             await _settle(app, pilot)
             lines = screen_text(app).splitlines()

@@ -24,6 +24,9 @@ from ogive.ui.help_overlay import KeyHelp
 from ogive.ui.plot_panel import PlotPanel
 from ogive.ui.screen_text import screen_text
 
+FAST = ("lognormal", "gamma")
+"""Two families keep each fit well under a second; the ranking itself is the fit tests' job."""
+
 
 def _write_csv(path: Path, values: np.ndarray, bad_every: int) -> int:
     """A CSV of latencies with an unparseable value every ``bad_every`` rows; returns the bad count."""
@@ -60,7 +63,11 @@ async def test_scans_fill_the_shelf(tmp_path: Path) -> None:
     a, b = rng.gamma(2.0, 10.0, 8000), rng.gamma(2.0, 13.0, 8000)
     bad_a = _write_csv(tmp_path / "base.csv", a, 500)
     bad_b = _write_csv(tmp_path / "cand.csv", b, 0)
-    app = OgiveApp([str(tmp_path / "base.csv"), str(tmp_path / "cand.csv")], ScanOptions(column="latency_ms"))
+    app = OgiveApp(
+        [str(tmp_path / "base.csv"), str(tmp_path / "cand.csv")],
+        ScanOptions(column="latency_ms"),
+        families=FAST,
+    )
     async with app.run_test(size=(80, 24)) as pilot:
         await _wait_scans(app, pilot)
         assert list(app.dists) == ["base", "cand"]
@@ -133,7 +140,7 @@ async def test_keys_answer_while_a_large_scan_runs(tmp_path: Path) -> None:
     feeder = threading.Thread(target=_feed_slowly, args=(fifo, values, stop), daemon=True)
     feeder.start()
     slow = dataclasses.replace(ScanOptions(format="csv", column="latency_ms"), chunk_bytes=16 * 1024)
-    app = OgiveApp([str(fifo)], slow)
+    app = OgiveApp([str(fifo)], slow, families=FAST)
     try:
         async with app.run_test(size=(80, 24)) as pilot:
             job = app.jobs[0]
@@ -179,6 +186,7 @@ async def test_demo_opens_after_against_before(tmp_path: Path) -> None:
         per_source={str(p): demo_cmd.demo_options(p) for p in pair},
         subject=demo_cmd._stem(after),
         reference=demo_cmd._stem(before),
+        families=FAST,
     )
     async with app.run_test(size=(80, 24)) as pilot:
         await _wait_scans(app, pilot)

@@ -40,8 +40,6 @@ from .status_line import FeedStatus
 
 REFRESH_S = 0.5
 """Screen refresh while data streams: about twice a second."""
-FIT_EVERY_S = 5.0
-"""While the subject is still streaming, refit at most this often (fitting is the costly part)."""
 PANES = ("picture", "models", "ladder")
 AXES = ("auto", "log", "linear")
 """'auto' lets the renderer choose (log when every value is positive, as latencies are)."""
@@ -149,10 +147,13 @@ class OgiveApp(App[int]):
         reference: str | None = None,
         save_dir: str | Path = ".",
         per_source: dict[str, ScanOptions] | None = None,
+        families: Sequence[str] | None = None,
     ) -> None:
         super().__init__()
         self.initial_sources = list(sources)
         self.options = options or ScanOptions()
+        self.families = list(families) if families else None
+        """Families to fit (None: the fit package's default list, as ``ogive fit``)."""
         self.per_source = dict(per_source or {})
         """Reading options for particular sources (the demo's logs differ in layout)."""
         self.wanted_subject = subject
@@ -171,7 +172,6 @@ class OgiveApp(App[int]):
         self._generation = 0
         self._fit_busy = False
         self._fit_pending = False
-        self._fit_last = 0.0
         self._compare_busy = False
         self._compare_pending = False
         self._seq = 0
@@ -317,7 +317,7 @@ class OgiveApp(App[int]):
                 f"{Path(job.source).name}: scan {'stopped' if state == 'partial' else 'done'}"
                 + (f" ({msg.note})" if msg.note else "")
             )
-        self.request_analysis(force_fit=True)
+        self.request_analysis()
         self.refresh_all()
 
     def _take(self, job: ScanJob, sketches: dict[str, Sketch], *, state: str, note: str) -> None:
@@ -399,9 +399,10 @@ class OgiveApp(App[int]):
         subj = self.dists.get(self.subject or "")
         if subj is None or subj.sketch.count == 0:
             return
-        now = time.monotonic()
-        if force_fit or subj.state != "scanning" or now - self._fit_last >= FIT_EVERY_S:
+        if force_fit or subj.state != "scanning":
             self._start_fit()
+        else:
+            self.fit_note = "" if self.fit_report is not None else "the fit runs when the subject's scan ends"
         self._start_compare()
 
     def _start_fit(self) -> None:
@@ -417,13 +418,12 @@ class OgiveApp(App[int]):
             self.fit_note = str(exc)
             return
         self._fit_busy, self._fit_pending = True, False
-        self._fit_last = time.monotonic()
         self.fit_worker(fit, subj.sketch, self._generation, subj.name, subj.sketch.count)
 
     @work(thread=True, exclusive=True, group="fit")
     def fit_worker(self, fit: Any, sketch: Sketch, generation: int, name: str, n: int) -> None:
         try:
-            result, note = fit(sketch), ""
+            result, note = fit(sketch, self.families), ""
         except Exception as exc:  # the fit package reports its own problems; show them, keep going
             result, note = None, f"fitting {name} failed: {exc}"
         self.call_from_thread(self._fit_done, result, note, generation)
@@ -527,7 +527,7 @@ class OgiveApp(App[int]):
             table.clear(columns=True)
             table.border_subtitle = "" if self.fit_note else "fitting…" if self._fit_busy else "no subject"
             if self.fit_note:
-                table.add_column("not available")
+                table.add_column("no fit on screen")
                 table.add_row(self.fit_note)
 
     def _show_ladder(self, subj: Distribution | None, ref: ReferenceChoice | None) -> None:
