@@ -190,9 +190,14 @@ async def test_demo_opens_after_against_before(tmp_path: Path) -> None:
     )
     async with app.run_test(size=(80, 24)) as pilot:
         await _wait_scans(app, pilot)
-        assert app.subject == "after" and app.reference is not None and app.reference.name == "before"
-        assert app.dists["after"].sketch.unit == "ms"
-        assert app.dists["after"].sketch.provenance.skipped_total == 12
+        assert [p.name for p in pair] == ["checkout-before.log", "checkout-after.log.gz"]
+        assert app.subject == "checkout-after"
+        assert app.reference is not None and app.reference.name == "checkout-before"
+        after_sketch = app.dists["checkout-after"].sketch
+        assert after_sketch.unit == "ms"
+        # demo_logs/README.md: 12,000 records, 4 spoilt on purpose
+        assert after_sketch.count == 12_000 - 4
+        assert after_sketch.provenance.skipped_total == 4
         await pilot.press("c")
         await pilot.pause(0.2)
         # the scenario's release makes the cache-miss tail heavier: p99 must be called higher

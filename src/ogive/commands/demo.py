@@ -37,10 +37,16 @@ def demo_folder() -> Path:
 
 
 def pick_pair(folder: Path) -> tuple[Path, Path] | None:
-    """The 'before' and 'after' logs of the folder (first match of each, by name)."""
+    """The 'before' and 'after' logs of the folder, the text access logs preferred (the largest)."""
     files = sorted(p for p in folder.iterdir() if p.is_file()) if folder.is_dir() else []
-    before = next((p for p in files if p.name.startswith("before")), None)
-    after = next((p for p in files if p.name.startswith("after")), None)
+
+    def choose(phase: str) -> Path | None:
+        found = [p for p in files if phase in p.name and not p.name.endswith((".md", ".ogive"))]
+        text = [p for p in found if ".log" in p.name]
+        best = text or found
+        return best[0] if best else None
+
+    before, after = choose("before"), choose("after")
     return (before, after) if before and after else None
 
 
@@ -54,12 +60,8 @@ def _cache_folder() -> Path:
     return folder
 
 
-SMALL_ROWS = 60_000
-"""Rows per phase when the demo set has to be generated: a couple of seconds to scan."""
-
-
 def generate_small(folder: Path) -> None:
-    """Write a small before/after set with ``ogive.demo`` (the generator of the bundled files)."""
+    """Write the demo set with ``ogive.demo`` (byte for byte the bundled files)."""
     try:
         demo = importlib.import_module("ogive.demo")
     except ImportError:
@@ -67,10 +69,7 @@ def generate_small(folder: Path) -> None:
             "the demo logs (demo_logs/) are missing and the generator ogive.demo is not installed; "
             "run 'ogive view' on your own logs instead."
         ) from None
-    for phase, seed in (("before", 1), ("after", 2)):
-        demo.write(
-            str(folder / f"{phase}.ndjson.gz"), "ndjson", phase, rows=SMALL_ROWS, seed=seed, bad_rows=12
-        )
+    demo.write_demo_set(folder)
 
 
 def demo_options(path: Path) -> Any:
