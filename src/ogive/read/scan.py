@@ -203,7 +203,7 @@ def _file_size(name: str) -> int | None:
         return None
 
 
-def _prefetch(it: Iterator[_T], depth: int = 2) -> Iterator[_T]:
+def _prefetch(it: Iterator[_T], depth: int = 1) -> Iterator[_T]:
     """Run ``it`` in a thread, ``depth`` chunks ahead, re-raising its errors here."""
     q: queue.Queue[tuple[str, object]] = queue.Queue(maxsize=depth)
     stop = threading.Event()
