@@ -102,7 +102,7 @@ class OgiveApp(App[int]):
     | o | Open a log or a .ogive sketch (prompt with completion and preview). |
     | g | Show the picture pane. |
     | f | Show the model-ranking pane. |
-    | c | Show the comparison-ladder pane. |
+    | c | Show the comparison-ladder pane (up/down/page keys scroll it). |
     | v | Next picture: Q-Q → detrended → P-P → CDF → shift. |
     | V | Previous picture. |
     | l | Value axes: auto → log → linear. |
@@ -550,6 +550,8 @@ class OgiveApp(App[int]):
             self._ws.query_one(f"#{name}").set_class(name == pane, "-current")
         if pane == "models":
             self._ws.query_one(ModelRanking).focus()
+        elif pane == "ladder":
+            self._ws.query_one("#ladder").focus()
         elif pane == "picture":
             self._ws.query_one(DistributionShelf).focus()
 

@@ -23,7 +23,7 @@ def ranked_models(report: Any) -> list[Any]:
 def model_scores(model: Any) -> dict[str, Any]:
     """The scores the fit package attached to a model, by the names it gave them."""
     out: dict[str, Any] = {}
-    for key in ("ks", "ad", "cvm", "aic", "bic", "tail_error"):
+    for key in ("tail_error", "ks", "ad", "cvm", "aic", "bic"):  # the fit ranks by tail error first
         value = getattr(model, key, None)
         if value is None:
             scores = getattr(model, "scores", None)

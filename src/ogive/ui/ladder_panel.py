@@ -24,7 +24,13 @@ def _interval(low: float, high: float) -> str:
 def _pct(x: float | None) -> str:
     if x is None or math.isnan(x):
         return "—"
-    return f"{x * 100:+.1f}%"
+    pct = x * 100
+    return f"{pct:+.0f}%" if abs(pct) >= 100 else f"{pct:+.1f}%"
+
+
+def confidence_of(comparison: Any) -> str:
+    level = getattr(comparison, "confidence", None)
+    return f"{level:.0%} interval" if isinstance(level, float) else "interval"
 
 
 def ladder_rows(comparison: Any) -> list[Any]:
@@ -37,12 +43,13 @@ def ladder_rows(comparison: Any) -> list[Any]:
 def comparison_renderable(comparison: Any, ref_label: str, subj_label: str) -> RenderableType:
     """The ladder as a table, then whatever summary lines the comparison offers."""
     table = Table(box=None, pad_edge=False, expand=True, show_edge=False)
-    table.add_column("q", no_wrap=True)
-    table.add_column(f"R {ref_label}"[:14], justify="right", no_wrap=True)
-    table.add_column(f"S {subj_label}"[:14], justify="right", no_wrap=True)
+    # Short headers: the headline names subject (S) and reference (R); 80 columns must hold it all.
+    table.add_column("q", no_wrap=True, min_width=6)
+    table.add_column("R", justify="right", no_wrap=True)
+    table.add_column("S", justify="right", no_wrap=True)
     table.add_column("change", justify="right", no_wrap=True)
-    table.add_column("interval of change", justify="right", no_wrap=True)
-    table.add_column("verdict", no_wrap=True)
+    table.add_column(f"S−R, {confidence_of(comparison)}", justify="right", no_wrap=True)
+    table.add_column("verdict", no_wrap=True, min_width=14)
     for row in ladder_rows(comparison):
         verdict = str(getattr(row, "verdict", ""))
         style = "bold" if verdict in ("higher", "lower") else ""
@@ -54,7 +61,9 @@ def comparison_renderable(comparison: Any, ref_label: str, subj_label: str) -> R
             _interval(getattr(row, "change_low", -math.inf), getattr(row, "change_high", math.inf)),
             Text(verdict, style=style),
         )
-    parts: list[RenderableType] = [table]
+    unit = getattr(comparison, "unit", "") or ""
+    head = f"S = {subj_label} against R = {ref_label}" + (f", in {unit}" if unit else "")
+    parts: list[RenderableType] = [Text(head, style="bold"), table]
     parts.extend(Text(line) for line in summary_lines(comparison))
     return Group(*parts)
 

@@ -6,7 +6,7 @@ import dataclasses
 from dataclasses import dataclass
 from typing import Any, ClassVar
 
-from textual import work
+from textual import events, work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical
@@ -21,6 +21,7 @@ from . import preview
 from .path_input import PathInput
 
 FORMATS = ("auto", "csv", "tsv", "ndjson", "text", "parquet")
+HINT = "enter: open · tab: complete/next · escape: cancel"
 
 
 @dataclass(frozen=True)
@@ -62,14 +63,14 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
             with Horizontal(classes="field-row"):
                 yield Label("path", classes="field-label")
                 yield PathInput(self.start, id="open-path")
-            for key, label, hint in self.FIELDS:
+            for key, label, _hint in self.FIELDS:
                 with Horizontal(classes="field-row"):
                     yield Label(label, classes="field-label")
                     value = getattr(self.base, key, None) or ("auto" if key == "format" else "")
                     suggester = SuggestFromList(FORMATS) if key == "format" else None
-                    yield Input(str(value), placeholder=hint, id=f"open-{key}", suggester=suggester)
+                    yield Input(str(value), id=f"open-{key}", suggester=suggester)
             yield Static("type a path to see a preview", id="open-preview")
-            yield Static("enter: open · tab: complete/next · escape: cancel", classes="dialog-hint")
+            yield Static(HINT, id="open-hint", classes="dialog-hint")
 
     def on_mount(self) -> None:
         self.query_one("#open-path", PathInput).focus()
@@ -85,6 +86,13 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
     @property
     def path(self) -> str:
         return self.query_one("#open-path", PathInput).value.strip()
+
+    def on_descendant_focus(self, event: events.DescendantFocus) -> None:
+        """The focused field's meaning goes in the hint line (placeholders vanish without colour)."""
+        hints = {f"open-{key}": hint for key, _, hint in self.FIELDS}
+        hints["open-path"] = "a log (any format, .gz/.zst) or a .ogive sketch; tab completes"
+        text = hints.get(event.widget.id or "", "")
+        self.query_one("#open-hint", Static).update(f"{text}\n{HINT}" if text else HINT)
 
     def on_input_changed(self, _event: Input.Changed) -> None:
         self.schedule_preview()
