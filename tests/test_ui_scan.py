@@ -82,7 +82,8 @@ async def test_scans_fill_the_shelf(tmp_path: Path) -> None:
         text = screen_text(app)
         assert "base" in text and "8k" in text and "16" in text
         await pilot.press("c")
-        await pilot.pause(0.2)
+        await _idle(app, pilot)
+        await pilot.pause(0.1)
         assert "higher" in screen_text(app)
 
 
@@ -199,7 +200,8 @@ async def test_demo_opens_after_against_before(tmp_path: Path) -> None:
         assert after_sketch.count == 12_000 - 4
         assert after_sketch.provenance.skipped_total == 4
         await pilot.press("c")
-        await pilot.pause(0.2)
+        await _idle(app, pilot)
+        await pilot.pause(0.1)
         # the scenario's release makes the cache-miss tail heavier: p99 must be called higher
         p99 = next(ln for ln in screen_text(app).splitlines() if ln.strip("│ ").startswith("p99 "))
         assert "higher" in p99
