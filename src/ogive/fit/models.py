@@ -354,10 +354,11 @@ def _quantile_errors(model: FittedModel, sketch: Sketch, probs: tuple[float, ...
     with np.errstate(all="ignore"):
         mq, sq = model.ppf(p), sketch.quantile(p)
         rel = (mq - sq) / np.abs(sq)
-    return {
-        quantile_label(pp): float(r) if math.isfinite(r) else math.inf
-        for pp, r in zip(probs, rel, strict=True)
-    }
+    return _qdict(probs, np.where(np.isfinite(rel), rel, np.inf))
+
+
+def _qdict(probs: tuple[float, ...], values: FloatArray) -> dict[str, float]:
+    return {quantile_label(p): float(v) for p, v in zip(probs, values, strict=True)}
 
 
 def _score(
