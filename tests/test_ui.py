@@ -261,3 +261,15 @@ async def test_fits_in_80x24_and_scales(pair: tuple[Path, Path, np.ndarray, np.n
             assert "Distributions" in text
             if size == (160, 48):  # wide and tall: every pane at once
                 assert "Picture" in text and "Models" in text and "Quantile ladder" in text
+
+
+def test_view_refuses_bad_arguments_in_one_line(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+    from ogive.cli import main
+
+    assert main(["view", str(tmp_path / "missing.log")]) == 3
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "no such file" in err[0]
+    (tmp_path / "x.log").write_text("1\n")
+    assert main(["view", "--families", "nosuch", str(tmp_path / "x.log")]) == 3
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "unknown family 'nosuch'" in err[0]

@@ -16,7 +16,8 @@ Open the workspace on the bundled demo data: the request latencies of an invente
 service before and after a release. The subject is 'after' and the reference
 'before', so the quantile ladder answers "did the release slow anything down, and
 where?" straight away. The demo logs are read from demo_logs/ in the source tree; when
-that folder is missing (an installed copy) a small set is generated into a cache folder.
+that folder is missing (an installed copy) the same set is generated into a cache folder
+(~/.cache/ogive/demo_logs) first.
 """
 
 EPILOG = "The same data by hand: ogive view demo_logs/before… demo_logs/after…  (see README)."

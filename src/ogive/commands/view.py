@@ -32,12 +32,39 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--subject", metavar="NAME", default=None, help="distribution to study (by its row name)"
     )
     parser.add_argument("--reference", metavar="NAME", default=None, help="distribution to hold it against")
+    parser.add_argument(
+        "--families",
+        metavar="LIST",
+        default=None,
+        help="comma-separated families to fit to the subject (default: all, as 'ogive fit')",
+    )
     add_source_options(parser)
 
 
 def run(args: argparse.Namespace) -> int:
+    import os
+
+    from ..errors import OgiveError
+    from ..store import split_group
     from ..ui import OgiveApp
     from .common import options_from_args
 
-    app = OgiveApp(args.sources, options_from_args(args), subject=args.subject, reference=args.reference)
+    for spec in args.sources:
+        if spec != "-" and not os.path.exists(spec) and not os.path.exists(split_group(spec)[0]):
+            raise OgiveError(f"cannot open {spec}: no such file.")
+    families = [f.strip() for f in args.families.split(",") if f.strip()] if args.families else None
+    if families is not None:
+        from ..fit.families import resolve
+
+        try:
+            families = resolve(families)
+        except ValueError as exc:
+            raise OgiveError(str(exc)) from None
+    app = OgiveApp(
+        args.sources,
+        options_from_args(args),
+        subject=args.subject,
+        reference=args.reference,
+        families=families,
+    )
     return app.run() or 0

@@ -512,7 +512,9 @@ class OgiveApp(App[int]):
             self.subject,
             ref.name if ref is not None and ref.kind == "sketch" else None,
         )
-        self._ws.query_one(PlotPanel).set_inputs(subj, ref, ref_dist, self.comparison)
+        plot = self._ws.query_one(PlotPanel)
+        plot.waiting = any(not j.done for j in self.jobs)
+        plot.set_inputs(subj, ref, ref_dist, self.comparison)
         self._show_models()
         self._show_ladder(subj, ref)
         self._ws.query_one(FeedStatus).show_jobs(self.jobs)

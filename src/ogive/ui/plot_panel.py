@@ -39,6 +39,8 @@ class PlotPanel(Static):
         self.comparison: Any = None
         self.lines: list[str] = []
         """What is on screen now (the export writes these)."""
+        self.waiting = False
+        """True while a scan runs that has not delivered values yet."""
 
     @property
     def title(self) -> str:
@@ -78,7 +80,10 @@ class PlotPanel(Static):
             return
         if self.subject is None:
             self.lines = []
-            self.update(notice("No subject yet", "Highlight a distribution and press 1."))
+            if self.waiting:
+                self.update(notice("Scanning…", "The picture appears as soon as the first values arrive."))
+            else:
+                self.update(notice("No subject yet", "Press o to open a log or a sketch, then 1 on its row."))
             return
         try:
             self.lines = picture.draw(
