@@ -161,6 +161,9 @@ async def test_write_and_export(pair: tuple[Path, Path, np.ndarray, np.ndarray],
         md = (tmp_path / "report.md").read_text()
         js = json.loads((tmp_path / "report.json").read_text())
         assert "Subject: **after**" in md and "| p50 |" in md
+        assert "## Picture: Q-Q (auto axes)" in md and js["picture"]["axes"] == "auto"
+        assert js["picture"]["lines"] == list(app.query_one(PlotPanel).lines)
+        assert app.fit_report is not None and f"| 1 | {app.fit_report.ranked[0].label} |" in md
         assert js["subject"] == "after" and js["reference"] == {"kind": "sketch", "name": "before"}
         assert js["comparison"]["ladder"][0]["verdict"] == "higher"
         assert [d["summary"]["n"] for d in js["distributions"]] == [20_000, 20_000]

@@ -55,7 +55,7 @@ def screen_state(app: OgiveApp) -> dict[str, Any]:
                 }
                 for d in app.dists.values()
             ],
-            "picture": {"kind": plot.kind, "log_axes": plot.log_axes, "lines": plot.lines},
+            "picture": {"kind": plot.kind, "axes": plot.axes, "lines": list(plot.lines)},
             "fit": _as_dict(app.fit_report) if app.fit_report is not None else {"unavailable": app.fit_note},
             "comparison": _as_dict(app.comparison)
             if app.comparison is not None
@@ -82,14 +82,16 @@ def markdown(app: OgiveApp) -> str:
             f"| {d.name} | {s['n']} | {fmt.num(s['p50'])} | {fmt.num(s['p99'])} | {fmt.num(s['max'])} "
             f"| {d.sketch.provenance.skipped_total} | {d.state} |"
         )
-    out += ["", f"## Picture: {KIND_NAMES[plot.kind]} ({'log' if plot.log_axes else 'linear'} axes)", ""]
+    out += ["", f"## Picture: {KIND_NAMES[plot.kind]} ({plot.axes} axes)", ""]
     out += ["```", *(plot.lines or ["(not drawn)"]), "```", ""]
     out += ["## Models fitted to the subject", ""]
     if app.fit_report is None:
         out.append(app.fit_note or "No fit on screen.")
     else:
         models = ranked_models(app.fit_report)
-        keys = sorted({k for m in models for k in model_scores(m)})
+        keys: list[str] = []  # the panel's column order (tail error first)
+        for m in models:
+            keys += [k for k in model_scores(m) if k not in keys]
         out.append("| # | model | " + " | ".join(keys) + " |")
         out.append("|---|---|" + "---:|" * len(keys))
         for i, m in enumerate(models):
