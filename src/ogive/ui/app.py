@@ -229,11 +229,6 @@ class OgiveApp(App[int]):
         if not Path(source).exists() and source != "-":
             self.say(f"cannot open {source}: no such file.")
             return
-        try:
-            scan_function()
-        except Unavailable as exc:
-            self.say(str(exc))
-            return
         job = ScanJob(source, options, seq=self._next_seq())
         self.jobs.append(job)
         self.scan_worker(job)
@@ -284,10 +279,10 @@ class OgiveApp(App[int]):
             copies = {name: snapshot(s) for name, s in p.sketches.sketches.items()}
             self.post_message(ScanTick(job, p, copies))
 
-        scan = scan_function()
         try:
+            scan = scan_function()  # imported here, not on the screen's thread
             result = scan([job.source], job.options, progress=progress, cancel=cancelled)
-        except OgiveError as exc:
+        except (OgiveError, Unavailable) as exc:
             self.post_message(ScanEnded(job, {}, str(exc), failed=True))
             return
         notes = list(result.warnings)
@@ -412,18 +407,17 @@ class OgiveApp(App[int]):
         subj = self.dists.get(self.subject or "")
         if subj is None:
             return
-        try:
-            fit = fit_function()
-        except Unavailable as exc:
-            self.fit_note = str(exc)
-            return
         self._fit_busy, self._fit_pending = True, False
-        self.fit_worker(fit, subj.sketch, self._generation, subj.name, subj.sketch.count)
+        self.fit_worker(subj.sketch, self._generation, subj.name)
 
     @work(thread=True, exclusive=True, group="fit")
-    def fit_worker(self, fit: Any, sketch: Sketch, generation: int, name: str, n: int) -> None:
+    def fit_worker(self, sketch: Sketch, generation: int, name: str) -> None:
+        """Imports and runs ``fit_sketch`` off the screen's thread (scipy takes seconds to load)."""
         try:
+            fit = fit_function()
             result, note = fit(sketch, self.families), ""
+        except Unavailable as exc:
+            result, note = None, str(exc)
         except Exception as exc:  # the fit package reports its own problems; show them, keep going
             result, note = None, f"fitting {name} failed: {exc}"
         self.call_from_thread(self._fit_done, result, note, generation)
@@ -458,20 +452,16 @@ class OgiveApp(App[int]):
         if self._compare_busy:
             self._compare_pending = True
             return
-        try:
-            compare = compare_function()
-        except Unavailable as exc:
-            self.compare_note = str(exc)
-            return
         self._compare_busy, self._compare_pending = True, False
-        self.compare_worker(compare, other, subj, (self.subject, ref.name))
+        self.compare_worker(other, subj, (self.subject, ref.name))
 
     @work(thread=True, exclusive=True, group="compare")
-    def compare_worker(
-        self, compare: Any, ref: Distribution, subj: Distribution, key: tuple[Any, ...]
-    ) -> None:
+    def compare_worker(self, ref: Distribution, subj: Distribution, key: tuple[Any, ...]) -> None:
         try:
+            compare = compare_function()
             result, note = compare(ref.sketch, subj.sketch, labels=(ref.name, subj.name)), ""
+        except Unavailable as exc:
+            result, note = None, str(exc)
         except Exception as exc:  # shown in the ladder pane, never swallowed
             result, note = None, f"comparison failed: {exc}"
         self.call_from_thread(self._compare_done, result, note, key)
@@ -531,6 +521,9 @@ class OgiveApp(App[int]):
             if self.fit_note:
                 table.add_column("no fit on screen")
                 table.add_row(self.fit_note)
+            elif self._fit_busy:
+                table.add_column("model ranking")
+                table.add_row(f"fitting {self.subject}… (every family; this takes a few seconds)")
 
     def _show_ladder(self, subj: Distribution | None, ref: ReferenceChoice | None) -> None:
         ladder = self._ws.query_one(LadderPanel)
