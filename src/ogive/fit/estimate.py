@@ -108,10 +108,17 @@ def grouped_from_sketch(sketch: Sketch, *, bins: int = DEFAULT_BINS) -> GroupedD
     inner = sketch.value_at(p[1:-1] * (n - 1))
     edges = np.unique(np.concatenate(([low[-1]], inner, [high[0]])))
     edges = edges[(edges >= low[-1]) & (edges <= high[0])]
+    # Edges closer than rounding noise would make bins no CDF can resolve: merge them.
+    tol = 1e-9 * max(float(np.abs(edges).max()), 1e-300)
+    keep = np.concatenate((np.diff(edges) > tol, [True]))
+    keep[0] = True
+    edges = edges[keep]
     cum = np.clip(sketch.rank(edges), nl, n - nh)
     cum[0], cum[-1] = nl, n - nh
     cum = np.maximum.accumulate(cum)
-    return GroupedData(np.concatenate((low, high)), edges, np.diff(cum), n)
+    counts = np.diff(cum)
+    counts[counts < 1e-6] = 0.0  # interpolation dust, not values
+    return GroupedData(np.concatenate((low, high)), edges, counts, n)
 
 
 def summarise(data: GroupedData) -> DataSummary:
@@ -214,7 +221,9 @@ def maximise(family: Family, data: GroupedData, starts: list[FloatArray], *, tri
     for t0 in starts[:tries]:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            res = optimize.minimize(nll, t0, method="L-BFGS-B", options={"maxiter": 400})
+            # BFGS, not L-BFGS-B: with two to five parameters its pure-numpy steps cost
+            # far less per iteration than L-BFGS-B's compiled core calls do here.
+            res = optimize.minimize(nll, t0, method="BFGS", options={"maxiter": 400, "gtol": 1e-8})
             if not res.success or not math.isfinite(res.fun) or res.fun >= 1e29:
                 res2 = optimize.minimize(
                     nll, res.x if math.isfinite(res.fun) and res.fun < 1e29 else t0, method="Nelder-Mead",
