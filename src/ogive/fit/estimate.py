@@ -223,7 +223,7 @@ def maximise(family: Family, data: GroupedData, starts: list[FloatArray], *, tri
             warnings.simplefilter("ignore")
             # BFGS, not L-BFGS-B: with two to five parameters its pure-numpy steps cost
             # far less per iteration than L-BFGS-B's compiled core calls do here.
-            res = optimize.minimize(nll, t0, method="BFGS", options={"maxiter": 400, "gtol": 1e-8})
+            res = optimize.minimize(nll, t0, method="BFGS", options={"maxiter": 400, "gtol": 1e-6})
             if not res.success or not math.isfinite(res.fun) or res.fun >= 1e29:
                 res2 = optimize.minimize(
                     nll, res.x if math.isfinite(res.fun) and res.fun < 1e29 else t0, method="Nelder-Mead",
