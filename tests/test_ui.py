@@ -276,3 +276,19 @@ def test_view_refuses_bad_arguments_in_one_line(capsys: pytest.CaptureFixture[st
     assert main(["view", "--families", "nosuch", str(tmp_path / "x.log")]) == 3
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "unknown family 'nosuch'" in err[0]
+
+
+async def test_lone_subject_gets_best_model_until_a_sketch_arrives(
+    pair: tuple[Path, Path, np.ndarray, np.ndarray],
+) -> None:
+    """Regression: a fit finishing before the second file arrived kept the model as reference."""
+    before, after, _, _ = pair
+    app = OgiveApp(families=FAST, sources=[str(after)])
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _settle(app, pilot)
+        assert app.reference is not None and app.reference.kind == "model"
+        assert app.reference.name == app.fit_report.ranked[0].label
+        app.open_source(str(before), app.options)
+        await _settle(app, pilot)
+        assert app.reference is not None and app.reference.kind == "sketch"
+        assert (app.subject, app.reference.name) == ("before", "after")

@@ -175,6 +175,8 @@ class OgiveApp(App[int]):
         self._compare_busy = False
         self._compare_pending = False
         self._seq = 0
+        self._auto_model = False
+        """The reference is the best model only because the subject was alone."""
 
     # ------------------------------------------------------------------ layout
     def compose(self) -> ComposeResult:
@@ -332,6 +334,9 @@ class OgiveApp(App[int]):
         """Honour the roles asked for on the command line; otherwise the last file is the subject
         and the first the reference (``ogive view before after`` reads naturally)."""
         names = list(self.dists)
+        if self._auto_model and len(names) > 1:
+            # a model was chosen only because nothing else was loaded; a sketch now is
+            self.reference, self._auto_model = None, False
         if self.subject is None or self.subject not in self.dists:
             if self.wanted_subject in self.dists:
                 self.subject = self.wanted_subject
@@ -369,6 +374,7 @@ class OgiveApp(App[int]):
             self.say("the reference must differ from the subject; pick another row, or press 1 first.")
             return
         self.reference = ReferenceChoice("sketch", name)
+        self._auto_model = False
         self.comparison = None
         self.request_analysis()
         self.refresh_all()
@@ -386,6 +392,7 @@ class OgiveApp(App[int]):
         if 0 <= msg.index < len(models):
             m = models[msg.index]
             self.reference = ReferenceChoice("model", str(getattr(m, "label", m)), m)
+            self._auto_model = False
             self.comparison = None
             self.refresh_all()
 
@@ -431,9 +438,11 @@ class OgiveApp(App[int]):
                 for m in ranked_models(result):
                     if str(getattr(m, "label", m)) == self.reference.name:
                         self.reference = ReferenceChoice("model", self.reference.name, m)
-            if self.reference is None and result is not None and len(self.dists) == 1:
+            alone = len(self.dists) == 1 and all(j.done for j in self.jobs)
+            if self.reference is None and result is not None and alone:
                 best = ranked_models(result)[:1]
                 if best:
+                    self._auto_model = True
                     self.reference = ReferenceChoice(
                         "model", str(getattr(best[0], "label", best[0])), best[0]
                     )
