@@ -32,10 +32,10 @@ class KeyHelp(ModalScreen[None]):
 
     def compose(self) -> ComposeResult:
         table = Table(show_header=True, box=None, pad_edge=False, expand=True)
-        table.add_column("key", no_wrap=True)
-        table.add_column("does")
+        table.add_column("key", no_wrap=True, max_width=12)
+        table.add_column("does", ratio=1)
         for title, rows in self.groups:
-            table.add_row(f"[bold]{title}[/]", "")
+            table.add_row("", f"[bold]— {title} —[/]")
             for key, text in rows:
                 table.add_row(key, text)
         with VerticalScroll(id="help-box"):
