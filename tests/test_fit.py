@@ -264,3 +264,12 @@ def test_command_on_a_saved_sketch(tmp_path, capsys) -> None:  # type: ignore[no
     assert "ranked by tail" in text and "p99.99" in text
     assert main(["fit", str(path), "--families", "nope"]) == 3
     assert "unknown family 'nope'" in capsys.readouterr().err
+
+
+def test_degenerate_inputs_give_sentences_or_reported_refusals() -> None:
+    with pytest.raises(ValueError, match="all 50 values equal 5"):
+        fit_sketch(sketch_of(np.full(50, 5.0)))
+    report = fit_sketch(sketch_of(np.array([1.0, 2.0, 3.0])), bootstrap=5)
+    assert report.models  # some families fit three values; the rest say why not
+    assert all(r.reason.endswith(".") for r in report.not_fitted)
+    json.dumps(report.to_dict(), allow_nan=False)

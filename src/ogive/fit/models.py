@@ -8,6 +8,7 @@ pane and ``ogive plot --model`` all call it, so they always agree. Estimation is
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field
 from typing import Any
@@ -249,6 +250,10 @@ def fit_sketch(
         raise ValueError(f"tail_prob must be at least 0.5 and below 1, got {tail_prob}.")
     if sketch.count < 3:
         raise ValueError(f"a fit needs at least 3 values; the sketch holds {sketch.count}.")
+    if not sketch.max > sketch.min:
+        raise ValueError(
+            f"all {sketch.count} values equal {sketch.min:g}; no continuous family describes a single value."
+        )
     data = grouped_from_sketch(sketch, bins=bins)
     sample = sample_from_sketch(sketch, slices=slices)
     sq = {
@@ -276,7 +281,13 @@ def fit_sketch(
         if family.positive and sketch.min <= 0:
             refused.append(NotFitted(name, family.title, "the smallest value is not above zero.", bad))
             continue
-        est = fit_family(family, data)
+        try:
+            est = fit_family(family, data)
+        except (ArithmeticError, ValueError) as exc:
+            # A family whose parameters run off to a boundary (overflow, log of zero) on
+            # these data: reported as not fitted, with the reason, never a traceback.
+            refused.append(NotFitted(name, family.title, f"the fit broke down numerically ({exc}).", bad))
+            continue
         if not math.isfinite(est.loglik):
             refused.append(
                 NotFitted(name, family.title, f"no finite likelihood was found ({est.message}).", bad)
@@ -293,7 +304,7 @@ def fit_sketch(
         scores = cand.scores
         if do_boot and i < bootstrap_top:
             pv = bootstrap_p_values(family, est.theta, exact_values(sketch), scores, bootstrap, rng)
-            scores = Scores(**{**scores.__dict__, "p_values": pv, "bootstrap": bootstrap})
+            scores = dataclasses.replace(scores, p_values=pv, bootstrap=bootstrap)
         ranked.append(Candidate(i + 1, cand.model, scores, cand.quantiles))
     tails_ranked = tuple(Candidate(i + 1, c.model, c.scores, c.quantiles) for i, c in enumerate(tails))
     notes = _notes(sketch, rank_by, bad, do_boot, bootstrap, bootstrap_top, slices)
@@ -389,7 +400,10 @@ def _fit_tail(
             f"only {excess.n} values lie above the {quantile_label(tail_prob)} threshold; "
             f"at least {MIN_EXCESSES} are needed.",
         )  # fmt: skip
-    est = fit_family(GPD, excess)
+    try:
+        est = fit_family(GPD, excess)
+    except (ArithmeticError, ValueError) as exc:
+        return NotFitted(GPD.name, GPD.title, f"the fit broke down numerically ({exc}).")
     if not math.isfinite(est.loglik):
         return NotFitted(GPD.name, GPD.title, f"no finite likelihood was found ({est.message}).")
     gpd = GPD.freeze(est.theta)
