@@ -14,18 +14,10 @@ from numpy.typing import NDArray
 
 from ogive.sketch import Sketch, merge
 from ogive.sketch.digest import TDigest, _merge_sorted, _sort_floats
+from rank_check import rank_error
 
 FloatArray = NDArray[np.float64]
 GRID = np.linspace(0.0005, 0.9995, 2000)
-
-
-def rank_error(raw: FloatArray, v: FloatArray, qs: FloatArray) -> FloatArray:
-    xs = np.sort(raw)
-    n = xs.size
-    p = qs * (n - 1)
-    left = np.searchsorted(xs, v, side="left")
-    right = np.searchsorted(xs, v, side="right")
-    return np.maximum(0.0, np.maximum(left - 1 - p, p - right)) / n
 
 
 def shapes(rng: np.random.Generator, n: int) -> dict[str, FloatArray]:

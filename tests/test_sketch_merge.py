@@ -14,18 +14,10 @@ from hypothesis import strategies as st
 from numpy.typing import NDArray
 
 from ogive.sketch import Sketch, merge
+from rank_check import rank_error
 
 FloatArray = NDArray[np.float64]
 QS = np.array([0.001, 0.01, 0.1, 0.5, 0.9, 0.99, 0.999, 0.9999])
-
-
-def rank_error(raw: FloatArray, v: FloatArray, qs: FloatArray) -> FloatArray:
-    xs = np.sort(raw)
-    n = xs.size
-    p = qs * (n - 1)
-    left = np.searchsorted(xs, v, side="left")
-    right = np.searchsorted(xs, v, side="right")
-    return np.maximum(0.0, np.maximum(left - 1 - p, p - right)) / n
 
 
 def sketch_of(x: FloatArray, **kw: object) -> Sketch:
