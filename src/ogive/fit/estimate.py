@@ -193,13 +193,22 @@ def quantile_matching(family: Family, s: DataSummary) -> list[FloatArray]:
     for t0 in family.start(s):
         if not np.all(np.isfinite(t0)):
             continue
+        # A location floor stays where the start put it: quantiles cannot see the density
+        # at the minimum, and matching them drags the floor onto it, where the
+        # likelihood then has almost no gradient to pull it back.
+        free = t0.size - 1 if family.shifted else t0.size
+        fixed = t0[free:]
+
+        def objective(t: FloatArray, fixed: FloatArray = fixed) -> float:
+            return _qm_objective(family, s, np.concatenate((t, fixed)), probs)
+
         res = optimize.minimize(
-            lambda t: _qm_objective(family, s, t, probs),
-            t0,
+            objective,
+            t0[:free],
             method="Nelder-Mead",
-            options={"maxiter": 80 * t0.size, "xatol": 1e-3, "fatol": 1e-5},
+            options={"maxiter": 80 * free, "xatol": 1e-3, "fatol": 1e-5},
         )
-        scored.append((float(res.fun), np.asarray(res.x, dtype=np.float64)))
+        scored.append((float(res.fun), np.concatenate((np.asarray(res.x, dtype=np.float64), fixed))))
     scored.sort(key=lambda r: r[0])
     return [t for _, t in scored]
 
