@@ -206,7 +206,7 @@ def quantile_matching(family: Family, s: DataSummary) -> list[FloatArray]:
             objective,
             t0[:free],
             method="Nelder-Mead",
-            options={"maxiter": 80 * free, "xatol": 1e-3, "fatol": 1e-5},
+            options={"maxiter": (80 if free <= 3 else 40) * free, "xatol": 1e-3, "fatol": 1e-5},
         )
         scored.append((float(res.fun), np.concatenate((np.asarray(res.x, dtype=np.float64), fixed))))
     scored.sort(key=lambda r: r[0])
