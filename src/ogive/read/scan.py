@@ -83,6 +83,11 @@ def scan(
         raise OgiveError("chunk_bytes and max_groups must be at least 1.")
     if options.split_at is not None and not options.time_field:
         raise OgiveError("--split-at needs --time-field, the column or field holding each record's time.")
+    if options.window is not None:
+        if not options.time_field:
+            raise OgiveError("--window needs --time-field, the column or field holding each record's time.")
+        if options.by or options.split_at is not None:
+            raise OgiveError("--window cannot be combined with --by or --split-at.")
     state = _State(list(sources_), options)
     start = time.monotonic()
     sizes = [_file_size(name) for name in sources_]
@@ -293,6 +298,9 @@ class _State:
         self.unit: str | None = None
         self.time_format = options.time_format
         self.split_us = None if options.split_at is None else times.parse_moment(options.split_at)
+        self.window_us = None if options.window is None else times.window_width_us(options.window)
+        self.by_time = self.split_us is not None or self.window_us is not None
+        """Rows are routed by their timestamp, so a row without one has no sketch."""
         self.groups: dict[str, str] = {}
         self.overflow: set[str] = set()
         self.suffixed = 0
@@ -409,7 +417,7 @@ class _State:
             fmt = fmt or times.detect_format(tcol)
             tus = times.parse_times(tcol, fmt) if fmt is not None else np.full(n, np.nan)
             bad_t = ~np.isfinite(tus)
-            if self.split_us is not None:
+            if self.by_time:
                 bt = bad_t & ok
                 if bt.any():
                     reasons[BAD_TIMESTAMP] = bt
@@ -447,6 +455,11 @@ class _State:
             first = min((int(np.argmax(m)), r) for r, m in p.reasons.items())
             self._strict(first[1], f"{p.display}:{p.first_line + first[0]}")
         names = self._route(p.rows, p.groups, p.tus)
+        if self.window_us is not None and p.tus is not None:
+            # Rows without a readable time fall in no window: counted in the result only.
+            timeless = np.flatnonzero(~np.isfinite(p.tus))
+            for reason, count, examples in self._reasons_of(p.reasons, timeless, p.display, p.first_line):
+                self._tally(reason, count, examples)
         if isinstance(names, str):
             self._add(names, p.values, p.ok, p.reasons, p.tus, p.display, p.first_line, None)
         else:
@@ -457,6 +470,8 @@ class _State:
         self, n: int, g: pl.Series | None, tus: NDArray[np.float64] | None
     ) -> str | list[tuple[str, NDArray[np.int64]]]:
         o = self.options
+        if self.window_us is not None and tus is not None:
+            return self._route_windows(tus, self.window_us)
         halves: NDArray[np.bool_] | None = None
         if self.split_us is not None and tus is not None:
             halves = tus >= self.split_us  # NaN compares False; such rows are already skipped
@@ -506,6 +521,37 @@ class _State:
                 out.append((names[int(codes[part[0]])], part))
         return out
 
+    @staticmethod
+    def _route_windows(tus: NDArray[np.float64], width_us: float) -> list[tuple[str, NDArray[np.int64]]]:
+        """One sketch per time window, named by the window's start (ISO 8601 UTC).
+
+        Rows without a readable time were already marked bad; they land in no window.
+        """
+        good = np.flatnonzero(np.isfinite(tus))
+        starts, inverse = np.unique(times.window_starts(tus[good], width_us), return_inverse=True)
+        order = np.argsort(inverse, kind="stable")
+        bounds = np.flatnonzero(np.diff(inverse[order])) + 1
+        return [
+            (times.iso(float(start)), good[part])
+            for start, part in zip(starts, np.split(order, bounds), strict=True)
+            if part.size
+        ]
+
+    @staticmethod
+    def _reasons_of(
+        reasons: dict[str, NDArray[np.bool_]], idx: NDArray[np.int64] | None, display: str, first_line: int
+    ) -> list[tuple[str, int, list[str]]]:
+        """(reason, count, first locations) for the rows ``idx`` of a chunk (all when None)."""
+        out = []
+        for reason, mask in reasons.items():
+            m = mask if idx is None else mask[idx]
+            count = int(m.sum())
+            if count:
+                where = np.flatnonzero(m)[:EXAMPLES_KEPT]
+                lines = where if idx is None else idx[where]
+                out.append((reason, count, [f"{display}:{first_line + int(i)}" for i in lines]))
+        return out
+
     def _add(
         self,
         name: str,
@@ -534,14 +580,7 @@ class _State:
             if self._held_n >= BATCH_VALUES:
                 self.flush()
         self.values += good.size
-        for reason, mask in reasons.items():
-            m = mask if idx is None else mask[idx]
-            count = int(m.sum())
-            if not count:
-                continue
-            where = np.flatnonzero(m)[:EXAMPLES_KEPT]
-            lines = where if idx is None else idx[where]
-            examples = [f"{display}:{first_line + int(i)}" for i in lines]
+        for reason, count, examples in self._reasons_of(reasons, idx, display, first_line):
             self._tally(reason, count, examples)
             if reason != BAD_TIMESTAMP:  # a row without a time belongs to neither half
                 prov.skip(reason, count, examples)
@@ -723,7 +762,7 @@ class _State:
             )
         unowned = {r: t for r, t in self.skipped.items() if r in (TOO_LONG, BAD_TIMESTAMP)}
         for reason, tally in unowned.items():
-            if self.split_us is not None or (o.by and reason == TOO_LONG):
+            if self.by_time or (o.by and reason == TOO_LONG):
                 self.warnings.append(
                     f"{tally.count} lines could not be given to any sketch ({reason}), first at "
                     f"{', '.join(tally.examples)}."
