@@ -9,6 +9,7 @@ import sys
 from typing import TYPE_CHECKING, Any
 
 from ..errors import OgiveError
+from .plot import add_plot_option, print_plot
 
 if TYPE_CHECKING:
     from ..fit.compare import Comparison, GroupComparison
@@ -70,6 +71,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "with the first; needs --time-field for sources without an obvious timestamp",
     )
     parser.add_argument("--json", action="store_true", help="print the comparison as JSON")
+    add_plot_option(parser, ("shift", "qq", "detrended", "pp", "cdf"))
     add_source_options(parser)
 
 
@@ -133,6 +135,8 @@ def run(args: argparse.Namespace) -> int:
         raise OgiveError(str(exc)) from None
     sources = (args.a, args.b or f"{args.a} ({labels[1]})")
     _emit(args, comp.to_dict(), lambda: format_comparison(comp, (a, b), sources))
+    if args.plot and not args.json:
+        print_plot(args.plot, b, a, labels[1], labels[0], ascii_only=args.ascii)
     return 0
 
 

@@ -9,6 +9,7 @@ import sys
 from typing import TYPE_CHECKING
 
 from ..errors import OgiveError
+from .plot import add_plot_option, print_plot
 
 if TYPE_CHECKING:
     from ..fit.models import Candidate, FitReport
@@ -76,6 +77,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="bootstrap replicates for p-values of small exact samples (0 turns them off; default 99)",
     )
     parser.add_argument("--json", action="store_true", help="print the report as JSON")
+    add_plot_option(parser, ("qq", "detrended", "pp", "cdf"))
     add_source_options(parser)
 
 
@@ -97,6 +99,9 @@ def run(args: argparse.Namespace) -> int:
         sys.stdout.write("\n")
     else:
         sys.stdout.write(format_report(report, f"{args.source} ({name})" if name else args.source))
+        if args.plot and report.ranked:
+            best = report.ranked[0]
+            print_plot(args.plot, sketch, best, name or args.source, best.label, ascii_only=args.ascii)
     return 0
 
 

@@ -227,6 +227,38 @@ def run(args: argparse.Namespace) -> int:
     return 0
 
 
+def add_plot_option(parser: argparse.ArgumentParser, kinds: tuple[str, ...]) -> None:
+    """``--plot [KIND]`` and ``--ascii`` for commands that print a plot after their table."""
+    parser.add_argument(
+        "--plot",
+        nargs="?",
+        const=kinds[0],
+        choices=kinds,
+        metavar="KIND",
+        help=f"after the table, draw a plot sized to the terminal: {', '.join(kinds)} (default {kinds[0]})",
+    )
+    parser.add_argument("--ascii", action="store_true", help="with --plot: plain ASCII instead of braille")
+
+
+def print_plot(
+    kind: str, subject: Any, reference: Any, subject_label: str, reference_label: str, *, ascii_only: bool
+) -> None:
+    """The same plot 'ogive plot' draws, printed to stdout (used by fit and compare)."""
+    from .. import render
+    from ..fit.curves import plot_inputs
+
+    width, height = plot_size(None, None)
+    try:
+        data = plot_inputs(
+            kind, subject, reference, subject_label=subject_label, reference_label=reference_label
+        )
+        lines = render.draw(kind, data, width=width, height=height, ascii_only=ascii_only)
+    except ValueError as exc:
+        raise OgiveError(str(exc)) from None
+    sys.stdout.write("\n")
+    _emit(lines)
+
+
 def _finite(value: Any) -> Any:
     """JSON has no infinity: an unbounded band end or interval is written as null."""
     if isinstance(value, float):
