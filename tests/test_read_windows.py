@@ -47,3 +47,24 @@ def test_window_needs_a_time_field_and_stands_alone(tmp_path: Path) -> None:
         scan([str(f)], ScanOptions(column="latency_ms", time_field="ts", window="10m", by="ts"))
     with pytest.raises(OgiveError, match="window width"):
         scan([str(f)], ScanOptions(column="latency_ms", time_field="ts", window="ten minutes"))
+
+
+def test_compare_window_on_a_source(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    import json
+
+    from ogive.cli import main
+
+    rng = np.random.default_rng(3)
+    secs = np.sort(rng.uniform(T0, T0 + 3 * 600, 3000))
+    vals = np.round(rng.lognormal(2, 0.5, secs.size) * np.where(secs >= T0 + 1200, 3.0, 1.0), 3)
+    f = tmp_path / "w.csv"
+    _write(f, secs, vals)
+    args = ["compare", str(f), "--column", "latency_ms", "--time-field", "ts", "--window", "10m"]
+    assert main([*args, "--json", "--quiet"]) == 0
+    text = json.dumps(json.loads(capsys.readouterr().out))
+    # The third window is three times slower: it must be flagged, the second not.
+    assert "2026-03-04T00:20:00Z" in text and "2026-03-04T00:10:00Z" in text
+    assert main([*args, "--quiet"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    flagged = [line for line in lines if "<- differs" in line]
+    assert len(flagged) == 1 and flagged[0].startswith("  2026-03-04T00:20:00Z")

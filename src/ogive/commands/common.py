@@ -161,6 +161,7 @@ def options_from_args(args: argparse.Namespace) -> ScanOptions:
         "time_field",
         "time_format",
         "split_at",
+        "window",
         "strict",
         "compression",
     ):

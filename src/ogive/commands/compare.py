@@ -293,10 +293,10 @@ def _run_windows(args: argparse.Namespace, conf: float) -> int:
     if args.by or args.split_at:
         raise OgiveError("--window cannot be combined with --by or --split-at.")
     try:
-        width = parse_window(args.window)
+        parse_window(args.window)  # a bad width is refused before any reading
     except ValueError as exc:
         raise OgiveError(str(exc)) from None
-    sset = load_set([args.a], args) if _is_saved(args.a) else _scan_windows(args, width)
+    sset = load_set([args.a], args) if _is_saved(args.a) else _scan_windows(args)
     try:
         series = compare_windows(sset, confidence=conf)
     except ValueError as exc:
@@ -312,31 +312,11 @@ def _is_saved(spec: str) -> bool:
     return is_sketch_file(split_group(spec)[0])
 
 
-def _scan_windows(args: argparse.Namespace, width: float) -> Any:
-    """Scan one source with the reader's window option (a sketch per window)."""
-    import dataclasses
+def _scan_windows(args: argparse.Namespace) -> Any:
+    """Scan one source into a sketch per time window (the reader's --window cut)."""
+    from .common import scan_sources
 
-    from ..fit.windows import looks_like_windows
-    from ..read.options import ScanOptions
-    from .common import options_from_args
-
-    if "window" not in {f.name for f in dataclasses.fields(ScanOptions)}:
-        raise OgiveError("this install's reader cannot cut by time; scan with --window is not available.")
-    from ..read import scan
-
-    options = dataclasses.replace(options_from_args(args), window=args.window)
-    result = scan([args.a], options)
-    if not getattr(args, "quiet", False):
-        for warning in result.warnings:
-            print(f"ogive: warning: {warning}", file=sys.stderr)
-    if not looks_like_windows(result.sketches.names()):
-        # The option exists but this reader did not cut by time: say so instead of
-        # comparing one sketch with nothing.
-        raise OgiveError(
-            "the reader in this build does not cut sources into time windows yet; "
-            "use --split-at TIME for a before/after comparison, or compare saved per-window sketches."
-        )
-    return result.sketches
+    return scan_sources([args.a], args).sketches
 
 
 def format_windows(s: WindowSeries) -> str:
