@@ -248,3 +248,18 @@ def test_accuracy_against_the_tdigest_package_on_the_same_data() -> None:
         # p99.9 and p99.99 fall in our exact tail buffer.
         assert ours[3:].max() == 0.0
         assert ours.max() <= max(theirs.max(), 1e-4)
+
+
+def test_finely_quantised_values_keep_the_file_under_64_kb() -> None:
+    """3-decimal ms latencies at 10^7 values have thousands of heavy tie runs; their own
+    clusters are capped so the file stays within the 64 KB per sketch of the issue."""
+    from ogive.sketch import SketchSet, dumps
+
+    x = np.round(np.random.default_rng(5).lognormal(1.3, 0.9, 10_000_000), 3)
+    s = Sketch("ms")
+    for part in np.array_split(x, 10):
+        s.add(part)
+    assert len(dumps(SketchSet({"all": s}))) <= 64 * 1024
+    qs = np.array([0.5, 0.9, 0.99, 0.999, 0.9999])
+    # Reference: the raw data's ranks (numpy sort); 5e-5 of n measured 2.8e-5 at p50.
+    assert rank_error(x, s.quantile(qs), qs).max() <= 5e-5
