@@ -33,6 +33,9 @@ def write_atomic(path: str | os.PathLike[str], data: bytes) -> None:
             fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
+        # mkstemp creates 0600; a saved sketch should get the mode any new file gets
+        # (or keep the one it replaces), so colleagues can read what was shared.
+        os.chmod(tmp, _mode_for(target))
         os.replace(tmp, target)
     except OSError as exc:
         with contextlib.suppress(OSError):
@@ -42,6 +45,15 @@ def write_atomic(path: str | os.PathLike[str], data: bytes) -> None:
         with contextlib.suppress(OSError):
             os.unlink(tmp)
         raise
+
+
+def _mode_for(target: Path) -> int:
+    try:
+        return target.stat().st_mode & 0o7777
+    except OSError:
+        umask = os.umask(0)
+        os.umask(umask)
+        return 0o666 & ~umask
 
 
 def save_sketches(path: str | os.PathLike[str], sketches: SketchSet) -> None:

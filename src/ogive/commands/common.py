@@ -12,8 +12,12 @@ polars and the reader come in when a scan actually runs.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import os
+import signal
 import sys
+import threading
+from collections.abc import Iterator
 from typing import TYPE_CHECKING
 
 from ..errors import OgiveError
@@ -242,15 +246,43 @@ def scan_sources(sources: list[str], args: argparse.Namespace) -> ScanResult:
     options = options_from_args(args)
     quiet = bool(getattr(args, "quiet", False))
     line = ProgressLine(sys.stderr) if not quiet and sys.stderr.isatty() else None
-    try:
-        result = scan(sources, options, progress=line.update if line else None)
-    finally:
-        if line is not None:
-            line.clear()
+    with _first_ctrl_c_stops() as stopped:
+        try:
+            result = scan(sources, options, progress=line.update if line else None, cancel=stopped.is_set)
+        finally:
+            if line is not None:
+                line.clear()
+    if stopped.is_set():
+        result.interrupted = True
+        result.partial = f"interrupted (Ctrl-C): {result.partial or 'what was read before it is kept'}"
+        for sketch in result.sketches.sketches.values():
+            sketch.provenance.partial = result.partial  # the saved file says why it is partial
     if not quiet:
         for warning in result.warnings:
             print(f"ogive: warning: {warning}", file=sys.stderr)
     return result
+
+
+@contextlib.contextmanager
+def _first_ctrl_c_stops() -> Iterator[threading.Event]:
+    """The first Ctrl-C asks the scan to stop after the chunk in hand, so the sketch of
+    what was read survives (and is saved, flagged partial); a second one abandons it."""
+    stopped = threading.Event()
+    if threading.current_thread() is not threading.main_thread():
+        yield stopped  # signals reach only the main thread; a UI worker cancels its own way
+        return
+
+    def on_sigint(signum: int, frame: object) -> None:
+        if stopped.is_set():
+            raise KeyboardInterrupt
+        stopped.set()
+        print("ogive: interrupted; keeping what was read (Ctrl-C again to abandon it)", file=sys.stderr)
+
+    previous = signal.signal(signal.SIGINT, on_sigint)
+    try:
+        yield stopped
+    finally:
+        signal.signal(signal.SIGINT, previous)
 
 
 def _few(names: list[str], limit: int = 8) -> str:

@@ -12,7 +12,7 @@ import json
 import os
 import sys
 
-from ..errors import OgiveError
+from ..errors import EXIT_INTERRUPTED, OgiveError
 from .common import add_source_options
 
 DESCRIPTION = """\
@@ -97,7 +97,7 @@ def run(args: argparse.Namespace) -> int:
         doc["output"] = args.output
         json.dump(doc, sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
-        return 0
+        return EXIT_INTERRUPTED if result.interrupted else 0
     out = sys.stderr if to_stdout else sys.stdout
     lines = summary_lines(summary)
     if args.output and not to_stdout:
@@ -108,4 +108,5 @@ def run(args: argparse.Namespace) -> int:
         ]
     for line in lines:
         print(line, file=out)
-    return 0
+    # The partial sketch is saved; the status still tells a script the scan did not finish.
+    return EXIT_INTERRUPTED if result.interrupted else 0

@@ -86,6 +86,8 @@ class ScanResult:
     """Things the user must be told (group cap reached, time going backwards, ...)."""
     partial: str | None = None
     """Why the scan stopped early, or None when it read everything."""
+    interrupted: bool = False
+    """The user pressed Ctrl-C: the sketches hold what was read before it (partial)."""
     lines_read: int = 0
     rows_read: int = 0
     skipped: dict[str, SkipTally] = field(default_factory=dict)
