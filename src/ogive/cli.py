@@ -81,6 +81,17 @@ def main(argv: Sequence[str] | None = None) -> int:
         devnull = os.open(os.devnull, os.O_WRONLY)
         os.dup2(devnull, sys.stdout.fileno())
         return 0
+    except Exception as exc:
+        # A bug in ogive, not the user's fault; still one line, and the traceback on demand.
+        if os.environ.get("OGIVE_DEBUG"):
+            raise
+        first = (str(exc).splitlines() or [""])[0][:200]
+        print(
+            f"ogive: internal error: {type(exc).__name__}: {first} "
+            "(please report it; OGIVE_DEBUG=1 shows the traceback)",
+            file=sys.stderr,
+        )
+        return EXIT_ERROR
 
 
 if __name__ == "__main__":

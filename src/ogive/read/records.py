@@ -77,8 +77,9 @@ class Layout:
         # cannot narrow the frame for the whole chunk: short rows get nulls instead.
         vcol = self.columns[self.names.index("v")]
         schema = {f"c{i}": pl.Float64 if numeric and i == vcol else pl.String for i in range(self.width)}
-        try:
-            df = pl.read_csv(
+
+        def read(encoding: str) -> pl.DataFrame:
+            return pl.read_csv(
                 data,
                 has_header=False,
                 separator=self.separator,
@@ -87,7 +88,19 @@ class Layout:
                 missing_columns="insert",
                 truncate_ragged_lines=True,
                 raise_if_empty=False,
+                encoding=encoding,  # type: ignore[arg-type]
             )
+
+        try:
+            try:
+                df = read("utf8")
+            except pl.exceptions.ComputeError as exc:
+                if "utf-8" not in str(exc).lower():
+                    raise
+                # Invalid UTF-8 (binary junk, a truncated multi-byte character): read the
+                # chunk again with such bytes replaced, so its good rows still count and a
+                # mangled value is counted as not a number instead of ending the scan.
+                df = read("utf8-lossy")
         except pl.exceptions.PolarsError as exc:
             if numeric:
                 raise
@@ -220,14 +233,21 @@ def _plan_csv(data: bytes, options: ScanOptions, fmt: str, sep: str) -> Layout:
     sample = data[: 1 << 16]
     cut = sample.rfind(b"\n")
     sample = sample[: cut + 1] if cut >= 0 else sample
-    rows = pl.read_csv(
-        sample,
-        has_header=False,
-        separator=sep,
-        infer_schema=False,
-        truncate_ragged_lines=True,
-        raise_if_empty=False,
-    )
+    try:
+        rows = pl.read_csv(
+            sample,
+            has_header=False,
+            separator=sep,
+            infer_schema=False,
+            truncate_ragged_lines=True,
+            raise_if_empty=False,
+            encoding="utf8-lossy",  # only names and a peek at the values are read here
+        )
+    except pl.exceptions.PolarsError:
+        raise OgiveError(
+            f"the first {len(sample):,} bytes do not read as {fmt.upper()} records (binary data, or "
+            "another format?); say what they are with --format, or check the file."
+        ) from None
     first = [str(x) if x is not None else "" for x in rows.row(0)] if rows.height else []
     header = options.header
     if header is None:

@@ -27,6 +27,8 @@ _TIME_STEPS = (("ns", 1e-9), ("µs", 1e-6), ("ms", 1e-3), ("s", 1.0))
 def _sig3(x: float) -> str:
     """Three significant figures without exponent for the range a table shows."""
     a = abs(x)
+    if a >= 1e6:
+        return f"{x:.3g}"  # an absurd value (1e308 in a log) must not print 300 digits
     if a >= 100:
         return f"{x:.0f}"
     if a >= 10:

@@ -1,0 +1,36 @@
+"""Junk in the input gives counted skips or one clear line, never a traceback."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from ogive.cli import main
+from ogive.read import ScanOptions, scan
+
+
+def test_invalid_utf8_keeps_the_good_rows(tmp_path: Path) -> None:
+    f = tmp_path / "u.csv"
+    f.write_bytes(b"host,latency_ms\n\xff\xfe,2.5\nok,3.5\nok,\xc3(\n")
+    res = scan([str(f)], ScanOptions(column="latency_ms"))
+    s = res.sketches["all"]
+    assert s.count == 2 and s.min == 2.5 and s.max == 3.5
+    assert res.skipped["not_a_number"].count == 1  # the mangled value is counted, not dropped
+
+
+def test_binary_junk_is_one_line(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    f = tmp_path / "junk.bin"
+    f.write_bytes(bytes(range(256)) * 200)  # every byte value, NULs included
+    code = main(["scan", str(f), "--column", "latency_ms", "--quiet"])
+    err = capsys.readouterr().err
+    assert code == 3
+    assert "Traceback" not in err and len(err.strip().splitlines()) == 1
+
+
+def test_absurd_values_print_short(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    f = tmp_path / "v.csv"
+    f.write_text("latency_ms\n1e308\n5\n")
+    assert main(["scan", str(f), "--column", "latency_ms", "--quiet"]) == 0
+    out = capsys.readouterr().out
+    assert max(len(line) for line in out.splitlines()) < 140
