@@ -246,7 +246,7 @@ def scan_sources(sources: list[str], args: argparse.Namespace) -> ScanResult:
     options = options_from_args(args)
     quiet = bool(getattr(args, "quiet", False))
     line = ProgressLine(sys.stderr) if not quiet and sys.stderr.isatty() else None
-    with _first_ctrl_c_stops() as stopped:
+    with first_ctrl_c_stops() as stopped:
         try:
             result = scan(sources, options, progress=line.update if line else None, cancel=stopped.is_set)
         finally:
@@ -264,7 +264,7 @@ def scan_sources(sources: list[str], args: argparse.Namespace) -> ScanResult:
 
 
 @contextlib.contextmanager
-def _first_ctrl_c_stops() -> Iterator[threading.Event]:
+def first_ctrl_c_stops(*, quiet: bool = False) -> Iterator[threading.Event]:
     """The first Ctrl-C asks the scan to stop after the chunk in hand, so the sketch of
     what was read survives (and is saved, flagged partial); a second one abandons it."""
     stopped = threading.Event()
@@ -276,7 +276,8 @@ def _first_ctrl_c_stops() -> Iterator[threading.Event]:
         if stopped.is_set():
             raise KeyboardInterrupt
         stopped.set()
-        print("ogive: interrupted; keeping what was read (Ctrl-C again to abandon it)", file=sys.stderr)
+        if not quiet:
+            print("ogive: interrupted; keeping what was read (Ctrl-C again to abandon it)", file=sys.stderr)
 
     previous = signal.signal(signal.SIGINT, on_sigint)
     try:

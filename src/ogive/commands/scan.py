@@ -11,6 +11,7 @@ import argparse
 import json
 import os
 import sys
+from typing import Any
 
 from ..errors import EXIT_INTERRUPTED, OgiveError
 from .common import add_source_options
@@ -48,6 +49,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--json", action="store_true", help="print one JSON document on stdout instead of the table"
     )
+    parser.add_argument(
+        "--follow",
+        action="store_true",
+        help="keep reading one growing file (surviving rotation), with a live line on stderr; "
+        "Ctrl-C ends it, then the summary is printed and -o written",
+    )
     add_source_options(parser)
 
 
@@ -79,7 +86,7 @@ def run(args: argparse.Namespace) -> int:
         if not os.access(folder, os.W_OK):
             raise OgiveError(f"cannot write {args.output}: the folder {folder} is not writable.")
 
-    result = scan_sources(list(args.sources), args)
+    result = _follow(args) if args.follow else scan_sources(list(args.sources), args)
     warnings = list(result.warnings)
     if result.partial:
         warnings.append(f"the scan stopped early: {result.partial}")
@@ -110,3 +117,42 @@ def run(args: argparse.Namespace) -> int:
         print(line, file=out)
     # The partial sketch is saved; the status still tells a script the scan did not finish.
     return EXIT_INTERRUPTED if result.interrupted else 0
+
+
+def _follow(args: argparse.Namespace) -> Any:
+    """Follow one file until Ctrl-C; ending this way is the normal end, not a partial scan."""
+    from ..read.follow import follow
+    from ..render.summary import format_value
+    from .common import first_ctrl_c_stops, options_from_args
+
+    if len(args.sources) != 1 or args.sources[0] == "-":
+        raise OgiveError("--follow reads one growing file; name exactly one file (not '-').")
+    tty = sys.stderr.isatty()
+
+    def live(p: Any) -> None:
+        if args.quiet:
+            return
+        parts = [f"following {p.source}: {p.values:,} values"]
+        for name, s in list(p.sketches.sketches.items())[:3]:
+            if s.count:
+                q50, q99, q999 = s.quantile([0.5, 0.99, 0.999])
+                label = "" if name == "all" else f"{name} "
+                parts.append(
+                    f"{label}p50 {format_value(q50, s.unit)} p99 {format_value(q99, s.unit)} "
+                    f"p99.9 {format_value(q999, s.unit)}"
+                )
+        text = " | ".join(parts)
+        print(f"\r{text[:200]}\033[K" if tty else text, end="" if tty else "\n", file=sys.stderr, flush=True)
+
+    with first_ctrl_c_stops(quiet=True) as stopped:
+        result, rotations = follow(
+            args.sources[0], options_from_args(args), cancel=stopped.is_set, on_update=live
+        )
+    if tty and not args.quiet:
+        print("\r\033[K", end="", file=sys.stderr)
+    if rotations:
+        note = f"the file was rotated or truncated {rotations} time(s) while followed."
+        result.warnings.append(note)
+        if not args.quiet:
+            print(f"ogive: warning: {note}", file=sys.stderr)
+    return result
