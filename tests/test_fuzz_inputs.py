@@ -7,7 +7,7 @@ import json
 from pathlib import Path
 
 import numpy as np
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from ogive.errors import OgiveError
@@ -46,6 +46,10 @@ def test_damaged_files_are_refused_cleanly(at: int, junk: bytes) -> None:
         st.lists(st.one_of(st.integers(-3, 3), st.text(max_size=2)), max_size=4),
     ),
 )
+# Found by this test: a file asking for compression 1.4e11 made the first flush try to
+# allocate 528 GiB; a huge tail_size would have let a sketch keep every value.
+@example(field="compression", value=143_506_416_566)
+@example(field="tail_size", value=10**18)
 def test_wrong_field_values_with_a_valid_checksum_are_refused(field: str, value: object) -> None:
     """An edit that recomputes the checksum must still not get past the field checks."""
     from ogive.sketch.codec import _canonical

@@ -32,8 +32,20 @@ def _check(name: str, text: str) -> None:
 async def test_snapshot(state: str) -> None:
     app = OgiveApp([])
     async with app.run_test(size=(80, 24)) as pilot:
-        await pilot.pause(0.2)
+        await _settled(pilot, app)
         if state == "keys":
             await pilot.press("question_mark")
-            await pilot.pause(0.2)
+            await _settled(pilot, app)
         _check(f"{state}_80x24", screen_text(app))
+
+
+async def _settled(pilot: object, app: OgiveApp) -> None:
+    """Wait until two captures 0.1 s apart agree (up to 5 s): a loaded CI machine can take
+    longer than a fixed pause to draw the key bar (seen: the footer missing at 0.2 s)."""
+    previous = None
+    for _ in range(50):
+        await pilot.pause(0.1)  # type: ignore[attr-defined]
+        text = screen_text(app)
+        if text == previous and "Quit" in text.splitlines()[-1]:
+            return
+        previous = text

@@ -26,6 +26,7 @@ from numpy.typing import NDArray
 
 from ..errors import OgiveError
 from ..sketch import Sketch, SketchSet, SkipTally
+from ..sketch.digest import MAX_COMPRESSION
 from ..sketch.sketch import EXAMPLES_KEPT
 from . import records, sources, times, values
 from .options import ScanOptions, ScanProgress, ScanResult
@@ -79,6 +80,10 @@ def scan(
     """
     if not sources_:
         raise OgiveError("no source given; name a file, or '-' for standard input.")
+    if not 10 <= options.compression <= MAX_COMPRESSION:
+        raise OgiveError(
+            f"--compression must lie between 10 and {MAX_COMPRESSION:g}, got {options.compression:g}."
+        )
     if options.chunk_bytes < 1 or options.max_groups < 1:
         raise OgiveError("chunk_bytes and max_groups must be at least 1.")
     if options.split_at is not None and not options.time_field:

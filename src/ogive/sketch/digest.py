@@ -38,6 +38,9 @@ DEFAULT_COMPRESSION = 2000.0
 the k1 scale it keeps about 1000 centroids, the most that fit beside the 2 x 1024 exact
 tail values in a 64 KB file; recorded in every sketch file."""
 
+MAX_COMPRESSION = 1e5
+"""Beyond this a digest is no longer small (and a file asking for 1e11, found by fuzzing,
+made the first flush try to allocate hundreds of GB)."""
 _MIN_BUFFER = 1 << 20
 _HEAVY_RUN = 0.1
 """A run of equal values spanning this much of k becomes its own cluster(s)."""
@@ -56,8 +59,8 @@ class TDigest:
     __slots__ = ("_buf", "_buf_n", "_limit", "_means", "_pure", "_weights", "compression", "scale")
 
     def __init__(self, compression: float = DEFAULT_COMPRESSION, scale: str = "k1") -> None:
-        if not compression >= 10:
-            raise ValueError(f"compression must be at least 10, got {compression!r}.")
+        if not 10 <= compression <= MAX_COMPRESSION:
+            raise ValueError(f"compression must lie between 10 and {MAX_COMPRESSION:g}, got {compression!r}.")
         if scale not in SCALES:
             raise ValueError(f"scale must be one of {sorted(SCALES)}, got {scale!r}.")
         self.compression = float(compression)

@@ -23,6 +23,7 @@ from .digest import DEFAULT_COMPRESSION, TDigest
 FloatArray = NDArray[np.float64]
 
 DEFAULT_TAIL = 1024
+MAX_TAIL = 1 << 20
 EXAMPLES_KEPT = 5
 """How many example locations a skip reason keeps (the first ones seen)."""
 
@@ -79,8 +80,9 @@ class Sketch:
         tail_size: int = DEFAULT_TAIL,
         scale: str = "k1",
     ) -> None:
-        if tail_size < 1:
-            raise ValueError(f"tail_size must be at least 1, got {tail_size!r}.")
+        if not 1 <= tail_size <= MAX_TAIL:
+            # The exact tails are kept in memory whole: a bound keeps a sketch small.
+            raise ValueError(f"tail_size must lie between 1 and {MAX_TAIL}, got {tail_size!r}.")
         self.unit = unit
         self.tail_size = int(tail_size)
         self.digest = TDigest(compression, scale)
