@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import argparse
-import math
 import os
 import shutil
 import sys
@@ -213,7 +212,9 @@ def run(args: argparse.Namespace) -> int:
         from ..fit.curves import detrended_from_pairs
 
         shown = detrended_from_pairs(data) if args.kind == "detrended" else data
-        out = _finite({"kind": args.kind, **shown.to_dict()})
+        from ..render.jsonsafe import json_safe
+
+        out = json_safe({"kind": args.kind, **shown.to_dict()})
         sys.stdout.write(json.dumps(out, allow_nan=False) + "\n")
         return 0
     log = False if args.linear else None
@@ -257,17 +258,6 @@ def print_plot(
         raise OgiveError(str(exc)) from None
     sys.stdout.write("\n")
     _emit(lines)
-
-
-def _finite(value: Any) -> Any:
-    """JSON has no infinity: an unbounded band end or interval is written as null."""
-    if isinstance(value, float):
-        return value if math.isfinite(value) else None
-    if isinstance(value, dict):
-        return {k: _finite(v) for k, v in value.items()}
-    if isinstance(value, list | tuple):
-        return [_finite(v) for v in value]
-    return value
 
 
 def _emit(lines: Any) -> None:

@@ -28,17 +28,10 @@ from dataclasses import dataclass
 from typing import Any
 
 from ..sketch import Sketch, quantile_label
+from ..sketch.units import SECONDS_PER_UNIT
 from .ladder import QuantileInterval, quantile_intervals
 
-TIME_UNITS: dict[str, float] = {
-    "ns": 1e-9,
-    "us": 1e-6,
-    "µs": 1e-6,
-    "ms": 1e-3,
-    "s": 1.0,
-    "m": 60.0,
-    "h": 3600.0,
-}
+TIME_UNITS = SECONDS_PER_UNIT
 """Seconds per unit, for limits written in another time unit than the sketch's."""
 
 _LIMIT = re.compile(

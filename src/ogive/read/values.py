@@ -17,18 +17,9 @@ import numpy as np
 import polars as pl
 from numpy.typing import NDArray
 
-TIME_UNITS: dict[str, float] = {
-    "ns": 1e-9,
-    "us": 1e-6,
-    "µs": 1e-6,  # micro sign U+00B5
-    "μs": 1e-6,  # Greek mu U+03BC
-    "ms": 1e-3,
-    "s": 1.0,
-    "sec": 1.0,
-    "m": 60.0,
-    "min": 60.0,
-    "h": 3600.0,
-}
+from ..sketch.units import SECONDS_PER_UNIT
+
+TIME_UNITS = SECONDS_PER_UNIT
 """Seconds per unit for every suffix we accept."""
 
 CANONICAL = {"µs": "us", "μs": "us", "sec": "s", "min": "m"}

@@ -17,17 +17,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..sketch import quantile_label
+from ..sketch.units import SECONDS_PER_UNIT
 
-TIME_UNITS: dict[str, float] = {
-    "ns": 1e-9,
-    "us": 1e-6,
-    "µs": 1e-6,
-    "ms": 1e-3,
-    "s": 1.0,
-    "m": 60.0,
-    "min": 60.0,
-    "h": 3600.0,
-}
+TIME_UNITS = SECONDS_PER_UNIT
 """Seconds per unit, for the units a sketch may carry."""
 
 _SPOKEN: tuple[tuple[str, float], ...] = (("h", 3600.0), ("m", 60.0), ("s", 1.0), ("ms", 1e-3), ("µs", 1e-6))

@@ -11,6 +11,7 @@ import math
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
+from ..render.jsonsafe import json_safe
 from ..store import write_atomic
 from . import fmt
 from .fit_panel import model_scores, ranked_models
@@ -21,17 +22,6 @@ if TYPE_CHECKING:
     from .app import OgiveApp
 
 
-def _clean(x: Any) -> Any:
-    """JSON has no NaN or infinity: write null."""
-    if isinstance(x, float) and not math.isfinite(x):
-        return None
-    if isinstance(x, dict):
-        return {k: _clean(v) for k, v in x.items()}
-    if isinstance(x, list | tuple):
-        return [_clean(v) for v in x]
-    return x
-
-
 def _as_dict(obj: Any) -> Any:
     to_dict = getattr(obj, "to_dict", None)
     return to_dict() if callable(to_dict) else None
@@ -40,7 +30,7 @@ def _as_dict(obj: Any) -> Any:
 def screen_state(app: OgiveApp) -> dict[str, Any]:
     plot = app._ws.query_one(PlotPanel)
     ref = app.reference
-    return _clean(
+    return json_safe(
         {
             "subject": app.subject,
             "reference": None if ref is None else {"kind": ref.kind, "name": ref.name},
