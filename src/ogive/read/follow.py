@@ -49,7 +49,7 @@ class _Follower:
     def read_new(self) -> bool:
         """Read what was appended; True when anything was."""
         assert self.fh is not None
-        data = self.fh.read(self.options.chunk_bytes)
+        data = self.fh.read(self.state.chunk_size())
         if not data:
             return False
         self.state.bytes_seen += len(data)

@@ -12,6 +12,9 @@ from typing import Any
 
 from ..sketch import DEFAULT_COMPRESSION, DEFAULT_TAIL, SketchSet, SkipTally
 
+CSV_CHUNK = 8 << 20
+LINE_CHUNK = 4 << 20
+
 
 @dataclass(frozen=True)
 class ScanOptions:
@@ -44,10 +47,8 @@ class ScanOptions:
     strict: bool = False
     compression: float = DEFAULT_COMPRESSION
     tail_size: int = DEFAULT_TAIL
-    chunk_bytes: int = 4 << 20
-    """Decompressed bytes per chunk. 4 MB: at 1 GB, 8 MB chunks put the text-log scan's
-    peak RSS at 236-253 MB (over the 250 MB budget) for no measurable speed gain on 2
-    cores; 4 MB measured 162 MB (CSV) and 197 MB (text)."""
+    chunk_bytes: int | None = None
+    """Decompressed bytes per chunk; None picks by format (``chunk_size``)."""
     lazy_files: bool = False
     """Let polars' own streaming reader walk uncompressed files on disk instead of our
     chunked reader. Off by default: measured at 200-700 MB it was at best ~1.5x faster
@@ -55,6 +56,20 @@ class ScanOptions:
     with file size) breaks the flat 250 MB budget the chunked reader keeps (~155 MB)."""
     max_line_bytes: int = 64 << 20
     """A line longer than this (no newline within it) is skipped as ``too_long``."""
+
+    def chunk_size(self, fmt: str | None, *, value_only: bool = False) -> int:
+        """Bytes per chunk for a source of format ``fmt`` (None: not known yet).
+
+        Measured on 2 cores at 1 GB (``benchmarks/scan_bench.py``): a CSV read for its
+        value column alone parses ~20% faster in 8 MB chunks than in 4 MB (polars'
+        per-call cost is amortised), at 189 MB peak RSS. With group or time columns
+        8 MB reached 260 MB (``--by host``; 213 MB at 4 MB), and text and NDJSON lines
+        become one String each, about twice the working set per byte (8 MB: 236-253
+        MB), over the 250 MB budget: those stay at 4 MB.
+        """
+        if self.chunk_bytes is not None:
+            return self.chunk_bytes
+        return CSV_CHUNK if value_only and fmt in ("csv", "tsv") else LINE_CHUNK
 
 
 @dataclass(frozen=True)

@@ -84,7 +84,7 @@ def scan(
         raise OgiveError(
             f"--compression must lie between 10 and {MAX_COMPRESSION:g}, got {options.compression:g}."
         )
-    if options.chunk_bytes < 1 or options.max_groups < 1:
+    if (options.chunk_bytes is not None and options.chunk_bytes < 1) or options.max_groups < 1:
         raise OgiveError("chunk_bytes and max_groups must be at least 1.")
     if options.split_at is not None and not options.time_field:
         raise OgiveError("--split-at needs --time-field, the column or field holding each record's time.")
@@ -143,7 +143,8 @@ def scan(
                     continue
                 header_checked = False
                 seen_at_start = state.bytes_seen
-                for chunk in _prefetch(sources.chunks(src, options.chunk_bytes, options.max_line_bytes)):
+                size = state.chunk_size
+                for chunk in _prefetch(sources.chunks(src, size, options.max_line_bytes)):
                     data = chunk.data
                     job = _Job(src.display, chunk.too_long)
                     if state.layout is None and data:
@@ -321,6 +322,13 @@ class _State:
         """Try reading a CSV value column as Float64 until a chunk shows it is not plain numbers."""
 
     # ----------------------------------------------------------------- setup
+    def chunk_size(self) -> int:
+        """Bytes to read next: by format once the first chunk has decided it."""
+        layout = self.layout
+        if layout is None:
+            return self.options.chunk_size(None)
+        return self.options.chunk_size(layout.format, value_only=layout.names == ("v",))
+
     def start(self, layout: records.Layout) -> None:
         self.layout = layout
         self.description = layout.description
@@ -614,7 +622,7 @@ class _State:
         instead (the layout does not suit the lazy reader).
         """
         with open(src.name, "rb") as fh:  # a separate handle: ``src`` stays at offset 0
-            head = fh.read(min(self.options.chunk_bytes, 1 << 20))
+            head = fh.read(min(self.chunk_size(), 1 << 20))
         cut = head.rfind(b"\n")
         if cut < 0:
             return False  # one huge line, or empty: the chunked path handles both

@@ -15,7 +15,7 @@ import lzma
 import os
 import sys
 import zlib
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from typing import BinaryIO, cast
 
@@ -180,8 +180,9 @@ class _ZstdStream:
         pass
 
 
-def chunks(src: Opened, chunk_bytes: int, max_line_bytes: int) -> Iterator[Chunk]:
-    """Whole-line chunks of about ``chunk_bytes`` decompressed bytes.
+def chunks(src: Opened, chunk_bytes: Callable[[], int], max_line_bytes: int) -> Iterator[Chunk]:
+    """Whole-line chunks of about ``chunk_bytes()`` decompressed bytes (asked before each
+    read: the size depends on the format, which the first chunk decides).
 
     Lines are not counted here: ``bytes.count`` holds the GIL for ~15 ms per 8 MB,
     while the parser's row count (one row per line) comes for free; the caller
@@ -192,7 +193,7 @@ def chunks(src: Opened, chunk_bytes: int, max_line_bytes: int) -> Iterator[Chunk
     too_long = 0
     skipping = False  # inside a too-long line, looking for its end
     while True:
-        data = src.read(chunk_bytes)
+        data = src.read(chunk_bytes())
         if not data:
             break
         if skipping:
