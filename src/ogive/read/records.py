@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import dataclasses
 import re
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 
 import polars as pl
@@ -48,11 +48,15 @@ class Layout:
     description: str = ""
     """How the value is found, for provenance: ``column latency_ms``."""
 
-    def parse(self, data: bytes, *, numeric: bool = False) -> tuple[pl.DataFrame, bool]:
+    def parse(
+        self, data: bytes, *, numeric: bool = False, literal_quotes: Callable[[], None] | None = None
+    ) -> tuple[pl.DataFrame, bool]:
         """Rows of ``data``; with ``numeric`` a CSV value column is first tried as Float64.
 
         Returns the frame and whether the numeric attempt held (callers stop trying
         once a chunk of durations or other text needed the String path).
+        ``literal_quotes`` is called when a CSV chunk's quotes did not balance and it
+        was read with ``"`` as a plain character instead.
         """
         if self.format in ("csv", "tsv"):
             if numeric:
@@ -60,7 +64,18 @@ class Layout:
                     return self._parse_csv(data, numeric=True), True
                 except pl.exceptions.PolarsError:
                     pass
-            return self._parse_csv(data, numeric=False), False
+            try:
+                return self._parse_csv(data, numeric=False), False
+            except OgiveError:
+                if b'"' not in data:
+                    raise
+            # A stray quote (``5" screen`` in an unquoted field, a field opened and never
+            # closed) makes polars reject the whole chunk; quotes as plain characters
+            # keep one row per line, so the other rows still count.
+            df = self._parse_csv(data, numeric=False, quote=None)
+            if literal_quotes is not None:
+                literal_quotes()
+            return df, False
         lines = split_lines(data)
         if self.format == "ndjson":
             cols = [lines.str.json_path_match(path).alias(name) for name, path in self.field_paths]
@@ -69,7 +84,7 @@ class Layout:
             [lines.str.extract(self.pattern, idx).alias(name) for name, idx in self.groups]
         ), False
 
-    def _parse_csv(self, data: bytes, *, numeric: bool) -> pl.DataFrame:
+    def _parse_csv(self, data: bytes, *, numeric: bool, quote: str | None = '"') -> pl.DataFrame:
         # Letting the reader parse floats itself skips a String column and a cast: the
         # fast path for the usual plain-number latency column. Any non-number makes it
         # raise, and the chunk is read again as text (durations, bad rows).
@@ -83,6 +98,7 @@ class Layout:
                 data,
                 has_header=False,
                 separator=self.separator,
+                quote_char=quote,
                 columns=list(self.columns),
                 schema=schema,
                 missing_columns="insert",

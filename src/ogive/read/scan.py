@@ -120,7 +120,7 @@ def scan(
         if prepared is not None:
             prepared.first_line = next_line
             state.commit(prepared)
-            next_line += prepared.rows
+            next_line += max(prepared.lines, prepared.rows)
 
     def drain(keep: int) -> None:
         while len(pending) > keep:
@@ -143,8 +143,8 @@ def scan(
                     continue
                 header_checked = False
                 seen_at_start = state.bytes_seen
-                size = state.chunk_size
-                for chunk in _prefetch(sources.chunks(src, size, options.max_line_bytes)):
+                pieces = sources.chunks(src, state.chunk_size, options.max_line_bytes, state.cutting)
+                for chunk in _prefetch(pieces):
                     data = chunk.data
                     job = _Job(src.display, chunk.too_long)
                     if state.layout is None and data:
@@ -159,9 +159,12 @@ def scan(
                     if layout is not None and data:
                         if state.unit is None:
                             # The first chunk decides the unit and time form: parse it here.
-                            df, state.numeric = layout.parse(data, numeric=state.numeric)
+                            df, state.numeric = layout.parse(
+                                data, numeric=state.numeric, literal_quotes=state.literal_quotes
+                            )
                             state.ready(df)
                             job.done = state.prepare(df, src.display, 0)
+                            _lines_in(job.done, data)
                         else:
                             job.future = pool.submit(state.parse_and_prepare, data, src.display)
                     pending.append(job)
@@ -203,6 +206,25 @@ def scan(
                 job.future.cancel()
         pool.shutdown(wait=True)
     return state.finish(time.monotonic() - start)
+
+
+def _lines_in(p: _Prepared, data: bytes) -> None:
+    """Set the lines a chunk spans: more than its rows when quoted CSV fields hold
+    newlines, and then each record's first line too, so bad rows are reported where an
+    editor shows them. Looked at only when the chunk has a quote at all."""
+    p.lines = p.rows
+    if b'"' not in data:
+        return
+    lines = data.count(b"\n") + (0 if data.endswith(b"\n") else 1)
+    if lines <= p.rows:
+        return
+    a = np.frombuffer(data, dtype=np.uint8)
+    newlines = np.flatnonzero(a == 0x0A)
+    quotes_before = np.cumsum(a == 0x22)[newlines]
+    ends = np.flatnonzero((quotes_before & 1) == 0)  # line numbers (0-based) ending a record
+    starts = np.concatenate(([0], ends + 1))[: p.rows]
+    if starts.size == p.rows:
+        p.lines, p.line_of = lines, starts.astype(np.int64)
 
 
 def _file_size(name: str) -> int | None:
@@ -284,6 +306,10 @@ class _Prepared:
     time_format: str | None
     display: str
     first_line: int
+    lines: int = 0
+    """Lines the chunk spans (set once parsed; ``rows`` plus newlines inside quoted fields)."""
+    line_of: NDArray[np.int64] | None = None
+    """Each record's first line, from ``first_line``, when records span several lines."""
 
 
 class _State:
@@ -296,6 +322,10 @@ class _State:
         self.sketches: dict[str, Sketch] = {}
         self.skipped: dict[str, SkipTally] = {}
         self.warnings: list[str] = []
+        self.quote_chunks = 0
+        self._line_of: NDArray[np.int64] | None = None
+        """Chunks whose quotes did not balance, read with quotes as plain characters."""
+        self._quote_lock = threading.Lock()
         self.lines = 0
         self.rows = 0
         self.values = 0
@@ -328,6 +358,18 @@ class _State:
         if layout is None:
             return self.options.chunk_size(None)
         return self.options.chunk_size(layout.format, value_only=layout.names == ("v",))
+
+    def cutting(self) -> str:
+        """How the reader must cut chunks: CSV records may hold quoted newlines."""
+        layout = self.layout
+        if layout is None:
+            return sources.GUESS if self.options.format in (None, "csv", "tsv") else sources.LINES
+        return sources.CSV if layout.format in ("csv", "tsv") else sources.LINES
+
+    def literal_quotes(self) -> None:
+        """Called by the parser for a chunk whose quotes did not balance."""
+        with self._quote_lock:
+            self.quote_chunks += 1
 
     def start(self, layout: records.Layout) -> None:
         self.layout = layout
@@ -403,9 +445,11 @@ class _State:
 
     def parse_and_prepare(self, data: bytes, display: str) -> _Prepared:
         assert self.layout is not None
-        df, held = self.layout.parse(data, numeric=self.numeric)
+        df, held = self.layout.parse(data, numeric=self.numeric, literal_quotes=self.literal_quotes)
         self.numeric = self.numeric and held
-        return self.prepare(df, display, 0)
+        prepared = self.prepare(df, display, 0)
+        _lines_in(prepared, data)
+        return prepared
 
     def ready(self, df: pl.DataFrame) -> None:
         """Decide, from the first frame, what later frames are parsed against."""
@@ -457,16 +501,17 @@ class _State:
         """The ordered half: strict check, routing to sketches, adding, counting."""
         if p.rows == 0:
             return
-        self.lines += p.rows
+        self.lines += max(p.lines, p.rows)
         self.rows += p.rows
         self.suffixed += p.suffixed
         self.unsuffixed += p.unsuffixed
         self.bad_time_kept += p.bad_time_kept
         if self.time_format is None:
             self.time_format = p.time_format
+        self._line_of = p.line_of
         if self.options.strict and p.reasons:
             first = min((int(np.argmax(m)), r) for r, m in p.reasons.items())
-            self._strict(first[1], f"{p.display}:{p.first_line + first[0]}")
+            self._strict(first[1], f"{p.display}:{p.first_line + self._line(first[0])}")
         names = self._route(p.rows, p.groups, p.tus)
         if self.window_us is not None and p.tus is not None:
             # Rows without a readable time fall in no window: counted in the result only.
@@ -550,8 +595,12 @@ class _State:
             if part.size
         ]
 
-    @staticmethod
+    def _line(self, row: int) -> int:
+        """Line offset of record ``row`` of the chunk being committed."""
+        return row if self._line_of is None else int(self._line_of[row])
+
     def _reasons_of(
+        self,
         reasons: dict[str, NDArray[np.bool_]], idx: NDArray[np.int64] | None, display: str, first_line: int
     ) -> list[tuple[str, int, list[str]]]:
         """(reason, count, first locations) for the rows ``idx`` of a chunk (all when None)."""
@@ -562,7 +611,7 @@ class _State:
             if count:
                 where = np.flatnonzero(m)[:EXAMPLES_KEPT]
                 lines = where if idx is None else idx[where]
-                out.append((reason, count, [f"{display}:{first_line + int(i)}" for i in lines]))
+                out.append((reason, count, [f"{display}:{first_line + self._line(int(i))}" for i in lines]))
         return out
 
     def _add(
@@ -767,6 +816,11 @@ class _State:
             self.warnings.append(
                 f"{self.unsuffixed} values had no unit suffix while {self.suffixed} did; "
                 f"the bare numbers were taken to be in {self.unit} (say otherwise with --input-unit)."
+            )
+        if self.quote_chunks:
+            self.warnings.append(
+                f"{self.quote_chunks} chunk(s) had a double quote that opens a field and never closes "
+                "(or one inside an unquoted field); there quotes were read as plain characters."
             )
         if self.bad_time_kept:
             self.warnings.append(

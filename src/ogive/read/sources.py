@@ -180,9 +180,46 @@ class _ZstdStream:
         pass
 
 
-def chunks(src: Opened, chunk_bytes: Callable[[], int], max_line_bytes: int) -> Iterator[Chunk]:
-    """Whole-line chunks of about ``chunk_bytes()`` decompressed bytes (asked before each
-    read: the size depends on the format, which the first chunk decides).
+LINES, CSV, GUESS = "lines", "csv", "guess"
+"""How chunks are cut: at any newline (text, NDJSON); only at a newline that ends a CSV
+record (not inside a quoted field); or, format not known yet, preferably so."""
+
+
+def record_end(data: bytes, open_quote: bool = False) -> int:
+    """Index of the last newline in ``data`` that ends a CSV record, or -1.
+
+    RFC 4180 (section 2, rules 5-7): a field in double quotes may hold newlines, and a
+    quote inside it is written twice, so a newline lies outside every quoted field
+    exactly when an even number of quotes precede it (``open_quote``: an odd number
+    came before ``data``). One ``bytes.count`` per step back: linear in the bytes
+    searched, and a chunk without quotes costs one scan.
+    """
+    cut = data.rfind(b"\n")
+    if cut < 0:
+        return -1
+    quotes = data.count(b'"', 0, cut) + open_quote
+    while quotes & 1:
+        prev = data.rfind(b"\n", 0, cut)
+        if prev < 0:
+            return -1
+        quotes -= data.count(b'"', prev, cut)
+        cut = prev
+    return cut
+
+
+def chunks(
+    src: Opened,
+    chunk_bytes: Callable[[], int],
+    max_line_bytes: int,
+    cutting: Callable[[], str] = lambda: LINES,
+) -> Iterator[Chunk]:
+    """Whole-record chunks of about ``chunk_bytes()`` decompressed bytes.
+
+    ``chunk_bytes`` and ``cutting`` are asked before each read: both depend on the
+    format, which the first chunk decides. A CSV record whose quoted field spans
+    newlines is held whole, up to ``max(4 chunks, 1 MB)``; beyond that the quotes are
+    taken to be unbalanced (a stray ``"``) and the chunk is cut at its last newline,
+    leaving the parser to read the quotes as it can.
 
     Lines are not counted here: ``bytes.count`` holds the GIL for ~15 ms per 8 MB,
     while the parser's row count (one row per line) comes for free; the caller
@@ -190,10 +227,12 @@ def chunks(src: Opened, chunk_bytes: Callable[[], int], max_line_bytes: int) -> 
     """
     parts: list[bytes] = []  # an unfinished line, possibly over several reads
     held = 0
+    open_quote = False  # an odd number of quotes in ``parts``
     too_long = 0
     skipping = False  # inside a too-long line, looking for its end
     while True:
-        data = src.read(chunk_bytes())
+        size = chunk_bytes()
+        data = src.read(size)
         if not data:
             break
         if skipping:
@@ -202,13 +241,22 @@ def chunks(src: Opened, chunk_bytes: Callable[[], int], max_line_bytes: int) -> 
                 continue
             data = data[nl + 1 :]
             skipping = False
+        mode = cutting()
         cut = data.rfind(b"\n")
+        if cut >= 0 and mode != LINES and (open_quote or b'"' in data):
+            record = record_end(data, open_quote)
+            if record >= 0:
+                cut = record
+            elif mode == CSV and held + len(data) <= min(max_line_bytes, max(4 * size, 1 << 20)):
+                cut = -1  # inside a quoted field: hold on until it closes
         if cut < 0:
             parts.append(data)
             held += len(data)
+            if mode != LINES:
+                open_quote ^= bool(data.count(b'"') & 1)
             if held > max_line_bytes:
                 too_long += 1
-                parts, held, skipping = [], 0, True
+                parts, held, skipping, open_quote = [], 0, True, False
             continue
         view = memoryview(data)
         body = (
@@ -220,6 +268,7 @@ def chunks(src: Opened, chunk_bytes: Callable[[], int], max_line_bytes: int) -> 
         )
         tail = data[cut + 1 :]
         parts, held = ([tail], len(tail)) if tail else ([], 0)
+        open_quote = mode != LINES and bool(tail.count(b'"') & 1)
         yield Chunk(body, too_long)
         too_long = 0
     if parts and not skipping:
