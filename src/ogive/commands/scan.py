@@ -55,6 +55,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="keep reading one growing file (surviving rotation), with a live line on stderr; "
         "Ctrl-C ends it, then the summary is printed and -o written",
     )
+    parser.add_argument(
+        "--recent",
+        metavar="DURATION",
+        default=None,
+        help="with --follow: also keep a sketch of only the last DURATION (30s, 5m, 1h), shown live "
+        "beside the all-time one and saved as the sketch recent-DURATION",
+    )
     add_source_options(parser)
 
 
@@ -86,6 +93,8 @@ def run(args: argparse.Namespace) -> int:
         if not os.access(folder, os.W_OK):
             raise OgiveError(f"cannot write {args.output}: the folder {folder} is not writable.")
 
+    if args.recent is not None and not args.follow:
+        raise OgiveError("--recent keeps the last minutes of a followed log; use it with --follow.")
     result = _follow(args) if args.follow else scan_sources(list(args.sources), args)
     warnings = list(result.warnings)
     if result.partial:
@@ -127,26 +136,40 @@ def _follow(args: argparse.Namespace) -> Any:
 
     if len(args.sources) != 1 or args.sources[0] == "-":
         raise OgiveError("--follow reads one growing file; name exactly one file (not '-').")
+    options = options_from_args(args)
+    recent = None
+    if args.recent is not None:
+        from ..read.follow import recent_window
+
+        recent = recent_window(args.recent, options)
     tty = sys.stderr.isatty()
+
+    def quantiles(label: str, s: Any) -> str:
+        q50, q99, q999 = s.quantile([0.5, 0.99, 0.999])
+        return (
+            f"{label}p50 {format_value(q50, s.unit)} p99 {format_value(q99, s.unit)} "
+            f"p99.9 {format_value(q999, s.unit)}"
+        )
 
     def live(p: Any) -> None:
         if args.quiet:
             return
         parts = [f"following {p.source}: {p.values:,} values"]
-        for name, s in list(p.sketches.sketches.items())[:3]:
+        window = p.sketches.sketches.get(recent.name) if recent is not None else None
+        others = [(n, s) for n, s in p.sketches.sketches.items() if recent is None or n != recent.name]
+        for name, s in others[: 2 if recent is not None else 3]:
             if s.count:
-                q50, q99, q999 = s.quantile([0.5, 0.99, 0.999])
-                label = "" if name == "all" else f"{name} "
-                parts.append(
-                    f"{label}p50 {format_value(q50, s.unit)} p99 {format_value(q99, s.unit)} "
-                    f"p99.9 {format_value(q999, s.unit)}"
-                )
+                label = ("all-time " if recent is not None else "") if name == "all" else f"{name} "
+                parts.append(quantiles(label, s))
+        if window is not None and recent is not None:
+            label = f"last {args.recent.strip()} "
+            parts.append(quantiles(label, window) if window.count else f"{label}no values yet")
         text = " | ".join(parts)
         print(f"\r{text[:200]}\033[K" if tty else text, end="" if tty else "\n", file=sys.stderr, flush=True)
 
     with first_ctrl_c_stops(quiet=True) as stopped:
         result, rotations = follow(
-            args.sources[0], options_from_args(args), cancel=stopped.is_set, on_update=live
+            args.sources[0], options, cancel=stopped.is_set, on_update=live, recent=recent
         )
     if tty and not args.quiet:
         print("\r\033[K", end="", file=sys.stderr)
