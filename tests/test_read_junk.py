@@ -34,3 +34,21 @@ def test_absurd_values_print_short(tmp_path: Path, capsys: pytest.CaptureFixture
     assert main(["scan", str(f), "--column", "latency_ms", "--quiet"]) == 0
     out = capsys.readouterr().out
     assert max(len(line) for line in out.splitlines()) < 140
+
+
+@pytest.mark.parametrize("chunk", [40, None])
+def test_timestamps_going_backwards_are_counted(tmp_path: Path, chunk: int | None) -> None:
+    f = tmp_path / "back.csv"
+    f.write_text(
+        "ts,latency_ms\n"
+        "2026-03-04T10:00:00Z,1\n"
+        "2026-03-04T10:00:05Z,2\n"
+        "2026-03-04T09:59:00Z,3\n"  # 65 s before the row above it
+        "2026-03-04T10:00:06Z,4\n"
+        "not a time,5\n"
+        "2026-03-04T10:00:01Z,6\n"  # 5 s before the latest so far
+    )
+    res = scan([str(f)], ScanOptions(column="latency_ms", time_field="ts", chunk_bytes=chunk))
+    assert res.sketches["all"].count == 6  # every value still counts
+    (note,) = [w for w in res.warnings if "earlier than a row before them" in w]
+    assert note.startswith("2 rows") and f"{f}:4" in note and "65 s" in note

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import argparse
 import contextlib
+import dataclasses
 import os
 import signal
 import sys
@@ -238,12 +239,16 @@ def load_one(spec: str, args: argparse.Namespace) -> tuple[str, Sketch]:
     )
 
 
-def scan_sources(sources: list[str], args: argparse.Namespace) -> ScanResult:
-    """Scan with the progress line when stderr is a terminal; warnings go to stderr."""
+def scan_sources(sources: list[str], args: argparse.Namespace, *, keep_partial: bool = False) -> ScanResult:
+    """Scan with the progress line when stderr is a terminal; warnings go to stderr.
+
+    ``keep_partial``: a damaged compressed stream ends the scan with what was read
+    before the damage (``result.error`` says where) instead of raising.
+    """
     from ..read import scan
     from .progress import ProgressLine
 
-    options = options_from_args(args)
+    options = dataclasses.replace(options_from_args(args), keep_partial=keep_partial)
     quiet = bool(getattr(args, "quiet", False))
     line = ProgressLine(sys.stderr) if not quiet and sys.stderr.isatty() else None
     with first_ctrl_c_stops() as stopped:

@@ -95,9 +95,9 @@ def run(args: argparse.Namespace) -> int:
 
     if args.recent is not None and not args.follow:
         raise OgiveError("--recent keeps the last minutes of a followed log; use it with --follow.")
-    result = _follow(args) if args.follow else scan_sources(list(args.sources), args)
+    result = _follow(args) if args.follow else scan_sources(list(args.sources), args, keep_partial=True)
     warnings = list(result.warnings)
-    if result.partial:
+    if result.partial and result.error is None:  # a damaged input gets its own error line
         warnings.append(f"the scan stopped early: {result.partial}")
     # Without --quiet the warnings were already printed on stderr as they came; the table
     # repeats them only when they would otherwise be lost. JSON always carries them.
@@ -111,8 +111,10 @@ def run(args: argparse.Namespace) -> int:
         doc["bytes_read"] = result.bytes_read
         doc["elapsed_s"] = round(result.elapsed_s, 6)
         doc["output"] = args.output
+        doc["error"] = result.error
         json.dump(doc, sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
+        _damaged(result, args.output)
         return EXIT_INTERRUPTED if result.interrupted else 0
     out = sys.stderr if to_stdout else sys.stdout
     lines = summary_lines(summary)
@@ -124,8 +126,21 @@ def run(args: argparse.Namespace) -> int:
         ]
     for line in lines:
         print(line, file=out)
+    _damaged(result, args.output)
     # The partial sketch is saved; the status still tells a script the scan did not finish.
     return EXIT_INTERRUPTED if result.interrupted else 0
+
+
+def _damaged(result: Any, output: str | None) -> None:
+    """A damaged compressed stream is still an error (exit 3), after what came before the
+    damage was shown and, with -o, saved and marked partial."""
+    if result.error is None:
+        return
+    kept = sum(s.count for s in result.sketches.sketches.values())
+    if output:
+        where = "written out" if output == "-" else f"saved to {output}"
+        raise OgiveError(f"{result.error} The {kept:,} values before it were {where}, marked partial.")
+    raise OgiveError(f"{result.error} Nothing was saved (no -o); the {kept:,} values before it are shown.")
 
 
 def _follow(args: argparse.Namespace) -> Any:

@@ -144,58 +144,68 @@ def scan(
                 header_checked = False
                 seen_at_start = state.bytes_seen
                 pieces = sources.chunks(src, state.chunk_size, options.max_line_bytes, state.cutting)
-                for chunk in _prefetch(pieces):
-                    data = chunk.data
-                    job = _Job(src.display, chunk.too_long)
-                    if state.layout is None and data:
-                        state.start(records.plan(data, options))
-                    layout = state.layout
-                    if layout is not None and layout.header and not header_checked and data:
-                        head, _, rest = data.partition(b"\n")
-                        if head.rstrip(b"\r") == layout.header_line.rstrip(b"\r"):
-                            data, job.header = rest, True
-                    if data:
-                        header_checked = True
-                    if layout is not None and data:
-                        if state.unit is None:
-                            # The first chunk decides the unit and time form: parse it here.
-                            df, state.numeric = layout.parse(
-                                data, numeric=state.numeric, literal_quotes=state.literal_quotes
+                try:
+                    for chunk in _prefetch(pieces):
+                        data = chunk.data
+                        job = _Job(src.display, chunk.too_long)
+                        if state.layout is None and data:
+                            state.start(records.plan(data, options))
+                        layout = state.layout
+                        if layout is not None and layout.header and not header_checked and data:
+                            head, _, rest = data.partition(b"\n")
+                            if head.rstrip(b"\r") == layout.header_line.rstrip(b"\r"):
+                                data, job.header = rest, True
+                        if data:
+                            header_checked = True
+                        if layout is not None and data:
+                            if state.unit is None:
+                                # The first chunk decides the unit and time form: parse it here.
+                                df, state.numeric = layout.parse(
+                                    data, numeric=state.numeric, literal_quotes=state.literal_quotes
+                                )
+                                state.ready(df)
+                                job.done = state.prepare(df, src.display, 0)
+                                _lines_in(job.done, data)
+                            else:
+                                job.future = pool.submit(state.parse_and_prepare, data, src.display)
+                        pending.append(job)
+                        drain(PARSE_WORKERS)
+                        state.bytes_seen += len(chunk.data)
+                        now = time.monotonic()
+                        if progress is not None and (
+                            cancel is not None or now - last_report >= PROGRESS_INTERVAL_S
+                        ):
+                            last_report = now
+                            # Compressed: the file offset (what the size measures); plain: bytes
+                            # consumed (the reader thread's offset runs ahead).
+                            plain_pos = state.bytes_seen - seen_at_start
+                            pos = src.raw_pos if src.size and src.compression else plain_pos
+                            snapshot = ScanProgress(
+                                done_bytes + pos,
+                                total,
+                                state.rows,
+                                state.values,
+                                now - start,
+                                src.display,
+                                state.sset(),
                             )
-                            state.ready(df)
-                            job.done = state.prepare(df, src.display, 0)
-                            _lines_in(job.done, data)
-                        else:
-                            job.future = pool.submit(state.parse_and_prepare, data, src.display)
-                    pending.append(job)
-                    drain(PARSE_WORKERS)
-                    state.bytes_seen += len(chunk.data)
-                    now = time.monotonic()
-                    if progress is not None and (
-                        cancel is not None or now - last_report >= PROGRESS_INTERVAL_S
-                    ):
-                        last_report = now
-                        # Compressed: the file offset (what the size measures); plain: bytes
-                        # consumed (the reader thread's offset runs ahead).
-                        plain_pos = state.bytes_seen - seen_at_start
-                        pos = src.raw_pos if src.size and src.compression else plain_pos
-                        snapshot = ScanProgress(
-                            done_bytes + pos,
-                            total,
-                            state.rows,
-                            state.values,
-                            now - start,
-                            src.display,
-                            state.sset(),
-                        )
-                        progress(snapshot)
-                    if cancel is not None and cancel():
-                        drain(0)
-                        state.partial = f"stopped on request in {src.display} after line {next_line - 1}"
-                        break
+                            progress(snapshot)
+                        if cancel is not None and cancel():
+                            drain(0)
+                            state.partial = f"stopped on request in {src.display} after line {next_line - 1}"
+                            break
+                except sources.CorruptSource as exc:
+                    if not options.keep_partial:
+                        raise
+                    drain(0)  # the chunks before the damage are good: keep them
+                    state.error = str(exc)
+                    state.partial = f"the input is damaged: {exc}"
                 drain(0)
                 done_bytes += src.size if src.size else 0
             finally:
+                change = src.changed()
+                if change is not None:
+                    state.warnings.append(change)
                 src.close()
             if state.partial:
                 break
@@ -323,6 +333,12 @@ class _State:
         self.skipped: dict[str, SkipTally] = {}
         self.warnings: list[str] = []
         self.quote_chunks = 0
+        self.error: str | None = None
+        self._t_max = -np.inf
+        self.back_count = 0
+        self.back_most = 0.0
+        """Microseconds: the largest step back in time seen."""
+        self.back_first = ""
         self._line_of: NDArray[np.int64] | None = None
         """Chunks whose quotes did not balance, read with quotes as plain characters."""
         self._quote_lock = threading.Lock()
@@ -509,6 +525,8 @@ class _State:
         if self.time_format is None:
             self.time_format = p.time_format
         self._line_of = p.line_of
+        if p.tus is not None:
+            self._watch_time_order(p)
         if self.options.strict and p.reasons:
             first = min((int(np.argmax(m)), r) for r, m in p.reasons.items())
             self._strict(first[1], f"{p.display}:{p.first_line + self._line(first[0])}")
@@ -594,6 +612,25 @@ class _State:
             for start, part in zip(starts, np.split(order, bounds), strict=True)
             if part.size
         ]
+
+    def _watch_time_order(self, p: _Prepared) -> None:
+        """Count rows whose time is earlier than a row before them (clock steps, merged
+        or shuffled logs): harmless to the sketches, which place rows by their own time,
+        but a sign the file is not the time-ordered log the user may think it is."""
+        assert p.tus is not None
+        rows = np.flatnonzero(np.isfinite(p.tus))
+        if not rows.size:
+            return
+        t = p.tus[rows]
+        before = np.maximum.accumulate(np.concatenate(([self._t_max], t[:-1])))
+        back = before - t
+        late = np.flatnonzero(back > 0)
+        if late.size:
+            if not self.back_count:
+                self.back_first = f"{p.display}:{p.first_line + self._line(int(rows[late[0]]))}"
+            self.back_count += late.size
+            self.back_most = max(self.back_most, float(back[late].max()))
+        self._t_max = max(self._t_max, float(before[-1]), float(t[-1]))
 
     def _line(self, row: int) -> int:
         """Line offset of record ``row`` of the chunk being committed."""
@@ -817,6 +854,12 @@ class _State:
                 f"{self.unsuffixed} values had no unit suffix while {self.suffixed} did; "
                 f"the bare numbers were taken to be in {self.unit} (say otherwise with --input-unit)."
             )
+        if self.back_count:
+            self.warnings.append(
+                f"{self.back_count:,} rows had a timestamp earlier than a row before them (first at "
+                f"{self.back_first}, at most {self.back_most / 1e6:g} s earlier); each row still counts "
+                "by its own time."
+            )
         if self.quote_chunks:
             self.warnings.append(
                 f"{self.quote_chunks} chunk(s) had a double quote that opens a field and never closes "
@@ -845,6 +888,7 @@ class _State:
             rows_read=self.rows,
             skipped=self.skipped,
             format=self.layout.format if self.layout else "",
+            error=self.error,
         )
 
 

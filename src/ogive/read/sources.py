@@ -39,6 +39,10 @@ class Chunk:
     """Lines dropped just before this chunk's first line for exceeding ``max_line_bytes``."""
 
 
+_PIECE = 1 << 20
+"""Decompressed bytes per read from a compressed stream (the most a damaged one loses)."""
+
+
 class Opened:
     """A source opened for reading decompressed bytes; ``raw_pos`` tracks the file offset."""
 
@@ -50,11 +54,14 @@ class Opened:
         except OSError as exc:
             raise OgiveError(f"cannot open {name}: {exc.strerror or exc}.") from None
         self.size: int | None = None
+        self._inode: int | None = None
+        self._damage: CorruptSource | None = None
         if name != "-":
             try:
                 st = os.fstat(self.raw.fileno())
                 if os.path.isfile(name):
                     self.size = st.st_size
+                    self._inode = st.st_ino
             except OSError:
                 pass
         self._head = self._peek()
@@ -95,6 +102,33 @@ class Opened:
         return self._counted_raw.count
 
     def read(self, n: int) -> bytes:
+        """Up to ``n`` decompressed bytes; b"" at the end.
+
+        Compressed data is decompressed in pieces of ``_PIECE`` bytes, so that damage
+        part-way costs at most a piece: what came before it is returned first and the
+        error is raised by the next call (a scan keeps the good part, marked partial).
+        """
+        if self._damage is not None:
+            raise self._damage
+        if self.stream is self.raw:
+            return self._read_piece(n)
+        pieces: list[bytes] = []
+        got = 0
+        while got < n:
+            try:
+                piece = self._read_piece(min(_PIECE, n - got))
+            except CorruptSource as exc:
+                if not pieces:
+                    raise
+                self._damage = exc
+                break
+            if not piece:
+                break
+            pieces.append(piece)
+            got += len(piece)
+        return pieces[0] if len(pieces) == 1 else b"".join(pieces)
+
+    def _read_piece(self, n: int) -> bytes:
         try:
             return self.stream.read(n)
         except (OSError, EOFError, zlib.error, lzma.LZMAError) as exc:
@@ -104,9 +138,36 @@ class Opened:
                 raise self._corrupt(exc) from None
             raise
 
-    def _corrupt(self, exc: BaseException) -> OgiveError:
+    def changed(self) -> str | None:
+        """How the file behind the name changed since it was opened, or None.
+
+        Reading went on through the open handle (POSIX keeps a deleted or replaced
+        file's data readable), so the sketch is of the file as it was when opened; a
+        truncation cut it short. Either way the user must hear of it.
+        """
+        if self.name == "-" or self._inode is None:
+            return None
+        try:
+            st = os.stat(self.name)
+        except FileNotFoundError:
+            return f"{self.display} was deleted during the scan; what the open file still held was read."
+        except OSError:
+            return None
+        if st.st_ino != self._inode:
+            return (
+                f"{self.display} was replaced during the scan; the sketch is of the file as it was "
+                "when the scan opened it."
+            )
+        if self.size is not None and st.st_size < self.size:
+            return (
+                f"{self.display} was truncated during the scan ({self.size:,} bytes at the start, "
+                f"{st.st_size:,} now); the sketch covers only what was read."
+            )
+        return None
+
+    def _corrupt(self, exc: BaseException) -> CorruptSource:
         kind = self.compression or "plain"
-        return OgiveError(
+        return CorruptSource(
             f"{self.display}: corrupt or truncated {kind} data near compressed byte offset "
             f"{self.raw_pos} ({exc})."
         )
@@ -116,6 +177,10 @@ class Opened:
             self.stream.close()
         if self.name != "-":
             self.raw.close()
+
+
+class CorruptSource(OgiveError):
+    """Compressed data that stops making sense part-way: what came before it is good."""
 
 
 class _Counted:
