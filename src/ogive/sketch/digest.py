@@ -87,6 +87,11 @@ class TDigest:
         if self._buf_n >= self._limit:
             self.flush()
 
+    @property
+    def buffered(self) -> int:
+        """Values added but not yet merged into the centroids."""
+        return self._buf_n
+
     def add_centroids(self, means: ArrayLike, weights: ArrayLike, pure: ArrayLike | None = None) -> None:
         """Fold in weighted points (another digest's centroids, an imported digest)."""
         m = np.asarray(means, dtype=np.float64).ravel()
