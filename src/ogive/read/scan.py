@@ -9,7 +9,6 @@ batch per sketch. Nothing per row runs in Python except for bad-row examples.
 
 from __future__ import annotations
 
-import itertools
 import os
 import queue
 import re
@@ -31,6 +30,7 @@ from ..sketch.digest import MAX_COMPRESSION
 from ..sketch.sketch import EXAMPLES_KEPT
 from . import records, sources, times, values
 from .options import ScanOptions, ScanProgress, ScanResult
+from .route import OTHER, Router
 
 _T = TypeVar("_T")
 _NAME_UNITS = {
@@ -51,10 +51,6 @@ DIGEST_BUDGET = 4_000_000
 """Values buffered in all digests together before the fullest are compressed (32 MB)."""
 PARSE_WORKERS = 2
 """Chunks parsed at once; memory in flight is about (workers + 3) chunks."""
-OTHER = "(other)"
-OVERFLOW_KEPT = 100_000
-"""Distinct values beyond the group cap remembered, only to say how many there were."""
-MISSING = "(missing)"
 BAD_TIMESTAMP = "bad_timestamp"
 TOO_LONG = "too_long"
 BAD_RECORD = "bad_record"
@@ -354,14 +350,10 @@ class _State:
         self.partial: str | None = None
         self.unit: str | None = None
         self.time_format = options.time_format
-        self.split_us = None if options.split_at is None else times.parse_moment(options.split_at)
-        self.window_us = None if options.window is None else times.window_width_us(options.window)
-        self.by_time = self.split_us is not None or self.window_us is not None
-        """Rows are routed by their timestamp, so a row without one has no sketch."""
-        self.groups: dict[str, str] = {}
-        self.overflow: set[str] = set()
-        """Values that got no sketch of their own (at most ``OVERFLOW_KEPT``, for the count)."""
-        self._known = pl.Series([], dtype=pl.String)
+        self.router = Router(options)
+        r = self.router
+        self.split_us, self.window_us, self.by_time = r.split_us, r.window_us, r.by_time
+        """``by_time``: rows are routed by their timestamp, so a row without one has no sketch."""
         self.suffixed = 0
         self.unsuffixed = 0
         self.times: dict[str, list[float]] = {}
@@ -550,7 +542,7 @@ class _State:
         if self.options.strict and p.reasons:
             first = min((int(np.argmax(m)), r) for r, m in p.reasons.items())
             self._strict(first[1], f"{p.display}:{p.first_line + self._line(first[0])}")
-        names = self._route(p.rows, p.groups, p.tus)
+        names = self.router.route(p.rows, p.groups, p.tus)
         if self.window_us is not None and p.tus is not None:
             # Rows without a readable time fall in no window: counted in the result only.
             timeless = np.flatnonzero(~np.isfinite(p.tus))
@@ -561,84 +553,6 @@ class _State:
         else:
             for name, idx in names:
                 self._add(name, p.values, p.ok, p.reasons, p.tus, p.display, p.first_line, idx)
-
-    def _route(
-        self, n: int, g: pl.Series | None, tus: NDArray[np.float64] | None
-    ) -> str | list[tuple[str, NDArray[np.int64]]]:
-        o = self.options
-        if self.window_us is not None and tus is not None:
-            return self._route_windows(tus, self.window_us)
-        halves: NDArray[np.bool_] | None = None
-        if self.split_us is not None and tus is not None:
-            halves = tus >= self.split_us  # NaN compares False; such rows are already skipped
-        if not o.by and halves is None:
-            return "all"
-        if o.by and g is not None:
-            labels, codes = self._group_codes(g)
-        else:
-            labels = [""]
-            codes = np.zeros(n, dtype=np.int64)
-        if halves is not None:
-            codes = codes * 2 + halves.astype(np.int64)
-            names = []
-            for lab in labels:
-                for half in ("before", "after"):
-                    names.append(f"{half}/{lab}" if lab else half)
-        else:
-            names = labels
-        order = np.argsort(codes, kind="stable")
-        sorted_codes = codes[order]
-        bounds = np.flatnonzero(np.diff(sorted_codes)) + 1
-        out = []
-        for part in np.split(order, bounds):
-            if part.size:
-                out.append((names[int(codes[part[0]])], part))
-        return out
-
-    def _group_codes(self, g: pl.Series) -> tuple[list[str], NDArray[np.int64]]:
-        """Sketch names and each row's index into them, for ``--by``.
-
-        The first ``max_groups`` distinct values met (in file order) get a sketch each;
-        later ones share ``FIELD=(other)``. Vectorised: with 10^5 distinct keys a chunk
-        holds ~10^5 of them, and a Python loop over them per chunk made ``--by`` run
-        at 12 MB/s; only the at most ``max_groups`` new groups are touched in Python.
-        """
-        o = self.options
-        keys = g.fill_null(MISSING)
-        if len(self.groups) < o.max_groups:
-            fresh = keys.unique(maintain_order=True)
-            if self.groups:
-                fresh = fresh.filter(~fresh.is_in(self._known))
-            for key in fresh.head(o.max_groups - len(self.groups)).to_list():
-                self.groups[key] = f"{o.by}={key}"
-            self._known = pl.Series(list(self.groups), dtype=pl.String)
-        labels = [*self.groups.values(), f"{o.by}={OTHER}"]
-        other = len(labels) - 1
-        codes = keys.replace_strict(
-            self._known, pl.Series(np.arange(other, dtype=np.int64)), default=other, return_dtype=pl.Int64
-        ).to_numpy()
-        if len(self.overflow) < OVERFLOW_KEPT and (codes == other).any():
-            rest = keys.filter(pl.Series(codes == other)).unique()
-            self.overflow.update(rest.to_list())  # some may be known already: add all, then trim
-            if len(self.overflow) > OVERFLOW_KEPT:
-                self.overflow = set(itertools.islice(self.overflow, OVERFLOW_KEPT))
-        return labels, codes
-
-    @staticmethod
-    def _route_windows(tus: NDArray[np.float64], width_us: float) -> list[tuple[str, NDArray[np.int64]]]:
-        """One sketch per time window, named by the window's start (ISO 8601 UTC).
-
-        Rows without a readable time were already marked bad; they land in no window.
-        """
-        good = np.flatnonzero(np.isfinite(tus))
-        starts, inverse = np.unique(times.window_starts(tus[good], width_us), return_inverse=True)
-        order = np.argsort(inverse, kind="stable")
-        bounds = np.flatnonzero(np.diff(inverse[order])) + 1
-        return [
-            (times.iso(float(start)), good[part])
-            for start, part in zip(starts, np.split(order, bounds), strict=True)
-            if part.size
-        ]
 
     def _watch_time_order(self, p: _Prepared) -> None:
         """Count rows whose time is earlier than a row before them (clock steps, merged
@@ -870,12 +784,9 @@ class _State:
             span = self.times.get(name)
             if span:
                 s.provenance.time_first, s.provenance.time_last = times.iso(span[0]), times.iso(span[1])
-        if self.overflow:
-            more = "+" if len(self.overflow) >= OVERFLOW_KEPT else ""
-            self.warnings.append(
-                f"--by {o.by}: more than {o.max_groups} distinct values; {len(self.overflow)}{more} further "
-                f"values share the group {o.by}={OTHER} (raise --max-groups to keep them apart)."
-            )
+        overflow = self.router.overflow_warning()
+        if overflow is not None:
+            self.warnings.append(overflow)
         if self.suffixed and self.unsuffixed and self.input_unit is None and values.is_time_unit(self.unit):
             self.warnings.append(
                 f"{self.unsuffixed} values had no unit suffix while {self.suffixed} did; "
