@@ -20,7 +20,11 @@ the data cannot tell, not that nothing changed.
 
 EPILOG = """\
 keys: o open · 1/2 subject/reference · g f c panes · v/V picture · l lin/log ·
-      w write .ogive · e export report · x stop scans · ? all keys · q quit
+      w write .ogive · e export report · x stop scans · s stop following ·
+      ? all keys · q quit
+
+following a live log (the lines already there are read first, then what is appended):
+  ogive view --follow /var/log/app.log --pattern 'dur=(\\S+)' --recent 5m
 """
 
 
@@ -38,6 +42,17 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         default=None,
         help="comma-separated families to fit to the subject (default: all, as 'ogive fit')",
     )
+    parser.add_argument(
+        "--follow",
+        action="store_true",
+        help="keep reading the one log given as it grows (surviving rotation); s stops following",
+    )
+    parser.add_argument(
+        "--recent",
+        metavar="DURATION",
+        default=None,
+        help="with --follow: also show a sketch of only the last DURATION (30s, 5m, 1h) as its own row",
+    )
     add_source_options(parser)
 
 
@@ -47,9 +62,23 @@ def run(args: argparse.Namespace) -> int:
     from ..errors import OgiveError
     from ..store import split_group
     from ..ui import OgiveApp
-    from .common import options_from_args
+    from .common import is_sketch_file, options_from_args
 
+    followed = [s for s in args.sources if not is_sketch_file(split_group(s)[0])] if args.follow else []
+    if args.follow and (len(followed) != 1 or followed[0] == "-"):
+        raise OgiveError(
+            "--follow reads one growing log; name exactly one log file (not '-'), "
+            "beside any saved .ogive sketches."
+        )
+    if args.recent is not None:
+        if not args.follow:
+            raise OgiveError("--recent keeps the last minutes of a followed log; use it with --follow.")
+        from ..read.follow import recent_window
+
+        recent_window(args.recent, options_from_args(args))  # a bad width fails here, in one line
     for spec in args.sources:
+        if spec in followed:
+            continue  # following waits for a file that does not exist yet, as scan --follow does
         if spec != "-" and not os.path.exists(spec) and not os.path.exists(split_group(spec)[0]):
             raise OgiveError(f"cannot open {spec}: no such file.")
     families = [f.strip() for f in args.families.split(",") if f.strip()] if args.families else None
@@ -66,5 +95,7 @@ def run(args: argparse.Namespace) -> int:
         subject=args.subject,
         reference=args.reference,
         families=families,
+        follow=args.follow,
+        recent=args.recent,
     )
     return app.run() or 0

@@ -26,7 +26,7 @@ from ..errors import OgiveError
 from ..read.options import ScanOptions, ScanProgress
 from ..sketch import Sketch, SketchSet
 from ..store import load_sketches, save_sketches
-from . import report
+from . import fmt, report
 from .ask_path import AskPath
 from .capabilities import Unavailable, compare_function, fit_function, scan_function
 from .fit_panel import ModelRanking, ranked_models
@@ -40,6 +40,14 @@ from .status_line import FeedStatus
 
 REFRESH_S = 0.5
 """Screen refresh while data streams: about twice a second."""
+FOLLOW_POLL_S = 0.1
+"""How often a followed file is asked for new lines when it has none."""
+FOLLOW_FIT_S = 30.0
+"""A followed subject is refitted at most this often after the last fit ended, and never
+sooner than FOLLOW_FIT_DUTY times that fit's own length: a fit of every family takes
+seconds to tens of seconds of a core, and the ranking of models moves slowly next to
+the quantiles. So following keeps the fit to a fifth of one core at most."""
+FOLLOW_FIT_DUTY = 4.0
 PANES = ("picture", "models", "ladder")
 AXES = ("auto", "log", "linear")
 """'auto' lets the renderer choose (log when every value is positive, as latencies are)."""
@@ -112,6 +120,7 @@ class OgiveApp(App[int]):
     | w | Write all finished sketches to a .ogive file. |
     | e | Export a report of the screen (Markdown and JSON). |
     | x | Stop every running scan (what was read stays, marked partial). |
+    | s | Stop following the growing file (what was read stays, ready). |
     | ? | Show every key. |
     | q / ctrl+q | Quit. |
     """
@@ -133,6 +142,7 @@ class OgiveApp(App[int]):
         Binding("w", "save", "Write", show=False),
         Binding("e", "export", "Export", show=False),
         Binding("x", "stop_scans", "Stop", show=False),
+        Binding("s", "stop_follow", "Stop following", show=False),
         Binding("question_mark", "help", "Keys"),
         Binding("q", "quit", "Quit"),
         Binding("ctrl+q", "quit", "Quit", show=False),
@@ -148,9 +158,21 @@ class OgiveApp(App[int]):
         save_dir: str | Path = ".",
         per_source: dict[str, ScanOptions] | None = None,
         families: Sequence[str] | None = None,
+        follow: bool = False,
+        recent: str | None = None,
     ) -> None:
         super().__init__()
         self.initial_sources = list(sources)
+        self.follow = follow
+        """Logs named on the command line are followed as they grow instead of read once."""
+        self.recent = recent
+        """``--recent`` span for followed logs: a window sketch of its own beside the all-time one."""
+        self._fit_at = 0.0
+        self._fit_n = 0
+        """Values in the subject when the fit on screen was started (it may have grown since)."""
+        """When the last fit started (monotonic seconds)."""
+        self._fit_free_at = 0.0
+        """When a followed subject may be refitted next (FOLLOW_FIT_S, FOLLOW_FIT_DUTY)."""
         self.options = options or ScanOptions()
         self.families = list(families) if families else None
         """Families to fit (None: the fit package's default list, as ``ogive fit``)."""
@@ -228,12 +250,22 @@ class OgiveApp(App[int]):
                 self.add_distribution(Distribution(label, sset[name], file, seq=(seq, i)))
             self.say(f"loaded {file}")
             return
+        if self.follow and source in self.initial_sources:
+            self.follow_source(source, options)
+            return
         if not Path(source).exists() and source != "-":
             self.say(f"cannot open {source}: no such file.")
             return
         job = ScanJob(source, options, seq=self._next_seq())
         self.jobs.append(job)
         self.scan_worker(job)
+        self.refresh_all()
+
+    def follow_source(self, source: str, options: ScanOptions) -> None:
+        """Keep reading a growing log (it may not exist yet: the follow waits for it)."""
+        job = ScanJob(source, options, seq=self._next_seq(), follow=True, recent=self.recent)
+        self.jobs.append(job)
+        self.follow_worker(job)
         self.refresh_all()
 
     def _next_seq(self) -> int:
@@ -257,7 +289,9 @@ class OgiveApp(App[int]):
     def _name_for(self, job: ScanJob, group: str, groups: int) -> str:
         stem = row_stem(job.source)
         if group not in job.names:
-            job.names[group] = self._unique(stem if groups == 1 else f"{stem}:{group}", job)
+            # A follow with a recent window always has two rows, even before 'all' has values.
+            alone = groups == 1 and job.recent is None
+            job.names[group] = self._unique(stem if alone else f"{stem}:{group}", job)
         return job.names[group]
 
     # ------------------------------------------------------------------ scanning
@@ -294,19 +328,72 @@ class OgiveApp(App[int]):
         job.elapsed_s = result.elapsed_s
         self.post_message(ScanEnded(job, dict(result.sketches.sketches), "; ".join(notes), failed=False))
 
+    @work(thread=True, exclusive=False, group="scan")
+    def follow_worker(self, job: ScanJob) -> None:
+        """Runs :func:`ogive.read.follow.follow` (what ``scan --follow`` runs) until stopped;
+        copies of the sketches reach the screen ~2x/s while lines arrive."""
+        from textual.worker import get_current_worker
+
+        from ..read.follow import follow, recent_window
+
+        worker = get_current_worker()
+
+        def cancelled() -> bool:
+            return job.cancel.is_set() or worker.is_cancelled
+
+        window_name = None
+
+        def progress(p: ScanProgress) -> None:
+            copies = {
+                name: s if name == window_name else snapshot(s) for name, s in p.sketches.sketches.items()
+            }
+            self.post_message(ScanTick(job, p, copies))
+
+        try:
+            window = recent_window(job.recent, job.options) if job.recent else None
+            window_name = window.name if window is not None else None
+            result, rotations = follow(
+                job.source,
+                job.options,
+                cancel=cancelled,
+                on_update=progress,
+                poll_s=FOLLOW_POLL_S,
+                update_s=REFRESH_S,
+                recent=window,
+            )
+        except (OgiveError, ValueError) as exc:
+            self.post_message(ScanEnded(job, {}, str(exc), failed=True))
+            return
+        notes = list(result.warnings)
+        if rotations:
+            notes.append(f"the file was rotated or truncated {rotations} time(s) while followed")
+        job.bytes_read, job.elapsed_s, job.rotations = result.bytes_read, result.elapsed_s, rotations
+        self.post_message(ScanEnded(job, dict(result.sketches.sketches), "; ".join(notes), failed=False))
+
     def on_scan_tick(self, msg: ScanTick) -> None:
         job, p = msg.job, msg.progress
         job.bytes_read, job.bytes_total = p.bytes_read, p.bytes_total
         job.rows, job.values, job.elapsed_s = p.rows, p.values, p.elapsed_s
+        if job.follow:
+            job.rotations = getattr(p, "rotations", job.rotations)
+            job.caught_up = getattr(p, "caught_up", job.caught_up)
+            job.mark(p.elapsed_s, p.values)
         if job.cancel.is_set():
             return
-        self._take(job, msg.sketches, state="scanning", note="")
+        self._take(job, msg.sketches, state="following" if job.follow else "scanning", note="")
 
     def on_scan_ended(self, msg: ScanEnded) -> None:
         job = msg.job
         job.done = True
         if msg.failed:
             self.say(f"{Path(job.source).name}: {msg.note}")
+        elif job.follow:
+            # Stopping is how a follow ends: what was read is a whole answer, not a partial one.
+            self._take(job, msg.sketches, state="ready", note=msg.note)
+            self.say(
+                f"{Path(job.source).name}: stopped following after {job.values:,} values"
+                + (f" ({msg.note})" if msg.note else "")
+            )
         else:
             state = "partial" if job.cancel.is_set() or "partial" in msg.note else "ready"
             self._take(job, msg.sketches, state=state, note=msg.note)
@@ -318,9 +405,15 @@ class OgiveApp(App[int]):
         self.refresh_all()
 
     def _take(self, job: ScanJob, sketches: dict[str, Sketch], *, state: str, note: str) -> None:
+        window = None
+        if job.recent is not None:
+            from ..read.follow import recent_name
+
+            window = recent_name(job.recent)
         for group, sketch in sketches.items():
             name = self._name_for(job, group, len(sketches))
-            order = (job.seq, list(job.names).index(group))
+            # The recent window's row goes last, so it is the subject held against all-time.
+            order = (job.seq, 1 << 30 if group == window else list(job.names).index(group))
             self.dists[name] = Distribution(
                 name, sketch, job.source, state=state, note=note, job=job, seq=order
             )
@@ -401,8 +494,11 @@ class OgiveApp(App[int]):
         subj = self.dists.get(self.subject or "")
         if subj is None or subj.sketch.count == 0:
             return
-        if force_fit or subj.state != "scanning":
+        if force_fit or subj.state not in ("scanning", "following"):
             self._start_fit()
+        elif subj.state == "following":
+            if not self._fit_busy and time.monotonic() >= self._fit_free_at:
+                self._start_fit()
         else:
             self.fit_note = "" if self.fit_report is not None else "the fit runs when the subject's scan ends"
         self._start_compare()
@@ -415,6 +511,8 @@ class OgiveApp(App[int]):
         if subj is None:
             return
         self._fit_busy, self._fit_pending = True, False
+        self._fit_at = time.monotonic()
+        self._fit_n = subj.sketch.count
         self.fit_worker(subj.sketch, self._generation, subj.name)
 
     @work(thread=True, exclusive=True, group="fit")
@@ -431,6 +529,8 @@ class OgiveApp(App[int]):
 
     def _fit_done(self, result: Any, note: str, generation: int) -> None:
         self._fit_busy = False
+        now = time.monotonic()
+        self._fit_free_at = now + max(FOLLOW_FIT_S, FOLLOW_FIT_DUTY * (now - self._fit_at))
         if generation == self._generation:
             self.fit_report, self.fit_note = result, note
             if self.reference is not None and self.reference.kind == "model" and result is not None:
@@ -480,7 +580,12 @@ class OgiveApp(App[int]):
         ref = self.reference
         if ref is not None and key == (self.subject, ref.name):
             self.comparison, self.compare_note = result, note
-            self.refresh_all()
+            if any(j.follow and not j.done for j in self.jobs):
+                # A follow brings a new comparison every tick: drawn with the next tick's
+                # refresh (one redraw per tick, not two; the screen is most of the cost).
+                self._dirty = True
+            else:
+                self.refresh_all()
         if self._compare_pending:
             self._start_compare()
 
@@ -513,6 +618,7 @@ class OgiveApp(App[int]):
         )
         plot = self._ws.query_one(PlotPanel)
         plot.waiting = any(not j.done for j in self.jobs)
+        plot.following = any(j.follow and not j.done for j in self.jobs)
         plot.set_inputs(subj, ref, ref_dist, self.comparison)
         self._show_models()
         self._show_ladder(subj, ref)
@@ -523,7 +629,9 @@ class OgiveApp(App[int]):
         if self.fit_report is not None:
             chosen = self.reference.name if self.reference and self.reference.kind == "model" else None
             table.show(self.fit_report, chosen)
-            table.border_subtitle = f"fitted to {self.subject}"
+            subj = self.dists.get(self.subject or "")
+            when = f" at n={fmt.count(self._fit_n)}" if subj is not None and subj.state == "following" else ""
+            table.border_subtitle = f"fitted to {self.subject}{when}"
         else:
             table.clear(columns=True)
             table.border_subtitle = "" if self.fit_note else "fitting…" if self._fit_busy else "no subject"
@@ -590,6 +698,8 @@ class OgiveApp(App[int]):
         )
 
     def save_to(self, path: str) -> None:
+        # A followed sketch is written as it stands now: the file goes on growing, so
+        # there is no "finished" to wait for (the CLI's scan --follow -o does the same).
         ready = {n: d.sketch for n, d in self.dists.items() if d.state != "scanning"}
         busy = [n for n, d in self.dists.items() if d.state == "scanning"]
         if not ready:
@@ -628,6 +738,16 @@ class OgiveApp(App[int]):
         for j in running:
             j.cancel.set()
         self.say(f"stopping {len(running)} scan(s)…" if running else "no scan is running.")
+
+    def action_stop_follow(self) -> None:
+        following = [j for j in self.jobs if j.follow and not j.done]
+        for j in following:
+            j.cancel.set()
+        self.say(
+            f"stopping: {', '.join(Path(j.source).name for j in following)} (what was read stays)…"
+            if following
+            else "nothing is being followed."
+        )
 
     def action_help(self) -> None:
         self.push_screen(KeyHelp(key_groups()))

@@ -41,6 +41,8 @@ class PlotPanel(Static):
         """What is on screen now (the export writes these)."""
         self.waiting = False
         """True while a scan runs that has not delivered values yet."""
+        self.following = False
+        """True while a growing file is followed: values come when lines are appended."""
 
     @property
     def title(self) -> str:
@@ -80,7 +82,9 @@ class PlotPanel(Static):
             return
         if self.subject is None:
             self.lines = []
-            if self.waiting:
+            if self.following:
+                self.update(notice("Following…", "The picture appears when the file has values (s stops)."))
+            elif self.waiting:
                 self.update(notice("Scanning…", "The picture appears as soon as the first values arrive."))
             else:
                 self.update(notice("No subject yet", "Press o to open a log or a sketch, then 1 on its row."))

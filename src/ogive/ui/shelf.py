@@ -57,6 +57,8 @@ class DistributionShelf(DataTable[str]):
             role = "S" if d.name == subject else "R" if d.name == reference else ""
             if d.state == "scanning":
                 role += "…"
+            elif d.state == "following":
+                role += "~"  # still growing: a followed file
             elif d.state in ("partial", "failed"):
                 role += "!"
             unit = f" {s.unit}" if s.unit else ""

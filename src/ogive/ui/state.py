@@ -8,6 +8,7 @@ screen and ``--json`` agree.
 from __future__ import annotations
 
 import threading
+from collections import deque
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
@@ -15,6 +16,8 @@ from ..read.options import ScanOptions
 from ..sketch import Sketch
 
 Role = Literal["subject", "reference"]
+RATE_MARKS = 10
+"""Ticks the follow rate is measured over: ~5 s at two ticks a second."""
 
 
 @dataclass
@@ -26,7 +29,7 @@ class Distribution:
     origin: str
     """The file the sketch was read or scanned from."""
     state: str = "ready"
-    """'scanning', 'ready', 'partial', 'failed'."""
+    """'scanning', 'following', 'ready', 'partial', 'failed'."""
     note: str = ""
     """Why a scan stopped early, or a warning the reader raised."""
     job: ScanJob | None = None
@@ -51,6 +54,23 @@ class ScanJob:
     done: bool = False
     names: dict[str, str] = field(default_factory=dict)
     """Distribution name given to each group of this scan, so every tick updates the same row."""
+    follow: bool = False
+    """The job follows a growing file until stopped, instead of reading it once."""
+    recent: str | None = None
+    """``--recent`` span of a follow (``5m``): its window sketch gets a row of its own."""
+    rotations: int = 0
+    """Rotations or truncations a follow has lived through."""
+    caught_up: bool = False
+    """A follow has read what was in the file when it began; now it waits for new lines."""
+    rate: float = 0.0
+    """Values per second over the last few seconds of a follow (what arrives now, not the backlog)."""
+    _marks: deque[tuple[float, int]] = field(default_factory=lambda: deque(maxlen=RATE_MARKS))
+
+    def mark(self, elapsed_s: float, values: int) -> None:
+        """Record a tick; the rate is taken over the oldest of the last few ticks (bounded)."""
+        self._marks.append((elapsed_s, values))
+        t0, v0 = self._marks[0]
+        self.rate = (values - v0) / (elapsed_s - t0) if elapsed_s > t0 else 0.0
 
     @property
     def rows_per_s(self) -> float:

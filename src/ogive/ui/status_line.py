@@ -1,4 +1,4 @@
-"""The one-line status at the bottom: scan progress (bytes, rows/s, ETA) or the last event."""
+"""The one-line status at the bottom: scan or follow progress (bytes, rows/s, ETA) or the last event."""
 
 from __future__ import annotations
 
@@ -33,6 +33,8 @@ class FeedStatus(Static):
     @staticmethod
     def describe(job: ScanJob) -> str:
         name = job.source.rsplit("/", 1)[-1]
+        if job.follow:
+            return FeedStatus.describe_follow(job, name)
         if job.bytes_total:
             pct = 100.0 * job.bytes_read / job.bytes_total
             done = f"{fmt.size(job.bytes_read)}/{fmt.size(job.bytes_total)} {pct:.0f}%"
@@ -41,6 +43,16 @@ class FeedStatus(Static):
         eta = job.eta_s
         tail = f" ETA {fmt.duration(eta)}" if eta is not None else ""
         return f"scanning {name}: {done}, {fmt.count(job.rows_per_s)} rows/s{tail}"
+
+    @staticmethod
+    def describe_follow(job: ScanJob, name: str) -> str:
+        """Values, what arrives now (a rate over the last seconds), rotations, the stop key."""
+        if not job.caught_up:
+            return f"following {name}: reading what is already there, {fmt.size(job.bytes_read)}… (s stops)"
+        turns = f", {job.rotations} rotation{'s' if job.rotations != 1 else ''}" if job.rotations else ""
+        return (
+            f"following {name}: {fmt.count(job.values)} values, {fmt.count(job.rate)}/s now{turns} (s stops)"
+        )
 
     def watch_message(self, value: str) -> None:
         self._show(value or "ready")
