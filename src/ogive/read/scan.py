@@ -166,7 +166,7 @@ def scan(
                                 )
                                 state.ready(df)
                                 job.done = state.prepare(df, src.display, 0)
-                                _lines_in(job.done, data)
+                                _lines_in(job.done, data, layout.format)
                             else:
                                 job.future = pool.submit(state.parse_and_prepare, data, src.display)
                         pending.append(job)
@@ -219,12 +219,12 @@ def scan(
     return state.finish(time.monotonic() - start)
 
 
-def _lines_in(p: _Prepared, data: bytes) -> None:
+def _lines_in(p: _Prepared, data: bytes, fmt: str) -> None:
     """Set the lines a chunk spans: more than its rows when quoted CSV fields hold
     newlines, and then each record's first line too, so bad rows are reported where an
     editor shows them. Looked at only when the chunk has a quote at all."""
     p.lines = p.rows
-    if b'"' not in data:
+    if fmt not in ("csv", "tsv") or b'"' not in data:  # other formats: one record per line
         return
     lines = data.count(b"\n") + (0 if data.endswith(b"\n") else 1)
     if lines <= p.rows:
@@ -476,7 +476,7 @@ class _State:
         df, held = self.layout.parse(data, numeric=self.numeric, literal_quotes=self.literal_quotes)
         self.numeric = self.numeric and held
         prepared = self.prepare(df, display, 0)
-        _lines_in(prepared, data)
+        _lines_in(prepared, data, self.layout.format)
         return prepared
 
     def ready(self, df: pl.DataFrame) -> None:
