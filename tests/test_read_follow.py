@@ -97,6 +97,8 @@ def test_recent_slices_expire_on_the_arrival_clock() -> None:
     clock.t += 30
     w.add(np.array([10.0]))
     assert w.sketch().count == 4
+    # Younger than its span: it covers from the first value's slice to now, not a full minute.
+    assert w.covered() == (1_000_000e6, 1_000_030e6)
     clock.t += 35  # the first batch is now 65 s old: out; the second 35 s: in
     assert w.sketch().count == 1
     assert float(w.sketch().quantile(0.5)) == 10.0

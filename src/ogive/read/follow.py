@@ -87,6 +87,8 @@ class RecentWindow:
         self.clock = clock
         self._ring: dict[int, Sketch] = {}
         self._newest_k: int | None = None
+        self._first_k: int | None = None
+        """The first slice that ever got a value: a window younger than its span says so."""
         self.record_time = False
         """True once values came with their own times (then the clock is not used)."""
         self.too_old = 0
@@ -114,6 +116,8 @@ class RecentWindow:
 
     def _slice(self, k: int) -> Sketch:
         s = self._ring.get(k)
+        if self._first_k is None or k < self._first_k:
+            self._first_k = k
         if s is None:
             s = Sketch(self.unit, compression=self.compression, tail_size=self.tail_size)
             self._ring[k] = s
@@ -156,13 +160,14 @@ class RecentWindow:
     def covered(self) -> tuple[float, float] | None:
         """(start, end) in epoch microseconds of what the window holds; None before any value.
 
-        Start is the beginning of the oldest slice the window can hold; end is now on the
-        arrival clock, or the end of the newest slice on record time.
+        Start is the beginning of the oldest slice the window can hold, or of the first
+        slice that ever got a value when following began more recently than one span ago;
+        end is now on the arrival clock, or the end of the newest slice on record time.
         """
         self.expire()
-        if self._newest_k is None:
+        if self._newest_k is None or self._first_k is None:
             return None
-        start = (self._newest_k - self.slices + 1) * self.width_us
+        start = max(self._newest_k - self.slices + 1, self._first_k) * self.width_us
         end = (self._newest_k + 1) * self.width_us
         if not self.record_time:
             end = min(end, self._now_us())
