@@ -165,3 +165,36 @@ def test_view_follow_arguments_fail_in_one_line(tmp_path: Path) -> None:
         assert out.returncode == 3, out.stderr
         assert message in out.stderr and "Traceback" not in out.stderr
         assert len(out.stderr.strip().splitlines()) == 1
+
+
+class _Clock:
+    """Wall-clock seconds the test moves by hand: the window empties with no real waiting."""
+
+    def __init__(self) -> None:
+        self.t = 2_000_000_000.0
+
+    def __call__(self) -> float:
+        return self.t
+
+
+async def test_a_quiet_log_empties_the_recent_row_without_stale_numbers(tmp_path: Path) -> None:
+    log = tmp_path / "quiet.log"
+    log.write_text("")
+    clock = _Clock()
+    app = OgiveApp([str(log)], OPTIONS, follow=True, recent="1m", families=FAST, clock=clock)
+    async with app.run_test(size=(80, 24)) as pilot:
+        job = app.jobs[0]
+        await _until(pilot, lambda: job.caught_up, "catching up on the empty file")
+        _append(log, np.arange(1.0, 201.0))
+        await _until(
+            pilot,
+            lambda: "quiet:recent-1m" in app.dists and app.dists["quiet:recent-1m"].sketch.count == 200,
+            "the appended lines in the window",
+        )
+        await _until(pilot, lambda: app.comparison is not None, "a comparison of window and all-time")
+        clock.t += 120  # two quiet minutes
+        await _until(pilot, lambda: app.dists["quiet:recent-1m"].sketch.count == 0, "the window emptying")
+        assert app.dists["quiet:all"].sketch.count == 200
+        await _until(pilot, lambda: app.comparison is None, "the stale comparison going")
+        await _until(pilot, lambda: "quiet:recent-1m: no values" in screen_text(app), "the empty notice")
+        assert "— ms" not in screen_text(app)

@@ -10,7 +10,7 @@ keys are handled while a multi-GB file streams.
 from __future__ import annotations
 
 import time
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any, ClassVar
 
@@ -160,6 +160,7 @@ class OgiveApp(App[int]):
         families: Sequence[str] | None = None,
         follow: bool = False,
         recent: str | None = None,
+        clock: Callable[[], float] = time.time,
     ) -> None:
         super().__init__()
         self.initial_sources = list(sources)
@@ -167,6 +168,8 @@ class OgiveApp(App[int]):
         """Logs named on the command line are followed as they grow instead of read once."""
         self.recent = recent
         """``--recent`` span for followed logs: a window sketch of its own beside the all-time one."""
+        self.clock = clock
+        """Wall clock of the recent window's arrival times (a test moves it by hand)."""
         self._fit_at = 0.0
         self._fit_n = 0
         """Values in the subject when the fit on screen was started (it may have grown since)."""
@@ -350,7 +353,7 @@ class OgiveApp(App[int]):
             self.post_message(ScanTick(job, p, copies))
 
         try:
-            window = recent_window(job.recent, job.options) if job.recent else None
+            window = recent_window(job.recent, job.options, clock=self.clock) if job.recent else None
             window_name = window.name if window is not None else None
             result, rotations = follow(
                 job.source,
@@ -492,6 +495,8 @@ class OgiveApp(App[int]):
     # ------------------------------------------------------------------ analysis
     def request_analysis(self, *, force_fit: bool = False) -> None:
         subj = self.dists.get(self.subject or "")
+        if subj is not None and subj.sketch.count == 0 and subj.state == "following":
+            self.comparison = None  # a recent window that emptied: no stale ladder beside it
         if subj is None or subj.sketch.count == 0:
             return
         if force_fit or subj.state not in ("scanning", "following"):

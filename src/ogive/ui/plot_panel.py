@@ -89,6 +89,17 @@ class PlotPanel(Static):
             else:
                 self.update(notice("No subject yet", "Press o to open a log or a sketch, then 1 on its row."))
             return
+        if self.following and self.subject.sketch.count == 0:
+            # A followed row with nothing yet, or a recent window that emptied while the log was quiet.
+            self.lines = []
+            self.update(
+                notice(
+                    f"{self.subject.name}: no values",
+                    "Nothing has arrived within its span yet, or lately. New lines show within a "
+                    "second; 1 on another row changes the subject.",
+                )
+            )
+            return
         try:
             self.lines = picture.draw(
                 self.kind,

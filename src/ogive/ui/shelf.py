@@ -61,7 +61,7 @@ class DistributionShelf(DataTable[str]):
                 role += "~"  # still growing: a followed file
             elif d.state in ("partial", "failed"):
                 role += "!"
-            unit = f" {s.unit}" if s.unit else ""
+            unit = f" {s.unit}" if s.unit and s.count else ""  # no "— ms" for an empty row
             self.add_row(
                 role,
                 d.name,
