@@ -42,6 +42,8 @@ REFRESH_S = 0.5
 """Screen refresh while data streams: about twice a second."""
 FOLLOW_POLL_S = 0.1
 """How often a followed file is asked for new lines when it has none."""
+IDLE_TICK_S = 2.0
+"""A follow with nothing new still refreshes the screen this often."""
 FOLLOW_FIT_S = 30.0
 """A followed subject is refitted at most this often after the last fit ended, and never
 sooner than FOLLOW_FIT_DUTY times that fit's own length: a fit of every family takes
@@ -117,7 +119,7 @@ class OgiveApp(App[int]):
     | 1 | (Distributions) make the highlighted row the subject. |
     | 2 | (Distributions) make it the reference; (Models) make the highlighted model the reference. |
     | tab | Move between the lists. |
-    | w | Write all finished sketches to a .ogive file. |
+    | w | Write all finished sketches (followed ones as they stand) to a .ogive file. |
     | e | Export a report of the screen (Markdown and JSON). |
     | x | Stop every running scan (what was read stays, marked partial). |
     | s | Stop following the growing file (what was read stays, ready). |
@@ -345,8 +347,25 @@ class OgiveApp(App[int]):
             return job.cancel.is_set() or worker.is_cancelled
 
         window_name = None
+        last: tuple[object, ...] = ()
 
         def progress(p: ScanProgress) -> None:
+            nonlocal last
+            # A quiet log sends the same figures every tick: redrawing them would cost a
+            # third of a core for nothing. Skip until values, the window, rotations or the
+            # catching-up change, or IDLE_TICK_S passed (so the rate can fall to 0/s).
+            window = p.sketches.sketches.get(window_name or "")
+            now = (
+                p.rows,
+                p.values,
+                window.count if window is not None else -1,
+                getattr(p, "rotations", 0),
+                getattr(p, "caught_up", False),
+                int(p.elapsed_s // IDLE_TICK_S),
+            )
+            if now == last:
+                return
+            last = now
             copies = {
                 name: s if name == window_name else snapshot(s) for name, s in p.sketches.sketches.items()
             }
@@ -379,7 +398,10 @@ class OgiveApp(App[int]):
         job.rows, job.values, job.elapsed_s = p.rows, p.values, p.elapsed_s
         if job.follow:
             job.rotations = getattr(p, "rotations", job.rotations)
+            was = job.caught_up
             job.caught_up = getattr(p, "caught_up", job.caught_up)
+            if job.caught_up and not was:
+                job.restart_rate()
             job.mark(p.elapsed_s, p.values)
         if job.cancel.is_set():
             return

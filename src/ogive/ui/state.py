@@ -66,6 +66,11 @@ class ScanJob:
     """Values per second over the last few seconds of a follow (what arrives now, not the backlog)."""
     _marks: deque[tuple[float, int]] = field(default_factory=lambda: deque(maxlen=RATE_MARKS))
 
+    def restart_rate(self) -> None:
+        """Forget the ticks so far (the backlog's read rate is not what arrives now)."""
+        self._marks.clear()
+        self.rate = 0.0
+
     def mark(self, elapsed_s: float, values: int) -> None:
         """Record a tick; the rate is taken over the oldest of the last few ticks (bounded)."""
         self._marks.append((elapsed_s, values))
