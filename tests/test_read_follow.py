@@ -206,3 +206,41 @@ def test_recent_width_errors_are_one_sentence() -> None:
     with pytest.raises(OgiveError, match=r"--recent '5x' is not a positive number"):
         recent_window("5x", ScanOptions())
     assert recent_name(" 5m ") == "recent-5m"
+
+
+def test_scan_follow_recent_saves_the_window_as_its_own_sketch(tmp_path: Path) -> None:
+    import signal
+    import subprocess
+    import sys
+
+    from ogive.store import load_sketches
+
+    log, out = tmp_path / "app.log", tmp_path / "live.ogive"
+    log.write_text("".join(f"dur={v}ms\n" for v in range(1, 101)))  # the backlog
+    cmd = [sys.executable, "-m", "ogive", "scan", "--follow", str(log), "--pattern", r"dur=(\S+)"]
+    proc = subprocess.Popen(
+        [*cmd, "--recent", "1m", "-o", str(out)], stderr=subprocess.PIPE, stdout=subprocess.PIPE, text=True
+    )
+    try:
+        deadline = time.monotonic() + 20
+        assert proc.stderr is not None
+        first = proc.stderr.readline()  # the first live line: the backlog has been read
+        assert "following" in first and "values" in first and time.monotonic() < deadline
+        with open(log, "a") as fh:
+            fh.write("".join(f"dur={v}ms\n" for v in range(500, 530)))
+        line = first
+        while "last 1m p50" not in line and time.monotonic() < deadline:
+            line = proc.stderr.readline()
+        assert "130 values" in line and "all-time p50" in line and "last 1m p50" in line
+        proc.send_signal(signal.SIGINT)
+        proc.communicate(timeout=20)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert proc.returncode == 0
+    saved = load_sketches(str(out))
+    assert saved.names() == ["all", "recent-1m"]
+    assert saved["all"].count == 130
+    window = saved["recent-1m"]  # only what was appended while followed
+    assert window.count == 30 and list(window.quantile([0.0, 1.0])) == [500.0, 529.0]
+    assert window.provenance.time_first is not None and window.provenance.time_last is not None
