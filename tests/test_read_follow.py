@@ -244,3 +244,31 @@ def test_scan_follow_recent_saves_the_window_as_its_own_sketch(tmp_path: Path) -
     window = saved["recent-1m"]  # only what was appended while followed
     assert window.count == 30 and list(window.quantile([0.0, 1.0])) == [500.0, 529.0]
     assert window.provenance.time_first is not None and window.provenance.time_last is not None
+
+
+def test_follow_holds_a_quoted_record_until_it_is_complete(tmp_path: Path) -> None:
+    """A CSV record whose quoted field spans lines is read whole, even when the writer
+    has only written half of it when the follower looks (RFC 4180 quoting)."""
+    log = tmp_path / "q.csv"
+    log.write_text('id,note,latency_ms\n1,"first\nsecond",10\n2,"half of it\n')
+    step = {"n": 0}
+
+    def stop() -> bool:
+        step["n"] += 1
+        if step["n"] == 5:
+            with open(log, "a") as fh:
+                fh.write('and the rest",20\n3,plain,bad\n4,x,40\n')
+        return step["n"] > 40
+
+    result, _ = follow(str(log), ScanOptions(column="latency_ms"), cancel=stop, poll_s=0.01)
+    s = result.sketches["all"]
+    assert s.count == 3 and sorted(s.quantile([0.0, 0.5, 1.0])) == [10.0, 20.0, 40.0]
+    # The bad row is reported on the line it is on in an editor (line 6).
+    assert result.skipped["not_a_number"].examples == [f"{log}:6"]
+
+
+def test_follow_refuses_windows_that_would_grow_without_end(tmp_path: Path) -> None:
+    log = tmp_path / "w.csv"
+    log.write_text("ts,latency_ms\n2026-03-04T10:00:00Z,1\n")
+    with pytest.raises(OgiveError, match="--recent"):
+        follow(str(log), ScanOptions(column="latency_ms", time_field="ts", window="1m"), cancel=lambda: True)

@@ -26,9 +26,9 @@ from numpy.typing import NDArray
 
 from ..errors import OgiveError
 from ..sketch import DEFAULT_COMPRESSION, DEFAULT_TAIL, Sketch
-from . import records, times
+from . import records, sources, times
 from .options import ScanOptions, ScanProgress, ScanResult
-from .scan import TOO_LONG, _State
+from .scan import TOO_LONG, _lines_in, _State
 
 DEFAULT_SLICES = 12
 """Slices per recent window: the window's edge moves in steps of 1/12 of its width
@@ -266,6 +266,15 @@ class _Follower:
         self.state.bytes_seen += len(data)
         buf = self.carry + data
         cut = buf.rfind(b"\n")
+        mode = self.state.cutting()
+        if cut >= 0 and mode != sources.LINES and b'"' in buf:
+            # A CSV record may hold quoted newlines: cut after the last whole record
+            # (``buf`` starts on a record boundary), as the one-pass reader does.
+            record = sources.record_end(buf)
+            if record >= 0:
+                cut = record
+            elif mode == sources.CSV and len(buf) <= max(4 * self.state.chunk_size(), 1 << 20):
+                cut = -1  # inside a quoted field that is still being written
         if cut < 0:
             self.carry = buf
             if len(buf) > self.options.max_line_bytes:
@@ -293,13 +302,14 @@ class _Follower:
         self.header_pending = False
         if not chunk:
             return
-        df, held = layout.parse(chunk, numeric=state.numeric)
+        df, held = layout.parse(chunk, numeric=state.numeric, literal_quotes=state.literal_quotes)
         state.numeric = state.numeric and held
         # ``_State.feed`` in two steps, so the rows it kept can go to the recent window too.
         state.ready(df)
         prepared = state.prepare(df, self.path, self.next_line)
+        _lines_in(prepared, chunk, layout.format)
         state.commit(prepared)
-        self.next_line += df.height
+        self.next_line += prepared.lines
         self._to_recent(prepared.values, prepared.ok, prepared.tus)
 
     def _to_recent(
@@ -368,6 +378,12 @@ def follow(
     """
     if path == "-":
         raise ValueError("follow needs a file path; standard input is read to its end by a plain scan.")
+    if options.window is not None:
+        # One sketch per window would grow without end while following.
+        raise OgiveError(
+            "--window makes one sketch per window, without end while following; "
+            "use --recent DURATION to keep the last minutes instead."
+        )
     f = _Follower(path, options, recent)
     start = time.monotonic()
     last_update = start
