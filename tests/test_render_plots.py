@@ -235,6 +235,17 @@ def test_tick_steps_are_1_2_5() -> None:
     assert {round(t.value / 10 ** math.floor(math.log10(t.value))) for t in log if not t.major} == {2, 5}
 
 
+def test_short_log_axis_over_a_decade_keeps_several_labels() -> None:
+    """A 9-row axis over 1.5-50 ms: 1-2-5 everywhere does not fit, but the decade and
+    the 5s and 2s that do must be labelled, not only the top value."""
+    fmt = lambda v, d: format_value(v, "ms", digits=d)  # noqa: E731
+    ticks = choose_ticks(Scale("log", 1.5, 50.0), 9, fmt, horizontal=False)
+    values = [t.value for t in ticks if t.major]
+    assert 10.0 in values and len(values) >= 3
+    cells = np.round(np.array([t.position for t in ticks]) * 8)
+    assert np.all(np.diff(cells) >= 2)  # one free row between labels
+
+
 def test_time_labels_read_as_spoken() -> None:
     assert format_value(250, "ms") == "250ms"
     assert format_value(1500, "ms") == "1.5s"

@@ -271,6 +271,18 @@ def choose_ticks(
                 if len(major) >= 2 and fits(major, distinct_labels(major, fmt)):
                     minor = [v for v in decades if v not in major]
                     return sorted(build(major) + build(minor, major=False), key=lambda t: t.position)
+        # 1-2-5 everywhere does not fit (a short axis over a decade or two): add them by
+        # importance, decades first, keeping each that still fits. Linear steps would
+        # crowd the top of a log axis and leave one label (a 9-row axis over 1.5-50 ms
+        # showed only "50ms").
+        chosen: list[float] = []
+        for mant in ((1,), (5,), (2,), (3,), (7,)):
+            for v in _log_candidates(scale.lo, scale.hi, mant):
+                trial = sorted([*chosen, v])
+                if fits(trial, distinct_labels(trial, fmt)):
+                    chosen = trial
+        if len(chosen) >= 2:
+            return build(chosen)
         # Less than a decade shown: 1-2-5 steps placed on the log axis.
     for max_ticks in range(max(length // 2, 2), 0, -1):
         cands = _linear_candidates(scale.lo, scale.hi, max_ticks)

@@ -140,7 +140,7 @@ class OgiveApp(App[int]):
         Binding("c", "pane('ladder')", "Ladder"),
         Binding("v", "cycle_kind(1)", "View"),
         Binding("V", "cycle_kind(-1)", "Prev view", show=False),
-        Binding("l", "toggle_log", "Axes"),
+        Binding("l", "toggle_log", "Axes", show=False),  # in the key overlay; the footer must fit 80 columns
         Binding("w", "save", "Write", show=False),
         Binding("e", "export", "Export", show=False),
         Binding("x", "stop_scans", "Stop", show=False),
