@@ -92,3 +92,15 @@ def test_quantile_lines_names_min_and_max() -> None:
     sset, _ = _small_set()
     lines = quantile_lines(summarise(sset, qs=[0.0, 0.5, 0.999, 1.0]))
     assert lines[0].split() == ["sketch", "n", "min", "p50", "p99.9", "max"]
+
+
+def test_time_line_says_which_sketches_it_covers() -> None:
+    a, b = Sketch("ms"), Sketch("ms")
+    a.add([1.0, 2.0])
+    b.add([3.0])
+    b.provenance.time_first, b.provenance.time_last = "2026-03-04T10:00:00Z", "2026-03-04T10:05:00Z"
+    lines = summary_lines(summarise(SketchSet({"all": a, "recent-5m": b})))
+    assert "time: 2026-03-04T10:00:00Z to 2026-03-04T10:05:00Z (recent-5m only)" in lines
+    a.provenance.time_first, a.provenance.time_last = "2026-03-04T09:00:00Z", "2026-03-04T10:05:00Z"
+    lines = summary_lines(summarise(SketchSet({"all": a, "recent-5m": b})))
+    assert "time: 2026-03-04T09:00:00Z to 2026-03-04T10:05:00Z" in lines

@@ -230,10 +230,14 @@ def _describe(summary: SetSummary) -> list[str]:
     if lines:
         bits.append(f"lines read: {lines:,}")
     out.append("   ".join(bits))
-    firsts = [s.time_first for s in summary.sketches if s.time_first]
-    lasts = [s.time_last for s in summary.sketches if s.time_last]
-    if firsts and lasts:
-        out.append(f"time: {min(firsts)} to {max(lasts)}")
+    timed = [s for s in summary.sketches if s.time_first and s.time_last]
+    if timed:
+        line = f"time: {min(s.time_first or '' for s in timed)} to {max(s.time_last or '' for s in timed)}"
+        if len(timed) < len(summary.sketches):
+            # e.g. a followed log without --time-field: only the recent window has a span,
+            # and it must not read as the span of the whole file.
+            line += f" ({', '.join(s.name for s in timed[:3])}{', ...' if len(timed) > 3 else ''} only)"
+        out.append(line)
     return out
 
 

@@ -275,14 +275,14 @@ def choose_ticks(
         # importance, decades first, keeping each that still fits. Linear steps would
         # crowd the top of a log axis and leave one label (a 9-row axis over 1.5-50 ms
         # showed only "50ms").
-        chosen: list[float] = []
+        picked: list[float] = []
         for mant in ((1,), (5,), (2,), (3,), (7,)):
             for v in _log_candidates(scale.lo, scale.hi, mant):
-                trial = sorted([*chosen, v])
+                trial = sorted([*picked, v])
                 if fits(trial, distinct_labels(trial, fmt)):
-                    chosen = trial
-        if len(chosen) >= 2:
-            return build(chosen)
+                    picked = trial
+        if len(picked) >= 2:
+            return build(picked)
         # Less than a decade shown: 1-2-5 steps placed on the log axis.
     for max_ticks in range(max(length // 2, 2), 0, -1):
         cands = _linear_candidates(scale.lo, scale.hi, max_ticks)
