@@ -7,8 +7,6 @@ with the data (the groups met so far), and that growth is what the caps bound.
 
 from __future__ import annotations
 
-import itertools
-
 import numpy as np
 import polars as pl
 from numpy.typing import NDArray
@@ -32,7 +30,7 @@ class Router:
         self.by_time = self.split_us is not None or self.window_us is not None
         """Rows without a readable time belong to no sketch."""
         self.groups: dict[str, str] = {}
-        self.overflow: set[str] = set()
+        self.overflow = pl.Series([], dtype=pl.String)
         """Values that got no sketch of their own (at most ``OVERFLOW_KEPT``, for the count)."""
         self._known = pl.Series([], dtype=pl.String)
 
@@ -83,7 +81,7 @@ class Router:
         if len(self.groups) < o.max_groups:
             fresh = keys.unique(maintain_order=True)
             if self.groups:
-                fresh = fresh.filter(~fresh.is_in(self._known))
+                fresh = fresh.filter(~fresh.is_in(self._known.implode()))
             for key in fresh.head(o.max_groups - len(self.groups)).to_list():
                 self.groups[key] = f"{o.by}={key}"
             self._known = pl.Series(list(self.groups), dtype=pl.String)
@@ -92,20 +90,20 @@ class Router:
         codes = keys.replace_strict(
             self._known, pl.Series(np.arange(other, dtype=np.int64)), default=other, return_dtype=pl.Int64
         ).to_numpy()
-        if len(self.overflow) < OVERFLOW_KEPT and (codes == other).any():
+        if self.overflow.len() < OVERFLOW_KEPT and (codes == other).any():
             rest = keys.filter(pl.Series(codes == other)).unique()
-            self.overflow.update(rest.to_list())  # some may be known already: add all, then trim
-            if len(self.overflow) > OVERFLOW_KEPT:
-                self.overflow = set(itertools.islice(self.overflow, OVERFLOW_KEPT))
+            rest = rest.filter(~rest.is_in(self.overflow.implode()))
+            room = OVERFLOW_KEPT - self.overflow.len()
+            self.overflow = pl.concat([self.overflow, rest.head(room)])
         return labels, codes
 
     def overflow_warning(self) -> str | None:
-        if not self.overflow:
+        if not self.overflow.len():
             return None
         o = self.options
-        more = "+" if len(self.overflow) >= OVERFLOW_KEPT else ""
+        more = "+" if self.overflow.len() >= OVERFLOW_KEPT else ""
         return (
-            f"--by {o.by}: more than {o.max_groups} distinct values; {len(self.overflow)}{more} further "
+            f"--by {o.by}: more than {o.max_groups} distinct values; {self.overflow.len()}{more} further "
             f"values share the group {o.by}={OTHER} (raise --max-groups to keep them apart)."
         )
 
