@@ -265,16 +265,10 @@ class _Follower:
             return False
         self.state.bytes_seen += len(data)
         buf = self.carry + data
-        cut = buf.rfind(b"\n")
-        mode = self.state.cutting()
-        if cut >= 0 and mode != sources.LINES and b'"' in buf:
-            # A CSV record may hold quoted newlines: cut after the last whole record
-            # (``buf`` starts on a record boundary), as the one-pass reader does.
-            record = sources.record_end(buf)
-            if record >= 0:
-                cut = record
-            elif mode == sources.CSV and len(buf) <= max(4 * self.state.chunk_size(), 1 << 20):
-                cut = -1  # inside a quoted field that is still being written
+        # A CSV record may hold quoted newlines (or be half written): cut after the last
+        # whole record, as the one-pass reader does; ``buf`` starts on a record boundary.
+        limit = sources.hold_limit(self.state.chunk_size(), self.options.max_line_bytes)
+        cut = sources.last_cut(buf, self.state.cutting(), may_hold=len(buf) <= limit)
         if cut < 0:
             self.carry = buf
             if len(buf) > self.options.max_line_bytes:

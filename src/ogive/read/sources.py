@@ -272,6 +272,27 @@ def record_end(data: bytes, open_quote: bool = False) -> int:
     return cut
 
 
+def hold_limit(chunk: int, max_line_bytes: int) -> int:
+    """Bytes an unfinished quoted CSV record may take before its quotes are taken to be
+    unbalanced (a stray ``"``) and the input is cut at a newline anyway."""
+    return min(max_line_bytes, max(4 * chunk, 1 << 20))
+
+
+def last_cut(data: bytes, mode: str, *, open_quote: bool = False, may_hold: bool = True) -> int:
+    """Where to end a chunk: the index of its last record-ending newline, or -1 to wait
+    for more bytes. In CSV mode a chunk whose every newline lies inside a quoted field is
+    held (``may_hold``) until the field closes; otherwise it is cut at its last newline
+    and the parser reads the quotes as it can."""
+    cut = data.rfind(b"\n")
+    if cut >= 0 and mode != LINES and (open_quote or b'"' in data):
+        record = record_end(data, open_quote)
+        if record >= 0:
+            return record
+        if mode == CSV and may_hold:
+            return -1
+    return cut
+
+
 def chunks(
     src: Opened,
     chunk_bytes: Callable[[], int],
@@ -307,13 +328,9 @@ def chunks(
             data = data[nl + 1 :]
             skipping = False
         mode = cutting()
-        cut = data.rfind(b"\n")
-        if cut >= 0 and mode != LINES and (open_quote or b'"' in data):
-            record = record_end(data, open_quote)
-            if record >= 0:
-                cut = record
-            elif mode == CSV and held + len(data) <= min(max_line_bytes, max(4 * size, 1 << 20)):
-                cut = -1  # inside a quoted field: hold on until it closes
+        cut = last_cut(
+            data, mode, open_quote=open_quote, may_hold=held + len(data) <= hold_limit(size, max_line_bytes)
+        )
         if cut < 0:
             parts.append(data)
             held += len(data)
