@@ -231,7 +231,7 @@ def _lines_in(p: _Prepared, data: bytes, fmt: str) -> None:
         return
     a = np.frombuffer(data, dtype=np.uint8)
     newlines = np.flatnonzero(a == 0x0A)
-    quotes_before = np.cumsum(a == 0x22)[newlines]
+    quotes_before = np.searchsorted(np.flatnonzero(a == 0x22), newlines)  # no 8x cumsum buffer
     ends = np.flatnonzero((quotes_before & 1) == 0)  # line numbers (0-based) ending a record
     starts = np.concatenate(([0], ends + 1))[: p.rows]
     if starts.size == p.rows:
