@@ -77,6 +77,28 @@ def test_follow_waits_for_the_file_and_reads_a_last_line_without_newline(tmp_pat
     assert sorted(result.sketches["all"].quantile([0.0, 0.5, 1.0])) == [3.0, 4.0, 5.0]
 
 
+def test_a_file_that_appears_later_has_no_backlog(tmp_path: Path) -> None:
+    """Everything in a file created after following began is new: it all belongs in the
+    recent window (the first read once it appears is not a backlog to leave out)."""
+    log = tmp_path / "late.log"
+
+    def writer() -> None:
+        time.sleep(0.1)
+        log.write_text("dur=3ms\ndur=4ms\n")
+
+    t = threading.Thread(target=writer)
+    t.start()
+    start = time.monotonic()
+    options = ScanOptions(pattern=r"dur=(\d+)")
+    recent = recent_window("5m", options)
+    result, _ = follow(
+        str(log), options, cancel=lambda: time.monotonic() - start > 0.6, poll_s=0.02, recent=recent
+    )
+    t.join()
+    assert result.sketches["all"].count == 2
+    assert result.sketches[recent.name].count == 2
+
+
 # ---------------------------------------------------------------- the recent window
 
 

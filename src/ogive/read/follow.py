@@ -246,6 +246,9 @@ class _Follower:
         try:
             self.fh = open(self.path, "rb")  # noqa: SIM115 - kept open across polls
         except FileNotFoundError:
+            # Whatever the file holds once it appears was written after following began:
+            # there is no backlog to keep out of the recent window.
+            self.caught_up = True
             return False
         self.inode = os.fstat(self.fh.fileno()).st_ino
         self.carry, self.next_line, self.header_pending = b"", 1, True
