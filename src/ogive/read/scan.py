@@ -351,9 +351,6 @@ class _State:
         self.unit: str | None = None
         self.time_format = options.time_format
         self.router = Router(options)
-        r = self.router
-        self.split_us, self.window_us, self.by_time = r.split_us, r.window_us, r.by_time
-        """``by_time``: rows are routed by their timestamp, so a row without one has no sketch."""
         self.suffixed = 0
         self.unsuffixed = 0
         self.times: dict[str, list[float]] = {}
@@ -502,7 +499,7 @@ class _State:
             fmt = fmt or times.detect_format(tcol)
             tus = times.parse_times(tcol, fmt) if fmt is not None else np.full(n, np.nan)
             bad_t = ~np.isfinite(tus)
-            if self.by_time:
+            if self.router.by_time:
                 bt = bad_t & ok
                 if bt.any():
                     reasons[BAD_TIMESTAMP] = bt
@@ -543,7 +540,7 @@ class _State:
             first = min((int(np.argmax(m)), r) for r, m in p.reasons.items())
             self._strict(first[1], f"{p.display}:{p.first_line + self._line(first[0])}")
         names = self.router.route(p.rows, p.groups, p.tus)
-        if self.window_us is not None and p.tus is not None:
+        if self.router.window_us is not None and p.tus is not None:
             # Rows without a readable time fall in no window: counted in the result only.
             timeless = np.flatnonzero(~np.isfinite(p.tus))
             for reason, count, examples in self._reasons_of(p.reasons, timeless, p.display, p.first_line):
@@ -773,7 +770,7 @@ class _State:
         if self.unit is None:
             self.unit = values.canonical_unit(o.unit) if o.unit else (o.input_unit or "")
         if not self.sketches:
-            if self.split_us is not None:
+            if self.router.split_us is not None:
                 for half in ("before", "after"):
                     self.sketch(half)
             elif not o.by:
@@ -810,7 +807,7 @@ class _State:
             )
         unowned = {r: t for r, t in self.skipped.items() if r in (TOO_LONG, BAD_TIMESTAMP)}
         for reason, tally in unowned.items():
-            if self.by_time or (o.by and reason == TOO_LONG):
+            if self.router.by_time or (o.by and reason == TOO_LONG):
                 self.warnings.append(
                     f"{tally.count} lines could not be given to any sketch ({reason}), first at "
                     f"{', '.join(tally.examples)}."
