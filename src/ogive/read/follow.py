@@ -26,6 +26,7 @@ from numpy.typing import NDArray
 
 from ..errors import OgiveError
 from ..sketch import DEFAULT_COMPRESSION, DEFAULT_TAIL, Sketch
+from ..sketch.units import span_seconds
 from . import records, sources, times
 from .options import ScanOptions, ScanProgress, ScanResult
 from .scan import TOO_LONG, _lines_in, _State
@@ -201,14 +202,11 @@ def recent_window(text: str, options: ScanOptions, *, clock: Callable[[], float]
 
     One line for a width that cannot be read (OgiveError), never a traceback.
     """
-    try:
-        span = times.window_width_us(text)
-    except OgiveError:
-        raise OgiveError(
-            f"--recent {text!r} is not a positive number with s, m, h or d, such as 5m."
-        ) from None
+    seconds = span_seconds(text)
+    if seconds is None or seconds <= 0:
+        raise OgiveError(f"--recent {text!r} is not a positive number with s, m, h or d, such as 5m.")
     return RecentWindow(
-        span,
+        seconds * 1e6,
         name=recent_name(text),
         compression=options.compression,
         tail_size=options.tail_size,

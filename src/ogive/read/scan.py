@@ -26,7 +26,6 @@ from numpy.typing import NDArray
 
 from ..errors import OgiveError
 from ..sketch import Sketch, SketchSet, SkipTally
-from ..sketch.digest import MAX_COMPRESSION
 from ..sketch.sketch import EXAMPLES_KEPT
 from . import records, sources, times, values
 from .options import ScanOptions, ScanProgress, ScanResult
@@ -81,19 +80,6 @@ def scan(
     """
     if not sources_:
         raise OgiveError("no source given; name a file, or '-' for standard input.")
-    if not 10 <= options.compression <= MAX_COMPRESSION:
-        raise OgiveError(
-            f"--compression must lie between 10 and {MAX_COMPRESSION:g}, got {options.compression:g}."
-        )
-    if (options.chunk_bytes is not None and options.chunk_bytes < 1) or options.max_groups < 1:
-        raise OgiveError("chunk_bytes and max_groups must be at least 1.")
-    if options.split_at is not None and not options.time_field:
-        raise OgiveError("--split-at needs --time-field, the column or field holding each record's time.")
-    if options.window is not None:
-        if not options.time_field:
-            raise OgiveError("--window needs --time-field, the column or field holding each record's time.")
-        if options.by or options.split_at is not None:
-            raise OgiveError("--window cannot be combined with --by or --split-at.")
     state = _State(list(sources_), options)
     start = time.monotonic()
     sizes = [_file_size(name) for name in sources_]
