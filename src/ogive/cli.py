@@ -25,6 +25,7 @@ COMMANDS: dict[str, str] = {
     "compare": "compare two distributions: quantile ladder with intervals, distances, shift",
     "gate": "release check: exit 0/1/2 on quantile limits between a baseline and a candidate",
     "plot": "text-mode Q-Q, detrended, P-P, CDF and shift plots",
+    "timeline": "quantiles per time window, and when the distribution changed, into what",
     "view": "open the keyboard-driven workspace on sources or sketches",
     "demo": "open the workspace on the bundled demo data (a release that slowed the tail)",
     "generate": "write the invented demo scenario as logs of any size (for trying and benchmarks)",

@@ -239,16 +239,23 @@ def load_one(spec: str, args: argparse.Namespace) -> tuple[str, Sketch]:
     )
 
 
-def scan_sources(sources: list[str], args: argparse.Namespace, *, keep_partial: bool = False) -> ScanResult:
+def scan_sources(
+    sources: list[str],
+    args: argparse.Namespace,
+    *,
+    keep_partial: bool = False,
+    options: ScanOptions | None = None,
+) -> ScanResult:
     """Scan with the progress line when stderr is a terminal; warnings go to stderr.
 
     ``keep_partial``: a damaged compressed stream ends the scan with what was read
-    before the damage (``result.error`` says where) instead of raising.
+    before the damage (``result.error`` says where) instead of raising. ``options``:
+    the scan's options when a command adds its own to the flags' (``timeline``).
     """
     from ..read import scan
     from .progress import ProgressLine
 
-    options = dataclasses.replace(options_from_args(args), keep_partial=keep_partial)
+    options = dataclasses.replace(options or options_from_args(args), keep_partial=keep_partial)
     quiet = bool(getattr(args, "quiet", False))
     line = ProgressLine(sys.stderr) if not quiet and sys.stderr.isatty() else None
     with first_ctrl_c_stops() as stopped:

@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch, SketchSet
+from ..sketch import Sketch, SketchSet, timekeys
 from . import times
 from .decode import Batch
 from .options import ScanOptions
@@ -46,15 +46,19 @@ class Builder:
         s = self.sketches.get(name)
         if s is None:
             o = self.options
-            s = Sketch(self.unit, compression=o.compression, tail_size=o.tail_size)
+            window = o.window_us is not None and (not o.timeline or timekeys.parse_key(name) is not None)
+            compression = (o.window_compression if window else None) or o.compression
+            tail = (o.window_tail if window else None) or o.tail_size
+            s = Sketch(self.unit, compression=compression, tail_size=tail)
             s.provenance.sources = list(self.source_names)
             s.provenance.field = self.field
             self.sketches[name] = s
         return s
 
-    def add(self, name: str, batch: Batch, idx: NDArray[np.int64] | None) -> None:
+    def add(self, name: str, batch: Batch, idx: NDArray[np.int64] | None, *, tally: bool = True) -> None:
         """Rows ``idx`` of ``batch`` (all when None) to sketch ``name``: good values to its
-        buffer, bad rows counted (scan-wide and in its provenance), its time span widened."""
+        buffer, bad rows counted (scan-wide unless ``tally`` is off, because the rows
+        were counted with another sketch, and in its provenance), its time span widened."""
         s = self.sketch(name)
         prov = s.provenance
         vals, ok = batch.values, batch.ok
@@ -72,9 +76,11 @@ class Builder:
             self._held_n += good.size
             if self._held_n >= BATCH_VALUES:
                 self.flush()
-        self.values += good.size
+        if tally:
+            self.values += good.size
         for reason, count, examples in self.skips.found(batch, idx):
-            self.skips.count(reason, count, examples)
+            if tally:
+                self.skips.count(reason, count, examples)
             if reason != BAD_TIMESTAMP:  # a row without a time belongs to neither half
                 prov.skip(reason, count, examples)
         if batch.tus is not None:

@@ -55,6 +55,16 @@ class ScanOptions:
     """Width of consecutive time windows (``30s``, ``10m``, ``1h``, ``1d``): each window gets a
     sketch named by its start in ISO 8601 UTC. None: no windows. Read once, into
     ``window_us``, by ``ogive.sketch.units.span_seconds`` (as ``fit.windows.parse_window`` does)."""
+    timeline: bool = False
+    """With ``window``: name each window ``[GROUP@]START/DURATION``
+    (:mod:`ogive.sketch.timekeys`) and keep the whole beside the windows (``all``; with
+    ``by`` also each group and the group's own windows), for ``ogive timeline``."""
+    window_compression: float | None = None
+    """Compression of the window sketches (None: ``compression``); the whole keeps ``compression``."""
+    window_tail: int | None = None
+    """Exact tail size of the window sketches (None: ``tail_size``)."""
+    max_windows: int = 50_000
+    """With ``timeline``: the most window sketches a scan may keep (memory stays bounded)."""
     strict: bool = False
     compression: float = DEFAULT_COMPRESSION
     tail_size: int = DEFAULT_TAIL
@@ -88,7 +98,7 @@ class ScanOptions:
                 raise OgiveError(
                     "--window needs --time-field, the column or field holding each record's time."
                 )
-            if self.by or self.split_at is not None:
+            if self.split_at is not None or (self.by and not self.timeline):
                 raise OgiveError("--window cannot be combined with --by or --split-at.")
             seconds = span_seconds(self.window)
             if seconds is None or seconds <= 0:
@@ -96,6 +106,15 @@ class ScanOptions:
                     f"window width {self.window!r} is not a positive number with s, m, h or d, such as 10m."
                 )
             object.__setattr__(self, "window_us", seconds * 1e6)  # frozen: set once, here
+        elif self.timeline:
+            raise OgiveError("a timeline needs --window, the width of each time window.")
+        if self.window_compression is not None and not 10 <= self.window_compression <= MAX_COMPRESSION:
+            raise OgiveError(
+                f"the window compression must lie between 10 and {MAX_COMPRESSION:g}, "
+                f"got {self.window_compression:g}."
+            )
+        if (self.window_tail is not None and self.window_tail < 1) or self.max_windows < 1:
+            raise OgiveError("window_tail and max_windows must be at least 1.")
 
     def chunk_size(self, fmt: str | None, *, value_only: bool = False) -> int:
         """Bytes per chunk for a source of format ``fmt`` (None: not known yet).

@@ -11,6 +11,8 @@ import numpy as np
 import polars as pl
 from numpy.typing import NDArray
 
+from ..errors import OgiveError
+from ..sketch import timekeys
 from . import times
 from .options import ScanOptions
 
@@ -33,6 +35,10 @@ class Router:
         self.overflow = pl.Series([], dtype=pl.String)
         """Values that got no sketch of their own (at most ``OVERFLOW_KEPT``, for the count)."""
         self._known = pl.Series([], dtype=pl.String)
+        self._keys: dict[float, str] = {}
+        """Timeline: window start -> its ``START/DURATION`` name."""
+        self._window_sketches: set[str] = set()
+        self._also: list[tuple[str, NDArray[np.int64] | None]] = []
 
     def route(
         self, n: int, g: pl.Series | None, tus: NDArray[np.float64] | None
@@ -40,6 +46,8 @@ class Router:
         """``"all"`` when every row goes to one sketch, else (name, row indices) pairs."""
         o = self.options
         if self.window_us is not None and tus is not None:
+            if o.timeline:
+                return self._route_timeline(g, tus, self.window_us)
             return _route_windows(tus, self.window_us)
         halves: NDArray[np.bool_] | None = None
         if self.split_us is not None and tus is not None:
@@ -67,6 +75,51 @@ class Router:
             if part.size:
                 out.append((names[int(codes[part[0]])], part))
         return out
+
+    def also(self) -> list[tuple[str, NDArray[np.int64] | None]]:
+        """The sketches the rows of the last :meth:`route` go to besides their own
+        (a timeline's whole and groups; rows None: every row). Their bad rows were
+        counted scan-wide with the rows' own window, so they count in provenance only."""
+        out, self._also = self._also, []
+        return out
+
+    def _route_timeline(
+        self, g: pl.Series | None, tus: NDArray[np.float64], width_us: float
+    ) -> list[tuple[str, NDArray[np.int64]]]:
+        """Each timed row to its window (``START/DURATION``); the whole (``all``) and,
+        with ``by``, the row's group and the group's window, to :meth:`also`."""
+        good, starts, parts = _window_parts(tus, width_us)
+        keys = [self._key(float(s), width_us) for s in starts]
+        out = list(zip(keys, parts, strict=True))
+        also: list[tuple[str, NDArray[np.int64] | None]] = [
+            (timekeys.WHOLE, None if good.size == tus.size else good)
+        ]
+        windows: list[tuple[str, NDArray[np.int64] | None]] = []
+        if self.options.by and g is not None and good.size:
+            labels, codes = self._group_codes(g)
+            also += _split_by(labels, codes, good)
+            for key, part in out:
+                windows += [(f"{label}@{key}", rows) for label, rows in _split_by(labels, codes, part)]
+        self._count_windows([name for name, _ in out + windows])
+        self._also = also + windows
+        return out
+
+    def _key(self, start_us: float, width_us: float) -> str:
+        key = self._keys.get(start_us)
+        if key is None:
+            key = self._keys[start_us] = timekeys.window_key(start_us, width_us)
+        return key
+
+    def _count_windows(self, names: list[str]) -> None:
+        self._window_sketches.update(names)
+        if len(self._window_sketches) > self.options.max_windows:
+            o = self.options
+            raise OgiveError(
+                f"more than {o.max_windows:,} window sketches ({o.window} windows"
+                + (f" times the groups of --by {o.by}" if o.by else "")
+                + "); that would outgrow the memory a scan may use. Choose a wider --window"
+                + (" or fewer groups (--max-groups)." if o.by else ".")
+            )
 
     def _group_codes(self, g: pl.Series) -> tuple[list[str], NDArray[np.int64]]:
         """Sketch names and each row's index into them, for ``--by``.
@@ -113,12 +166,36 @@ def _route_windows(tus: NDArray[np.float64], width_us: float) -> list[tuple[str,
 
     Rows without a readable time were already marked bad; they land in no window.
     """
+    _, starts, parts = _window_parts(tus, width_us)
+    return [(times.iso(float(start)), part) for start, part in zip(starts, parts, strict=True)]
+
+
+def _window_parts(
+    tus: NDArray[np.float64], width_us: float
+) -> tuple[NDArray[np.int64], NDArray[np.float64], list[NDArray[np.int64]]]:
+    """(timed rows, window starts, the rows of each window) of one chunk.
+
+    A log is written in time order, so a chunk's windows are usually runs: cut where
+    the window changes, in one pass. Out-of-order rows (merged logs) take a sort.
+    """
     good = np.flatnonzero(np.isfinite(tus))
-    starts, inverse = np.unique(times.window_starts(tus[good], width_us), return_inverse=True)
+    ws = times.window_starts(tus[good], width_us)
+    if ws.size == 0:
+        return good, ws, []
+    if bool(np.all(ws[1:] >= ws[:-1])):
+        bounds = np.flatnonzero(ws[1:] != ws[:-1]) + 1
+        return good, ws[np.concatenate(([0], bounds))], np.split(good, bounds)
+    starts, inverse = np.unique(ws, return_inverse=True)
     order = np.argsort(inverse, kind="stable")
     bounds = np.flatnonzero(np.diff(inverse[order])) + 1
-    return [
-        (times.iso(float(start)), good[part])
-        for start, part in zip(starts, np.split(order, bounds), strict=True)
-        if part.size
-    ]
+    return good, starts, [good[part] for part in np.split(order, bounds)]
+
+
+def _split_by(
+    labels: list[str], codes: NDArray[np.int64], rows: NDArray[np.int64]
+) -> list[tuple[str, NDArray[np.int64]]]:
+    """``rows`` split by their group code, as (group name, rows) pairs."""
+    c = codes[rows]
+    order = np.argsort(c, kind="stable")
+    bounds = np.flatnonzero(np.diff(c[order])) + 1
+    return [(labels[int(c[part[0]])], rows[part]) for part in np.split(order, bounds) if part.size]

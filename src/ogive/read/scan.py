@@ -275,6 +275,8 @@ class Pipeline:
         else:
             for name, idx in names:
                 self.builder.add(name, batch, idx)
+        for name, rows in self.router.also():
+            self.builder.add(name, batch, rows, tally=False)
 
     def unassigned(self, reason: str, display: str, lines: range) -> None:
         """Lines no sketch can own: counted in the result, and in ``all`` when that one

@@ -1,0 +1,244 @@
+"""`ogive timeline`: quantiles over time, and when the distribution changed, into what."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import shutil
+import sys
+from typing import TYPE_CHECKING, Any
+
+from ..errors import OgiveError
+
+if TYPE_CHECKING:
+    from ..fit.timeline import Timeline
+    from ..sketch import SketchSet
+
+DESCRIPTION = """\
+Cut one stream (one or more sources read as one) into time windows in a single pass,
+keep a sketch per window beside the whole, and show: the chosen quantiles over time (a
+text chart on a log value axis), a density strip (where each stretch of time puts its
+values: two dark runs in one column are two modes, light cells reaching higher are a
+longer tail), the change points found from the window sketches alone, each with what
+moved (body, tail or both: the quantile ladder after against before) and the 'ogive
+gate' command that checks it on the raw logs, and a table of the windows with the
+quantiles' distribution-free intervals. A slow change (a rollout) is reported as a
+span when the windows in between are mixes of before and after. --by FIELD adds one
+line per group, the groups that changed most first. A saved timeline (-o) redraws
+without the logs: ogive timeline saved.ogive."""
+
+EPILOG = """\
+What a change point means. The search (binary segmentation over a tail-weighted
+two-sample distance between merged windows) calls a split of the windows a change only
+when at most 5 % of random orders of the same windows produce as large a split (a
+permutation test): on a steady timeline, the chance that any change is reported at
+all is the --false-alarm rate (default 5 %). Deeper splits are tested at half the rate
+per level. A daily cycle or a slow drift is a real movement of the distribution and
+is reported as change points or spans; a change point says when, not why. Check
+what matters to a release with the 'ogive gate' line printed under each change.
+
+Memory: a window keeps a small sketch (about 5 KB), so a week of 1-minute windows
+stays within the scan's memory budget; more window sketches than --max-windows
+(window count times groups with --by) stop the scan with a message.
+
+examples:
+  ogive timeline demo_logs/checkout-day.csv --column latency_ms --time-field timestamp
+  ogive timeline app.log.gz --pattern 'dur=(\\S+)' --time-field ts --window 1m -o day.ogive
+  ogive timeline day.ogive --quantiles p50,p99,p99.9 --ascii
+  ogive timeline access.log --format text --time-field time --by route --window 10m --json"""
+
+WINDOW_COMPRESSION = 200.0
+"""t-digest compression of each window's sketch (the whole keeps the scan's): about
+100 centroids, 5 KB a window with the exact tails (measured, README)."""
+WINDOW_TAIL = 128
+"""Exact values kept at each end of a window: p99 is exact up to 12,800 values a window."""
+MAX_WINDOWS = 12_000
+"""Window sketches one scan may keep (a week of minutes is 10,080)."""
+TABLE_AUTO = 48
+"""``--table auto`` lists every window up to this many, else the windows beside changes."""
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    from .common import add_source_options
+
+    parser.add_argument(
+        "sources",
+        nargs="+",
+        metavar="SOURCE",
+        help="files to read ('-' for standard input), or one saved timeline",
+    )
+    parser.add_argument(
+        "--window",
+        default="5m",
+        metavar="WIDTH",
+        help="width of each time window: 30s, 5m, 1h, 1d (default 5m)",
+    )
+    parser.add_argument("-o", "--output", metavar="OUT.ogive", help="save the window sketches and the whole")
+    parser.add_argument("--json", action="store_true", help="print the timeline as one JSON document")
+    parser.add_argument(
+        "--quantiles",
+        "-q",
+        default="p50,p90,p99",
+        metavar="LIST",
+        help="quantiles drawn over time (default p50,p90,p99)",
+    )
+    parser.add_argument(
+        "--false-alarm",
+        type=float,
+        default=0.05,
+        metavar="RATE",
+        help="chance that a steady timeline shows any change, between 0.001 and 0.2 (default 0.05)",
+    )
+    parser.add_argument(
+        "--table",
+        choices=("auto", "all", "changes", "none"),
+        default="auto",
+        help=f"which windows the table lists (auto: all up to {TABLE_AUTO}, else those beside changes)",
+    )
+    parser.add_argument(
+        "--ascii", action="store_true", help="plain ASCII pictures instead of braille and blocks"
+    )
+    parser.add_argument(
+        "--width", type=int, default=None, help="columns (default: the terminal's, at most 120)"
+    )
+    parser.add_argument(
+        "--max-windows",
+        type=int,
+        default=MAX_WINDOWS,
+        metavar="N",
+        help=f"most window sketches to keep, groups included (default {MAX_WINDOWS:,})",
+    )
+    add_source_options(parser)
+
+
+def run(args: argparse.Namespace) -> int:
+    from ..fit.timeline import build_timeline, read_windows
+    from ..render import color_allowed
+    from ..render.timeline_text import report_lines
+    from ..store import save_sketches
+    from .show import parse_quantiles
+
+    if not 0.001 <= args.false_alarm <= 0.2:
+        raise OgiveError(f"--false-alarm must lie between 0.001 and 0.2, got {args.false_alarm:g}.")
+    qs = tuple(sorted(set(parse_quantiles(args.quantiles))))
+    if len(qs) > 5:
+        raise OgiveError("--quantiles draws at most five lines; choose five or fewer.")
+    sset, base = _load(args)
+    if args.output:
+        save_sketches(args.output, sset)
+    try:
+        data = read_windows(sset)
+        table = args.table if args.table != "auto" else ("all" if data.count <= TABLE_AUTO else "changes")
+        tl = build_timeline(data, chart_qs=qs, alpha=args.false_alarm, table=table)
+    except ValueError as exc:
+        raise OgiveError(str(exc)) from None
+    if args.json:
+        doc = tl.to_dict()
+        _add_gate_commands(doc, tl, base)
+        doc["output"] = args.output
+        json.dump(doc, sys.stdout, indent=2, allow_nan=False)
+        sys.stdout.write("\n")
+        return 0
+    width = args.width or min(shutil.get_terminal_size((100, 40)).columns, 120)
+    colour = color_allowed(sys.stdout)
+    lines = report_lines(tl, _title(args), base, width=width, ascii_only=args.ascii, colour=colour)
+    sys.stdout.write("\n".join(lines) + "\n")
+    if args.output:
+        sys.stdout.write(f"saved {len(sset.names()):,} sketches to {args.output}\n")
+    return 0
+
+
+def _title(args: argparse.Namespace) -> str:
+    shown = ", ".join(args.sources[:2]) + (
+        f" and {len(args.sources) - 2} more" if len(args.sources) > 2 else ""
+    )
+    return shown
+
+
+# ---------------------------------------------------------------- reading
+def _load(args: argparse.Namespace) -> tuple[SketchSet, str | None]:
+    """The window sketches (scanned, or a saved timeline) and the start of the gate command."""
+    from ..store import load_sketches
+    from .common import is_sketch_file
+
+    if len(args.sources) == 1 and is_sketch_file(args.sources[0]):
+        sset = load_sketches(args.sources[0])
+        return sset, _saved_gate_base(sset)
+    for src in args.sources:
+        if is_sketch_file(src):
+            raise OgiveError(f"{src} is a saved sketch; give a saved timeline on its own.")
+    if not args.time_field:
+        raise OgiveError("a timeline needs --time-field, the column or field holding each record's time.")
+    if args.split_at:
+        raise OgiveError(
+            "--split-at cuts one moment; a timeline cuts windows (--window) and finds the moments."
+        )
+    if args.output and args.output in args.sources:
+        raise OgiveError(f"-o {args.output} is also a source; choose another output name.")
+    if args.output and args.output != "-":
+        folder = os.path.dirname(args.output) or "."
+        if not os.path.isdir(folder) or not os.access(folder, os.W_OK):
+            raise OgiveError(f"cannot write {args.output}: the folder {folder} is missing or not writable.")
+    return _scan(args), _gate_base(args)
+
+
+def _scan(args: argparse.Namespace) -> SketchSet:
+    import dataclasses
+
+    from .common import options_from_args, scan_sources
+
+    options = dataclasses.replace(
+        options_from_args(args),
+        timeline=True,
+        window_compression=WINDOW_COMPRESSION,
+        window_tail=WINDOW_TAIL,
+        max_windows=args.max_windows,
+    )
+    result = scan_sources(list(args.sources), args, options=options)
+    if result.interrupted:
+        print("ogive: the timeline shows what was read before Ctrl-C.", file=sys.stderr)
+    return result.sketches
+
+
+FLAGS = ("format", "field", "column", "pattern", "unit", "input_unit", "time_field", "time_format")
+
+
+def _gate_base(args: argparse.Namespace) -> str:
+    from ..render.timeline_text import quote_args
+
+    words = list(args.sources)
+    for name in FLAGS:
+        value = getattr(args, name, None)
+        if value is not None:
+            words += [f"--{name.replace('_', '-')}", str(value)]
+    if args.header is not None:
+        words.append("--header" if args.header else "--no-header")
+    return quote_args(words)
+
+
+def _saved_gate_base(sset: SketchSet) -> str | None:
+    """The sources and value flag the saved timeline was made from; the time field is not
+    kept in the file, so the command names it as FIELD for the user to fill in."""
+    from ..render.timeline_text import quote_args
+
+    whole = sset.sketches.get("all") or next(iter(sset.sketches.values()), None)
+    if whole is None or not whole.provenance.sources:
+        return None
+    how, _, value = whole.provenance.field.partition(" ")
+    words = list(whole.provenance.sources)
+    if how in ("column", "field", "pattern") and value:
+        words += [f"--{how}", value]
+    if whole.unit:
+        words += ["--unit", whole.unit]
+    return quote_args(words) + " --time-field FIELD"
+
+
+def _add_gate_commands(doc: dict[str, Any], tl: Timeline, base: str | None) -> None:
+    from ..render.timeline_text import gate_command
+
+    if base is None:
+        return
+    for c, out in zip(tl.streams[0].changes, doc["streams"][0]["changes"], strict=True):
+        if c.kind != "shape":
+            out["gate_command"] = gate_command(base, c)
