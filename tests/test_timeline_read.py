@@ -183,3 +183,36 @@ def test_cli_saves_and_redraws_without_the_logs(tmp_path: Path, capsys: pytest.C
     assert "Change points in all" in text and "Windows of all (95% interval" in text
     assert all(len(line) <= 80 for line in text.splitlines() if "check it:" not in line)
     assert text.isascii()
+
+
+DEMO = Path(__file__).resolve().parents[1] / "demo_logs"
+
+
+@pytest.mark.parametrize(
+    ("name", "start", "end"),
+    [("checkout-day.csv", "13:00", "13:00"), ("checkout-rollout.csv.gz", "13:00", "13:40")],
+)
+def test_demo_release_is_found_at_its_time(name: str, start: str, end: str) -> None:
+    """demo_logs/README.md: v4.2.0 at 13:00 (all hosts at once), and the same release
+    rolled out host by host from 13:00 to 13:40; found within one 5-minute window."""
+    sset = scan(
+        [str(DEMO / name)], _timeline_options(column="latency_ms", time_field="timestamp", unit="ms")
+    ).sketches
+    from ogive.fit.timeline import build_timeline
+
+    tl = build_timeline(read_windows(sset), table="none")
+    first = tl.streams[0].changes[0]
+
+    def minutes(us: float) -> float:
+        m = dt.datetime.fromtimestamp(us / 1e6, dt.UTC)
+        return m.hour * 60 + m.minute + m.second / 60
+
+    assert abs(minutes(first.start_us) - minutes_of(start)) <= 5
+    assert abs(minutes(first.end_us) - minutes_of(end)) <= 5
+    assert first.gradual == (start != end)
+    assert {"p90", "p99"} <= set(first.moved)
+
+
+def minutes_of(clock: str) -> int:
+    h, m = clock.split(":")
+    return int(h) * 60 + int(m)

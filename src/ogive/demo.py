@@ -6,7 +6,9 @@ out; it added the shopper's delivery zone to the price-cache key. Cache hits sta
 as before, but the hit rate drops (misses go from about 7 % to 16 % of cached requests)
 and the miss path got heavier (it now also recomputes zone surcharges: its median goes
 from 38 ms to 64 ms, with a wider spread). The median barely moves; p90 and p99 do.
-That is the kind of change ogive exists to show.
+That is the kind of change ogive exists to show. Phase ``rollout`` tells the same day
+as a rolling deploy: the release reaches ``ck-web-01`` at 13:00 and one more host every
+13 min 20 s, the last at 13:40, so the change is a 40-minute span, not an instant.
 
 Latency per request is a mixture: a lognormal cache hit, or a lognormal cache miss, scaled
 per route and per host (``ck-web-04`` is older hardware, about 18 % slower), plus rare
@@ -40,7 +42,7 @@ from numpy.typing import NDArray
 from .errors import OgiveError
 
 FORMATS = ("text", "csv", "ndjson")
-PHASES = ("before", "after", "day")
+PHASES = ("before", "after", "day", "rollout")
 
 SHOP = "Hollowfen Provisions"
 SERVICE = "checkout"
@@ -49,6 +51,8 @@ DAY_START = dt.datetime(2026, 3, 4, tzinfo=dt.UTC)
 RELEASE = dt.datetime(2026, 3, 4, 13, 0, tzinfo=dt.UTC)
 DAY_END = dt.datetime(2026, 3, 5, tzinfo=dt.UTC)
 RELEASE_ISO = "2026-03-04T13:00:00Z"
+ROLLOUT_END = dt.datetime(2026, 3, 4, 13, 40, tzinfo=dt.UTC)
+"""Phase 'rollout': the same release, deployed one host at a time from RELEASE to here."""
 
 HOSTS = ("ck-web-01", "ck-web-02", "ck-web-03", "ck-web-04")
 HOST_FACTOR = np.array([1.0, 0.97, 1.03, 1.18])
@@ -104,7 +108,7 @@ def phase_span(phase: str) -> tuple[dt.datetime, dt.datetime]:
         return DAY_START, RELEASE
     if phase == "after":
         return RELEASE, DAY_END
-    if phase == "day":
+    if phase in ("day", "rollout"):
         return DAY_START, DAY_END
     raise OgiveError(f"unknown phase {phase!r}; choose one of {', '.join(PHASES)}.")
 
@@ -114,12 +118,21 @@ def _us(moment: dt.datetime) -> int:
 
 
 # ---------------------------------------------------------------------- the requests
-def requests(rng: np.random.Generator, ts_us: NDArray[np.int64]) -> pl.DataFrame:
-    """One row per request at the given epoch-microsecond times (the release applies by time)."""
+def host_release_us(rollout: bool) -> NDArray[np.int64]:
+    """When each host starts serving the release: all at 13:00, or (a rolling deploy) one
+    host after another, evenly from 13:00 to 13:40."""
+    start, end = _us(RELEASE), _us(ROLLOUT_END)
+    steps = np.linspace(start, end, len(HOSTS)) if rollout else np.full(len(HOSTS), start)
+    return steps.astype(np.int64)
+
+
+def requests(rng: np.random.Generator, ts_us: NDArray[np.int64], *, rollout: bool = False) -> pl.DataFrame:
+    """One row per request at the given epoch-microsecond times (the release applies by
+    time, on each host from its own moment when ``rollout``)."""
     n = ts_us.size
-    after = ts_us >= _us(RELEASE)
     r = rng.choice(len(ROUTES), size=n, p=np.array([x.weight for x in ROUTES]))
     h = rng.integers(0, len(HOSTS), size=n)
+    after = ts_us >= host_release_us(rollout)[h]
     factor = np.array([x.factor for x in ROUTES])[r] * HOST_FACTOR[h]
     cached = np.array([x.cached for x in ROUTES])[r]
 
@@ -354,7 +367,7 @@ def blocks(
         idx = np.arange(done, done + n, dtype=np.int64)
         # Evenly spread, strictly increasing times: row i sits in slot i of the span.
         ts = t0 + ((idx + rng.random(n)) * (span / target)).astype(np.int64)
-        lines = _lines(requests(rng, ts), fmt)
+        lines = _lines(requests(rng, ts, rollout=phase == "rollout"), fmt)
         mine = bad_at[(bad_at >= done) & (bad_at < done + n)]
         if mine.size:
             values = lines.to_list()
@@ -467,6 +480,7 @@ DEMO_SET = (
     DemoFile("checkout-day.csv", "csv", "day", 24_000, 6, 103),
     DemoFile("checkout-before.ndjson", "ndjson", "before", 4_000, 2, 104),
     DemoFile("checkout-after.ndjson.gz", "ndjson", "after", 4_000, 2, 105),
+    DemoFile("checkout-rollout.csv.gz", "csv", "rollout", 48_000, 4, 106),
 )
 """The bundled ``demo_logs/`` files; ``ogive generate --demo-set DIR`` rewrites them byte for byte."""
 

@@ -20,8 +20,10 @@ the miss path slower. Latencies are a mixture of a fast cache-hit path and a slo
 cache-miss path, with per-route and per-host differences, realistic status codes,
 response sizes and request ids. The same seed always writes the same bytes.
 
-Phases: 'before' (00:00 to 13:00 UTC), 'after' (13:00 to 24:00) or 'day' (the whole
-day, the release applied at 13:00: try 'ogive scan --split-at 2026-03-04T13:00:00Z')."""
+Phases: 'before' (00:00 to 13:00 UTC), 'after' (13:00 to 24:00), 'day' (the whole
+day, the release applied at 13:00: try 'ogive scan --split-at 2026-03-04T13:00:00Z') or
+'rollout' (the whole day, the release reaching one host after another from 13:00 to
+13:40: try 'ogive timeline FILE --time-field timestamp --column latency_ms')."""
 
 EPILOG = """\
 formats and where the latency is:
@@ -75,9 +77,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--format", choices=("text", "csv", "ndjson"), default="text", help="default: text")
     parser.add_argument(
         "--phase",
-        choices=("before", "after", "day"),
+        choices=("before", "after", "day", "rollout"),
         default="day",
-        help="which part of the day to write (default: day, spanning the release)",
+        help="which part of the day to write (default: day, spanning the release; rollout: the "
+        "whole day, the release reaching one host after another from 13:00 to 13:40)",
     )
     amount = parser.add_mutually_exclusive_group()
     amount.add_argument("--rows", type=parse_rows, metavar="N", help="number of records (default 100000)")

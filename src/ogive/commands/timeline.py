@@ -188,8 +188,10 @@ def _scan(args: argparse.Namespace) -> SketchSet:
 
     from .common import options_from_args, scan_sources
 
+    flags = argparse.Namespace(**{**vars(args), "window": None})  # --by is refused beside a plain --window
     options = dataclasses.replace(
-        options_from_args(args),
+        options_from_args(flags),
+        window=args.window,
         timeline=True,
         window_compression=WINDOW_COMPRESSION,
         window_tail=WINDOW_TAIL,

@@ -13,7 +13,11 @@ split of the whole run is a change if it passes the threshold below; then both
 sides are searched the same way, until no side has one (or :data:`MAX_CHANGES`).
 Level d of the search (the whole is level 0) holds at most 2^d runs, and each is
 tested at ``alpha / 2^d`` (Bonferroni), so at every level the chance of a false split
-stays within ``alpha``: a real change does not drag ghosts in beside it.
+stays within ``alpha``: a real change does not drag ghosts in beside it. A deeper
+run is tested with ``2 / level - 1`` random orders (at least as many as the first
+test, at most :data:`MAX_ORDERS`): after the changes already found are held apart,
+what is left is usually either far beyond chance or near it, and the cost of the
+search stays near that of its first test.
 
 *The threshold.* When nothing changes, the windows are exchangeable: any order of
 them is as likely as the one observed. So the largest D over all splits is compared
@@ -43,7 +47,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .spans import Change, describe
-from .splits import GRID_QS, best_split
+from .splits import GRID_QS, RunScores
 
 FloatArray = NDArray[np.float64]
 
@@ -70,7 +74,7 @@ def permutations_for(alpha: float) -> int:
 
 
 MAX_CHANGES = 12
-MAX_ORDERS = 799
+MAX_ORDERS = 399
 """Random orders per test at most (deeper levels of the search test at smaller rates)."""
 
 
@@ -146,8 +150,10 @@ def test_run(
 ) -> Split | None:
     """The permutation test of the best split of windows ``start:stop``; None when the
     run is too short to split."""
-    c, n = counts[start:stop], sizes[start:stop]
-    k, d = best_split(c, n)
+    scores = RunScores(counts[start:stop], sizes[start:stop])
+    prof = scores.profile()
+    k = int(np.argmax(prof))
+    d = float(prof[k])
     if not np.isfinite(d):
         return None
     limit = int(np.floor(alpha * (permutations + 1) + 1e-9)) - 1
@@ -155,8 +161,7 @@ def test_run(
     null: list[float] = []
     beaten = 0
     for _ in range(permutations):
-        order = rng.permutation(n.size)
-        _, dp = best_split(c[order], n[order])
+        dp = float(scores.profile(rng.permutation(stop - start)).max())
         null.append(dp)
         beaten += dp >= d
         if beaten > limit:
@@ -198,7 +203,9 @@ def find_changes(
         # Level d of the search holds at most 2^d runs: testing each at alpha / 2^d keeps
         # the chance of any false split at that level within alpha (Bonferroni).
         level = alpha / 2**depth
-        orders = permutations if depth == 0 else min(permutations_for(level), MAX_ORDERS)
+        # Deeper runs hold the changes already found apart, so what is left is either
+        # far beyond chance or near it: enough orders that two may reach the split.
+        orders = permutations if depth == 0 else min(max(round(2 / level) - 1, permutations), MAX_ORDERS)
         if level * (orders + 1) < 1:
             continue  # too deep to decide at this level with the orders allowed
         split = test_run(counts, sizes, start, stop, alpha=level, permutations=orders, rng=rng)

@@ -99,7 +99,7 @@ class Change:
         }
 
 
-def _locate(
+def locate(
     counts: FloatArray, sizes: FloatArray, lo: int, at: int, hi: int, rng: np.random.Generator
 ) -> tuple[int, int]:
     """90 % bootstrap interval of the split between ``lo:at`` and ``at:hi`` (windows)."""
@@ -193,10 +193,54 @@ def _shape(
         gain = (sse[i_step] - sse[i_ramp]) / var
         r = i_ramp if gain > RAMP_CHI2 and r1[i_ramp, 0] - r0[i_ramp, 0] >= 1.5 else i_step
         new = (float(r0[r, 0]), float(r1[r, 0]))
+        if r == i_ramp:
+            new = _trim_ends(new, shares, n, var, a)
         if new == (t0, t1):
             break
         t0, t1 = new
     return t0, t1, shares, a
+
+
+def _trim_ends(
+    ramp: tuple[float, float], shares: FloatArray, n: FloatArray, var: float, a: int
+) -> tuple[float, float]:
+    """A ramp's ends moved inwards to where the shares say the change had begun and ended.
+
+    An even ramp is only a model: a deploy host by host is a staircase, and the
+    straight line through its steps starts before the first step. Fitted without that
+    assumption (shares non-decreasing: the pool-adjacent-violators algorithm, R. E.
+    Barlow et al., *Statistical Inference under Order Restrictions*, 1972, ch. 1), the
+    span starts at the first pooled block clearly above 0 and ends after the last one
+    clearly below 1 (by 2 standard errors of the block); the ends only ever move in.
+    """
+    t0, t1 = ramp
+    lo, hi = max(int(np.floor(t0)) - a, 0), min(int(np.ceil(t1)) - a, shares.size)
+    ok = np.flatnonzero(np.isfinite(shares[lo:hi]) & (n[lo:hi] > 0)) + lo
+    if ok.size < 2:
+        return ramp
+    blocks = _pooled(shares[ok], n[ok])
+    start, end = t0, t1
+    for first, _last, mean, weight in blocks:
+        if mean > 2.0 * np.sqrt(var / weight):
+            start = max(t0, float(a + ok[first]))
+            break
+    for _first, last, mean, weight in reversed(blocks):
+        if mean < 1.0 - 2.0 * np.sqrt(var / weight):
+            end = min(t1, float(a + ok[last] + 1))
+            break
+    return (start, end) if end > start else ramp
+
+
+def _pooled(y: FloatArray, w: FloatArray) -> list[tuple[int, int, float, float]]:
+    """Weighted non-decreasing fit: (first, last, mean, weight) of each pooled block."""
+    blocks: list[tuple[int, int, float, float]] = []
+    for i, (yi, wi) in enumerate(zip(y.tolist(), w.tolist(), strict=True)):
+        blocks.append((i, i, yi, wi))
+        while len(blocks) > 1 and blocks[-2][2] > blocks[-1][2]:
+            f2, _, m2, w2 = blocks.pop(-2)
+            _, l1, m1, w1 = blocks.pop()
+            blocks.append((f2, l1, (m1 * w1 + m2 * w2) / (w1 + w2), w1 + w2))
+    return blocks
 
 
 def _joins(counts: FloatArray, sizes: FloatArray, lo: int, k1: int, k2: int, hi: int) -> bool:
@@ -257,7 +301,7 @@ def describe(
             )  # fmt: skip
             continue
         at = best.at if len(grp) == 1 or shape is None else round(shape[0])
-        low, high = _locate(counts, sizes, lo, at, hi, rng)
+        low, high = locate(counts, sizes, lo, at, hi, rng)
         out.append(
             Change(at, at, float(at), low, high, float(at), float(at), (lo, at), (at, hi),
                    best.distance, best.threshold, best.p_value)

@@ -25,6 +25,7 @@ from numpy.typing import NDArray
 from ..sketch import Sketch, SketchSet, quantile_label, timekeys
 from .changes import ALPHA, GRID_QS, Change, ChangeSearch, find_changes
 from .ladder import LADDER_QS, QuantileInterval, quantile_intervals
+from .spans import locate
 from .splits import MIN_TAIL_COUNT
 from .strip import STRIP_COLUMNS, Strip, density_strip, strip_range
 
@@ -38,9 +39,10 @@ BODY_MAX_Q = 0.9
 """Quantiles up to this are the body; above it, the tail."""
 MAX_SPAN_WINDOWS = 1_000_000
 """A timeline longer than this many windows (e.g. 1-second windows over two weeks) is refused."""
-LADDER_WINDOWS = 2_000
-"""The windows nearest a change merged into its before and after sketches (merging costs
-about 0.3 ms a window; a longer period adds little a ladder can show)."""
+LADDER_WINDOWS = 500
+"""The windows nearest a change merged into its before and after sketches for the
+ladder's estimates (merging costs about 0.3 ms a window; the test of what moved reads
+the whole periods, from counts)."""
 
 
 # ---------------------------------------------------------------- the input
@@ -434,23 +436,41 @@ def _reports(
     data: Windows, stream: Stream, changes: tuple[Change, ...], cm: _Counts
 ) -> tuple[ChangeReport, ...]:
     """What moved at each change, after against before, the periods reaching to the
-    neighbouring changes. A change after which no quantile moved clearly (``shape``) is
-    reported but does not cut its neighbours' periods short: a chance split beside a
-    real change would otherwise leave that change a thin period to be read against."""
-    reports = [_report(data, stream, c, c.before, c.after, cm) for c in changes]
-    kept = [c for c, r in zip(changes, reports, strict=True) if r.kind != "shape"]
-    if len(kept) == len(changes):
-        return tuple(reports)
+    neighbouring changes.
+
+    A change after which no quantile moved clearly (``shape``) is still reported, but
+    does not cut its neighbours' periods short: a chance split beside a real change
+    would otherwise leave that change a thin period to be read against. Such changes
+    are set aside one at a time, the weakest first, until every change left moved a
+    quantile (the test is on counts, so this costs little); the ladders are then read
+    from merged window sketches once.
+    """
+    active = list(changes)
+    while active:
+        moves = [_moved(stream, c, *_periods(c, active, data.count), cm) for c in active]
+        shapes = [c for c, m in zip(active, moves, strict=True) if not any(m)]
+        if not shapes:
+            break
+        active.remove(min(shapes, key=lambda c: c.distance))
     out = []
-    for c, r in zip(changes, reports, strict=True):
-        if r.kind == "shape":
-            out.append(r)
-            continue
-        i = kept.index(c)
-        before = (kept[i - 1].last if i > 0 else 0, c.first)
-        after = (c.last, kept[i + 1].first if i + 1 < len(kept) else data.count)
-        out.append(_report(data, stream, c, before, after, cm))
+    for c in changes:
+        others = [x for x in active if x is not c]
+        out.append(_report(data, stream, c, *_periods(c, others, data.count), cm))
     return tuple(out)
+
+
+def _periods(c: Change, bounds: list[Change], count: int) -> tuple[tuple[int, int], tuple[int, int]]:
+    """The windows before and after ``c``, reaching to the nearest of ``bounds`` either side."""
+    before = max((x.last for x in bounds if x.last <= c.first and x is not c), default=0)
+    after = min((x.first for x in bounds if x.first >= c.last and x is not c), default=count)
+    return (before, c.first), (c.last, after)
+
+
+def _moved(
+    stream: Stream, c: Change, before: tuple[int, int], after: tuple[int, int], cm: _Counts
+) -> list[bool]:
+    """Per ladder quantile: did the CDF there move beyond the threshold that found ``c``."""
+    return [z is not None and abs(z) > c.threshold for z in _gaps(stream.whole, cm, before, after)]
 
 
 def _report(
@@ -463,12 +483,14 @@ def _report(
 ) -> ChangeReport:
     before = _period(stream, span_before[0], span_before[1], True, data.unit)
     after = _period(stream, span_after[0], span_after[1], False, data.unit)
-    z = _gaps(stream.whole, cm, span_before, span_after)
     qs = np.array(LADDER_QS[:-1])  # p99.99 is beyond what a grid point can carry
     b_est, a_est = before.quantile(qs), after.quantile(qs)
+    z = _gaps(stream.whole, cm, span_before, span_after)
     ladder = tuple(
-        QuantileMove(quantile_label(q), q, float(b), float(a), zq, zq is not None and abs(zq) > c.threshold)
-        for q, b, a, zq in zip(qs.tolist(), b_est, a_est, z, strict=True)
+        QuantileMove(quantile_label(q), q, float(b), float(a), zq, moved)
+        for q, b, a, zq, moved in zip(
+            qs.tolist(), b_est, a_est, z, _moved(stream, c, span_before, span_after, cm), strict=True
+        )
     )
     moved = sorted((m for m in ladder if m.moved), key=_size_of_move)
     body = any(m.q <= BODY_MAX_Q for m in moved)
@@ -479,7 +501,11 @@ def _report(
         low, high, split = data.start(c.first - 1), data.start(c.last + 1), data.start(c.last)
     else:
         start = end = split = data.start(c.first)
-        low, high = data.start(c.low), data.start(c.high)
+        # Placed again between the neighbours kept (a chance split set aside beside it
+        # would otherwise pinch the bootstrap to a few windows on one side).
+        rng = np.random.default_rng(c.first)
+        low_i, high_i = locate(cm.counts, cm.sizes, span_before[0], c.first, span_after[1], rng)
+        low, high = data.start(low_i), data.start(high_i)
     return ChangeReport(
         c,
         start,
