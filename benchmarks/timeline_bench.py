@@ -49,10 +49,13 @@ reading = json.loads(sys.argv[4])
 t0, c0 = time.perf_counter(), time.process_time()
 extra = {}
 if mode == "timeline":
-    extra = dict(window=window, timeline=True, window_compression=200.0, window_tail=128, max_windows=12_000)
+    extra = dict(window=window, timeline=True, window_compression=200.0, window_tail=64, max_windows=12_000)
 res = scan([path], ScanOptions(**reading, **extra))
 scan_s = time.perf_counter() - t0
-out = {"scan_s": scan_s, "scan_cpu": time.process_time() - c0, "sketches": len(res.sketches.names()), "n": res.sketches["all"].count}
+def hwm_mb():
+    with open("/proc/self/status") as fh:
+        return int([ln for ln in fh if ln.startswith("VmHWM:")][0].split()[1]) / 1024
+out = {"scan_s": scan_s, "scan_cpu": time.process_time() - c0, "scan_rss_mb": hwm_mb(), "scan_anon_mb": peak_anon[0] / 1024, "sketches": len(res.sketches.names()), "n": res.sketches["all"].count}
 if mode == "timeline":
     from ogive.fit.timeline import build_timeline, read_windows
     t1 = time.perf_counter()
@@ -61,9 +64,7 @@ if mode == "timeline":
     out["changes"] = len(tl.streams[0].changes)
 out["wall_s"] = time.perf_counter() - t0
 out["cpu_s"] = time.process_time() - c0
-with open("/proc/self/status") as fh:
-    hwm = [ln for ln in fh if ln.startswith("VmHWM:")]
-out["rss_mb"] = int(hwm[0].split()[1]) / 1024
+out["rss_mb"] = hwm_mb()
 out["anon_mb"] = peak_anon[0] / 1024
 print(json.dumps(out))
 """
@@ -129,21 +130,26 @@ def bench_week(folder: Path) -> None:
     """A week of records at about 12 a second, read with 1-minute windows (10,080)."""
     import polars as pl
 
-    path = folder / "timeline_week.csv"
+    path = folder / "timeline_week_v2.csv"
     if not path.exists():
         rng = np.random.default_rng(20260511)
         start = 1_778_457_600  # 2026-05-11T00:00:00Z
+        routes = np.array(["/v2/shelf", "/v2/shelf/{id}", "/v2/basket", "/v2/search", "/healthz"])
         with open(path, "wb") as fh:
             header = True
-            for day in range(7):
+            for part in range(28):  # a week in quarter days, a million records each
                 n = 1_000_000
-                secs = start + day * 86400 + np.sort(rng.uniform(0, 86400, n))
+                secs = start + part * 21600 + np.sort(rng.uniform(0, 21600, n))
+                ts = pl.from_epoch(pl.Series((secs * 1000).astype(np.int64)), time_unit="ms")
                 df = pl.DataFrame(
                     {
-                        "ts": pl.from_epoch(pl.Series((secs * 1000).astype(np.int64)), time_unit="ms").dt.strftime(
-                            "%Y-%m-%dT%H:%M:%S%.3fZ"
-                        ),
+                        "ts": ts.dt.strftime("%Y-%m-%dT%H:%M:%S%.3fZ"),
+                        "host": pl.Series(np.char.add("shelf-", rng.integers(0, 24, n).astype(str))),
+                        "route": routes[rng.integers(0, 5, n)],
+                        "status": rng.choice([200, 200, 200, 201, 304, 404, 500], n),
                         "latency_ms": np.round(rng.lognormal(1.5, 0.6, n), 3),
+                        "bytes": rng.integers(80, 90_000, n),
+                        "request_id": pl.Series(rng.integers(0, 2**62, n)).cast(pl.String).str.zfill(20),
                     }
                 )
                 df.write_csv(fh, include_header=header)
@@ -151,11 +157,12 @@ def bench_week(folder: Path) -> None:
     reading = {"column": "latency_ms", "time_field": "ts", "unit": "ms"}
     scan = child("scan", path, "", reading)
     week = child("timeline", path, "1m", reading)
-    print(f"a week of 1-minute windows ({path.stat().st_size / 1e6:.0f} MB, 7,000,000 records):")
+    print(f"a week of 1-minute windows ({path.stat().st_size / 1e6:.0f} MB, 28,000,000 records):")
     print(f"  scan --time-field  peak RSS {scan['rss_mb']:.0f} MB (anon {scan['anon_mb']:.0f} MB)")
     print(
-        f"  timeline 1m        peak RSS {week['rss_mb']:.0f} MB (anon {week['anon_mb']:.0f} MB), "
-        f"{week['sketches'] - 1:,.0f} windows, budget 250 MB"
+        f"  timeline 1m        peak RSS {week['scan_rss_mb']:.0f} MB after the scan "
+        f"(anon {week['scan_anon_mb']:.0f} MB), {week['rss_mb']:.0f} MB after the analysis "
+        f"(anon {week['anon_mb']:.0f} MB); {week['sketches'] - 1:,.0f} windows; budget 250 MB"
     )
     _bytes_per_window()
 
@@ -172,7 +179,7 @@ def _bytes_per_window() -> None:
         tracemalloc.start()
         kept = []
         for x in batches:
-            s = Sketch("ms", compression=200.0, tail_size=128)
+            s = Sketch("ms", compression=200.0, tail_size=64)
             s.provenance.sources, s.provenance.field = ["timeline_week.csv"], "column latency_ms"
             s.add(x)
             s.digest.flush()
@@ -220,8 +227,7 @@ def bench_false_alarms(days: int) -> None:
 
     print(f"{days} simulated days of 288 five-minute windows each, false-alarm rate 5 %:")
     for kind in KINDS:
-        hits = 0
-        alarms = 0
+        hits = extra = alarms = 0
         per = 300 if kind in ("none", "wobble") else 2000
         n = days if kind in ("none", "wobble") else max(days // 4, 10)
         t0 = time.perf_counter()
@@ -231,11 +237,13 @@ def bench_false_alarms(days: int) -> None:
             if not TRUTH[kind]:
                 alarms += bool(found)
                 continue
-            ok = len(found) == len(TRUTH[kind]) and all(
-                abs(c.change.start - a) <= 1 and abs(c.change.end - b) <= 1
-                for c, (a, b) in zip(found, TRUTH[kind], strict=True)
-            )
-            hits += ok
+            # Each true change matched by a found one within a window at both ends.
+            matched = [
+                any(abs(c.change.start - a) <= 1 and abs(c.change.end - b) <= 1 for c in found)
+                for a, b in TRUTH[kind]
+            ]
+            hits += all(matched)
+            extra += max(len(found) - sum(matched), 0)
         spent = time.perf_counter() - t0
         if not TRUTH[kind]:
             ci = stats.binomtest(alarms, n).proportion_ci(0.95)
@@ -244,7 +252,10 @@ def bench_false_alarms(days: int) -> None:
                 f"(95% CI {ci.low:.1%} to {ci.high:.1%}; stated 5%)  [{spent:.0f} s]"
             )
         else:
-            print(f"  {kind:<8} found exactly, within one window of the truth: {hits}/{n}  [{spent:.0f} s]")
+            print(
+                f"  {kind:<8} every true change found within one window: {hits}/{n} days; "
+                f"other changes reported: {extra} in {n} days  [{spent:.0f} s]"
+            )
 
 
 def main() -> int:

@@ -38,7 +38,7 @@ per level. A daily cycle or a slow drift is a real movement of the distribution 
 is reported as change points or spans; a change point says when, not why. Check
 what matters to a release with the 'ogive gate' line printed under each change.
 
-Memory: a window keeps a small sketch (about 5 KB), so a week of 1-minute windows
+Memory: a window keeps a small sketch (about 4 KB), so a week of 1-minute windows
 stays within the scan's memory budget; more window sketches than --max-windows
 (window count times groups with --by) stop the scan with a message.
 
@@ -50,9 +50,10 @@ examples:
 
 WINDOW_COMPRESSION = 200.0
 """t-digest compression of each window's sketch (the whole keeps the scan's): about
-100 centroids, 5 KB a window with the exact tails (measured, README)."""
-WINDOW_TAIL = 128
-"""Exact values kept at each end of a window: p99 is exact up to 12,800 values a window."""
+100 centroids; with the exact tails 3.9 KiB a window (benchmarks/timeline_bench.py)."""
+WINDOW_TAIL = 64
+"""Exact values kept at each end of a window: p99 is exact up to 6,400 values a window,
+p99.9 up to 64,000. A week of 1-minute windows then holds about 39 MB."""
 MAX_WINDOWS = 12_000
 """Window sketches one scan may keep (a week of minutes is 10,080)."""
 TABLE_AUTO = 48

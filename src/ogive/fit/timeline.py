@@ -248,6 +248,11 @@ class ChangeReport:
     def move(self, label: str) -> QuantileMove | None:
         return next((m for m in self.ladder if m.label == label), None)
 
+    @property
+    def size(self) -> float:
+        """The largest |relative change| of a quantile that moved (0 when none did)."""
+        return max((abs(m.relative) for m in self.ladder if m.moved and np.isfinite(m.relative)), default=0.0)
+
     def to_dict(self) -> dict[str, Any]:
         return {
             "start": timekeys.start_text(self.start_us),
@@ -281,8 +286,7 @@ class StreamTimeline:
     @property
     def largest_move(self) -> float:
         """The largest |relative change| of a moved quantile over its changes (sorts groups)."""
-        moves = [abs(m.relative) for c in self.changes for m in c.ladder if m.moved]
-        return max((m for m in moves if np.isfinite(m)), default=0.0)
+        return max((c.size for c in self.changes), default=0.0)
 
     def to_dict(self, chart_qs: tuple[float, ...]) -> dict[str, Any]:
         return {

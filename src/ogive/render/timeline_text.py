@@ -89,11 +89,12 @@ def headline(t: Timeline, source: str, *, width: int = 100, ascii_only: bool = F
     whole = t.streams[0]
     first, last = when(t.first_us, days=True), when(t.start(t.count), days=True)
     unit = f" [{t.unit}]" if t.unit else ""
-    text = (
-        f"timeline of {source}{unit}: {whole.n:,} values in {t.count:,} windows of "
-        f"{span_text(t.width_us / 1e6)}, {first} to {last} UTC"
+    head = f"timeline of {source}{unit}:"
+    tail = (
+        f"{whole.n:,} values in {t.count:,} windows of {span_text(t.width_us / 1e6)}, {first} to {last} UTC"
     )
-    return _wrap(text, width) + [line for n in t.notes for line in _wrap(f"note: {n}", width)]
+    lines = [f"{head} {tail}"] if len(head) + 1 + len(tail) <= width else [*_wrap(head, width), f"  {tail}"]
+    return lines + [line for n in t.notes for line in _wrap(f"note: {n}", width)]
 
 
 # ---------------------------------------------------------------- changes
@@ -231,12 +232,7 @@ def group_lines(t: Timeline, *, width: int, ascii_only: bool = False) -> list[st
 
 
 def _largest(g: StreamTimeline) -> ChangeReport | None:
-    best, size = None, -1.0
-    for c in g.changes:
-        m = max((abs(x.relative) for x in c.ladder if x.moved and np.isfinite(x.relative)), default=0.0)
-        if m > size:
-            best, size = c, m
-    return best
+    return max(g.changes, key=lambda c: c.size, default=None)
 
 
 def what_short(c: ChangeReport) -> str:
