@@ -216,3 +216,38 @@ def test_demo_release_is_found_at_its_time(name: str, start: str, end: str) -> N
 def minutes_of(clock: str) -> int:
     h, m = clock.split(":")
     return int(h) * 60 + int(m)
+
+
+def test_a_followed_timeline_keeps_its_latest_windows(tmp_path: Path) -> None:
+    """Following a log with windows: past max_windows the oldest windows go (the whole
+    keeps every value), so memory stays bounded however long the follow lasts."""
+    import threading
+    import time
+
+    from ogive.read.follow import follow
+
+    log = tmp_path / "live.csv"
+    log.write_text("ts,latency_ms\n")
+    done = threading.Event()
+
+    def writer() -> None:
+        for minute in range(12):
+            with open(log, "a") as fh:
+                for k in range(20):
+                    moment = T0 + dt.timedelta(minutes=minute, seconds=3 * k)
+                    fh.write(f"{moment.strftime('%Y-%m-%dT%H:%M:%SZ')},{minute + 1}.5\n")
+            time.sleep(0.02)
+        done.set()
+
+    t = threading.Thread(target=writer)
+    t.start()
+    start = time.monotonic()
+    options = _timeline_options(window="1m", max_windows=5)
+    result, _ = follow(
+        str(log), options, cancel=lambda: done.is_set() and time.monotonic() - start > 1.0, poll_s=0.01
+    )
+    t.join()
+    windows = sorted(n for n in result.sketches.names() if timekeys.parse_key(n))
+    assert windows == [f"2026-03-04T23:{m}:00Z/PT1M" for m in range(47, 52)]  # T0 is 23:40
+    assert result.sketches["all"].count == 12 * 20
+    assert result.sketches[windows[-1]].quantile(0.5)[()] == 12.5  # the last minute's value

@@ -91,6 +91,13 @@ class Builder:
                 span = self._spans.setdefault(name, [lo, hi])
                 span[0], span[1] = min(span[0], lo), max(span[1], hi)
 
+    def drop(self, name: str) -> None:
+        """Let go of a sketch and whatever of it is still held (an old window of a followed timeline)."""
+        self.sketches.pop(name, None)
+        self._spans.pop(name, None)
+        held = self._held.pop(name, [])
+        self._held_n -= sum(part.size for part in held)
+
     def flush(self) -> None:
         """Add the held values: one batch per sketch of ~BATCH_VALUES costs less per value
         than one per chunk (fewer tail merges and digest compressions)."""

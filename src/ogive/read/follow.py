@@ -344,13 +344,14 @@ def follow(
     """
     if path == "-":
         raise ValueError("follow needs a file path; standard input is read to its end by a plain scan.")
-    if options.window is not None:
+    if options.window is not None and not options.timeline:
         # One sketch per window would grow without end while following.
         raise OgiveError(
             "--window makes one sketch per window, without end while following; "
             "use --recent DURATION to keep the last minutes instead."
         )
     f = _Follower(path, options, recent)
+    f.run.router.rolling = True  # a timeline keeps its latest max_windows windows
     start = time.monotonic()
     last_update = start
     try:

@@ -37,8 +37,13 @@ class Router:
         self._known = pl.Series([], dtype=pl.String)
         self._keys: dict[float, str] = {}
         """Timeline: window start -> its ``START/DURATION`` name."""
-        self._window_sketches: set[str] = set()
+        self._window_sketches: dict[str, float] = {}
+        """Timeline: every window sketch made so far, by name, with its window's start."""
         self._also: list[tuple[str, NDArray[np.int64] | None]] = []
+        self.rolling = False
+        """Past ``max_windows``, drop the oldest windows instead of stopping (following a
+        log: the whole keeps every value, the windows the latest stretch)."""
+        self._dropped: list[str] = []
 
     def route(
         self, n: int, g: pl.Series | None, tus: NDArray[np.float64] | None
@@ -95,13 +100,21 @@ class Router:
             (timekeys.WHOLE, None if good.size == tus.size else good)
         ]
         windows: list[tuple[str, NDArray[np.int64] | None]] = []
+        made = {key: float(s) for key, s in zip(keys, starts, strict=True)}
         if self.options.by and g is not None and good.size:
             labels, codes = self._group_codes(g)
             also += _split_by(labels, codes, good)
             for key, part in out:
-                windows += [(f"{label}@{key}", rows) for label, rows in _split_by(labels, codes, part)]
-        self._count_windows([name for name, _ in out + windows])
+                pairs = _split_by(labels, codes, part)
+                windows += [(f"{label}@{key}", rows) for label, rows in pairs]
+                made.update({f"{label}@{key}": made[key] for label, _ in pairs})
+        self._count_windows(made)
         self._also = also + windows
+        return out
+
+    def dropped(self) -> list[str]:
+        """Window sketches to let go of (``rolling``), oldest first; each is named once."""
+        out, self._dropped = self._dropped, []
         return out
 
     def _key(self, start_us: float, width_us: float) -> str:
@@ -110,8 +123,16 @@ class Router:
             key = self._keys[start_us] = timekeys.window_key(start_us, width_us)
         return key
 
-    def _count_windows(self, names: list[str]) -> None:
-        self._window_sketches.update(names)
+    def _count_windows(self, made: dict[str, float]) -> None:
+        self._window_sketches.update(made)
+        if len(self._window_sketches) > self.options.max_windows and self.rolling:
+            by_age = sorted(self._window_sketches, key=self._window_sketches.__getitem__)
+            extra = by_age[: len(by_age) - self.options.max_windows]
+            # A window of this very chunk is never dropped: its rows are being added now.
+            extra = [n for n in extra if n not in made]
+            for name in extra:
+                del self._window_sketches[name]
+            self._dropped += extra
         if len(self._window_sketches) > self.options.max_windows:
             o = self.options
             raise OgiveError(

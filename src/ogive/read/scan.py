@@ -277,6 +277,8 @@ class Pipeline:
                 self.builder.add(name, batch, idx)
         for name, rows in self.router.also():
             self.builder.add(name, batch, rows, tally=False)
+        for name in self.router.dropped():
+            self.builder.drop(name)
 
     def unassigned(self, reason: str, display: str, lines: range) -> None:
         """Lines no sketch can own: counted in the result, and in ``all`` when that one
