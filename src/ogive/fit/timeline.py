@@ -8,10 +8,10 @@ are read too, their width taken from the closest two starts. Windows with no val
 
 Per window: n, bad rows and p50/p90/p99/p99.9 with the ladder's distribution-free
 intervals (:func:`ogive.fit.ladder.quantile_intervals`). Per stream (the whole, and each
-``--by`` group): the change points of :mod:`ogive.fit.changes`, each with the ladder of
-the period after it against the period before it (:func:`ogive.fit.ladder.ladder`) and
-what moved: the body (p50 to p90), the tail (p95 and up), or both. Nothing here reads
-a file: everything comes from the sketches.
+``--by`` group): the change points of :mod:`ogive.fit.changes`, each with p50 … p99.9
+of the period before and after it and which of them moved beyond chance
+(:class:`QuantileMove`): the body (p50 to p90), the tail (p95 and up), or both. Nothing
+here reads a file: everything comes from the sketches.
 """
 
 from __future__ import annotations
@@ -138,7 +138,10 @@ def _plain_windows(sset: SketchSet) -> tuple[dict[str | None, list[tuple[float, 
 
 
 def _merged(sketches: list[Sketch], unit: str) -> Sketch:
-    out = Sketch(unit)
+    """The whole of a set saved without one: its windows merged, into a sketch with their
+    own tail size (a larger buffer filled from each window's few would not hold the true
+    extremes of all of them)."""
+    out = Sketch(unit, tail_size=min((s.tail_size for s in sketches), default=1))
     for s in sketches:
         out.merge(s)
     return out
