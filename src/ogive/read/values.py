@@ -11,6 +11,7 @@ NaN and infinities are passed on as values: the Sketch counts them (``nan_count`
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 import numpy as np
@@ -65,6 +66,22 @@ class ParsedValues:
     """How many rows carried a time suffix (tells whether the field is a duration)."""
     unsuffixed: int
     """How many rows were plain numbers."""
+
+
+_SINGLE_RE = re.compile(_SINGLE)
+_COMPOUND_RE = re.compile(_COMPOUND)
+
+
+def looks_numeric(text: str) -> bool:
+    """Whether one field reads as a number or a duration (``12``, ``0.25``, ``250ms``,
+    ``1m30s``): the per-field test the sniffers use on a few sample rows."""
+    t = text.strip().strip('"').strip()
+    try:
+        float(t)
+    except ValueError:
+        m = _SINGLE_RE.match(t)
+        return bool(m and canonical_unit(m[2]) in TIME_UNITS) or bool(_COMPOUND_RE.match(t))
+    return t.lower().lstrip("+-") not in ("nan", "inf", "infinity")
 
 
 def has_suffix(sample: pl.Series) -> bool:

@@ -1,0 +1,333 @@
+"""NDJSON records: one JSON object per line (the shape structured loggers write).
+
+Field paths (``--field``, ``--by``, ``--time-field``) are ours, turned into JSONPath:
+
+- dots separate keys: ``timing.total_ms``, ``http.response.status_code``;
+- any other character is part of the key: ``@timestamp``, ``x y``, ``a-b``;
+- a key that itself holds a dot, bracket or backslash is escaped with a backslash,
+  ``labels.k\\.dot``, or written in brackets, ``labels["k.dot"]``;
+- ``[N]`` takes element N (from 0) of an array: ``spans[0].ms``.
+
+Structured loggers write a dotted name either nested (``{"event": {"duration": 5}}``)
+or flat (``{"event.duration": 5}``), or mixed: for plain dots the grouping that finds
+the field in most of the first lines is used. Without ``--field`` the value is the
+Elastic Common Schema's ``event.duration`` (nanoseconds, as ECS defines it) when the
+records have one, else the only field that holds numbers; ``@timestamp`` (ECS) gives
+each record's time when no ``--time-field`` names one.
+
+Lines that give no value are counted by why: blank, not JSON, JSON but not an object,
+the field null, the field absent, or an array/object where a number should be.
+"""
+
+from __future__ import annotations
+
+import itertools
+import json
+import re
+from collections import Counter
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import polars as pl
+
+from ..errors import OgiveError
+from . import layout as L
+from .delimited import MOST, SNIFF_LINES, TIME_NAMES
+from .options import ScanOptions
+from .values import MISSING_FIELD, looks_numeric
+
+ECS_DURATION = "event.duration"
+ECS_TIMESTAMP = "@timestamp"
+Part = str | int
+"""A key, or an array index."""
+
+
+@dataclass(frozen=True)
+class JsonLayout(L.Layout):
+    paths: tuple[tuple[str, str], ...] = ()
+    """(output name, JSONPath) pairs."""
+    null_probe: tuple[str, str] = ("$", "")
+    """(JSONPath of the value's parent object, regex that finds the value's key set to
+    null in it): tells a null value from a missing one, for the rows without a value."""
+
+    def frame(self, lines: pl.Series) -> pl.DataFrame:
+        cols = [lines.str.json_path_match(path).alias(name) for name, path in self.paths]
+        df = pl.DataFrame(cols)
+        r = self._reasons(lines, df.get_column("v"))
+        return df if r is None else df.with_columns(r)
+
+    def _reasons(self, lines: pl.Series, v: pl.Series) -> pl.Series | None:
+        n = len(lines)
+        nonscalar = L.rows_where(v.str.starts_with("[") | v.str.starts_with("{"))
+        missing = L.rows_where(v.is_null())
+        parts: list[tuple[np.ndarray, str]] = [(nonscalar, L.NOT_A_SCALAR)]
+        if missing.size:
+            sub = lines.gather(missing)
+            empty = L.blank(sub)
+            doc = sub.str.json_path_match("$")
+            is_object = sub.str.strip_chars_start().str.starts_with("{")
+            parent_path, null_re = self.null_probe
+            parent = doc if parent_path == "$" else sub.str.json_path_match(parent_path)
+            null = parent.str.contains(null_re) if null_re else pl.Series([False] * len(sub))
+            parts += [
+                (missing[L.rows_where(empty)], L.BLANK_LINE),
+                (missing[L.rows_where(doc.is_null())], L.NOT_JSON),
+                (missing[L.rows_where(~is_object)], L.NOT_AN_OBJECT),
+                (missing[L.rows_where(null)], L.NULL_VALUE),
+                (missing, MISSING_FIELD),
+            ]
+        return L.reason_column(n, parts)
+
+
+# ----------------------------------------------------------------- field paths
+
+
+def parse_path(spec: str) -> list[tuple[Part, bool]]:
+    """Keys and indices of a field path, each with whether a plain dot joined it to the
+    one before (only such neighbours may be one flat key like ``"event.duration"``)."""
+    out: list[tuple[Part, bool]] = []
+    cur: list[str] = []
+    i, n = 0, len(spec)
+    plain_dot = False  # the next part follows an unescaped dot
+    pending = False  # ``cur`` holds a started key (possibly empty after an escape)
+
+    def bad(why: str) -> OgiveError:
+        return OgiveError(
+            f"the field path {spec!r} {why}; write it like timing.total_ms, labels.k\\.dot or "
+            'labels["k.dot"].'
+        )
+
+    def close() -> None:
+        nonlocal cur, pending, plain_dot
+        if not cur and not pending:
+            raise bad("has an empty part")
+        # Only two plain keys either side of a plain dot may be read as one flat key.
+        joins = plain_dot and bool(out) and not bracketed[-1]
+        out.append(("".join(cur), joins))
+        bracketed.append(False)
+        cur, pending, plain_dot = [], False, False
+
+    bracketed: list[bool] = []
+
+    just_bracketed = False
+    while i < n:
+        c = spec[i]
+        if c == "\\" and i + 1 < n:
+            cur.append(spec[i + 1])
+            pending = True
+            i += 2
+            continue
+        if c == ".":
+            if not just_bracketed:
+                close()
+            just_bracketed = False
+            plain_dot = True
+            i += 1
+            continue
+        if c == "[":
+            if cur or pending:
+                close()
+            elif plain_dot:
+                raise bad("has an empty part")
+            end, part = _bracket(spec, i, bad)
+            out.append((part, False))
+            bracketed.append(True)
+            plain_dot = False
+            just_bracketed = True
+            i = end
+            continue
+        if just_bracketed:
+            raise bad("needs a dot after a bracket")
+        cur.append(c)
+        pending = True
+        i += 1
+    if cur or pending or not out or plain_dot:
+        close()
+    return out
+
+
+def _bracket(spec: str, i: int, bad: Any) -> tuple[int, Part]:
+    """Parse ``["key"]``, ``['key']`` or ``[N]`` at ``spec[i]``; (index after it, part)."""
+    j = i + 1
+    if j < len(spec) and spec[j] in "\"'":
+        quote, j, key = spec[j], j + 1, []
+        while j < len(spec) and spec[j] != quote:
+            if spec[j] == "\\" and j + 1 < len(spec):
+                j += 1
+            key.append(spec[j])
+            j += 1
+        if j + 1 >= len(spec) or spec[j + 1] != "]":
+            raise bad("has an unclosed bracket")
+        return j + 2, "".join(key)
+    close = spec.find("]", j)
+    if close < 0 or not spec[j:close].isdigit():
+        raise bad("has a bracket that holds neither a quoted key nor an index")
+    return close + 1, int(spec[j:close])
+
+
+def groupings(parts: list[tuple[Part, bool]]) -> list[list[Part]]:
+    """Every way of reading plain-dotted neighbours as one flat key, nested first."""
+    joinable = [i for i, (_, joins) in enumerate(parts) if joins][:4]  # at most 16 ways
+    out: list[list[Part]] = []
+    for joins in itertools.product((False, True), repeat=len(joinable)):
+        merged: list[Part] = []
+        for i, (p, _) in enumerate(parts):
+            if i in joinable and joins[joinable.index(i)]:
+                merged[-1] = f"{merged[-1]}.{p}"
+            else:
+                merged.append(p)
+        out.append(merged)
+    return out
+
+
+def json_path(parts: list[Part]) -> str:
+    """JSONPath in bracket form, which takes any key (``$.@t`` does not compile)."""
+
+    def one(p: Part) -> str:
+        if isinstance(p, int):
+            return f"[{p}]"
+        return "['" + p.replace("\\", "\\\\").replace("'", "\\'") + "']"
+
+    return "$" + "".join(one(p) for p in parts)
+
+
+def shown(parts: list[Part]) -> str:
+    """A path written back in our syntax (dots in keys escaped)."""
+    out = ""
+    for p in parts:
+        if isinstance(p, int):
+            out += f"[{p}]"
+        else:
+            key = p.replace("\\", "\\\\").replace(".", "\\.").replace("[", "\\[")
+            out += ("." if out else "") + key
+    return out
+
+
+_MISSING = object()
+
+
+def _lookup(obj: Any, parts: list[Part]) -> Any:
+    for p in parts:
+        if isinstance(p, int):
+            if not isinstance(obj, list) or p >= len(obj):
+                return _MISSING
+            obj = obj[p]
+        else:
+            if not isinstance(obj, dict) or p not in obj:
+                return _MISSING
+            obj = obj[p]
+    return obj
+
+
+def _best(spec: str, objects: list[dict[str, Any]]) -> list[Part]:
+    """The grouping of ``spec`` found in most sampled objects (nested on a tie)."""
+    ways = groupings(parse_path(spec))
+    hits = [sum(_lookup(o, w) is not _MISSING for o in objects) for w in ways]
+    return ways[int(np.argmax(hits))]
+
+
+# ----------------------------------------------------------------- planning
+
+
+def sample_objects(data: bytes) -> list[dict[str, Any]]:
+    """The JSON objects among the first lines (others are skipped here, counted later)."""
+    out: list[dict[str, Any]] = []
+    for line in data[: 1 << 20].split(b"\n")[:SNIFF_LINES]:
+        try:
+            obj = json.loads(line)
+        except ValueError:
+            continue
+        if isinstance(obj, dict):
+            out.append(obj)
+    return out
+
+
+def numeric_leaves(obj: Any, prefix: tuple[Part, ...] = ()) -> list[tuple[Part, ...]]:
+    """Paths to the numbers (or numeric strings, durations) in a parsed object."""
+    out: list[tuple[Part, ...]] = []
+    if isinstance(obj, dict):
+        for k, v in obj.items():
+            out += numeric_leaves(v, (*prefix, str(k)))
+    elif isinstance(obj, bool) or obj is None:
+        pass
+    elif isinstance(obj, int | float) or (isinstance(obj, str) and looks_numeric(obj)):
+        out.append(prefix)
+    return out
+
+
+def plan(data: bytes, options: ScanOptions) -> JsonLayout:
+    objects = sample_objects(data)
+    notes: list[str] = []
+    input_unit = None
+    spec = options.field or options.column
+    if spec:
+        vparts = _best(spec, objects)
+    else:
+        vparts, note, input_unit = _choose_value(objects, options)
+        notes.append(note)
+    paths = [("v", json_path(vparts))]
+    if options.by:
+        paths.append(("g", json_path(_best(options.by, objects))))
+    time_source = ""
+    if options.time_field:
+        paths.append(("t", json_path(_best(options.time_field, objects))))
+    elif objects and sum(ECS_TIMESTAMP in o for o in objects) >= MOST * len(objects):
+        paths.append(("t", json_path([ECS_TIMESTAMP])))
+        time_source = f"field {ECS_TIMESTAMP}"
+    *parent, last = vparts
+    null_re = ""
+    if isinstance(last, str):
+        null_re = "[{,]" + re.escape(json.dumps(last)) + ":null[,}]"
+    return JsonLayout(
+        format="ndjson",
+        names=tuple(name for name, _ in paths),
+        paths=tuple(paths),
+        null_probe=(json_path(parent), null_re),
+        description=f"field {shown(vparts)}",
+        time_source=time_source,
+        input_unit=input_unit,
+        notes=tuple(notes),
+    )
+
+
+def _choose_value(objects: list[dict[str, Any]], options: ScanOptions) -> tuple[list[Part], str, str | None]:
+    """ECS ``event.duration`` (ns), else the only numeric field; else an error naming them."""
+    if objects:
+        ecs = _best(ECS_DURATION, objects)
+        if sum(_lookup(o, ecs) is not _MISSING for o in objects) >= MOST * len(objects):
+            unit = None if options.input_unit else "ns"
+            return (
+                ecs,
+                (
+                    f"value: field {ECS_DURATION}, in nanoseconds as the Elastic Common Schema defines it "
+                    "(choose another with --field)."
+                ),
+                unit,
+            )
+    counts: Counter[tuple[Part, ...]] = Counter()
+    for o in objects:
+        counts.update(set(numeric_leaves(o)))
+    skip = {options.by, options.time_field}
+    candidates = [
+        list(p)
+        for p, c in counts.most_common()
+        if c >= MOST * len(objects) and shown(list(p)) not in skip and str(p[-1]).lower() not in TIME_NAMES
+    ]
+    if len(candidates) == 1:
+        return (
+            candidates[0],
+            (
+                f"value: field {shown(candidates[0])}, the only field that holds numbers (choose another "
+                "with --field)."
+            ),
+            None,
+        )
+    names = ", ".join(shown(c) for c in candidates[:8]) + (", ..." if len(candidates) > 8 else "")
+    if candidates:
+        raise OgiveError(
+            f"the records are NDJSON and several fields hold numbers ({names}); name the value with --field."
+        )
+    raise OgiveError(
+        "the records are NDJSON; name the value with --field (a dotted path such as timing.total_ms)."
+    )
