@@ -20,7 +20,7 @@ from ..read.options import ScanOptions
 from . import preview
 from .path_input import PathInput
 
-FORMATS = ("auto", "csv", "tsv", "ndjson", "text", "parquet")
+FORMATS = ("auto", "csv", "tsv", "ndjson", "text", "access", "syslog", "otlp", "parquet")
 HINT = "enter: open · tab: complete/next · escape: cancel"
 
 
@@ -44,8 +44,8 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
     BINDINGS: ClassVar[list[BindingType]] = [Binding("escape", "cancel", "Cancel")]
 
     FIELDS: ClassVar[list[tuple[str, str, str]]] = [
-        ("format", "format", "auto, csv, tsv, ndjson, text, parquet"),
-        ("field", "field", "NDJSON: dotted path, e.g. timing.total_ms"),
+        ("format", "format", "auto, csv, tsv, ndjson, text, access, syslog, otlp, parquet"),
+        ("field", "field", "NDJSON: dotted path (timing.total_ms); text: KEY of KEY=VALUE"),
         ("column", "column", "CSV/TSV: name or 1-based number"),
         ("pattern", "pattern", "text: regex with one group"),
         ("unit", "unit", "ms, s, us, ns, or a label"),
