@@ -38,11 +38,13 @@ def test_nul_bytes_are_removed_and_their_lines_counted() -> None:
     assert out.nul == 2 and out.nul_at == [0, 2]
 
 
-def _read_all(raw: bytes, piece: int = 7) -> tuple[bytes, encoding.Recoded]:
-    r = encoding.Recoded(io.BytesIO(raw).read)
+def _read_all(raw: bytes, piece: int = 7) -> tuple[bytes, encoding.Transcoder]:
+    r = encoding.Transcoder()
+    src = io.BytesIO(raw)
     parts = []
-    while chunk := r.read(piece):
-        parts.append(chunk)
+    while chunk := src.read(piece):
+        parts.append(r.push(chunk))
+    parts.append(r.end())
     return b"".join(parts), r
 
 

@@ -2,7 +2,7 @@
 
 Two levels, both cheap when there is nothing to do:
 
-- **Per source** (``Recoded``): the first bytes say whether the text is UTF-16 (a
+- **Per source** (``Transcoder``): the first bytes say whether the text is UTF-16 (a
   byte-order mark, or NULs in every other byte) or uses CR alone as the line end
   (classic Mac). Such a stream is transcoded to UTF-8 / ``\\n`` as it is read, and
   the caller is told once (``Recoded.note``).
@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import codecs
 import threading
-from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -129,46 +128,52 @@ def sniff(head: bytes) -> tuple[str, str | None]:
     return UTF8, None
 
 
-class Recoded:
-    """A byte stream read through ``read(n)``, transcoded to UTF-8 with ``\\n`` line ends.
+class Transcoder:
+    """Bytes of one source pushed in as they are read, handed on as UTF-8 with ``\\n``
+    line ends.
 
-    The first call reads a head to decide; UTF-8 with LF or CRLF line ends is passed
-    through untouched (no copies), so ordinary files cost nothing here.
+    The encoding is decided from the first bytes: once ``HEAD_BYTES`` are in, or as
+    soon as a newline and a few bytes are (a followed log must not wait for 4 KB), or
+    at the end. UTF-8 with LF or CRLF line ends then passes through untouched (no
+    copies), so ordinary files cost nothing here.
     """
 
-    def __init__(self, read: Callable[[int], bytes]) -> None:
-        self._read = read
+    def __init__(self) -> None:
         self.encoding: str | None = None
         self.note: str | None = None
         """What was done to the stream, to tell the user once; None when nothing."""
-        self._ended = False
-        self._bom_seen = False
+        self._head = b""
         self._decoder: codecs.IncrementalDecoder | None = None
-        self.replaced = 0
-        """UTF-16 code units that could not be decoded (lone surrogates), replaced."""
+        self._bom_seen = False
+        self._raw = 0
+        self._out = 0
 
-    def start(self) -> bytes:
-        """Read and decide from the head; returns the (transcoded) head."""
-        head = self._read(HEAD_BYTES)
-        self._ended = not head
+    @property
+    def ratio(self) -> float:
+        """Source bytes per byte handed on (1 for UTF-8; about 2 for UTF-16)."""
+        return self._raw / self._out if self._out and self.encoding in (UTF16LE, UTF16BE) else 1.0
+
+    def push(self, raw: bytes) -> bytes:
+        if self.encoding is None:
+            self._head += raw
+            if len(self._head) < HEAD_BYTES and not (b"\n" in self._head and len(self._head) >= 16):
+                return b""
+            raw, self._head = self._head, b""
+            self._decide(raw)
+        return self._convert(raw, final=False)
+
+    def end(self) -> bytes:
+        """What is still held at the end of the input."""
+        raw = b""
+        if self.encoding is None:
+            raw, self._head = self._head, b""
+            self._decide(raw)
+        return self._convert(raw, final=True)
+
+    def _decide(self, head: bytes) -> None:
         self.encoding, self.note = sniff(head)
         if self.encoding in (UTF16LE, UTF16BE):
             self._decoder = codecs.getincrementaldecoder(self.encoding)(errors="replace")
-        return self._convert(head, final=not head)
-
-    def read(self, n: int) -> bytes:
-        """Up to about ``n`` bytes of UTF-8 (a transcoded read may give more or fewer);
-        b"" only at the end."""
-        if self.encoding is None:
-            out = self.start()
-            if out or not self._ended:
-                return out or self.read(n)
-            return b""
-        while True:
-            raw = self._read(n)
-            out = self._convert(raw, final=not raw)
-            if out or not raw:
-                return out
 
     def _convert(self, raw: bytes, *, final: bool) -> bytes:
         if self.encoding == UTF8:
@@ -180,5 +185,7 @@ class Recoded:
         if not self._bom_seen and text:
             self._bom_seen = True
             text = text.removeprefix("\ufeff")
-        self.replaced += text.count("\ufffd")
-        return text.encode("utf-8", errors="replace")
+        out = text.encode("utf-8", errors="replace")
+        self._raw += len(raw)
+        self._out += len(out)
+        return out

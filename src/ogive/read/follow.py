@@ -249,7 +249,7 @@ class _Follower:
             self.caught_up = True
             return False
         self.inode = os.fstat(self.fh.fileno()).st_ino
-        self.run.start_source()
+        self.run.start_source(self.path)
         return True
 
     def close(self) -> None:
@@ -302,7 +302,7 @@ class _Follower:
             return self.open()
         if st.st_size < self.fh.tell():
             self.fh.seek(0)
-            self.run.start_source()
+            self.run.start_source(self.path)
             self.rotations += 1
             return True
         return False

@@ -45,14 +45,15 @@ Part = str | int
 
 @dataclass(frozen=True)
 class JsonLayout(L.Layout):
-    paths: tuple[tuple[str, str], ...] = ()
-    """(output name, JSONPath) pairs."""
+    paths: tuple[tuple[str, tuple[str, ...]], ...] = ()
+    """(output name, JSONPaths): the first path that finds the field gives it (a dotted
+    name written nested in some records and flat in others)."""
     null_probe: tuple[str, str] = ("$", "")
     """(JSONPath of the value's parent object, regex that finds the value's key set to
     null in it): tells a null value from a missing one, for the rows without a value."""
 
-    decode: tuple[tuple[str, tuple[str, ...]], ...] = ()
-    """(output name, keys) pairs when every path is keys only: then one ``json_decode``
+    decode: tuple[tuple[str, tuple[tuple[str, ...], ...]], ...] = ()
+    """(output name, key paths) when every path is keys only: then one ``json_decode``
     of the line reads all fields at once (measured 1.5-2x faster than a JSONPath match
     per field); empty when a path has an index or two paths clash."""
 
@@ -60,7 +61,9 @@ class JsonLayout(L.Layout):
         df = self._decoded(lines) if self.decode else None
         checked = df is not None  # a decode fails on arrays/objects: no value is one
         if df is None:
-            df = pl.DataFrame([lines.str.json_path_match(path).alias(name) for name, path in self.paths])
+            df = pl.DataFrame(
+                [_first([lines.str.json_path_match(p) for p in ps]).alias(n) for n, ps in self.paths]
+            )
         r = self._reasons(lines, df.get_column("v"), scalars_checked=checked)
         return df if r is None else df.with_columns(r)
 
@@ -68,15 +71,18 @@ class JsonLayout(L.Layout):
         """All fields by one ``json_decode``; None when a line is not JSON or a field is
         not a scalar (then the JSONPath way reads the chunk and tells which line)."""
         try:
-            doc = lines.str.json_decode(_dtype([keys for _, keys in self.decode]))
+            doc = lines.str.json_decode(_dtype([keys for _, ways in self.decode for keys in ways]))
         except pl.exceptions.PolarsError:
             return None
         cols = []
-        for name, keys in self.decode:
-            col = doc
-            for key in keys:
-                col = col.struct.field(key)
-            cols.append(col.alias(name))
+        for name, ways in self.decode:
+            found = []
+            for keys in ways:
+                col = doc
+                for key in keys:
+                    col = col.struct.field(key)
+                found.append(col)
+            cols.append(_first(found).alias(name))
         return pl.DataFrame(cols)
 
     def _reasons(self, lines: pl.Series, v: pl.Series, *, scalars_checked: bool) -> pl.Series | None:
@@ -106,6 +112,11 @@ class JsonLayout(L.Layout):
         return L.reason_column(n, parts)
 
 
+def _first(cols: list[pl.Series]) -> pl.Series:
+    """Per row, the first non-null of some columns."""
+    return cols[0] if len(cols) == 1 else pl.select(pl.coalesce(cols)).to_series()
+
+
 def _dtype(paths: list[tuple[str, ...]]) -> pl.Struct:
     """A struct type holding exactly the given key paths (leaves as strings)."""
     tree: dict[str, Any] = {}
@@ -121,20 +132,21 @@ def _dtype(paths: list[tuple[str, ...]]) -> pl.Struct:
     return build(tree)
 
 
-def _decodable(pairs: list[tuple[str, list[Part]]]) -> tuple[tuple[str, tuple[str, ...]], ...]:
+def _decodable(
+    pairs: list[tuple[str, list[list[Part]]]],
+) -> tuple[tuple[str, tuple[tuple[str, ...], ...]], ...]:
     """The paths for one ``json_decode`` when all are keys only and none is another's
     prefix (a field cannot be both a leaf and an object); else empty."""
-    keyed = [(name, tuple(p)) for name, p in pairs if all(isinstance(k, str) for k in p)]
-    if len(keyed) < len(pairs):
+    every = [tuple(p) for _, ways in pairs for p in ways]
+    if not all(isinstance(k, str) for p in every for k in p):
         return ()
-    paths = [k for _, k in keyed]
-    for a in paths:
-        for b in paths:
+    for a in every:
+        for b in every:
             if a != b and b[: len(a)] == a:
                 return ()
-    if len(set(paths)) < len(paths):
+    if len(set(every)) < len(every):
         return ()
-    return tuple((name, tuple(str(k) for k in keys)) for name, keys in keyed)
+    return tuple((name, tuple(tuple(str(k) for k in p) for p in ways)) for name, ways in pairs)
 
 
 # ----------------------------------------------------------------- field paths
@@ -277,11 +289,21 @@ def _lookup(obj: Any, parts: list[Part]) -> Any:
     return obj
 
 
-def _best(spec: str, objects: list[dict[str, Any]]) -> list[Part]:
-    """The grouping of ``spec`` found in most sampled objects (nested on a tie)."""
+def _ways(spec: str, objects: list[dict[str, Any]]) -> list[list[Part]]:
+    """The readings of ``spec`` to try, in order: those found in the sampled objects (most
+    often found first), then nested and fully flat; at most three."""
     ways = groupings(parse_path(spec))
     hits = [sum(_lookup(o, w) is not _MISSING for o in objects) for w in ways]
-    return ways[int(np.argmax(hits))]
+    order = sorted((i for i in range(len(ways)) if hits[i]), key=lambda i: -hits[i])
+    for i in (0, len(ways) - 1):
+        if i not in order:
+            order.append(i)
+    return [ways[i] for i in order[:3]]
+
+
+def _found(objects: list[dict[str, Any]], ways: list[list[Part]]) -> int:
+    """Sampled objects in which one of the readings finds the field."""
+    return sum(any(_lookup(o, w) is not _MISSING for w in ways) for o in objects)
 
 
 # ----------------------------------------------------------------- planning
@@ -319,20 +341,21 @@ def plan(data: bytes, options: ScanOptions) -> JsonLayout:
     input_unit = None
     spec = options.field or options.column
     if spec:
-        vparts = _best(spec, objects)
+        vways = _ways(spec, objects)
     else:
-        vparts, note, input_unit = _choose_value(objects, options)
+        vways, note, input_unit = _choose_value(objects, options)
         notes.append(note)
-    chosen: list[tuple[str, list[Part]]] = [("v", vparts)]
+    chosen: list[tuple[str, list[list[Part]]]] = [("v", vways)]
     if options.by:
-        chosen.append(("g", _best(options.by, objects)))
+        chosen.append(("g", _ways(options.by, objects)))
     time_source = ""
     if options.time_field:
-        chosen.append(("t", _best(options.time_field, objects)))
+        chosen.append(("t", _ways(options.time_field, objects)))
     elif objects and sum(ECS_TIMESTAMP in o for o in objects) >= MOST * len(objects):
-        chosen.append(("t", [ECS_TIMESTAMP]))
+        chosen.append(("t", [[ECS_TIMESTAMP]]))
         time_source = f"field {ECS_TIMESTAMP}"
-    paths = [(name, json_path(p)) for name, p in chosen]
+    paths = [(name, tuple(json_path(p) for p in ways)) for name, ways in chosen]
+    vparts = vways[0]
     *parent, last = vparts
     null_re = ""
     if isinstance(last, str):
@@ -350,11 +373,13 @@ def plan(data: bytes, options: ScanOptions) -> JsonLayout:
     )
 
 
-def _choose_value(objects: list[dict[str, Any]], options: ScanOptions) -> tuple[list[Part], str, str | None]:
+def _choose_value(
+    objects: list[dict[str, Any]], options: ScanOptions
+) -> tuple[list[list[Part]], str, str | None]:
     """ECS ``event.duration`` (ns), else the only numeric field; else an error naming them."""
     if objects:
-        ecs = _best(ECS_DURATION, objects)
-        if sum(_lookup(o, ecs) is not _MISSING for o in objects) >= MOST * len(objects):
+        ecs = _ways(ECS_DURATION, objects)
+        if _found(objects, ecs) >= MOST * len(objects):
             unit = None if options.input_unit else "ns"
             return (
                 ecs,
@@ -375,7 +400,7 @@ def _choose_value(objects: list[dict[str, Any]], options: ScanOptions) -> tuple[
     ]
     if len(candidates) == 1:
         return (
-            candidates[0],
+            [candidates[0]],
             (
                 f"value: field {shown(candidates[0])}, the only field that holds numbers (choose another "
                 "with --field)."
