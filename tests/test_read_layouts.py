@@ -172,7 +172,7 @@ def test_access_log_fields() -> None:
 def test_syslog_3164_and_5424() -> None:
     d3164 = b"Mar  4 13:00:01 web-1 planner[12]: dur=12ms\n<131>Mar  4 13:00:02 web-2 cron: no value\n"
     layout, rows = frame(d3164 * 2, by="severity")
-    assert layout.time_format == "rfc3164" and any("no year" in n for n in layout.notes)
+    assert layout.time_format == "rfc3164"
     assert [(r["v"], r["g"], r["t"]) for r in rows[:2]] == [
         ("12ms", None, "Mar  4 13:00:01"),
         (None, "err", "Mar  4 13:00:02"),  # PRI 131 = facility 16, severity 3

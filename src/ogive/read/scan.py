@@ -30,7 +30,7 @@ from .decode import Batch, Decoder
 from .feed import FIXED_TEXT, Feed, prefetch
 from .options import ScanOptions, ScanProgress, ScanResult
 from .route import Router
-from .skips import TOO_LONG, Skips
+from .skips import TOO_LONG, Skips, places
 
 PROGRESS_INTERVAL_S = 0.2
 PARSE_WORKERS = 2
@@ -259,8 +259,8 @@ class Pipeline:
             return
         batch.first_line = self.lines.take(batch.lines)
         for what, count, at in batch.fixed:
-            places = [f"{job.display}:{batch.first_line + i}" for i in at]
-            self.fixed.setdefault(what, SkipTally()).add(count, places)
+            where = [f"{job.display}:{batch.first_line + i}" for i in at]
+            self.fixed.setdefault(what, SkipTally()).add(count, where)
         if batch.rows == 0:
             return
         self.rows += batch.rows
@@ -307,7 +307,7 @@ class Pipeline:
         warnings = [*self.feed.notes, *self.warnings]
         for what, tally in self.fixed.items():
             warnings.append(
-                f"{tally.count:,} lines {FIXED_TEXT[what]} (first at {', '.join(tally.examples)})."
+                f"{tally.count:,} lines {FIXED_TEXT[what]} (first at {places(tally.examples)})."
             )
         for note in (
             self.router.overflow_warning(),

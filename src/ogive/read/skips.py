@@ -91,6 +91,18 @@ class Skips:
         return out
 
 
+def places(examples: list[str]) -> str:
+    """``a.log:3``, ``a.log:9``, ``b.log:4`` as ``a.log:3, 9; b.log:4`` (each file once)."""
+    parts: list[tuple[str, list[str]]] = []
+    for ex in examples:
+        where, _, line = ex.rpartition(":")
+        if parts and parts[-1][0] == where:
+            parts[-1][1].append(line)
+        else:
+            parts.append((where, [line]))
+    return "; ".join(f"{w}:{', '.join(ls)}" for w, ls in parts)
+
+
 def stop(reason: str, where: str) -> NoReturn:
     """The ``--strict`` stop: one line naming the place and the reason."""
     raise OgiveError(f"{where}: {REASON_TEXT.get(reason, reason)} ({reason}); stopped because of --strict.")

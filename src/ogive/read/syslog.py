@@ -23,7 +23,6 @@ import polars as pl
 
 from ..errors import OgiveError
 from . import layout as L
-from . import times
 from .delimited import MOST
 from .options import ScanOptions
 from .text import Extract, key_value_regex, sample_lines, value_source
@@ -114,9 +113,7 @@ def plan(data: bytes, options: ScanOptions) -> SyslogLayout:
             "used without --time-field."
         )
     fields.append(("t", "time"))
-    notes = [src.note] if src.note else []
-    if kind == "rfc3164":
-        notes.append(f"{times.RFC3164_YEAR_RULE}.")
+    notes = [src.note] if src.note else []  # the RFC 3164 year rule is told with the years used
     names = tuple(
         n for n in ("v", "g", "t") if any(n == c.name for c in extracts) or any(n == h for h, _ in fields)
     )
