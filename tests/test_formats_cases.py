@@ -196,6 +196,10 @@ def test_rows_without_a_time_under_a_split_are_in_the_saved_file(
     assert total == doc["sketches"]["before"]["lines_read"] - 1  # every row: a value or counted
     main(["show", str(out)])
     assert "in no sketch: bad timestamp: 2" in capsys.readouterr().out
+    both, copy = tmp_path / "both.ogive", tmp_path / "copy.ogive"
+    copy.write_bytes(out.read_bytes())
+    assert main(["merge", str(out), str(copy), "-o", str(both), "--quiet"]) == 0
+    assert load_sketches(str(both)).unassigned["bad_timestamp"].count == 4
 
 
 def test_a_10_mb_line_is_counted_and_never_printed(

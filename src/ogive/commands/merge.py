@@ -57,7 +57,7 @@ def _clash(name: str, what: str, first: tuple[str, str], other: tuple[str, str])
 
 def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[SketchSet, list[str]]:
     """Merge by sketch name; returns the set and the warnings a forced merge owes the user."""
-    from ..sketch import SketchSet, merge
+    from ..sketch import SketchSet, SkipTally, merge
 
     out: dict[str, Sketch] = {}
     origin: dict[str, str] = {}
@@ -84,7 +84,11 @@ def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[Sket
                 out[name] = merge(have, s)
             else:
                 have.merge(s)  # forced: the first file's unit labels the result
-    return SketchSet(out), warnings
+    merged = SketchSet(out)
+    for _, sset in named:  # rows that reached no sketch stay counted in the merged set
+        for reason, tally in sset.unassigned.items():
+            merged.unassigned.setdefault(reason, SkipTally()).add(tally.count, tally.examples)
+    return merged, warnings
 
 
 def run(args: argparse.Namespace) -> int:

@@ -318,7 +318,6 @@ class Pipeline:
             if note is not None:
                 warnings.append(note)
         warnings += self.decoder.time_notes()
-        warnings += self.skips.ownerless_warnings(by_time=self.router.by_time, by=bool(self.options.by))
         return ScanResult(
             sketches=sset,
             bytes_read=self.bytes_seen,

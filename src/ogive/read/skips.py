@@ -78,18 +78,6 @@ class Skips:
                 out.append((reason, count, [batch.where(int(i)) for i in rows]))
         return out
 
-    def ownerless_warnings(self, *, by_time: bool, by: bool) -> list[str]:
-        """Rows that reached no sketch at all (a bad time when cutting by time, a line too
-        long to read a group from): the only place the user hears of them."""
-        out = []
-        for reason, tally in self.skipped.items():
-            if reason in (TOO_LONG, BAD_TIMESTAMP) and (by_time or (by and reason == TOO_LONG)):
-                out.append(
-                    f"{tally.count} lines could not be given to any sketch ({reason}), first at "
-                    f"{', '.join(tally.examples)}."
-                )
-        return out
-
 
 def places(examples: list[str]) -> str:
     """``a.log:3``, ``a.log:9``, ``b.log:4`` as ``a.log:3, 9; b.log:4`` (each file once)."""
