@@ -244,7 +244,8 @@ def test_damaged_copies_never_end_in_an_internal_error(
             spoilt += bytes(rng.randrange(256) for _ in range(300)) + data[: len(data) // 3]
         path = tmp_path / f"{k}-{name}"
         path.write_bytes(bytes(spoilt))
-        code = main(["scan", str(path), "--quiet"])
+        extra = [[], ["--by", "host"], ["--split-at", "2026-03-04T09:02:00Z"], ["--by", "status"]][k]
+        code = main(["scan", str(path), "--quiet", *extra])
         _, err = capsys.readouterr()
         assert code in (0, 3), err
         assert "internal error" not in err and "Traceback" not in err

@@ -17,6 +17,7 @@ import polars as pl
 from numpy.typing import NDArray
 
 from . import records, times, values
+from .layout import NOT_RECORDS
 from .options import ScanOptions
 from .skips import BAD_TIMESTAMP
 
@@ -63,6 +64,8 @@ class Batch:
     """Line number of the first row, given when the batch is committed in source order."""
     fixed: tuple[tuple[str, int, list[int]], ...] = ()
     """Bytes made readable before parsing: (what, lines, first 0-based lines of the piece)."""
+    loose: NDArray[np.bool_] | None = None
+    """Rows that are no record at all (the format's own reasons: not JSON, blank, ...)."""
 
     def line(self, row: int) -> int:
         """The line (as an editor numbers it) where row ``row`` starts."""
@@ -159,8 +162,10 @@ class Decoder:
         pv = values.parse_values(df.get_column("v"), input_unit=self.input_unit, target_unit=self.unit or "")
         reasons = dict(pv.reasons)
         ok = pv.ok
+        loose = None
         if "r" in df.columns:
             ok, reasons = _record_reasons(df.get_column("r"), ok, reasons)
+            loose = df.get_column("r").is_in(NOT_RECORDS).fill_null(False).to_numpy()
         tus: NDArray[np.float64] | None = None
         other_epoch = 0
         years: tuple[int, ...] = ()
@@ -178,9 +183,11 @@ class Decoder:
                 reasons[BAD_TIMESTAMP] = bt
                 ok = ok & ~bt
         g = df.get_column("g").cast(pl.String) if "g" in df.columns else None
-        return Batch(
+        batch = Batch(
             n, pv.values, ok, reasons, tus, g, pv.suffixed, pv.unsuffixed, other_epoch, years, fmt, display, n
         )
+        batch.loose = loose
+        return batch
 
     def settle(self, batch: Batch) -> None:
         """Count a committed batch (in source order): unit suffixes, epoch units, time form."""

@@ -114,7 +114,9 @@ def parquet_frames(
     if o.time_field:
         exprs.append(column(o.time_field, "t"))
     if feed.layout is None:
-        feed.layout = records.Layout(format="parquet", description=f"column {want}")
+        cols = tuple(n for n, on in (("v", True), ("g", bool(o.by)), ("t", bool(o.time_field))) if on)
+        layout = records.Layout(format="parquet", names=cols, description=f"column {want}")
+        feed.layout = records.needs_time(layout, o)
     try:
         for batch in lf.select(exprs).collect_batches(chunk_size=PARQUET_BATCH_ROWS):
             if "t" in batch.columns and batch.schema["t"] != pl.String:

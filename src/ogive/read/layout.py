@@ -43,6 +43,9 @@ BAD_RECORD = "bad_record"
 NO_SPANS = "no_spans"
 BAD_SPAN = "bad_span"
 
+NOT_RECORDS = (BLANK_LINE, NOT_JSON, NOT_AN_OBJECT, BAD_RECORD, NO_SPANS)
+"""Reasons that say a line is no record at all (so it has no group and no time either)."""
+
 REASON_TEXT = {
     BLANK_LINE: "the line is blank",
     NOT_JSON: "the line is not valid JSON",

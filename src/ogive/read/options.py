@@ -81,13 +81,10 @@ class ScanOptions:
             )
         if (self.chunk_bytes is not None and self.chunk_bytes < 1) or self.max_groups < 1:
             raise OgiveError("chunk_bytes and max_groups must be at least 1.")
-        if self.split_at is not None and not self.time_field:
-            raise OgiveError("--split-at needs --time-field, the column or field holding each record's time.")
+        # Whether there is a time to split or window by is known once the records are:
+        # access logs, syslog, OTLP and text lines that begin with one carry their own
+        # (``records.plan`` refuses a layout without one).
         if self.window is not None:
-            if not self.time_field:
-                raise OgiveError(
-                    "--window needs --time-field, the column or field holding each record's time."
-                )
             if self.by or self.split_at is not None:
                 raise OgiveError("--window cannot be combined with --by or --split-at.")
             seconds = span_seconds(self.window)

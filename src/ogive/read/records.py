@@ -34,7 +34,7 @@ def plan(data: bytes, options: ScanOptions) -> Layout:
     """The layout for this scan, from the first chunk's bytes and the options."""
     fmt, sep = sniff.detect(data, options)
     if fmt in ("csv", "tsv"):
-        return delimited.plan(data, options, fmt, sep)
+        return needs_time(delimited.plan(data, options, fmt, sep), options)
     planners = {
         "ndjson": ndjson.plan,
         "text": text.plan,
@@ -45,7 +45,19 @@ def plan(data: bytes, options: ScanOptions) -> Layout:
     planner = planners.get(fmt)
     if planner is None:
         raise OgiveError(f"unknown format {fmt!r}; use one of {', '.join(sniff.FORMATS)}.")
-    return planner(data, options)
+    return needs_time(planner(data, options), options)
+
+
+def needs_time(layout: Layout, options: ScanOptions) -> Layout:
+    """``layout``, when it has a time wherever --split-at or --window needs one."""
+    for flag, given in (("--split-at", options.split_at), ("--window", options.window)):
+        if given is not None and not layout.has_time:
+            raise OgiveError(
+                f"{flag} needs each record's time: name its column or field with --time-field "
+                "(access logs, syslog, OTLP spans and text lines that begin with a time stamp "
+                "carry their own)."
+            )
+    return layout
 
 
 def lazy_batches(layout: Layout, path: str, skip: int, *, numeric: bool) -> Iterator[pl.DataFrame]:

@@ -275,8 +275,17 @@ class Pipeline:
                 self.skips.count(reason, count, examples)
         if isinstance(names, str):
             self.builder.add(names, batch, None)
-        else:
-            for name, idx in names:
+            return
+        loose = batch.loose
+        if loose is not None and loose.any() and self.router.window_us is None:
+            # Lines that are no record at all (not JSON, not a line of the format, blank)
+            # have no group and no time: they join no sketch, and are counted in the
+            # set's own tally instead of making up a group of their own.
+            for reason, count, examples in self.skips.found(batch, np.flatnonzero(loose)):
+                self.skips.count(reason, count, examples)
+            names = [(name, idx[~loose[idx]]) for name, idx in names]
+        for name, idx in names:
+            if idx.size:
                 self.builder.add(name, batch, idx)
 
     def unassigned(self, reason: str, display: str, lines: range) -> None:
