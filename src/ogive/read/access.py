@@ -49,8 +49,13 @@ def line_regex(wanted: set[str]) -> str:
     time, status, size = grp("time", r"[^\]]+"), grp("status", r"\d{3}|-"), grp("bytes", r"\d+|-")
     agents = f'(?: "{grp("referer", _Q)}" "{grp("user_agent", _Q)}")?'
     latency = grp("latency", r"[-+]?\d+(?:\.\d+)?(?:[a-zµμ]+)?")
-    rest = grp("rest", ".*?")
-    return rf"^{head} \[{time}\] {request} {status} {size}{agents}(?:\s+{latency})?(?:\s+{rest})?\s*$"
+    start = rf"^{head} \[{time}\] {request} {status} {size}"
+    if "rest" in wanted:
+        return rf"{start}{agents}(?:\s+{latency})?(?:\s+{grp('rest', '.*?')})?\s*$"
+    if "latency" in wanted:
+        return rf"{start}{agents}(?:\s+{latency}{_LATENCY_TAIL}"
+    # Up to the fields wanted: the rest of the line need not be matched (captures cost).
+    return rf"{start}{agents}" if wanted & {"referer", "user_agent"} else start
 
 
 NAMES = ("client", "ident", "user", "method", "path", "protocol", "status", "bytes", "referer",
@@ -70,20 +75,37 @@ class AccessLayout(L.Layout):
     pairs: tuple[Extract, ...] = ()
     """Output columns read from ``KEY=VALUE`` pairs or --pattern instead of the standard fields."""
     missing_reason: str = MISSING_FIELD
+    quick: bool = False
+    """Only the time and a latency that ends the line are read: then a match test of the
+    whole line and two small anchored extracts replace one extract of many groups
+    (measured 2.2x faster: the regex engine's capturing mode is the slow part)."""
 
     def frame(self, lines: pl.Series) -> pl.DataFrame:
-        found = lines.str.extract_groups(self.regex)
-        cols = [
-            # CLF writes "-" for a response without a body: zero bytes.
-            found.struct.field(group).replace("-", "0").alias(name)
-            if group == "bytes"
-            else found.struct.field(group).alias(name)
-            for name, group in self.columns
-        ]
-        cols += [e.column(lines) for e in self.pairs]
-        df = pl.DataFrame(cols).select(self.names)
-        # A line that matched has its time (always captured); one that did not, none.
-        matched = found.struct.field("time").is_not_null()
+        if self.quick:
+            plain = _plain(self.regex)
+            matched = lines.str.contains(plain).fill_null(False)
+            # The latency present, as the last field (else a CLF line's bytes would pass for it).
+            timed = lines.str.contains(plain.removesuffix(_LATENCY_TAIL) + _LATENCY_LAST).fill_null(False)
+            nothing = pl.Series([None] * len(lines), dtype=pl.String)
+            df = pl.DataFrame(
+                [
+                    lines.str.extract(LAST_NUMBER, 1).zip_with(timed, nothing).alias("v"),
+                    lines.str.extract(CLF_TIME, 1).zip_with(matched, nothing).alias("t"),
+                ]
+            )
+        else:
+            found = lines.str.extract_groups(self.regex)
+            cols = [
+                # CLF writes "-" for a response without a body: zero bytes.
+                found.struct.field(group).replace("-", "0").alias(name)
+                if group == "bytes"
+                else found.struct.field(group).alias(name)
+                for name, group in self.columns
+            ]
+            cols += [e.column(lines) for e in self.pairs]
+            df = pl.DataFrame(cols).select(self.names)
+            # A line that matched has its time (always captured); one that did not, none.
+            matched = found.struct.field("time").is_not_null()
         bad = L.rows_where(~matched)
         missing = L.rows_where(df.get_column("v").is_null())
         if not missing.size:
@@ -93,6 +115,19 @@ class AccessLayout(L.Layout):
             len(lines), [(empty, L.BLANK_LINE), (bad, L.BAD_RECORD), (missing, self.missing_reason)]
         )
         return df if r is None else df.with_columns(r)
+
+
+LAST_NUMBER = r"\s([-+]?\d+(?:\.\d+)?(?:[a-zµμ]+)?)\s*$"
+_LATENCY_TAIL = r"(?:\s|$))?"
+"""How the optional latency group of ``line_regex`` ends (the quick way swaps it)."""
+_LATENCY_LAST = r"\s*$)"
+"""...for an ending that makes the latency required and last."""
+CLF_TIME = r"^\S+ \S+ \S+ \[([^\]]+)\]"
+
+
+def _plain(regex: str) -> str:
+    """``regex`` without captures (a match test runs much faster than an extract)."""
+    return re.sub(r"\(\?P<\w+>", "(?:", regex)
 
 
 def _label(spec: str) -> str:
@@ -163,8 +198,11 @@ def plan(data: bytes, options: ScanOptions) -> AccessLayout:
     names = tuple(
         n for n in ("v", "g", "t") if any(n == c for c, _ in columns) or any(n == e.name for e in extra)
     )
+    # The quick way needs the latency to end every line that has one (no pairs after it).
+    quick = src is None and spec == "latency" and options.by is None and not any(rests)
     return AccessLayout(
         format="access",
+        quick=quick,
         names=names,
         regex=line_regex(wanted),
         columns=tuple(columns),

@@ -57,6 +57,38 @@ class JsonLayout(L.Layout):
     of the line reads all fields at once (measured 1.5-2x faster than a JSONPath match
     per field); empty when a path has an index or two paths clash."""
 
+    def parse(
+        self, data: bytes, *, numeric: bool = False, literal_quotes: object = None
+    ) -> tuple[pl.DataFrame, bool]:
+        """polars' NDJSON reader on the whole chunk when it can be trusted to give one row
+        per line (measured ~4x faster than a line-by-line decode); else line by line."""
+        df = self._read_ndjson(data) if self.decode else None
+        if df is None:
+            return self.frame(L.split_lines(data)), False
+        v = df.get_column("v")
+        nonscalar = L.rows_where(v.str.starts_with("[") | v.str.starts_with("{"))
+        missing = L.rows_where(v.is_null())
+        if nonscalar.size or missing.size:
+            r = self._reasons(L.split_lines(data), v, scalars_checked=False)
+            if r is not None:
+                df = df.with_columns(r)
+        return df, False
+
+    def _read_ndjson(self, data: bytes) -> pl.DataFrame | None:
+        """The fields by ``pl.read_ndjson`` with a declared schema; None when the chunk
+        has a blank line (the reader skips it, so rows would not be lines) or a line
+        that is not a JSON object (the reader stops: the slower way names the line)."""
+        if not data or b"\n\n" in data or b"\n\r\n" in data or data[:1] in b"\r\n":
+            return None
+        lines = data.count(b"\n") + (0 if data.endswith(b"\n") else 1)
+        try:
+            doc = pl.read_ndjson(data, schema=_dtype(self._every()).to_schema())
+        except pl.exceptions.PolarsError:
+            return None
+        if doc.height != lines:  # a line of blanks, or anything else the reader passed over
+            return None
+        return self._columns(doc.to_struct("doc"))
+
     def frame(self, lines: pl.Series) -> pl.DataFrame:
         df = self._decoded(lines) if self.decode else None
         checked = df is not None  # a decode fails on arrays/objects: no value is one
@@ -67,13 +99,20 @@ class JsonLayout(L.Layout):
         r = self._reasons(lines, df.get_column("v"), scalars_checked=checked)
         return df if r is None else df.with_columns(r)
 
+    def _every(self) -> list[tuple[str, ...]]:
+        return [keys for _, ways in self.decode for keys in ways]
+
     def _decoded(self, lines: pl.Series) -> pl.DataFrame | None:
         """All fields by one ``json_decode``; None when a line is not JSON or a field is
         not a scalar (then the JSONPath way reads the chunk and tells which line)."""
         try:
-            doc = lines.str.json_decode(_dtype([keys for _, ways in self.decode for keys in ways]))
+            doc = lines.str.json_decode(_dtype(self._every()))
         except pl.exceptions.PolarsError:
             return None
+        return self._columns(doc)
+
+    def _columns(self, doc: pl.Series) -> pl.DataFrame:
+        """The v/g/t columns from decoded documents (first reading that finds each)."""
         cols = []
         for name, ways in self.decode:
             found = []

@@ -311,14 +311,33 @@ def _clf_slow(s: pl.Series) -> NDArray[np.float64]:
 
 
 def _rfc3164(s: pl.Series, now_us: float) -> TimeColumn:
+    this_year = dt.datetime.fromtimestamp(now_us / 1e6, tz=dt.UTC).year
+    limit = now_us + 86_400e6
+    # Fast path: polars reads the stamps in this year; what it cannot (Feb 29 of a common
+    # year) or what lands after the limit (last December, read in January) goes our way.
+    try:
+        t = (f"{this_year} " + s).str.to_datetime("%Y %b %e %H:%M:%S%.f", strict=False, time_unit="us")
+        us = t.dt.epoch("us").cast(pl.Float64).fill_null(np.nan).to_numpy().astype(np.float64, copy=True)
+    except Exception:  # as in _with_fast_path: any trouble there, ours does it all
+        us = np.full(len(s), np.nan)
+    with np.errstate(invalid="ignore"):
+        us[~(us <= limit)] = np.nan
+    years: set[int] = {this_year} if np.isfinite(us).any() else set()
+    rest = np.isnan(us) & s.is_not_null().to_numpy()
+    if rest.any():
+        slow, slow_years = _rfc3164_slow(s.filter(pl.Series(rest)), this_year, limit)
+        us[rest] = slow
+        years.update(slow_years)
+    return TimeColumn(_in_range(us), 0, tuple(sorted(years)))
+
+
+def _rfc3164_slow(s: pl.Series, this_year: int, limit: float) -> tuple[NDArray[np.float64], set[int]]:
     g, ok = _fields(s, RFC3164_RE)
     mo, d = _month(g, "1"), _ints(g, "2")
     h, mi, sec, frac = _ints(g, "3"), _ints(g, "4"), _ints(g, "5"), _fraction_ns(g, "6")
     zero = np.zeros(len(s), dtype=np.int64)
-    this_year = dt.datetime.fromtimestamp(now_us / 1e6, tz=dt.UTC).year
-    limit = now_us + 86_400e6
     us = np.full(len(s), np.nan)
-    year_of = np.zeros(len(s), dtype=np.int64)
+    years: set[int] = set()
     # The latest year that is not in the future; Feb 29 may need to go back to a leap year.
     for back in range(5):
         todo = ok & np.isnan(us)
@@ -328,9 +347,9 @@ def _rfc3164(s: pl.Series, now_us: float) -> TimeColumn:
         cand = civil_us(year, mo, d, h, mi, sec, frac, zero, todo)
         take = np.isfinite(cand) & (cand <= limit)
         us[take] = cand[take]
-        year_of[take] = this_year - back
-    years = tuple(sorted({int(y) for y in np.unique(year_of[np.isfinite(us)])}))
-    return TimeColumn(us, 0, years)
+        if take.any():
+            years.add(this_year - back)
+    return us, years
 
 
 # ----------------------------------------------------------------- single moments
