@@ -18,6 +18,7 @@ from ..sketch.units import span_seconds
 
 CSV_CHUNK = 8 << 20
 LINE_CHUNK = 4 << 20
+OTLP_CHUNK = 2 << 20
 
 
 @dataclass(frozen=True)
@@ -102,10 +103,14 @@ class ScanOptions:
         per-call cost is amortised), at 189 MB peak RSS. With group or time columns
         8 MB reached 260 MB (``--by host``; 213 MB at 4 MB), and text and NDJSON lines
         become one String each, about twice the working set per byte (8 MB: 236-253
-        MB), over the 250 MB budget: those stay at 4 MB.
+        MB), over the 250 MB budget: those stay at 4 MB. OTLP documents decode into
+        nested lists several times their size: 4 MB reached 277 MB at peak, 2 MB 185 MB
+        at the same speed (``benchmarks/formats_bench.py``).
         """
         if self.chunk_bytes is not None:
             return self.chunk_bytes
+        if fmt == "otlp":
+            return OTLP_CHUNK
         return CSV_CHUNK if value_only and fmt in ("csv", "tsv") else LINE_CHUNK
 
 
