@@ -235,7 +235,7 @@ def _record_reasons(
     out = {reason: mask for reason, mask in out.items() if mask.any()}
     codes = r.filter(pl.Series(bad))
     idx = np.flatnonzero(bad)
-    for reason in codes.unique().to_list():
+    for reason in codes.unique(maintain_order=True).to_list():
         mask = np.zeros(bad.size, dtype=bool)
         mask[idx[(codes == reason).to_numpy()]] = True
         out[reason] = out[reason] | mask if reason in out else mask

@@ -187,7 +187,10 @@ def summarise(sset: SketchSet, warnings: Sequence[str] = (), qs: Sequence[float]
     return SetSummary(
         sketches=tuple(summarise_sketch(name, sset[name], qs) for name in sset.names()),
         warnings=tuple(warnings),
-        unassigned=tuple((r, t.count, tuple(t.examples)) for r, t in sset.unassigned.items()),
+        unassigned=tuple(
+            (r, t.count, tuple(t.examples))
+            for r, t in sorted(sset.unassigned.items(), key=lambda kv: -kv[1].count)
+        ),
     )
 
 
