@@ -251,3 +251,22 @@ def test_damaged_copies_never_end_in_an_internal_error(
         assert "internal error" not in err and "Traceback" not in err
         if code == 3:
             assert err.count("\n") == 1
+
+
+@pytest.mark.parametrize("name", ["traces.otlp.jsonl", "access_combined.log", "ecs.ndjson"])
+def test_polars_own_reader_gives_the_same_counts(name: str) -> None:
+    """``lazy_files`` (polars' streaming reader) or the chunked reader: the same result;
+    OTLP, whose lines hold several spans, always goes the chunked way."""
+    from ogive.read import ScanOptions, scan
+
+    a = scan([str(CORPUS / name)], ScanOptions(lazy_files=True))
+    b = scan([str(CORPUS / name)], ScanOptions())
+    sa, sb = a.sketches["all"], b.sketches["all"]
+    assert (sa.count, a.rows_read, a.lines_read) == (sb.count, b.rows_read, b.lines_read)
+    assert {r: t.count for r, t in a.skipped.items()} == {r: t.count for r, t in b.skipped.items()}
+
+
+def test_strict_names_the_reason_of_a_record_format(capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["scan", str(CORPUS / "ecs.ndjson"), "--strict"]) == 3
+    err = capsys.readouterr().err
+    assert "ecs.ndjson:41: the line is blank (blank_line); stopped because of --strict." in err

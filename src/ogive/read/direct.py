@@ -46,7 +46,8 @@ class LazyFile:
         if cut < 0:
             return None
         sample = head[: cut + 1]
-        feed.plan(sample)
+        if not feed.plan(sample).one_row_per_line:
+            return None
         avg_line = max(1.0, len(sample) / max(1, sample.count(b"\n")))
         return cls(src, feed, feed.starts_with_header(sample), avg_line)
 

@@ -75,6 +75,9 @@ class Layout:
     """The form of ``t`` when the format fixes it (``clf`` for access logs); None: detect."""
     time_source: str = ""
     """Where the time comes from when no --time-field named it (``the [..] time stamp``)."""
+    one_row_per_line: bool = True
+    """False where a line may hold several records (OTLP spans): polars' own line reader
+    (``lazy_files``) then cannot number them, and the chunked reader is used."""
     input_unit: str | None = None
     """Unit of bare numbers implied by the format (``ns`` for OTLP), None when unknown."""
     notes: tuple[str, ...] = ()

@@ -209,6 +209,7 @@ def plan(data: bytes, options: ScanOptions) -> OtlpLayout:
     what = "span duration, end - start" if value == "duration" else f"span attribute {value}"
     return OtlpLayout(
         format="otlp",
+        one_row_per_line=False,
         names=names,
         value=value,
         group=options.by,

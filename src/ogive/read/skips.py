@@ -15,24 +15,22 @@ from numpy.typing import NDArray
 from ..errors import OgiveError
 from ..sketch import SkipTally
 from ..sketch.sketch import EXAMPLES_KEPT
-from . import values
+from . import layout, values
 
 if TYPE_CHECKING:
     from .decode import Batch
 
 BAD_TIMESTAMP = "bad_timestamp"
 TOO_LONG = "too_long"
-BAD_RECORD = "bad_record"
-NO_MATCH = "no_match"
 
 REASON_TEXT = {
     values.MISSING_FIELD: "the value is missing",
     values.NOT_A_NUMBER: "the value is not a number",
     values.UNKNOWN_UNIT: "the value has a unit suffix ogive does not know",
     values.UNIT_MISMATCH: "the value is a duration but the sketch unit is not a time unit",
-    BAD_TIMESTAMP: "the timestamp is missing or unreadable",
+    BAD_TIMESTAMP: "the timestamp is missing or unreadable (or out of range)",
     TOO_LONG: "the line is longer than the longest line ogive will hold",
-    NO_MATCH: "the --pattern regex does not match the line",
+    **layout.REASON_TEXT,  # what the record formats find: not JSON, not a line of the format, ...
 }
 
 Found = list[tuple[str, int, list[str]]]
