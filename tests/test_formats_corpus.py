@@ -62,8 +62,9 @@ class Expected:
             self.groups[group] += 1
 
 
-def _lines(path: Path, encoding: str = "utf-8") -> list[str]:
-    text = path.read_bytes().decode(encoding, errors="replace")
+def _lines(path: Path, encoding: str = "utf-8", fix: Callable[[bytes], bytes] | None = None) -> list[str]:
+    raw = path.read_bytes()
+    text = (fix(raw) if fix else raw).decode(encoding, errors="replace")
     return text.split("\n")[:-1] if text.endswith("\n") else text.split("\n")
 
 
@@ -227,12 +228,14 @@ def ref_syslog5424(path: Path) -> Expected:
     return e
 
 
-def ref_leading(path: Path, encoding: str = "utf-8", key: str = "took") -> Expected:
+def ref_leading(
+    path: Path, encoding: str = "utf-8", key: str = "took", fix: Callable[[bytes], bytes] | None = None
+) -> Expected:
     """Free text: an ISO 8601 time stamp (maybe in brackets) begins the line; KEY=VALUE."""
     e = Expected()
     rx = re.compile(rf"(?:^|\s){key}=(\S+)")
     user = re.compile(r"(?:^|\s)user=(\S+)")
-    for line in _lines(path, encoding):
+    for line in _lines(path, encoding, fix):
         e.rows += 1
         stamp = line.split(" ", 1)[0].strip("[]")
         if line.startswith("2026-03-04 ") or line.startswith("[2026-03-04 "):
@@ -340,27 +343,17 @@ CASES: dict[str, tuple[list[str], Callable[[Path], Expected], str]] = {
     "traces.otlp.jsonl": ([], ref_otlp, "OTLP JSON encoding"),
     "latin1.log": ([], lambda p: ref_leading(p, "latin-1", "dur"), "free text, Latin-1 bytes"),
     "utf16.log": ([], lambda p: ref_leading(p, "utf-16", "dur"), "free text, UTF-16 with BOM"),
-    "cr_only.log": ([], lambda p: _cr(ref_leading, p), "free text, CR line ends"),
-    "nul.log": ([], lambda p: _nul(p), "free text with NUL bytes"),
+    "cr_only.log": (
+        [],
+        lambda p: ref_leading(p, "utf-8", "dur", lambda b: b.replace(b"\r", b"\n")),
+        "free text, CR line ends",
+    ),
+    "nul.log": (
+        [],
+        lambda p: ref_leading(p, "utf-8", "dur", lambda b: b.replace(b"\x00", b"")),
+        "free text with NUL bytes",
+    ),
 }
-
-
-def _cr(ref: Callable[..., Expected], path: Path) -> Expected:
-    tmp = path.with_name("cr_as_lf.tmp")
-    try:
-        tmp.write_bytes(path.read_bytes().replace(b"\r", b"\n"))
-        return ref(tmp, "utf-8", "dur")
-    finally:
-        tmp.unlink()
-
-
-def _nul(path: Path) -> Expected:
-    tmp = path.with_name("nul_removed.tmp")
-    try:
-        tmp.write_bytes(path.read_bytes().replace(b"\x00", b""))
-        return ref_leading(tmp, "utf-8", "dur")
-    finally:
-        tmp.unlink()
 
 
 def _scan_json(

@@ -20,6 +20,7 @@ Each format lives in its own module (``delimited``, ``ndjson``, ``text``, ``acce
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import polars as pl
@@ -31,6 +32,15 @@ LINE_SEP = "\x1f"
 """Unit separator: a byte that does not occur in text logs, so polars' CSV reader can hand
 us whole lines (much faster than splitting in Python). Chunks that do contain it are
 split in Python instead."""
+
+AS_LINES: dict[str, Any] = {
+    "has_header": False,
+    "separator": LINE_SEP,
+    "quote_char": None,
+    "infer_schema": False,
+    "raise_if_empty": False,
+}
+"""polars' CSV reader options that make it hand over whole lines, one String each."""
 
 # Skip reasons a record format can give (the value parser has its own in ``values``).
 BLANK_LINE = "blank_line"
@@ -112,14 +122,7 @@ def split_lines(data: bytes) -> pl.Series:
         return pl.Series("line", [], dtype=pl.String)
     if LINE_SEP.encode() not in data:
         try:
-            df = pl.read_csv(
-                data,
-                has_header=False,
-                separator=LINE_SEP,
-                quote_char=None,
-                infer_schema=False,
-                raise_if_empty=False,
-            )
+            df = pl.read_csv(data, **AS_LINES)
         except pl.exceptions.PolarsError:
             df = None  # invalid UTF-8 that was not cleaned first: split in Python below
         if df is not None and df.width == 1:

@@ -15,7 +15,7 @@ import polars as pl
 from ..errors import OgiveError
 from . import access, delimited, ndjson, otlp, sniff, syslog, text
 from .delimited import SNIFF_LINES, CsvLayout
-from .layout import LINE_SEP, Layout, split_lines
+from .layout import AS_LINES, Layout, split_lines
 from .options import ScanOptions
 
 __all__ = ["LAZY_BATCH_ROWS", "SNIFF_LINES", "Layout", "lazy_batches", "plan", "split_lines"]
@@ -65,15 +65,6 @@ def lazy_batches(layout: Layout, path: str, skip: int, *, numeric: bool) -> Iter
     if isinstance(layout, CsvLayout):
         yield from layout.lazy(path, skip, numeric=numeric).collect_batches(chunk_size=LAZY_BATCH_ROWS)
         return
-    lf = pl.scan_csv(
-        path,
-        has_header=False,
-        separator=LINE_SEP,
-        quote_char=None,
-        infer_schema=False,
-        truncate_ragged_lines=True,
-        skip_rows=skip,
-        raise_if_empty=False,
-    )
+    lf = pl.scan_csv(path, **AS_LINES, truncate_ragged_lines=True, skip_rows=skip)
     for batch in lf.select(pl.first().alias("line")).collect_batches(chunk_size=LAZY_BATCH_ROWS):
         yield layout.frame(batch.to_series())
