@@ -270,3 +270,24 @@ def test_strict_names_the_reason_of_a_record_format(capsys: pytest.CaptureFixtur
     assert main(["scan", str(CORPUS / "ecs.ndjson"), "--strict"]) == 3
     err = capsys.readouterr().err
     assert "ecs.ndjson:41: the line is blank (blank_line); stopped because of --strict." in err
+
+
+@pytest.mark.parametrize(
+    ("text", "flags", "warned"),
+    [
+        ("latency_ms\n12\n13ms\n14\n", [], 1),  # the unit from the name: said once
+        ("latency_ms\n12\n13ms\n14\n", ["--unit", "ms"], 0),
+        ("latency_ms\n12\n13ms\n14\n", ["--input-unit", "ms"], 0),
+        ("ms\n12\n13ms\n14\n", [], 1),  # bare numbers beside suffixed ones: said once
+        ("ms\n12\n13ms\n14\n", ["--unit", "ms"], 0),
+    ],
+)
+def test_the_unit_of_bare_numbers_is_told_once_and_only_when_not_given(
+    text: str, flags: list[str], warned: int, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    path = tmp_path / "u.csv"
+    path.write_text(text)
+    assert main(["scan", str(path), *flags]) == 0
+    out, err = capsys.readouterr()
+    told = [ln for ln in (out + err).splitlines() if "without a suffix" in ln or "had no unit suffix" in ln]
+    assert len(told) == warned, told
