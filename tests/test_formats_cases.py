@@ -291,3 +291,14 @@ def test_the_unit_of_bare_numbers_is_told_once_and_only_when_not_given(
     out, err = capsys.readouterr()
     told = [ln for ln in (out + err).splitlines() if "without a suffix" in ln or "had no unit suffix" in ln]
     assert len(told) == warned, told
+
+
+def test_latin1_in_the_first_ndjson_lines(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """The format and the value are worked out from bytes not yet cleaned: a Latin-1 byte
+    in every line (a key, the --by value) must not hide the JSON."""
+    path = tmp_path / "l1.ndjson"
+    rows = [b'{"event":{"duration":%d},"user":"Jos\xe9","caf\xe9":1}' % (i * 10**6) for i in range(1, 31)]
+    path.write_bytes(b"\n".join(rows) + b"\n")
+    code, doc, _ = scan_json(capsys, str(path), "--by", "user")
+    assert code == 0 and groups(doc) == {"user=Jos\ufffd": 30}
+    assert any(w.startswith("30 lines held bytes that are not UTF-8") for w in doc["warnings"])

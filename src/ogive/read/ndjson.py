@@ -353,7 +353,7 @@ def sample_objects(data: bytes) -> list[dict[str, Any]]:
     out: list[dict[str, Any]] = []
     for line in data[: 1 << 20].split(b"\n")[:SNIFF_LINES]:
         try:
-            obj = json.loads(line)
+            obj = json.loads(line.decode("utf-8", errors="replace"))  # bytes not yet cleaned
         except ValueError:
             continue
         if isinstance(obj, dict):
