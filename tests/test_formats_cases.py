@@ -302,3 +302,13 @@ def test_latin1_in_the_first_ndjson_lines(tmp_path: Path, capsys: pytest.Capture
     code, doc, _ = scan_json(capsys, str(path), "--by", "user")
     assert code == 0 and groups(doc) == {"user=Jos\ufffd": 30}
     assert any(w.startswith("30 lines held bytes that are not UTF-8") for w in doc["warnings"])
+
+
+def test_a_file_of_blank_lines_is_counted_not_refused(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    path = tmp_path / "blank.log"
+    path.write_text("\n \n\n")
+    code, doc, _ = scan_json(capsys, str(path))
+    assert code == 0 and doc["sketches"]["all"]["n"] == 0
+    assert doc["sketches"]["all"]["skipped"]["blank_line"]["count"] == 3

@@ -171,8 +171,16 @@ def value_source(options: ScanOptions, lines: list[str], *, what: str = "free te
     )
 
 
+NEVER = r"$x(x)"
+"""A regex that matches no line: for a source whose first lines are all blank."""
+
+
 def plan(data: bytes, options: ScanOptions) -> TextLayout:
     lines = sample_lines(data)
+    if not lines and not (options.pattern or options.field or options.column):
+        # Nothing but blank lines to go by: each line is counted blank, and the scan says
+        # there were no usable values (as for an empty file), instead of asking for a regex.
+        return TextLayout(format="text", extracts=(Extract("v", NEVER, (1,)),), description="no records")
     src = value_source(options, lines)
     extracts = [src.extract]
     named, pattern = src.named, src.pattern
