@@ -225,3 +225,11 @@ def test_otlp_spans_rows_and_lines() -> None:
     ):
         _, rows = frame(data, by=by)
         assert [r["g"] for r in rows[:2]] == want
+
+
+def test_named_groups_still_give_group_and_time() -> None:
+    data = b"at 1772618400 host=a took 12ms\nat 1772618401 host=b took 13ms\n" * 3
+    pattern = r"at (?P<ts>\d+) host=(?P<h>\w+) took (?P<value>\S+)"
+    layout, rows = frame(data, pattern=pattern, by="h", time_field="ts")
+    assert layout.format == "text"
+    assert rows[1] == {"v": "13ms", "g": "b", "t": "1772618401"}
