@@ -31,9 +31,12 @@ class ScanOptions:
     """
 
     format: str | None = None
-    """'csv', 'tsv', 'ndjson', 'text', 'parquet', or None to detect from the content."""
+    """'csv', 'tsv', 'ndjson', 'text', 'access', 'syslog', 'otlp', 'parquet', or None to
+    detect from the content (``sniff.detect``)."""
     field: str | None = None
-    """NDJSON: dotted path of the value (``timing.total_ms``)."""
+    """NDJSON: path of the value (``timing.total_ms``, ``labels.k\\.dot``; see ``ndjson``);
+    text, syslog, access logs: the KEY of ``KEY=VALUE`` pairs or a field of the format;
+    OTLP: ``duration`` or an attribute. None: found from the records where they say."""
     column: str | None = None
     """CSV/TSV: column name, or 1-based index as digits."""
     pattern: str | None = None
@@ -48,8 +51,10 @@ class ScanOptions:
     """Field/column whose distinct values each get a sketch."""
     max_groups: int = 1000
     time_field: str | None = None
+    """Where each record's time is; None: the time the format carries, if any."""
     time_format: str | None = None
-    """'iso', 'epoch_s', 'epoch_ms', 'epoch_us', 'clf', or None to detect."""
+    """One of ``times.FORMATS``, or None to detect (epoch numbers then read per value by
+    their magnitude)."""
     split_at: str | None = None
     """A timestamp: values before it go to sketch 'before', the rest to 'after'."""
     window: str | None = None
