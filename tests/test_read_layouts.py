@@ -16,7 +16,7 @@ import json
 import pytest
 
 from ogive.errors import OgiveError
-from ogive.read import ndjson, records
+from ogive.read import fieldpath, records
 from ogive.read.options import ScanOptions
 
 
@@ -82,16 +82,21 @@ def test_csv_with_several_numeric_columns_names_them() -> None:
 
 def test_field_paths_and_their_escapes() -> None:
     assert (
-        ndjson.json_path(ndjson.groupings(ndjson.parse_path(r"labels.k\.dot"))[0]) == "$['labels']['k.dot']"
+        fieldpath.json_path(fieldpath.groupings(fieldpath.parse_path(r"labels.k\.dot"))[0])
+        == "$['labels']['k.dot']"
     )
     assert (
-        ndjson.json_path(ndjson.groupings(ndjson.parse_path('labels["k.dot"]'))[0]) == "$['labels']['k.dot']"
+        fieldpath.json_path(fieldpath.groupings(fieldpath.parse_path('labels["k.dot"]'))[0])
+        == "$['labels']['k.dot']"
     )
-    assert ndjson.json_path(ndjson.groupings(ndjson.parse_path("items[2].ms"))[0]) == "$['items'][2]['ms']"
-    assert ndjson.json_path(ndjson.groupings(ndjson.parse_path("@t"))[0]) == "$['@t']"
+    assert (
+        fieldpath.json_path(fieldpath.groupings(fieldpath.parse_path("items[2].ms"))[0])
+        == "$['items'][2]['ms']"
+    )
+    assert fieldpath.json_path(fieldpath.groupings(fieldpath.parse_path("@t"))[0]) == "$['@t']"
     for bad in ("a..b", "", ".a", "a.", "a[x]", 'a["b"]c', 'a["b'):
         with pytest.raises(OgiveError, match="field path"):
-            ndjson.parse_path(bad)
+            fieldpath.parse_path(bad)
 
 
 def test_ndjson_keys_and_reasons() -> None:
