@@ -1,9 +1,8 @@
 """What every sub-command that takes a distribution shares: source flags, loading, scanning.
 
 A distribution on the command line is either a saved sketch (``run.ogive`` or
-``run.ogive:GROUP``) or raw sources to scan (``app.log app.log.1.gz``). Which one is
-decided by the file's bytes, never its name, so a sketch renamed ``x.json`` still loads
-and an access log called ``a.ogive`` is still scanned.
+``run.ogive:GROUP``) or raw sources to scan (``app.log app.log.1.gz``);
+:func:`ogive.store.sketch_ref` decides which, from the file's bytes.
 
 Only the standard library is imported at module level (``ogive --help`` stays fast);
 polars and the reader come in when a scan actually runs.
@@ -14,7 +13,6 @@ from __future__ import annotations
 import argparse
 import contextlib
 import dataclasses
-import os
 import signal
 import sys
 import threading
@@ -26,9 +24,6 @@ from ..errors import OgiveError
 if TYPE_CHECKING:
     from ..read.options import ScanOptions, ScanResult
     from ..sketch import Sketch, SketchSet
-
-SNIFF_BYTES = 4096
-"""Enough to see the ``format`` key, which the codec writes first."""
 
 FORMAT_CHOICES = ("csv", "tsv", "ndjson", "text", "parquet")
 TIME_FORMAT_CHOICES = ("iso", "epoch_s", "epoch_ms", "epoch_us", "clf")
@@ -176,49 +171,18 @@ def options_from_args(args: argparse.Namespace) -> ScanOptions:
     return ScanOptions(**kwargs)  # type: ignore[arg-type]
 
 
-def is_sketch_file(path: str) -> bool:
-    """True when the file's first bytes are those of an ``.ogive`` sketch set."""
-    if path == "-" or not os.path.isfile(path):
-        return False
-    try:
-        with open(path, "rb") as fh:
-            head = fh.read(SNIFF_BYTES)
-    except OSError:
-        return False
-    return head.lstrip().startswith(b"{") and b'"ogive-sketch-set"' in head
-
-
-def _sketch_spec(spec: str) -> tuple[str, str | None] | None:
-    """(path, group) when ``spec`` names a sketch file, else None."""
-    from ..store import split_group
-
-    if is_sketch_file(spec):
-        return spec, None
-    path, group = split_group(spec)
-    if group is not None and is_sketch_file(path):
-        return path, group
-    return None
-
-
 def load_set(specs: list[str], args: argparse.Namespace) -> SketchSet:
     """A saved sketch set (one file, optionally ``:GROUP``) or a fresh scan of the sources."""
-    from ..sketch import SketchSet
-    from ..store import load_sketches
+    from ..store import load_ref, sketch_ref
 
     if not specs:
         raise OgiveError("no source given; name a file, '-' for standard input, or a saved .ogive sketch.")
     if len(specs) == 1:
-        found = _sketch_spec(specs[0])
-        if found is not None:
-            path, group = found
-            sset = load_sketches(path)
-            if group is None:
-                return sset
-            if group not in sset.sketches:
-                raise OgiveError(f"{path} has no sketch named {group!r} (it has: {_few(sset.names())}).")
-            return SketchSet({group: sset[group]})
+        ref = sketch_ref(specs[0])
+        if ref is not None:
+            return load_ref(ref)
     for spec in specs:
-        if _sketch_spec(spec) is not None:
+        if sketch_ref(spec) is not None:
             raise OgiveError(
                 f"{spec} is a saved sketch; give it on its own, or merge sketches first with 'ogive merge'."
             )
@@ -227,6 +191,8 @@ def load_set(specs: list[str], args: argparse.Namespace) -> SketchSet:
 
 def load_one(spec: str, args: argparse.Namespace) -> tuple[str, Sketch]:
     """One distribution: a sketch file[:GROUP] or a source; several groups need a choice."""
+    from ..store import few
+
     sset = load_set([spec], args)
     names = sset.names()
     if len(names) == 1:
@@ -235,7 +201,7 @@ def load_one(spec: str, args: argparse.Namespace) -> tuple[str, Sketch]:
         raise OgiveError(f"{spec} gave no sketch at all.")
     raise OgiveError(
         f"{spec} holds {len(names)} sketches; choose one as {spec}:GROUP for a saved file, "
-        f"or drop --by/--split-at for a source (groups: {_few(names)})."
+        f"or drop --by/--split-at for a source (groups: {few(names)})."
     )
 
 
@@ -289,8 +255,3 @@ def first_ctrl_c_stops(*, quiet: bool = False) -> Iterator[threading.Event]:
         yield stopped
     finally:
         signal.signal(signal.SIGINT, previous)
-
-
-def _few(names: list[str], limit: int = 8) -> str:
-    shown = ", ".join(names[:limit])
-    return shown + (f", … ({len(names) - limit} more)" if len(names) > limit else "")

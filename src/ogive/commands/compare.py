@@ -306,10 +306,9 @@ def _run_windows(args: argparse.Namespace, conf: float) -> int:
 
 
 def _is_saved(spec: str) -> bool:
-    from ..store import split_group
-    from .common import is_sketch_file
+    from ..store import sketch_ref
 
-    return is_sketch_file(split_group(spec)[0])
+    return sketch_ref(spec) is not None
 
 
 def _scan_windows(args: argparse.Namespace) -> Any:

@@ -121,6 +121,6 @@ def run(args: argparse.Namespace) -> int:
 
 def _stem(path: Path) -> str:
     """The row name the workspace gives a scanned file (its name without log suffixes)."""
-    from ..ui.app import row_stem
+    from ..store import source_stem
 
-    return row_stem(str(path))
+    return source_stem(str(path))

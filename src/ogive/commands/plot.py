@@ -128,12 +128,8 @@ def plot_size(width: int | None, height: int | None) -> tuple[int, int]:
 
 
 def _load(spec: str, args: argparse.Namespace) -> tuple[str, Any]:
-    try:
-        from .common import load_one
-    except ImportError:  # pragma: no cover - only before the reader lands
-        from ..store import load_one as load_saved
+    from .common import load_one
 
-        return load_saved(spec)
     return load_one(spec, args)
 
 

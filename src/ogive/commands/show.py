@@ -79,21 +79,16 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from ..render.summary import LADDER, quantile_lines, summarise, summary_lines
-    from ..sketch import SketchSet
-    from ..store import load_sketches, split_group
-    from .common import is_sketch_file
+    from ..store import SketchRef, load_ref, sketch_ref, split_group
 
     qs = parse_quantiles(args.quantiles) if args.quantiles else list(LADDER)
     path, group = split_group(args.sketch)
-    if path != "-" and os.path.isfile(path) and not is_sketch_file(path):
-        raise OgiveError(f"{path} is not a saved sketch; to summarise a log, use 'ogive scan {path}'.")
-    sset = load_sketches(path)
-    if group is not None:
-        if group not in sset.sketches:
-            names = sset.names()
-            shown = ", ".join(names[:8]) + (f", … ({len(names) - 8} more)" if len(names) > 8 else "")
-            raise OgiveError(f"{path} has no sketch named {group!r} (it has: {shown}).")
-        sset = SketchSet({group: sset[group]})
+    ref = SketchRef(path, group) if path == "-" else sketch_ref(args.sketch)
+    if ref is None:
+        if os.path.isfile(path):
+            raise OgiveError(f"{path} is not a saved sketch; to summarise a log, use 'ogive scan {path}'.")
+        ref = SketchRef(path, group)  # loading says the file is missing, in one line
+    sset = load_ref(ref)
     summary = summarise(sset, qs=qs)
     if args.json:
         json.dump(summary.to_dict(), sys.stdout, indent=2, allow_nan=False)

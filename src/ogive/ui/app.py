@@ -25,7 +25,7 @@ from textual.widgets import Footer, Static
 from ..errors import OgiveError
 from ..read.options import ScanOptions, ScanProgress
 from ..sketch import Sketch, SketchSet
-from ..store import load_sketches, save_sketches
+from ..store import save_sketches, source_stem
 from . import fmt, report
 from .ask_path import AskPath
 from .capabilities import Unavailable, compare_function, fit_function, scan_function
@@ -62,34 +62,6 @@ def snapshot(sketch: Sketch) -> Sketch:
     )
     out.merge(sketch)
     return out
-
-
-LOG_SUFFIXES = (
-    ".gz",
-    ".zst",
-    ".bz2",
-    ".xz",
-    ".log",
-    ".ndjson",
-    ".jsonl",
-    ".json",
-    ".csv",
-    ".tsv",
-    ".txt",
-    ".parquet",
-)
-
-
-def row_stem(source: str) -> str:
-    """``/var/log/before.ndjson.gz`` -> ``before``: the row name of a scanned file."""
-    stem = Path(source).name
-    changed = True
-    while changed:
-        changed = False
-        for suffix in LOG_SUFFIXES:
-            if stem.endswith(suffix) and len(stem) > len(suffix):
-                stem, changed = stem[: -len(suffix)], True
-    return stem
 
 
 class ScanTick(Message):
@@ -235,11 +207,11 @@ class OgiveApp(App[int]):
     # ------------------------------------------------------------------ opening
     def open_source(self, source: str, options: ScanOptions) -> None:
         """A .ogive file loads at once; anything else is scanned in the background."""
-        from ..commands.common import is_sketch_file
-        from ..store import split_group
+        from ..store import load_sketches, sketch_ref
 
-        file, group = (source, None) if is_sketch_file(source) else split_group(source)
-        if is_sketch_file(file):
+        ref = sketch_ref(source)
+        if ref is not None:
+            file, group = ref.path, ref.group
             try:
                 sset = load_sketches(file)
             except OgiveError as exc:
@@ -248,7 +220,7 @@ class OgiveApp(App[int]):
             if group is not None and group not in sset.sketches:
                 self.say(f"{file} has no sketch named {group!r}.")
                 return
-            stem = Path(file).stem
+            stem = source_stem(file)
             seq = self._next_seq()
             for i, name in enumerate([group] if group is not None else sset.names()):
                 label = stem if len(sset.sketches) == 1 else f"{stem}:{name}"
@@ -292,7 +264,7 @@ class OgiveApp(App[int]):
         return name
 
     def _name_for(self, job: ScanJob, group: str, groups: int) -> str:
-        stem = row_stem(job.source)
+        stem = source_stem(job.source)
         if group not in job.names:
             # A follow with a recent window always has two rows, even before 'all' has values.
             alone = groups == 1 and job.recent is None
