@@ -28,9 +28,10 @@ from ..fit.curves import (
     pp_from_pairs,
 )
 from ..fit.qq import QuantilePairs
+from ..numbers import percent, quantity
 from .canvas import Layer
 from .frame import Figure, LegendItem, PlotLines
-from .ticks import Scale, format_percent, format_value, make_scale
+from .ticks import Scale, make_scale
 
 FloatArray = NDArray[np.float64]
 
@@ -42,11 +43,11 @@ UP, DOWN = ("↑", "^"), ("↓", "v")
 
 
 def _fmt(unit: str, ascii_only: bool) -> Callable[[float, int], str]:
-    return lambda v, d: format_value(v, unit, digits=d, ascii_only=ascii_only)
+    return lambda v, d: quantity(v, unit, digits=d, compact=True, ascii_only=ascii_only)
 
 
 def _pct(v: float, _d: int) -> str:
-    return format_percent(v)
+    return percent(v, signed=True, compact=True)
 
 
 def _prob(v: float, d: int) -> str:
