@@ -13,10 +13,14 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
-from ..numbers import MISSING, number, percent, quantity, signed
-from ..sketch import quantile_label
+import numpy as np
+
+from ..numbers import MISSING, count, number, percent, quantity, signed
+from ..sketch import Sketch, quantile_label
 
 if TYPE_CHECKING:
+    from rich.table import Table as RichTable
+
     from ..fit.compare import Comparison, GroupComparison
     from ..fit.gate import GateResult
     from ..fit.ladder import LadderRow
@@ -64,9 +68,55 @@ def markdown_lines(t: Table) -> list[str]:
     return [row(t.header), rule, *(row(r) for r in t.rows)]
 
 
+def rich_table(t: Table) -> RichTable:
+    """The same table as a ``rich`` renderable for the workspace's panes (numbers right-aligned)."""
+    from rich.table import Table as RichTable
+
+    out = RichTable(box=None, pad_edge=False, expand=True, show_edge=False)
+    for i, title in enumerate(t.header):
+        out.add_column(title, justify="right" if i in t.right else "left", no_wrap=True)
+    for r in t.rows:
+        out.add_row(*r)
+    return out
+
+
 def interval(low: float, high: float, digits: int = 4) -> str:
     """``[3.36, 3.443]``; a side the data cannot bound is ``∞``."""
     return f"[{number(low, digits)}, {number(high, digits)}]"
+
+
+# ---------------------------------------------------------------- sketches
+def distribution_table(
+    rows: Sequence[tuple[str, str, Sketch]], *, first: str = "", compact: bool = False
+) -> Table:
+    """One row per sketch: a mark (role or state), name, n, p50, p99 and the rows it skipped.
+
+    ``compact`` (the workspace's list): counts shortened (``12k``) and no maximum.
+    """
+    out = []
+    for mark, name, s in rows:
+        if s.count:
+            p50, p99 = (float(v) for v in s.quantile(np.array([0.5, 0.99])))
+        else:
+            p50 = p99 = float("nan")
+        unit = s.unit if s.count else ""  # no "– ms" for an empty row
+        cells = [mark, name, count(s.count) if compact else f"{s.count:,}", quantity(p50, unit, digits=4)]
+        cells.append(quantity(p99, unit, digits=4))
+        if not compact:
+            cells.append(quantity(s.max, unit, digits=4))
+        skipped = s.provenance.skipped_total
+        cells.append(count(skipped) if compact else f"{skipped:,}")
+        out.append(cells)
+    header = [
+        first,
+        "name",
+        "n",
+        "p50",
+        "p99",
+        *([] if compact else ["max"]),
+        "bad" if compact else "bad rows",
+    ]
+    return table(header, out, range(2, len(header)))
 
 
 # ---------------------------------------------------------------- comparison
@@ -103,9 +153,9 @@ def ladder_table(c: Comparison, *, narrow: bool = False) -> Table:
         )
         for r in c.ladder
     ]
-    return table(
-        ("", a_lab, "interval", b_lab, "interval", "change", "relative", "verdict"), wide, (1, 3, 5, 6)
-    )
+    unit = f" ({c.unit})" if c.unit else ""
+    header = ("", a_lab + unit, "interval", b_lab + unit, "interval", "change", "relative", "verdict")
+    return table(header, wide, (1, 3, 5, 6))
 
 
 def shift_table(sh: ShiftFunction) -> Table:
