@@ -3,7 +3,7 @@
 Layout of a ``width`` × ``height`` plot (every line at most ``width`` cells, exactly
 ``height`` lines)::
 
-    header (1 line below 20 rows, 2 from 20): y-axis name, legend, x-axis name if it
+    header (1 line below 13 rows, 2 from 13): y-axis name, legend, x-axis name if it
     did not fit below
     y tick labels │ canvas rows
                   └──┬───────┬──  (axis line with tick marks)
@@ -89,7 +89,7 @@ class Figure:
             raise ValueError(
                 f"a plot needs at least {MIN_WIDTH}×{MIN_HEIGHT} cells; got {self.width}×{self.height}."
             )
-        self.header_rows = 1 if self.height < 20 else 2
+        self.header_rows = 1 if self.height < 13 else 2  # from 13 rows a legend may take a second line
         rows = self.height - self.header_rows - 2
         self.yticks = [t for t in choose_ticks(self.yscale, rows, self.yfmt, horizontal=False) if t.major]
         self.ylabel_width = max([len(t.label) for t in self.yticks] + [1])

@@ -37,6 +37,8 @@ FloatArray = NDArray[np.float64]
 
 # Glyphs: (unicode, ascii). Braille layers have unicode None.
 SUBJECT = ("•", "*")
+BAND = ("·", ":")
+"""The band is a row of small dots, not a braille line, so it reads apart from y = x without colour."""
 SECOND = ("∘", "o")
 MARK = ("◆", "O")
 UP, DOWN = ("↑", "^"), ("↓", "v")
@@ -79,7 +81,7 @@ def _marker(role: str, glyphs: tuple[str, str], priority: int = 1) -> Layer:
 def _band_legend(label: str, fig: Figure) -> LegendItem:
     # "95% band": the long name and method stay in the data (band_label) and --help.
     short = label.split(" (")[0].replace(" simultaneous", "") if label else "band"
-    return LegendItem(fig.glyph("⠒", ":"), short, "band")
+    return LegendItem(fig.glyph(*BAND), short, "band")
 
 
 # ---------------------------------------------------------------- Q-Q
@@ -109,9 +111,9 @@ def qq_figure(
     )
     W, H = fig.canvas.dot_width, fig.canvas.dot_height
     if pairs.band_low is not None and pairs.band_high is not None:
-        band = _braille("band", ":")
-        fig.line(band, ref, pairs.band_low, dash=(2, 2))
-        fig.line(band, ref, pairs.band_high, dash=(2, 2))
+        band = Layer("band", BAND[0], BAND[1], 0, every=2)
+        fig.line(band, ref, pairs.band_low)
+        fig.line(band, ref, pairs.band_high)
         fig.legend.append(_band_legend(pairs.band_label, fig))
     # Same scale on both axes: the y = x line runs corner to corner.
     fig.line_dots(_braille("reference", "."), np.array([0.0, W - 1.0]), np.array([H - 1.0, 0.0]))
@@ -144,10 +146,10 @@ def qq_plot(
 
 
 # ---------------------------------------------------------------- detrended
-def _robust_range(values: list[FloatArray], cap_from: FloatArray) -> FloatArray:
-    """Band values within 4× the data's own spread (a runaway band edge would flatten the data)."""
+def _robust_range(values: list[FloatArray], cap_from: FloatArray, factor: float = 4.0) -> FloatArray:
+    """Band values within ``factor`` × the data's own size (a runaway band edge would flatten the data)."""
     data = cap_from[np.isfinite(cap_from)]
-    limit = 4 * max(float(np.abs(data).max()) if data.size else 0.0, 0.01)
+    limit = factor * max(float(np.abs(data).max()) if data.size else 0.0, 0.01)
     keep = [v[np.isfinite(v) & (np.abs(v) <= limit)] for v in values]
     return np.concatenate([data, *keep, np.array([0.0])])
 
@@ -190,9 +192,9 @@ def detrended_figure(
         ),
     )
     if d.band_low is not None and d.band_high is not None:
-        band = _braille("band", ":")
-        fig.line(band, x, d.band_low, dash=(2, 2))
-        fig.line(band, x, d.band_high, dash=(2, 2))
+        band = Layer("band", BAND[0], BAND[1], 0, every=2)
+        fig.line(band, x, d.band_low)
+        fig.line(band, x, d.band_high)
         fig.legend.append(_band_legend(d.band_label, fig))
     xs = np.array([xscale.lo, xscale.hi])
     fig.line(_braille("reference", "."), xs, np.zeros(2))
@@ -252,10 +254,10 @@ def pp_figure(
     )
     W, H = fig.canvas.dot_width, fig.canvas.dot_height
     if pp.epsilon is not None and pp.epsilon > 0:
-        band = _braille("band", ":")
+        band = Layer("band", BAND[0], BAND[1], 0, every=2)
         e = pp.epsilon
-        fig.line(band, np.array([0.0, 1.0 - e]), np.array([e, 1.0]), dash=(2, 2))
-        fig.line(band, np.array([e, 1.0]), np.array([0.0, 1.0 - e]), dash=(2, 2))
+        fig.line(band, np.array([0.0, 1.0 - e]), np.array([e, 1.0]))
+        fig.line(band, np.array([e, 1.0]), np.array([0.0, 1.0 - e]))
         fig.legend.append(_band_legend(pp.band_label, fig))
     fig.line_dots(_braille("reference", "."), np.array([0.0, W - 1.0]), np.array([H - 1.0, 0.0]))
     fig.line(_marker("subject", SUBJECT), pp.reference_p, pp.subject_p)
@@ -376,7 +378,12 @@ def shift_figure(
     low = _unbounded(np.asarray(sf.delta_low, dtype=np.float64))
     high = _unbounded(np.asarray(sf.delta_high, dtype=np.float64))
     xscale = make_scale("logit", probs, pad=0.06)
-    yscale = make_scale("linear", np.concatenate((delta, low, high, np.array([0.0]))), pad=0.06)
+    # The range follows the estimates: an interval far wider than every shift (the far
+    # tail of a small sample) would flatten them all onto zero, so it is cut at the edge
+    # of the plot and marked with an arrow, as an unbounded end is.
+    yscale = make_scale("linear", _robust_range([low, high], delta, factor=1.25), pad=0.06)
+    off_top = ~np.isfinite(high) | (high > yscale.hi)
+    off_bottom = ~np.isfinite(low) | (low < yscale.lo)
     a, b = sf.labels
     fig = Figure(
         width,
@@ -393,8 +400,8 @@ def shift_figure(
     interval = _braille("band", "|")
     idx = fig.canvas.layer(interval)
     xd, _ = fig.to_dots(probs, delta)
-    _, lo_d = fig.to_dots(probs, np.where(np.isfinite(low), low, yscale.lo))
-    _, hi_d = fig.to_dots(probs, np.where(np.isfinite(high), high, yscale.hi))
+    _, lo_d = fig.to_dots(probs, np.where(off_bottom, yscale.lo, low))
+    _, hi_d = fig.to_dots(probs, np.where(off_top, yscale.hi, high))
     for i in range(probs.size):
         fig.canvas.polyline(idx, np.array([xd[i], xd[i]]), np.array([lo_d[i], hi_d[i]]))
     # Points only, not joined: a joining line would hide the intervals, which are the message.
@@ -404,9 +411,9 @@ def shift_figure(
     top, bottom = 0, fig.canvas.rows - 1
     for i in range(probs.size):
         col = int(np.rint(xd[i])) // 2
-        if not np.isfinite(high[i]):
+        if off_top[i]:
             fig.put(top, col, fig.glyph(*UP), "band")
-        if not np.isfinite(low[i]):
+        if off_bottom[i]:
             fig.put(bottom, col, fig.glyph(*DOWN), "band")
     fig.legend.extend(
         [
@@ -414,6 +421,8 @@ def shift_figure(
             LegendItem(fig.glyph("⡇", "|"), f"{sf.confidence:.0%} simultaneous", "band"),
         ]
     )
+    if off_top.any() or off_bottom.any():
+        fig.legend.append(LegendItem(fig.glyph("↑↓", "^v"), "beyond the axis", "band"))
     return fig.finish()
 
 

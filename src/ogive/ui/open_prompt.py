@@ -6,6 +6,8 @@ import dataclasses
 from dataclasses import dataclass
 from typing import ClassVar
 
+from rich.console import Group
+from rich.text import Text
 from textual import events, work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
@@ -134,8 +136,18 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
         self.app.call_from_thread(self._show_preview, path, text)
 
     def _show_preview(self, path: str, text: str) -> None:
+        """The file's own lines are cropped to the dialog (a long log line would push the
+        counts out of sight at 80×24); what ogive says wraps."""
         if path == self.path and self.is_mounted:
-            self.query_one("#open-preview", Static).update(text)
+            parts = [
+                Text(
+                    line,
+                    no_wrap=line.startswith("  "),
+                    overflow="ellipsis" if line.startswith("  ") else "fold",
+                )
+                for line in text.splitlines()
+            ]
+            self.query_one("#open-preview", Static).update(Group(*parts))
 
     def on_input_submitted(self, _event: Input.Submitted) -> None:
         if not self.path:

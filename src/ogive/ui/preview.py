@@ -39,7 +39,11 @@ FIELD_NAMES = {
 
 def in_dialog_words(text: str) -> str:
     """``give --column NAME`` -> ``give the column field NAME``: the dialog has fields, not flags."""
-    return re.sub(r"--[a-z][a-z-]*", lambda m: FIELD_NAMES.get(m.group(0), m.group(0)), text)
+    return re.sub(
+        r"(--[a-z][a-z-]*)(?: [A-Z][A-Z_|]*\b)?",
+        lambda m: FIELD_NAMES.get(m.group(1), m.group(0)),
+        text,
+    )
 
 
 def first_lines(path: str, limit: int = RAW_LINES, width: int = 200) -> list[str]:
