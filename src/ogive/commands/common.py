@@ -205,6 +205,74 @@ def load_one(spec: str, args: argparse.Namespace) -> tuple[str, Sketch]:
     )
 
 
+GENERIC_NAMES = ("all",)
+"""Sketch names that say nothing about where the values came from (a scan without groups)."""
+
+
+def side_names(specs: tuple[str, str], names: tuple[str, str]) -> tuple[str, str]:
+    """What two distributions are called in tables, plot axes and JSON: their sketch names.
+
+    A generic name (``all``) gives way to the file's name (``before.log`` -> ``before``);
+    two sides that would read the same are told apart by their files (``web-1:all``
+    and ``web-2:all``), and as a last resort by the text given on the command line.
+    """
+    from ..store import source_stem, split_group
+
+    stems = tuple(source_stem(split_group(spec)[0]) for spec in specs)
+    out = tuple(stem if name in GENERIC_NAMES else name for stem, name in zip(stems, names, strict=True))
+    if out[0] == out[1]:
+        out = tuple(f"{stem}:{name}" for stem, name in zip(stems, names, strict=True))
+    if out[0] == out[1]:
+        out = specs
+    return out[0], out[1]
+
+
+def two_sides(args: argparse.Namespace) -> tuple[tuple[Sketch, Sketch], tuple[str, str], tuple[str, str]]:
+    """The baseline A and the other side B of ``compare``/``gate``, their names and where each came from.
+
+    ``A B`` (each a sketch or sources), or one source split with ``--split-at`` (or one
+    sketch file holding ``before`` and ``after``, or exactly two sketches).
+    """
+    if args.b is not None:
+        name_a, a = load_one(args.a, args)
+        name_b, b = load_one(args.b, args)
+        return (a, b), side_names((args.a, args.b), (name_a, name_b)), (args.a, args.b)
+    sset = load_set([args.a], args)
+    names = sset.names()
+    if set(names) >= {"before", "after"}:
+        pair = ("before", "after")
+    elif len(names) == 2:
+        pair = (names[0], names[1])
+    else:
+        command = getattr(args, "command", None) or "compare"
+        raise OgiveError(
+            f"{command} needs two sides: give A and B, or one source with --split-at TIME, "
+            f"or one sketch file holding exactly two sketches ({args.a} holds {len(names)})."
+        )
+    where = (f"{args.a} ({pair[0]})", f"{args.a} ({pair[1]})")
+    return (sset[pair[0]], sset[pair[1]]), pair, where
+
+
+def group_sides(args: argparse.Namespace) -> tuple[tuple[SketchSet, SketchSet], tuple[str, str]]:
+    """The groups of ``--by`` on each side: ``A B`` scanned or loaded, or one source split at a time."""
+    from ..sketch import SketchSet
+
+    if args.b is not None:
+        sides = load_set([args.a], args), load_set([args.b], args)
+        return sides, side_names((args.a, args.b), (GENERIC_NAMES[0], GENERIC_NAMES[0]))
+    sset = load_set([args.a], args)
+    halves: tuple[SketchSet, SketchSet] = (SketchSet(), SketchSet())
+    for name in sset.names():
+        side, _, group = name.partition("/")
+        if side in ("before", "after") and group:
+            halves[side == "after"].sketches[group] = sset[name]
+    if not halves[0].sketches and not halves[1].sketches:
+        raise OgiveError(
+            "--by with one source needs --split-at TIME (groups before and after it), or give A and B."
+        )
+    return halves, ("before", "after")
+
+
 def scan_sources(sources: list[str], args: argparse.Namespace, *, keep_partial: bool = False) -> ScanResult:
     """Scan with the progress line when stderr is a terminal; warnings go to stderr.
 

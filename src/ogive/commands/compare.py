@@ -75,63 +75,26 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from ..fit.compare import compare_groups, compare_sketches
     from ..render.reports import comparison_text, groups_text
-    from .common import load_one, load_set
+    from .common import group_sides, two_sides
 
     conf = float(args.confidence)
     if not 0.5 <= conf < 1:
         raise OgiveError(f"--confidence must be at least 0.5 and below 1, got {conf}.")
     if args.window:
         return _run_windows(args, conf)
-    if args.by and args.b is not None:
-        sa, sb = load_set([args.a], args), load_set([args.b], args)
+    if args.by:
+        sides, labels = group_sides(args)
         try:
-            groups = compare_groups(sa, sb, confidence=conf)
+            groups = compare_groups(sides[0], sides[1], labels=labels, confidence=conf)
         except ValueError as exc:
             raise OgiveError(str(exc)) from None
         _emit(args, groups.to_dict(), lambda: groups_text(groups))
         return 0
-    if args.by and args.b is None:
-        from ..sketch import SketchSet
-
-        sset = load_set([args.a], args)
-        halves: tuple[SketchSet, SketchSet] = (SketchSet(), SketchSet())
-        for name in sset.names():
-            side, _, group = name.partition("/")
-            if side in ("before", "after") and group:
-                halves[side == "after"].sketches[group] = sset[name]
-        if not halves[0].sketches and not halves[1].sketches:
-            raise OgiveError(
-                "--by with one source needs --split-at TIME (groups before and after it), or give A and B."
-            )
-        try:
-            groups = compare_groups(halves[0], halves[1], labels=("before", "after"), confidence=conf)
-        except ValueError as exc:
-            raise OgiveError(str(exc)) from None
-        _emit(args, groups.to_dict(), lambda: groups_text(groups))
-        return 0
-    if args.b is None:
-        sset = load_set([args.a], args)
-        names = sset.names()
-        if set(names) >= {"before", "after"}:
-            pair = ("before", "after")
-        elif len(names) == 2:
-            pair = (names[0], names[1])
-        else:
-            raise OgiveError(
-                "compare needs two sides: give A and B, or one source with --split-at TIME, "
-                f"or one sketch file holding exactly two sketches ({args.a} holds {len(names)})."
-            )
-        a, b = sset[pair[0]], sset[pair[1]]
-        labels = pair
-    else:
-        _, a = load_one(args.a, args)
-        _, b = load_one(args.b, args)
-        labels = ("A", "B")
+    (a, b), labels, sources = two_sides(args)
     try:
         comp = compare_sketches(a, b, labels=labels, confidence=conf)
     except ValueError as exc:
         raise OgiveError(str(exc)) from None
-    sources = (args.a, args.b or f"{args.a} ({labels[1]})")
     _emit(args, comp.to_dict(), lambda: comparison_text(comp, sources))
     if args.plot and not args.json:
         print_plot(args.plot, b, a, labels[1], labels[0], ascii_only=args.ascii)

@@ -3,13 +3,15 @@
 from __future__ import annotations
 
 import argparse
-import importlib
 import os
 import tempfile
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING
 
 from ..errors import OgiveError
+
+if TYPE_CHECKING:
+    from ..read.options import ScanOptions
 
 DESCRIPTION = """\
 Open the workspace on the bundled demo data: the request latencies of an invented
@@ -20,7 +22,9 @@ that folder is missing (an installed copy) the same set is generated into a cach
 (~/.cache/ogive/demo_logs) first.
 """
 
-EPILOG = "The same data by hand: ogive view demo_logs/before… demo_logs/after…  (see README)."
+EPILOG = """\
+The same data by hand:
+  ogive view demo_logs/checkout-before.log demo_logs/checkout-after.log.gz --pattern 'dur=(\\S+)' --unit ms"""
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -63,35 +67,26 @@ def _cache_folder() -> Path:
 
 def generate_small(folder: Path) -> None:
     """Write the demo set with ``ogive.demo`` (byte for byte the bundled files)."""
-    try:
-        demo = importlib.import_module("ogive.demo")
-    except ImportError:
-        raise OgiveError(
-            "the demo logs (demo_logs/) are missing and the generator ogive.demo is not installed; "
-            "run 'ogive view' on your own logs instead."
-        ) from None
-    demo.write_demo_set(folder)
+    from ..demo import write_demo_set
+
+    write_demo_set(folder)
 
 
-def demo_options(path: Path) -> Any:
+def demo_options(path: Path) -> ScanOptions:
     """How to read one demo log, by the layout the generator gives each format.
 
     The field, column and pattern are the generator's own constants where it names them,
     so the demo and its data cannot drift apart.
     """
+    from ..demo import TEXT_PATTERN
     from ..read.options import ScanOptions
 
-    try:
-        demo: Any = importlib.import_module("ogive.demo")
-    except ImportError:
-        demo = None
     name = path.name
     if ".ndjson" in name or ".jsonl" in name:
         return ScanOptions(format="ndjson", field="timing.total_ms", unit="ms")
     if ".csv" in name:
         return ScanOptions(format="csv", column="latency_ms", unit="ms")
-    pattern = getattr(demo, "TEXT_PATTERN", r"dur=(\S+)")
-    return ScanOptions(format="text", pattern=pattern, unit="ms")
+    return ScanOptions(format="text", pattern=TEXT_PATTERN, unit="ms")
 
 
 def run(args: argparse.Namespace) -> int:
