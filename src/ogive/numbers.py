@@ -148,11 +148,12 @@ def _compact(v: float, unit: str, digits: int, ascii_only: bool) -> str:
     return _fixed(v, digits, trim=True)
 
 
-def percent(x: float | None, *, signed: bool = False, compact: bool = False) -> str:
+def percent(x: float | None, *, signed: bool = False, compact: bool = False, digits: int = 3) -> str:
     """A fraction as a percentage: ``0.0394`` -> ``3.94%``; with ``signed``, ``+7.10%``.
 
-    Three significant figures, at most three decimals (``0.012%``), none from 100 %
-    up (``+448%``). ``compact`` drops trailing zeros (axis labels: ``+10%``).
+    ``digits`` significant figures (at most ``digits`` decimals: ``0.012%``), none
+    after the point from 100 % up (``+448%``); a confidence level wants four
+    (``99.17%``). ``compact`` drops trailing zeros (axis labels: ``+10%``).
     """
     if x is None or math.isnan(x):
         return MISSING
@@ -161,7 +162,7 @@ def percent(x: float | None, *, signed: bool = False, compact: bool = False) -> 
         return _infinite(v) + "%"
     if v == 0:
         return "0" if compact else "0%"
-    decimals = min(max(2 - math.floor(math.log10(abs(v))), 0), 3)
+    decimals = min(max(digits - 1 - math.floor(math.log10(abs(v))), 0), digits)
     text = f"{v:.{decimals}f}"
     if compact and "." in text:
         text = text.rstrip("0").rstrip(".")

@@ -11,10 +11,20 @@ import math
 from typing import TYPE_CHECKING
 
 from ..numbers import number, percent, quantity
-from .tables import groups_table, ladder_table, params_text, shift_table, text_lines, windows_table
+from .tables import (
+    group_gate_table,
+    groups_table,
+    ladder_table,
+    params_text,
+    shift_table,
+    text_lines,
+    windows_table,
+)
 
 if TYPE_CHECKING:
     from ..fit.compare import Comparison, GroupComparison
+    from ..fit.gate import GateResult
+    from ..fit.group_gate import GroupGate
     from ..fit.models import Candidate, FitReport
     from ..fit.windows import WindowSeries
 
@@ -160,3 +170,55 @@ def fit_text(report: FitReport, source: str) -> str:
     out.append("")
     out.extend(f"note: {n}" for n in report.notes)
     return "\n".join(out) + "\n"
+
+
+# ---------------------------------------------------------------- gate
+def _sides(
+    names: tuple[str, str], sources: tuple[str, str], n: tuple[int, int] | None, unit: str
+) -> list[str]:
+    """Which name is the baseline A and which the candidate B (the verdicts speak of A and B)."""
+    counts = ("", "") if n is None else (f" (n={n[0]:,})", f" (n={n[1]:,})")
+    where = [f"{name}: {src}" if name != src else name for name, src in zip(names, sources, strict=True)]
+    return [
+        f"A = {where[0]}{counts[0]}",
+        f"B = {where[1]}{counts[1]}" + (f"   unit {unit}" if unit else ""),
+    ]
+
+
+def gate_text(r: GateResult, names: tuple[str, str], sources: tuple[str, str], meaning: str) -> str:
+    """Everything ``ogive gate A B`` prints: each limit's state and why, then the outcome."""
+    n = (r.checks[0].a.n, r.checks[0].b.n)
+    each = percent(r.per_interval_confidence, digits=4)
+    lines = [
+        *_sides(names, sources, n, r.unit),
+        f"joint confidence {r.confidence:.0%} (each interval at {each})",
+        *(f"{c.status.upper():9s} {c.limit.text}: {c.reason}" for c in r.checks),
+        f"gate: {r.outcome} (exit {r.exit_code})",
+        meaning,
+    ]
+    return "\n".join(lines) + "\n"
+
+
+def group_gate_text(g: GroupGate, sources: tuple[str, str], by: str, meaning: str) -> str:
+    """``ogive gate --by FIELD``: a row per group, the reasons of those that did not pass, the outcome."""
+    unit = g.groups[0][1].unit
+    lines = [
+        *_sides(g.labels, sources, None, unit),
+        f"gate per {by} group: {len(g.groups)} with values on both sides; joint confidence "
+        f"{g.confidence:.0%} over every group and limit "
+        f"(each group's gate at {percent(g.per_group_confidence, digits=4)})",
+        *text_lines(group_gate_table(g), indent=2),
+    ]
+    for name, r in g.groups:
+        lines.extend(
+            f"{name}: {c.status.upper()} {c.limit.text}: {c.reason}" for c in r.checks if c.status != "holds"
+        )
+    for what, groups in (
+        (f"only in {g.labels[0]}", g.only_a),
+        (f"only in {g.labels[1]}", g.only_b),
+        ("no values on one side", g.empty),
+    ):
+        if groups:
+            lines.append(f"not gated, {what} ({len(groups)}): {', '.join(groups)}")
+    lines += [f"gate: {g.outcome} (exit {g.exit_code}), the worst of the groups", meaning]
+    return "\n".join(lines) + "\n"

@@ -22,7 +22,7 @@ if TYPE_CHECKING:
     from rich.table import Table as RichTable
 
     from ..fit.compare import Comparison, GroupComparison
-    from ..fit.gate import GateResult
+    from ..fit.group_gate import GroupGate
     from ..fit.ladder import LadderRow
     from ..fit.models import Candidate, FitReport
     from ..fit.shift import ShiftFunction
@@ -254,20 +254,12 @@ def ranking_table(report: FitReport, *, chosen: str | None = None) -> Table:
 
 
 # ---------------------------------------------------------------- gate
-def gate_table(result: GateResult) -> Table:
-    """One row per limit: the state, the limit, B's quantile and its interval, what A allows."""
-    unit = result.unit
+def group_gate_table(g: GroupGate) -> Table:
+    """One row per group: n on each side, each limit's state, and the group's outcome."""
+    first = g.groups[0][1]
+    header = ("group", f"n {g.labels[0]}", f"n {g.labels[1]}", *(c.limit.text for c in first.checks), "gate")
     rows = [
-        (
-            c.status.upper(),
-            c.limit.text,
-            quantity(c.b.estimate, unit, digits=4),
-            interval(c.b.low, c.b.high),
-            quantity(c.allowed, unit, digits=4),
-        )
-        for c in result.checks
+        (name, f"{r.checks[0].a.n:,}", f"{r.checks[0].b.n:,}", *(c.status for c in r.checks), r.outcome)
+        for name, r in g.groups
     ]
-    b_lab = result.labels[1]
-    return table(
-        ("", "limit", f"{b_lab}", f"interval ({unit})" if unit else "interval", "allowed"), rows, (2, 3, 4)
-    )
+    return table(header, rows, (1, 2))
