@@ -16,6 +16,7 @@ import numpy as np
 
 from ..numbers import quantity
 from ..sketch import Sketch, SketchSet, quantile_label
+from .tables import table, text_lines
 
 LADDER = (0.5, 0.9, 0.99, 0.999, 0.9999)
 """The quantiles every summary shows, between min and max."""
@@ -143,16 +144,8 @@ def summary_dict(
 
 # ---------------------------------------------------------------------- text
 def _table(header: Sequence[str], rows: Sequence[Sequence[str]], left: int = 1) -> list[str]:
-    """Columns padded to their widest cell; the first ``left`` columns left-aligned."""
-    widths = [max(len(h), *(len(r[i]) for r in rows)) if rows else len(h) for i, h in enumerate(header)]
-
-    def line(cells: Sequence[str]) -> str:
-        parts = [
-            c.ljust(w) if i < left else c.rjust(w) for i, (c, w) in enumerate(zip(cells, widths, strict=True))
-        ]
-        return "  ".join(parts).rstrip()
-
-    return [line(header), *(line(r) for r in rows)]
+    """The one table layout (:func:`.tables.text_lines`): the first ``left`` columns left-aligned."""
+    return text_lines(table(header, rows, range(left, len(header))))
 
 
 def _short(name: str, limit: int = 28) -> str:
@@ -176,8 +169,13 @@ def _describe(summary: SetSummary) -> list[str]:
     if fields:
         bits.append("value: " + "; ".join(fields))
     bits.append("unit: " + (", ".join(u or "none (numbers as written)" for u in units)))
-    # Groups and splits of one scan each record the whole scan's line count: show it once.
-    lines = max(s.lines_read for s in summary.sketches)
+    # Groups and splits of one scan each record the whole scan's line count: count it once
+    # per scan (sketches of one scan share their sources), and add up different scans
+    # (a set the workspace wrote from two files).
+    per_scan: dict[tuple[str, ...], int] = {}
+    for s in summary.sketches:
+        per_scan[s.sources] = max(per_scan.get(s.sources, 0), s.lines_read)
+    lines = sum(per_scan.values())
     if lines:
         bits.append(f"lines read: {lines:,}")
     out.append("   ".join(bits))
@@ -274,12 +272,25 @@ def _notes(summary: SetSummary) -> list[str]:
     return ["", *notes] if notes else []
 
 
-def quantile_lines(summary: SetSummary) -> list[str]:
-    """Only the asked-for quantiles (``show -q``): one row per sketch."""
+MEAN = "mean"
+"""``show -q mean``: the arithmetic mean (exact: the sketch keeps the sum) beside the quantiles."""
+
+
+def quantile_lines(summary: SetSummary, columns: Sequence[float | str] | None = None) -> list[str]:
+    """Only the asked-for quantiles (``show -q``), and the mean where asked: one row per sketch.
+
+    ``columns`` orders them (quantiles as q, the mean as :data:`MEAN`); by default the
+    summary's quantiles.
+    """
     if not summary.sketches:
         return []
-    header = ["sketch", "n", *(_qlabel(q) for q, _ in summary.sketches[0].quantiles)]
-    rows = [
-        [_short(s.name), f"{s.n:,}", *(quantity(v, s.unit) for _, v in s.quantiles)] for s in summary.sketches
-    ]
+    cols = list(columns) if columns is not None else [q for q, _ in summary.sketches[0].quantiles]
+
+    def cell(s: SketchSummary, col: float | str) -> str:
+        if col == MEAN:
+            return quantity(s.mean, s.unit)
+        return quantity(dict(s.quantiles)[float(col)], s.unit)
+
+    header = ["sketch", "n", *(MEAN if c == MEAN else _qlabel(float(c)) for c in cols)]
+    rows = [[_short(s.name), f"{s.n:,}", *(cell(s, c) for c in cols)] for s in summary.sketches]
     return _table(header, rows)
