@@ -247,10 +247,19 @@ class Figure:
         # items; each goes on the first header line with room, or is left out.
         x_label_cells, x_title_placed = self._x_label_line()
         tokens: list[list[tuple[str, str]]] = []
-        if self.y_title:
-            tokens.append([(("^ " if a else "↑ ") + self.y_title, "title")])
-        if not x_title_placed and self.x_title:
-            tokens.append([(("-> " if a else "→ ") + self.x_title, "title")])
+        y_name = (("^ " if a else "↑ ") + self.y_title) if self.y_title else ""
+        x_name = (("-> " if a else "→ ") + self.x_title) if self.x_title and not x_title_placed else ""
+        if self.header_rows == 1 and y_name and x_name and len(y_name) + 2 + len(x_name) > W and W >= 42:
+            # One header line and two long axis names: both shortened in the middle, so
+            # neither is lost (a plot without its axis names cannot be read); below ~20
+            # cells a name is no longer readable, and the y name alone is kept.
+            room = W - 2
+            y_room = max(room - len(x_name), room // 2) if len(y_name) > room // 2 else len(y_name)
+            y_name, x_name = _middle(y_name, y_room, a), _middle(x_name, room - min(y_room, len(y_name)), a)
+        if y_name:
+            tokens.append([(y_name, "title")])
+        if x_name:
+            tokens.append([(x_name, "title")])
         for item in self.legend:
             tokens.append([(item.glyph, item.role), (" " + item.text, "legend")])
         head: list[list[tuple[str, str]]] = [[] for _ in range(self.header_rows)]
@@ -341,3 +350,13 @@ class Figure:
                     cells[start + i] = (ch, "title")
                 placed = True
         return cells, placed
+
+
+def _middle(text: str, room: int, ascii_only: bool) -> str:
+    """``text`` in ``room`` cells, shortened in the middle (both ends tell the most)."""
+    if len(text) <= room:
+        return text
+    if room < 5:
+        return text[:room]
+    head = (room - 1) // 2
+    return text[:head] + ("~" if ascii_only else "…") + text[len(text) - (room - 1 - head) :]

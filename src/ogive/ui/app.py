@@ -210,6 +210,8 @@ class OgiveApp(App[int]):
                 job.restart_rate()  # the backlog's read rate is not what arrives now
             job.caught_up = p.caught_up
             job.mark(p.elapsed_s, p.values)
+        if not self._gone:
+            self.workspace_screen.query_one(FeedStatus).show_jobs(self.ws.jobs)  # the tick's own figures
         if job.cancel.is_set():
             return
         self._take(job, msg.sketches, state="following" if job.follow else "scanning", note="")
@@ -236,9 +238,13 @@ class OgiveApp(App[int]):
 
     def _take(self, job: ScanJob, sketches: dict[str, Sketch], *, state: str, note: str) -> None:
         window = recent_name(job.recent) if job.recent is not None else None
+        rows = len(self.ws.dists)
         self.ws.take_scan(job, sketches, state=state, note=note, window=window)
         self.request_analysis()
-        self._dirty = True
+        if len(self.ws.dists) != rows:
+            self.refresh_all()  # new rows (and perhaps new roles) show at once
+        else:
+            self._dirty = True  # the next refresh, at most REFRESH_S away
 
     # ------------------------------------------------------------------ roles
     @on(DistributionShelf.Picked)

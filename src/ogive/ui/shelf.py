@@ -14,6 +14,9 @@ from .workspace import Workspace
 
 STATE_MARKS = {"scanning": "…", "following": "~", "partial": "!", "failed": "!"}
 """After the role letter: still scanning, followed as it grows, stopped early."""
+VISIBLE_ROWS = {"short": 3, "tall": 9}
+"""Rows shown before the list scrolls: at 80x24 three, so the picture below keeps the 12
+lines a plot needs; from 36 lines up, nine."""
 
 
 class DistributionShelf(DataTable[str | Text]):
@@ -57,6 +60,7 @@ class DistributionShelf(DataTable[str | Text]):
             for d in ws.dists.values()
         ]
         t = distribution_table(marked, compact=True)
+        self._fit_height(len(marked))
         self.clear(columns=True)
         for title in t.header:
             self.add_column(title, key=title or "role")
@@ -64,8 +68,29 @@ class DistributionShelf(DataTable[str | Text]):
             self.add_row(
                 *(Text(c, justify="right") if i in t.right else c for i, c in enumerate(cells)), key=name
             )
-        if keep is not None and keep in ws.dists:
-            self.move_cursor(row=list(ws.dists).index(keep))
+        # Keep the highlight; at first, rest it on the subject (the last row of a long list
+        # would otherwise be out of sight).
+        row = keep if keep is not None and keep in ws.dists else ws.subject
+        if row is not None and row in ws.dists:
+            self.move_cursor(row=list(ws.dists).index(row))
+
+    def _fit_height(self, rows: int) -> None:
+        """As tall as its rows (a fixed height wasted two lines at 80x24), up to a cap.
+
+        Set here rather than with ``height: auto`` in CSS: an auto-sized table that is
+        refilled twice a second kept the screen from redrawing while a scan streamed.
+        """
+        screen = self.screen
+        if screen.has_class("-wide") and screen.has_class("-tall"):
+            if self.styles.inline.has_rule("height"):
+                self.styles.inline.clear_rule("height")  # the grid of the wide layout decides
+                self.refresh(layout=True)
+            return
+        cap = VISIBLE_ROWS["tall" if self.app.size.height >= 36 else "short"]
+        height = min(max(rows, 1), cap) + 3  # header and the two border lines
+        current = self.styles.inline.height if self.styles.inline.has_rule("height") else None
+        if current is None or current.value != height:
+            self.styles.height = height
 
     @property
     def highlighted_name(self) -> str | None:
