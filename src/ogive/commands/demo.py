@@ -12,6 +12,7 @@ from ..errors import OgiveError
 
 if TYPE_CHECKING:
     from ..read.options import ScanOptions
+    from ..ui import OgiveApp
 
 DESCRIPTION = """\
 Open the workspace on the bundled demo data: the request latencies of an invented
@@ -90,9 +91,18 @@ def demo_options(path: Path) -> ScanOptions:
 
 
 def run(args: argparse.Namespace) -> int:
-    folder = Path(args.folder) if args.folder else demo_folder()
+    return demo_app(Path(args.folder) if args.folder else None).run() or 0
+
+
+def demo_app(folder: Path | None = None) -> OgiveApp:
+    """The workspace on the demo pair, subject 'after' and reference 'before' (also what
+    the README's screenshots are taken of, by a test)."""
+    from ..ui import OgiveApp
+
+    given = folder is not None
+    folder = folder if folder is not None else demo_folder()
     pair = pick_pair(folder)
-    if pair is None and args.folder:
+    if pair is None and given:
         raise OgiveError(f"{folder} holds no before*/after* logs.")
     if pair is None:
         folder = _cache_folder()
@@ -103,15 +113,12 @@ def run(args: argparse.Namespace) -> int:
         if pair is None:
             raise OgiveError(f"generating the demo logs into {folder} gave no before*/after* files.")
     before, after = pair
-    from ..ui import OgiveApp
-
-    app = OgiveApp(
+    return OgiveApp(
         [str(before), str(after)],
         per_source={str(p): demo_options(p) for p in (before, after)},
         subject=_stem(after),
         reference=_stem(before),
     )
-    return app.run() or 0
 
 
 def _stem(path: Path) -> str:

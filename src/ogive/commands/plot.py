@@ -35,7 +35,7 @@ Kinds (the "subject" is B, or A under --model; the reference is A, or the model)
   shift      B − A at the deciles and tail quantiles with simultaneous intervals
              (needs B; Doksum's shift function).
 
-The dashed band on qq, detrended and pp plots is a 95 % simultaneous band from the
+The dotted band on qq, detrended and pp plots is a 95 % simultaneous band from the
 Dvoretzky–Kiefer–Wolfowitz inequality (sketch error included): if the subject really
 followed the reference, the whole curve would stay inside it 95 times in 100. A curve that
 leaves it shows a real difference; one that stays inside is not proof of a good fit, only
