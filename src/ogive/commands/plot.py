@@ -166,7 +166,7 @@ def _fitted_model(sketch: Sketch, family: str) -> Candidate:
 
 def run(args: argparse.Namespace) -> int:
     from .. import render
-    from ..fit.curves import plot_inputs
+    from ..fit.curves import Detrended, plot_inputs
     from .common import side_names
 
     if args.b is not None and args.model is not None:
@@ -210,16 +210,13 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         import json
 
-        from ..fit.curves import detrended_from_pairs
-
-        shown = detrended_from_pairs(data) if args.kind == "detrended" else data
         from ..render.jsonsafe import json_safe
 
-        out = json_safe({"kind": args.kind, **shown.to_dict()})
+        out = json_safe({"kind": args.kind, **data.to_dict()})
         sys.stdout.write(json.dumps(out, allow_nan=False) + "\n")
         return 0
     log = True if args.log else False if args.linear else None
-    if args.kind == "detrended":
+    if isinstance(data, Detrended):
         lines = render.detrended_plot(
             data, width=width, height=height, x_axis=args.along, log=log, ascii_only=args.ascii
         )

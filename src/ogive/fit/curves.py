@@ -26,13 +26,16 @@ import dataclasses
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, Protocol
+from typing import TYPE_CHECKING, Any, Protocol, TypeAlias
 
 import numpy as np
 from numpy.typing import NDArray
 
 from ..sketch import Sketch, quantile_label
 from .qq import QuantilePairs
+
+if TYPE_CHECKING:
+    from .shift import ShiftFunction
 
 FloatArray = NDArray[np.float64]
 
@@ -139,6 +142,21 @@ def marks_from_pairs(pairs: QuantilePairs, qs: tuple[float, ...] = MARK_QS) -> t
                 Mark(q, float(np.interp(lq, lp, pairs.reference)), float(np.interp(lq, lp, pairs.subject)))
             )
     return tuple(out)
+
+
+@dataclass(frozen=True)
+class QQData:
+    """What the Q-Q plot draws: the quantile pairs (with their band) and the named points."""
+
+    pairs: QuantilePairs
+    marks: tuple[Mark, ...]
+
+    def to_dict(self) -> dict[str, Any]:
+        return {**self.pairs.to_dict(), "marks": [m.to_dict() for m in self.marks]}
+
+
+def qq_from_pairs(pairs: QuantilePairs) -> QQData:
+    return QQData(pairs, marks_from_pairs(pairs))
 
 
 # ---------------------------------------------------------------- detrended
@@ -358,28 +376,11 @@ def cdf_from_pairs(pairs: QuantilePairs) -> CDFOverlay:
     )
 
 
-# ---------------------------------------------------------------- shift function input
-class ShiftLike(Protocol):
-    """What the shift plot draws; :class:`ogive.fit.shift.ShiftFunction` has it."""
-
-    @property
-    def probs(self) -> FloatArray: ...
-    @property
-    def delta(self) -> FloatArray: ...
-    @property
-    def delta_low(self) -> FloatArray: ...
-    @property
-    def delta_high(self) -> FloatArray: ...
-    @property
-    def unit(self) -> str: ...
-    @property
-    def labels(self) -> tuple[str, str]: ...
-    @property
-    def confidence(self) -> float: ...
-
-
 # ---------------------------------------------------------------- one entry for every plot
 PLOT_KINDS: tuple[str, ...] = ("qq", "detrended", "pp", "cdf", "shift")
+
+PlotData: TypeAlias = "QQData | Detrended | PPPoints | CDFOverlay | ShiftFunction"
+"""What :func:`plot_inputs` returns: the one object each plot kind draws."""
 
 
 class QuantileCDFModel(Protocol):
@@ -398,13 +399,14 @@ def plot_inputs(
     reference_label: str = "reference",
     band: bool = True,
     confidence: float = 0.95,
-) -> Any:
+) -> PlotData:
     """The result object each plot kind draws, with the subject read against the reference.
 
-    ``qq``/``detrended`` -> QuantilePairs (with the DKW band when ``band``), ``pp`` ->
-    PPPoints, ``cdf`` -> CDFOverlay, ``shift`` -> ShiftFunction (subject − reference;
-    needs a sketch as reference). The CLI and the workspace both call this, so the same
-    inputs give the same picture everywhere. Raises ValueError (a full sentence).
+    ``qq`` -> QQData (the quantile pairs with the DKW band when ``band``, and the named
+    points), ``detrended`` -> Detrended, ``pp`` -> PPPoints, ``cdf`` -> CDFOverlay,
+    ``shift`` -> ShiftFunction (subject − reference; needs a sketch as reference). The
+    CLI and the workspace both call this, so the same inputs give the same picture
+    everywhere; the renderer computes nothing. Raises ValueError (a full sentence).
     """
     from .qq import pairs_from_model, pairs_from_sketches
 
@@ -464,4 +466,4 @@ def plot_inputs(
         if band:
             eps = band_epsilon(subject, confidence=confidence)
             pairs = with_dkw_band(pairs, reference.ppf, eps, confidence=confidence)
-    return pairs
+    return detrended_from_pairs(pairs) if kind == "detrended" else qq_from_pairs(pairs)

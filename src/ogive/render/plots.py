@@ -5,29 +5,20 @@ returns exactly ``height`` lines of at most ``width`` cells, legend and labels
 included. The ``*_figure`` variants return the assembled :class:`Figure` (marks, label
 positions) for callers and tests that need to know where things landed.
 
-No statistics here: the numbers come from :mod:`ogive.fit.qq`,
-:mod:`ogive.fit.curves` and :mod:`ogive.fit.shift`; this module only scales and draws.
+No statistics here: every plot takes the one object :func:`ogive.fit.curves.plot_inputs`
+makes for it (named points, bands, deviations included); this module only scales and
+draws.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
-from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
 
-from ..fit.curves import (
-    CDFOverlay,
-    Detrended,
-    PPPoints,
-    ShiftLike,
-    cdf_from_pairs,
-    detrended_from_pairs,
-    marks_from_pairs,
-    pp_from_pairs,
-)
-from ..fit.qq import QuantilePairs
+from ..fit.curves import CDFOverlay, Detrended, PlotData, PPPoints, QQData
+from ..fit.shift import ShiftFunction
 from ..numbers import percent, quantity
 from .canvas import Layer
 from .frame import Figure, LegendItem, PlotLines
@@ -86,7 +77,7 @@ def _band_legend(label: str, fig: Figure) -> LegendItem:
 
 # ---------------------------------------------------------------- Q-Q
 def qq_figure(
-    pairs: QuantilePairs,
+    data: QQData,
     *,
     width: int,
     height: int,
@@ -94,6 +85,7 @@ def qq_figure(
     ascii_only: bool = False,
     marks: bool = True,
 ) -> Figure:
+    pairs = data.pairs
     ref, sub = pairs.reference, pairs.subject
     kind = _axis_kind(log, ref, sub)
     scale = make_scale(kind, np.concatenate((ref, sub)))
@@ -123,13 +115,13 @@ def qq_figure(
         LegendItem(fig.glyph("⠤", "."), "y = x", "reference"),
     ]
     if marks:
-        for m in marks_from_pairs(pairs):
+        for m in data.marks:
             fig.mark(m.label, m.reference, m.subject, fig.glyph(*MARK), label=m.label)
     return fig.finish()
 
 
 def qq_plot(
-    pairs: QuantilePairs,
+    data: QQData,
     *,
     width: int,
     height: int,
@@ -142,7 +134,7 @@ def qq_plot(
     Above the line: the subject is slower (larger) than the reference at that
     probability. ``log`` None picks a log axis when every value is positive.
     """
-    return qq_figure(pairs, width=width, height=height, log=log, ascii_only=ascii_only, marks=marks).lines()
+    return qq_figure(data, width=width, height=height, log=log, ascii_only=ascii_only, marks=marks).lines()
 
 
 # ---------------------------------------------------------------- detrended
@@ -155,7 +147,7 @@ def _robust_range(values: list[FloatArray], cap_from: FloatArray, factor: float 
 
 
 def detrended_figure(
-    data: QuantilePairs | Detrended,
+    d: Detrended,
     *,
     width: int,
     height: int,
@@ -163,7 +155,6 @@ def detrended_figure(
     log: bool | None = None,
     ascii_only: bool = False,
 ) -> Figure:
-    d = detrended_from_pairs(data) if isinstance(data, QuantilePairs) else data
     if x_axis not in ("prob", "value"):
         raise ValueError(f"x_axis must be 'prob' or 'value', got {x_axis!r}.")
     if x_axis == "prob":
@@ -210,7 +201,7 @@ def detrended_figure(
 
 
 def detrended_plot(
-    data: QuantilePairs | Detrended,
+    data: Detrended,
     *,
     width: int,
     height: int,
@@ -231,7 +222,7 @@ def detrended_plot(
 
 # ---------------------------------------------------------------- P-P
 def pp_figure(
-    data: QuantilePairs | PPPoints,
+    pp: PPPoints,
     *,
     width: int,
     height: int,
@@ -239,7 +230,6 @@ def pp_figure(
     ascii_only: bool = False,
 ) -> Figure:
     del log  # probabilities: a log axis means nothing here
-    pp = pp_from_pairs(data) if isinstance(data, QuantilePairs) else data
     unit = Scale("linear", 0.0, 1.0)
     fig = Figure(
         width,
@@ -271,7 +261,7 @@ def pp_figure(
 
 
 def pp_plot(
-    data: QuantilePairs | PPPoints,
+    data: PPPoints,
     *,
     width: int,
     height: int,
@@ -288,7 +278,7 @@ def pp_plot(
 
 # ---------------------------------------------------------------- CDF overlay
 def cdf_figure(
-    data: QuantilePairs | CDFOverlay,
+    ov: CDFOverlay,
     *,
     width: int,
     height: int,
@@ -296,7 +286,6 @@ def cdf_figure(
     prob_axis: str = "linear",
     ascii_only: bool = False,
 ) -> Figure:
-    ov = cdf_from_pairs(data) if isinstance(data, QuantilePairs) else data
     if prob_axis not in ("linear", "logit"):
         raise ValueError(f"prob_axis must be 'linear' or 'logit', got {prob_axis!r}.")
     values = [s.values for s in ov.series]
@@ -329,7 +318,7 @@ def cdf_figure(
 
 
 def cdf_plot(
-    data: QuantilePairs | CDFOverlay,
+    data: CDFOverlay,
     *,
     width: int,
     height: int,
@@ -339,7 +328,6 @@ def cdf_plot(
 ) -> PlotLines:
     """Two (up to three) CDFs on one value axis: the first as a braille line, the others as markers.
 
-    With pairs, the reference is the first series and the subject the second.
     ``prob_axis='logit'`` stretches the tails.
     """
     return cdf_figure(
@@ -352,18 +340,8 @@ def _unbounded(a: FloatArray) -> FloatArray:
     return np.where(a >= 1e300, np.inf, np.where(a <= -1e300, -np.inf, a))
 
 
-def _shift_of(data: Any) -> ShiftLike:
-    """A ShiftFunction, or anything holding one as ``.shift`` (a Comparison)."""
-    inner = getattr(data, "shift", None)
-    if inner is not None and hasattr(inner, "delta"):
-        return inner  # type: ignore[no-any-return]
-    if hasattr(data, "delta") and hasattr(data, "probs"):
-        return data  # type: ignore[no-any-return]
-    raise TypeError("shift_plot needs a ShiftFunction (or a Comparison holding one as .shift).")
-
-
 def shift_figure(
-    data: Any,
+    sf: ShiftFunction,
     *,
     width: int,
     height: int,
@@ -371,7 +349,6 @@ def shift_figure(
     ascii_only: bool = False,
 ) -> Figure:
     del log  # differences can be negative: the value axis is always linear
-    sf = _shift_of(data)
     probs = np.asarray(sf.probs, dtype=np.float64)
     delta = np.asarray(sf.delta, dtype=np.float64)
     # Unbounded ends may arrive as ±inf or as ±float max (numpy.nan_to_num's default).
@@ -427,7 +404,7 @@ def shift_figure(
 
 
 def shift_plot(
-    data: Any,
+    data: ShiftFunction,
     *,
     width: int,
     height: int,
@@ -438,7 +415,7 @@ def shift_plot(
 
     Above zero: B is slower there. An interval that does not reach zero is a credible
     change; arrows mark intervals the data cannot bound. ``log`` is ignored (differences
-    can be negative). Accepts a ShiftFunction or a Comparison (its ``.shift``).
+    can be negative).
     """
     return shift_figure(data, width=width, height=height, log=log, ascii_only=ascii_only).lines()
 
@@ -446,7 +423,7 @@ def shift_plot(
 # ---------------------------------------------------------------- dispatch
 def draw(
     kind: str,
-    data: Any,
+    data: PlotData,
     *,
     width: int,
     height: int,
