@@ -125,8 +125,7 @@ class TDigest:
         places in the merged order are computed (``P``), cluster cuts are found by
         searching the ~compression boundaries against that layout, and the values are
         touched only by one equality pass (to find runs of ties) and one ``reduceat``.
-        ``tests/test_sketch_bound.py`` (``test_fast_flush_equals_general_path``) checks both paths
-        give the same centroids.
+        ``tests/test_sketch_digest.py`` checks both paths give the same centroids.
         """
         m, w, p = self._means, self._weights, self._pure
         k_n, n = m.size, x.size
