@@ -14,6 +14,8 @@ class FeedStatus(Static):
 
     message: reactive[str] = reactive("")
     """The last event, shown when no scan is running."""
+    _shown: str | None = None
+    """The text on screen now (an update with the same text is skipped: it costs a redraw)."""
 
     def show_jobs(self, jobs: list[ScanJob]) -> None:
         running = [j for j in jobs if not j.done]
@@ -26,7 +28,7 @@ class FeedStatus(Static):
         self._show(" | ".join(parts))
 
     def _show(self, text: str) -> None:
-        if text != getattr(self, "_shown", None):
+        if text != self._shown:
             self._shown = text
             self.update(text)
 
