@@ -99,3 +99,24 @@ def test_gate_needs_two_sides(log: Path, capsys: pytest.CaptureFixture[str]) -> 
     assert main(["gate", str(log), "--column", "ms", "--limit", "p50=+10%", "--quiet"]) == 3
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "gate needs two sides" in err[0]
+
+
+def test_a_failing_group_outranks_an_undecided_one() -> None:
+    """Exit 1 (a limit credibly exceeded somewhere) wins over 2 (a group the data cannot decide)."""
+    from ogive.fit.group_gate import gate_groups
+    from ogive.sketch import Sketch, SketchSet
+
+    rng = np.random.default_rng(9)
+
+    def sk(values: np.ndarray) -> Sketch:
+        s = Sketch("ms")
+        s.add(values)
+        return s
+
+    a = SketchSet({"few": sk(rng.lognormal(3, 0.4, 40)), "slow": sk(rng.lognormal(3, 0.4, 20_000))})
+    b = SketchSet({"few": sk(rng.lognormal(3, 0.4, 40)), "slow": sk(rng.lognormal(3, 0.4, 20_000) * 1.5)})
+    result = gate_groups(a, b, [parse_limit("p99=+5%", "ms")])
+    states = {g: r.outcome for g, r in result.groups}
+    # p99 of 40 values cannot be bounded at this confidence (40 < values_needed); 1.5x is far beyond +5 %.
+    assert states == {"few": "undecided", "slow": "fail"}
+    assert (result.exit_code, result.outcome) == (1, "fail")

@@ -5,8 +5,15 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+from collections.abc import Callable
+from functools import partial
+from typing import TYPE_CHECKING, Any
 
 from ..errors import OgiveError
+
+if TYPE_CHECKING:
+    from ..fit.gate import GateResult
+    from ..fit.group_gate import GroupGate
 
 DESCRIPTION = """\
 Check a candidate B against a baseline A on limits for named quantiles, for CI
@@ -87,51 +94,36 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..fit.gate import MEANING, gate, parse_limit
-    from ..render.reports import gate_text
-    from .common import two_sides
+    from ..fit.gate import MEANING, Limit, gate, parse_limit
+    from ..fit.group_gate import gate_groups
+    from ..render.reports import gate_text, group_gate_text
+    from .common import group_sides, two_sides
 
     if not args.limit:
         raise OgiveError("no limit given; add at least one, such as --limit p99=+5%.")
     conf = float(args.confidence)
     if not 0.5 <= conf < 1:
         raise OgiveError(f"--confidence must be at least 0.5 and below 1, got {conf}.")
+    check: Callable[[list[Limit]], GateResult | GroupGate]
+    text: Callable[[Any], str]
     if args.by:
-        return _run_groups(args, conf)
-    (a, b), names, sources = two_sides(args)
-    try:
-        limits = [parse_limit(t, a.unit) for t in args.limit]
-        result = gate(a, b, limits, confidence=conf, prove=args.prove, labels=names)
-    except ValueError as exc:
-        raise OgiveError(str(exc)) from None
-    if args.json:
-        _json(result.to_dict())
-    else:
-        sys.stdout.write(gate_text(result, names, sources, MEANING))
-    return result.exit_code
-
-
-def _run_groups(args: argparse.Namespace, conf: float) -> int:
-    from ..fit.gate import MEANING, parse_limit
-    from ..fit.group_gate import gate_groups
-    from ..render.reports import group_gate_text
-    from .common import group_sides
-
-    (sa, sb), names = group_sides(args)
-    units = {s.unit for s in (*sa.sketches.values(), *sb.sketches.values())}
-    try:
-        limits = [parse_limit(t, next(iter(units), "")) for t in args.limit]
-        result = gate_groups(sa, sb, limits, confidence=conf, prove=args.prove, labels=names)
-    except ValueError as exc:
-        raise OgiveError(str(exc)) from None
-    if args.json:
-        _json(result.to_dict())
-    else:
+        (sa, sb), names = group_sides(args)
         sources = (args.a, args.b) if args.b is not None else (f"{args.a} (before)", f"{args.a} (after)")
-        sys.stdout.write(group_gate_text(result, sources, args.by, MEANING))
+        unit = next((s.unit for s in sa.sketches.values()), "")
+        check = partial(gate_groups, sa, sb, confidence=conf, prove=args.prove, labels=names)
+        text = partial(group_gate_text, sources=sources, by=args.by, meaning=MEANING)
+    else:
+        (a, b), names, sources = two_sides(args)
+        unit = a.unit
+        check = partial(gate, a, b, confidence=conf, prove=args.prove, labels=names)
+        text = partial(gate_text, names=names, sources=sources, meaning=MEANING)
+    try:
+        result = check([parse_limit(t, unit) for t in args.limit])
+    except ValueError as exc:
+        raise OgiveError(str(exc)) from None
+    if args.json:
+        json.dump(result.to_dict(), sys.stdout, indent=2, allow_nan=False)
+        sys.stdout.write("\n")
+    else:
+        sys.stdout.write(text(result))
     return result.exit_code
-
-
-def _json(doc: dict[str, object]) -> None:
-    json.dump(doc, sys.stdout, indent=2, allow_nan=False)
-    sys.stdout.write("\n")

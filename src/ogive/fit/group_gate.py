@@ -31,13 +31,19 @@ class GroupGate:
     """Groups on both sides with no values on one of them (not gated)."""
 
     @property
+    def worst(self) -> GateResult:
+        """The gate that decides: a failing group over an undecided one over a passing one."""
+        order = {1: 2, 2: 1, 0: 0}  # exit status -> how bad
+        return max((r for _, r in self.groups), key=lambda r: order[r.exit_code])
+
+    @property
     def exit_code(self) -> int:
         """0 every group passes, 1 a group fails, 2 no group fails but one cannot be decided."""
-        return max((r.exit_code for _, r in self.groups), default=2)
+        return self.worst.exit_code
 
     @property
     def outcome(self) -> str:
-        return {0: "pass", 1: "fail", 2: "undecided"}[self.exit_code]
+        return self.worst.outcome
 
     def to_dict(self) -> dict[str, Any]:
         return {
