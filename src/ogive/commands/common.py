@@ -227,6 +227,23 @@ def side_names(specs: tuple[str, str], names: tuple[str, str]) -> tuple[str, str
     return out[0], out[1]
 
 
+def in_baseline_unit(b: Sketch, a: Sketch, names: tuple[str, str], *, quiet: bool = False) -> Sketch:
+    """B in A's unit: durations convert (s, ms, us, ns), anything else is refused in one sentence."""
+    from ..sketch.units import duration_factor, in_unit
+
+    if b.unit == a.unit:
+        return b
+    if duration_factor(b.unit, a.unit) is None:
+        raise OgiveError(
+            f"{names[0]} is in {a.unit or 'no unit'!r} and {names[1]} in {b.unit or 'no unit'!r}: "
+            "they measure different things and do not compare."
+        )
+    if not quiet:
+        note = f"{names[1]} ({b.unit}) is read in {a.unit}, the unit of {names[0]}"
+        print(f"ogive: note: {note}.", file=sys.stderr)
+    return in_unit(b, a.unit)
+
+
 def two_sides(args: argparse.Namespace) -> tuple[tuple[Sketch, Sketch], tuple[str, str], tuple[str, str]]:
     """The baseline A and the other side B of ``compare``/``gate``, their names and where each came from.
 
@@ -236,30 +253,44 @@ def two_sides(args: argparse.Namespace) -> tuple[tuple[Sketch, Sketch], tuple[st
     if args.b is not None:
         name_a, a = load_one(args.a, args)
         name_b, b = load_one(args.b, args)
-        return (a, b), side_names((args.a, args.b), (name_a, name_b)), (args.a, args.b)
+        names = side_names((args.a, args.b), (name_a, name_b))
+        b = in_baseline_unit(b, a, names, quiet=bool(getattr(args, "quiet", False)) or args.json)
+        return (a, b), names, (args.a, args.b)
     sset = load_set([args.a], args)
-    names = sset.names()
-    if set(names) >= {"before", "after"}:
+    held = sset.names()
+    if set(held) >= {"before", "after"}:
         pair = ("before", "after")
-    elif len(names) == 2:
-        pair = (names[0], names[1])
+    elif len(held) == 2:
+        pair = (held[0], held[1])
     else:
         command = getattr(args, "command", None) or "compare"
         raise OgiveError(
             f"{command} needs two sides: give A and B, or one source with --split-at TIME, "
-            f"or one sketch file holding exactly two sketches ({args.a} holds {len(names)})."
+            f"or one sketch file holding exactly two sketches ({args.a} holds {len(held)})."
         )
     where = (f"{args.a} ({pair[0]})", f"{args.a} ({pair[1]})")
-    return (sset[pair[0]], sset[pair[1]]), pair, where
+    quiet = bool(getattr(args, "quiet", False)) or args.json
+    a = sset[pair[0]]
+    return (a, in_baseline_unit(sset[pair[1]], a, pair, quiet=quiet)), pair, where
 
 
 def group_sides(args: argparse.Namespace) -> tuple[tuple[SketchSet, SketchSet], tuple[str, str]]:
-    """The groups of ``--by`` on each side: ``A B`` scanned or loaded, or one source split at a time."""
+    """The groups of ``--by`` on each side: ``A B`` scanned or loaded (each group of B read in
+    the unit of A's), or one source split at a time."""
     from ..sketch import SketchSet
 
     if args.b is not None:
-        sides = load_set([args.a], args), load_set([args.b], args)
-        return sides, side_names((args.a, args.b), (GENERIC_NAMES[0], GENERIC_NAMES[0]))
+        sa, sb = load_set([args.a], args), load_set([args.b], args)
+        names = side_names((args.a, args.b), (GENERIC_NAMES[0], GENERIC_NAMES[0]))
+        quiet = bool(getattr(args, "quiet", False)) or args.json
+        unit_of = {g: s for g, s in sa.sketches.items()}
+        converted = {
+            g: in_baseline_unit(s, unit_of[g], (f"{names[0]}:{g}", f"{names[1]}:{g}"), quiet=quiet)
+            if g in unit_of
+            else s
+            for g, s in sb.sketches.items()
+        }
+        return (sa, SketchSet(converted)), names
     sset = load_set([args.a], args)
     halves: tuple[SketchSet, SketchSet] = (SketchSet(), SketchSet())
     for name in sset.names():

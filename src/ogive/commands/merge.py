@@ -19,11 +19,12 @@ if TYPE_CHECKING:
 
 DESCRIPTION = """\
 Merge saved sketch sets into one: sketches with the same name are combined (a file of
-one sketch merges into that name), other names are carried over. --as FILE=NAME puts a
+one sketch merges into that name), other names are carried over. Durations in different
+units (s, ms, us, ns) are converted to the first file's unit. --as FILE=NAME puts a
 file's sketch under a name of your choice first, so per-host sketches can be gathered
-into one set side by side instead of merged. Sketches of different units or of
-different fields are refused, because their union would be meaningless, unless --force
-says they measure the same thing."""
+into one set side by side instead of merged. Sketches of unrelated units (ms and bytes)
+or of different fields are refused, because their union would be meaningless, unless
+--force says they measure the same thing."""
 
 EPILOG = """\
 examples:
@@ -70,6 +71,7 @@ def _clash(name: str, what: str, first: tuple[str, str], other: tuple[str, str])
 def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[SketchSet, list[str]]:
     """Merge by sketch name; returns the set and the warnings a forced merge owes the user."""
     from ..sketch import SketchSet, merge
+    from ..sketch.units import duration_factor, in_unit
 
     out: dict[str, Sketch] = {}
     origin: dict[str, str] = {}
@@ -81,6 +83,10 @@ def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[Sket
                 out[name], origin[name] = s, path  # the loaded sets are ours to fold into
                 continue
             have = out[name]
+            if s.unit != have.unit and duration_factor(s.unit, have.unit) is not None:
+                # Durations convert: the values are added in the first file's unit, never as raw numbers.
+                warnings.append(f"'{name}': {path} is in {s.unit}, converted to {have.unit} to merge")
+                s = in_unit(s, have.unit)
             for what, a, b in (
                 ("unit", have.unit, s.unit),
                 ("field", have.provenance.field, s.provenance.field),
@@ -95,7 +101,7 @@ def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[Sket
             if have.unit == s.unit:
                 out[name] = merge(have, s)
             else:
-                have.merge(s)  # forced: the first file's unit labels the result
+                have.merge(s)  # forced, unrelated units: the first file's unit labels the result
     return SketchSet(out), warnings
 
 

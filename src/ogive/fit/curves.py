@@ -32,6 +32,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ..sketch import Sketch, quantile_label
+from ..sketch.units import duration_factor, in_unit
 from .qq import QuantilePairs
 
 if TYPE_CHECKING:
@@ -420,10 +421,12 @@ def plot_inputs(
         if reference.count == 0:
             raise ValueError(f"{reference_label!r} holds no values; there is nothing to plot.")
         if reference.unit != subject.unit:
-            raise ValueError(
-                f"{subject_label!r} is in {subject.unit or 'no unit'!r} and {reference_label!r} in "
-                f"{reference.unit or 'no unit'!r}; rescan one with the same --unit."
-            )
+            if duration_factor(subject.unit, reference.unit) is None:
+                raise ValueError(
+                    f"{subject_label!r} is in {subject.unit or 'no unit'!r} and {reference_label!r} in "
+                    f"{reference.unit or 'no unit'!r}: they measure different things and share no axis."
+                )
+            subject = in_unit(subject, reference.unit)  # read in the reference's unit, as compare does
     if kind == "shift":
         if not isinstance(reference, Sketch):
             raise ValueError(

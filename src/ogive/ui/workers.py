@@ -129,10 +129,14 @@ def run_fit(sketch: Sketch, families: Sequence[str] | None, name: str) -> tuple[
 
 
 def run_compare(reference: Sketch, subject: Sketch, labels: tuple[str, str]) -> tuple[Comparison | None, str]:
-    """``ogive compare``'s ``compare_sketches``: the subject read against the reference."""
+    """``ogive compare``'s ``compare_sketches``: the subject read against the reference (in the
+    reference's unit when both are durations, as the CLI reads B in A's unit)."""
     from ..fit.compare import compare_sketches
+    from ..sketch.units import duration_factor, in_unit
 
     try:
+        if subject.unit != reference.unit and duration_factor(subject.unit, reference.unit) is not None:
+            subject = in_unit(subject, reference.unit)
         return compare_sketches(reference, subject, labels=labels), ""
     except Exception as exc:  # shown in the ladder pane, never swallowed
         return None, f"comparison failed: {exc}"
