@@ -82,7 +82,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     axes.add_argument(
         "--linear",
         action="store_true",
-        help="linear value axes (default: log when every value is positive)",
+        help="linear value axes (default: log unless a value is negative; zeros are drawn at the "
+        "log axis's floor and counted in the legend)",
     )
     axes.add_argument(
         "--log",

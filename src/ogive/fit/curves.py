@@ -151,9 +151,15 @@ class QQData:
 
     pairs: QuantilePairs
     marks: tuple[Mark, ...]
+    at_or_below_zero: tuple[tuple[str, int], ...] = ()
+    """(label, values <= 0) for each sketch that has any: a log axis draws them at its floor."""
 
     def to_dict(self) -> dict[str, Any]:
-        return {**self.pairs.to_dict(), "marks": [m.to_dict() for m in self.marks]}
+        return {
+            **self.pairs.to_dict(),
+            "marks": [m.to_dict() for m in self.marks],
+            "at_or_below_zero": dict(self.at_or_below_zero),
+        }
 
 
 def qq_from_pairs(pairs: QuantilePairs) -> QQData:
@@ -177,6 +183,8 @@ class Detrended:
     band_high: FloatArray | None = None
     band_label: str = ""
     marks: tuple[Mark, ...] = ()
+    at_or_below_zero: tuple[tuple[str, int], ...] = ()
+    """As :class:`QQData`'s: for a log value axis (``x_axis='value'``)."""
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -337,9 +345,12 @@ class CDFOverlay:
 
     series: tuple[CDFSeries, ...]
     unit: str
+    at_or_below_zero: tuple[tuple[str, int], ...] = ()
+    """As :class:`QQData`'s."""
 
     def to_dict(self) -> dict[str, Any]:
         return {
+            "at_or_below_zero": dict(self.at_or_below_zero),
             "unit": self.unit,
             "series": [
                 {"label": s.label, "values": _list(s.values), "probs": s.probs.tolist()} for s in self.series
@@ -445,15 +456,18 @@ def plot_inputs(
             reference_label=reference_label,
             confidence=confidence if band else None,
         )
+    floor = at_or_below_zero({subject_label: subject, reference_label: reference})
     if kind == "cdf":
         if isinstance(reference, Sketch):
-            return cdf_from_sketches({reference_label: reference, subject_label: subject})
+            overlay = cdf_from_sketches({reference_label: reference, subject_label: subject})
+            return dataclasses.replace(overlay, at_or_below_zero=floor)
         p = cdf_probs()
         with np.errstate(all="ignore"):
             ref_q = np.asarray(reference.ppf(p), dtype=np.float64)
         return CDFOverlay(
             (CDFSeries(ref_q, p, reference_label), CDFSeries(subject.quantile(p), p, subject_label)),
             subject.unit,
+            floor,
         )
     if isinstance(reference, Sketch):
         pairs = pairs_from_sketches(
@@ -469,4 +483,16 @@ def plot_inputs(
         if band:
             eps = band_epsilon(subject, confidence=confidence)
             pairs = with_dkw_band(pairs, reference.ppf, eps, confidence=confidence)
-    return detrended_from_pairs(pairs) if kind == "detrended" else qq_from_pairs(pairs)
+    if kind == "detrended":
+        return dataclasses.replace(detrended_from_pairs(pairs), at_or_below_zero=floor)
+    return dataclasses.replace(qq_from_pairs(pairs), at_or_below_zero=floor)
+
+
+def at_or_below_zero(named: dict[str, Sketch | QuantileCDFModel]) -> tuple[tuple[str, int], ...]:
+    """How many values of each sketch are zero or negative (models have no count): a log
+    value axis cannot place them, so the plot draws them at its floor and says how many."""
+    return tuple(
+        (label, s.zero_count + s.negative_count)
+        for label, s in named.items()
+        if isinstance(s, Sketch) and s.zero_count + s.negative_count
+    )

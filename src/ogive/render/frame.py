@@ -82,7 +82,7 @@ class Figure:
     labels: list[PlacedLabel] = field(default_factory=list)
     marks: dict[str, tuple[int, int]] = field(default_factory=dict)
     """Mark name -> (row, col) inside the canvas."""
-    _pending: list[tuple[str, int, int]] = field(default_factory=list)
+    _pending: list[tuple[str, int, int, tuple[float, float]]] = field(default_factory=list)
 
     def __post_init__(self) -> None:
         if self.width < MIN_WIDTH or self.height < MIN_HEIGHT:
@@ -155,17 +155,28 @@ class Figure:
         self.marks[name] = cell
         self.put(r, c, glyph, "mark")
         if label:
-            self._pending.append((label, r, c))
+            self._pending.append((label, r, c, (x, y)))
 
     def finish(self) -> Figure:
         """Place the pending labels, after every mark is down (so none lands under one)."""
         pending, self._pending = self._pending, []
-        # Marks that share a cell (a step-shaped quantile function, few values) share
-        # one label, "p90/p99", instead of scattering labels around one glyph.
-        by_cell: dict[tuple[int, int], list[str]] = {}
-        for label, r, c in pending:
-            by_cell.setdefault((r, c), []).append(label)
-        for (r, c), names in by_cell.items():
+        # Marks at the same point (a step-shaped quantile function: p90 = p99 = 10 ms)
+        # share one label, "p90/p99", which says they are equal. Marks that only share a
+        # cell keep a label each: different quantiles never read as one.
+        # Only where the plot has no room for a label each do they share one ("p99/p99.9"),
+        # rather than one of them going unnamed.
+        by_cell: dict[tuple[int, int], dict[tuple[float, float], list[str]]] = {}
+        for label, r, c, point in pending:
+            by_cell.setdefault((r, c), {}).setdefault(point, []).append(label)
+        for (r, c), points in by_cell.items():
+            texts = ["/".join(names) for names in points.values()]
+            if len(texts) > 1:
+                kept = (len(self.labels), dict(self.overlay))
+                if all(self._place_label(text, r, c) for text in texts):
+                    continue
+                del self.labels[kept[0] :]
+                self.overlay = kept[1]
+            names = [n for group in points.values() for n in group]
             text = "/".join(names)
             if len(names) > 2 and not self._fits_somewhere(text, r, c):
                 text = f"{names[0]}-{names[-1]}"
@@ -184,11 +195,12 @@ class Figure:
                 return True
         return any(mr == row and col <= mc < col + length for mr, mc in self.marks.values())
 
-    def _place_label(self, text: str, r: int, c: int) -> None:
+    def _place_label(self, text: str, r: int, c: int) -> bool:
         """Beside the mark if possible; never nearer to another mark than to its own.
 
         Cost: rows away from the mark weigh most (a label on its mark's row cannot be
-        misread), then hidden data cells, then hidden lines and bands.
+        misread), then hidden data cells, then hidden lines and bands. False when no
+        place was free.
         """
         n = len(text)
         candidates = self._candidates(n, r, c)
@@ -209,9 +221,10 @@ class Figure:
             if cost < best_cost:
                 best, best_cost = (row, col), cost
         if best is None:
-            return
+            return False
         self.labels.append(PlacedLabel(text, best[0], best[1], (r, c)))
         self.put(best[0], best[1], text, "label")
+        return True
 
     @staticmethod
     def _candidates(n: int, r: int, c: int) -> list[tuple[int, int]]:

@@ -19,7 +19,7 @@ from numpy.typing import NDArray
 
 from ..fit.curves import CDFOverlay, Detrended, PlotData, PPPoints, QQData
 from ..fit.shift import ShiftFunction
-from ..numbers import percent, quantity
+from ..numbers import count, percent, quantity
 from .canvas import Layer
 from .frame import Figure, LegendItem, PlotLines
 from .ticks import Scale, make_scale
@@ -49,12 +49,33 @@ def _prob(v: float, d: int) -> str:
 
 
 def _axis_kind(log: bool | None, *arrays: FloatArray) -> str:
-    """'log' when asked, or when not said and every finite value is positive."""
+    """'log' when asked, or when not said and no value is negative; 'linear' otherwise.
+
+    Zeros do not make an axis linear: a latency field full of ``0.000`` (an answer from
+    cache) on a linear axis squeezes p50 to p99 into one corner. They are drawn at the
+    log axis's floor instead (:func:`_on_axis`) and the legend says how many there are.
+    A log axis needs at least one positive value.
+    """
     finite = np.concatenate([a[np.isfinite(a)] for a in arrays]) if arrays else np.empty(0)
-    positive = finite.size > 0 and bool(np.all(finite > 0))
+    if not bool(np.any(finite > 0)):
+        return "linear"
     if log is None:
-        return "log" if positive else "linear"
-    return "log" if (log and positive) else "linear"
+        return "linear" if bool(np.any(finite < 0)) else "log"
+    return "log" if log else "linear"
+
+
+def _on_axis(scale: Scale, values: FloatArray) -> FloatArray:
+    """On a log axis, values at or below zero (which it cannot place) at its floor."""
+    if scale.kind != "log":
+        return values
+    return np.where(np.isfinite(values) & (values <= 0), scale.lo, values)
+
+
+def _floor_legend(fig: Figure, scale: Scale, counts: tuple[tuple[str, int], ...]) -> None:
+    """Say how many values sit at the floor of a log axis (zero or negative: no place on it)."""
+    if scale.kind == "log" and counts:
+        where = ", ".join(f"{label} {count(n)}" for label, n in counts)
+        fig.legend.append(LegendItem(fig.glyph("≤0", "<=0"), f"at floor: {where}", "axis"))
 
 
 def _with_unit(text: str, unit: str) -> str:
@@ -86,9 +107,9 @@ def qq_figure(
     marks: bool = True,
 ) -> Figure:
     pairs = data.pairs
-    ref, sub = pairs.reference, pairs.subject
-    kind = _axis_kind(log, ref, sub)
-    scale = make_scale(kind, np.concatenate((ref, sub)))
+    kind = _axis_kind(log, pairs.reference, pairs.subject)
+    scale = make_scale(kind, np.concatenate((pairs.reference, pairs.subject)))
+    ref, sub = _on_axis(scale, pairs.reference), _on_axis(scale, pairs.subject)
     fmt = _fmt(pairs.unit, ascii_only)
     fig = Figure(
         width,
@@ -104,8 +125,8 @@ def qq_figure(
     W, H = fig.canvas.dot_width, fig.canvas.dot_height
     if pairs.band_low is not None and pairs.band_high is not None:
         band = Layer("band", BAND[0], BAND[1], 0, every=2)
-        fig.line(band, ref, pairs.band_low)
-        fig.line(band, ref, pairs.band_high)
+        fig.line(band, ref, _on_axis(scale, pairs.band_low))
+        fig.line(band, ref, _on_axis(scale, pairs.band_high))
         fig.legend.append(_band_legend(pairs.band_label, fig))
     # Same scale on both axes: the y = x line runs corner to corner.
     fig.line_dots(_braille("reference", "."), np.array([0.0, W - 1.0]), np.array([H - 1.0, 0.0]))
@@ -114,9 +135,11 @@ def qq_figure(
         LegendItem(fig.glyph(*SUBJECT), "quantiles", "subject"),
         LegendItem(fig.glyph("⠤", "."), "y = x", "reference"),
     ]
+    _floor_legend(fig, scale, data.at_or_below_zero)
     if marks:
         for m in data.marks:
-            fig.mark(m.label, m.reference, m.subject, fig.glyph(*MARK), label=m.label)
+            mx, my = _on_axis(scale, np.array([m.reference, m.subject]))
+            fig.mark(m.label, float(mx), float(my), fig.glyph(*MARK), label=m.label)
     return fig.finish()
 
 
@@ -132,7 +155,8 @@ def qq_plot(
     """Subject quantiles (y) against reference quantiles (x) with the 45° line.
 
     Above the line: the subject is slower (larger) than the reference at that
-    probability. ``log`` None picks a log axis when every value is positive.
+    probability. ``log`` None picks a log axis unless a value is negative (zeros go to
+    its floor, counted in the legend).
     """
     return qq_figure(data, width=width, height=height, log=log, ascii_only=ascii_only, marks=marks).lines()
 
@@ -163,8 +187,8 @@ def detrended_figure(
         xfmt: Callable[[float, int], str] = _prob
         x_title = f"probability ({d.reference_label})"
     else:
-        x = d.reference
-        xscale = make_scale(_axis_kind(log, x), x)
+        xscale = make_scale(_axis_kind(log, d.reference), d.reference)
+        x = _on_axis(xscale, d.reference)
         xfmt = _fmt(d.unit, ascii_only)
         x_title = d.reference_label
     bands = [b for b in (d.band_low, d.band_high) if b is not None]
@@ -194,8 +218,10 @@ def detrended_figure(
         LegendItem(fig.glyph(*SUBJECT), "deviation", "subject"),
         LegendItem(fig.glyph("⠤", "."), "same", "reference"),
     ]
+    if x_axis == "value":
+        _floor_legend(fig, xscale, d.at_or_below_zero)
     for m in d.marks:
-        mx = m.q if x_axis == "prob" else m.reference
+        mx = m.q if x_axis == "prob" else float(_on_axis(xscale, np.array([m.reference]))[0])
         fig.mark(m.label, mx, m.subject, fig.glyph(*MARK), label=m.label)
     return fig.finish()
 
@@ -312,8 +338,9 @@ def cdf_figure(
         (_marker("second", SECOND, priority=2), fig.glyph(*SECOND)),
     ]
     for s, (layer, glyph) in zip(ov.series, styles, strict=False):
-        fig.line(layer, s.values, s.probs)
+        fig.line(layer, _on_axis(xscale, s.values), s.probs)
         fig.legend.append(LegendItem(glyph, s.label, layer.role))
+    _floor_legend(fig, xscale, ov.at_or_below_zero)
     return fig.finish()
 
 

@@ -41,7 +41,8 @@ KIND_NAMES: dict[str, str] = {
     "shift": "shift function",
 }
 AXES: tuple[str, ...] = ("auto", "log", "linear")
-"""Value axes: 'auto' lets the renderer choose (log when every value is positive, as latencies are)."""
+"""Value axes: 'auto' lets the renderer choose (log unless a value is negative, as for latencies;
+zeros are drawn at the floor and counted)."""
 
 _AFTER = re.compile(r"(^|[:/])after(?=$|[:/])")
 
