@@ -19,14 +19,8 @@ import pytest
 import scipy.stats as st
 
 from ogive import render
-from ogive.fit.curves import (
-    cdf_from_pairs,
-    detrended_from_pairs,
-    dkw_epsilon,
-    pp_from_pairs,
-    qq_from_pairs,
-    with_dkw_band,
-)
+from ogive.fit.band import dkw_epsilon, with_dkw_band
+from ogive.fit.curves import cdf_from_pairs, detrended_from_pairs, pp_from_pairs, qq_from_pairs
 from ogive.fit.qq import QuantilePairs, probability_grid
 from ogive.fit.shift import ShiftFunction
 

@@ -11,17 +11,15 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as hs
 
 from ogive import render
+from ogive.fit.band import band_epsilon, dkw_epsilon, with_dkw_band
 from ogive.fit.curves import (
-    band_epsilon,
     cdf_from_pairs,
     cdf_from_sketches,
     detrended_from_pairs,
-    dkw_epsilon,
     marks_from_pairs,
     pp_from_pairs,
     pp_from_sketches,
     qq_from_pairs,
-    with_dkw_band,
 )
 from ogive.fit.qq import QuantilePairs, pairs_from_model, pairs_from_sketches, probability_grid
 from ogive.numbers import quantity

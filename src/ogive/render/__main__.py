@@ -11,15 +11,8 @@ import sys
 
 import numpy as np
 
-from ..fit.curves import (
-    PlotData,
-    cdf_from_pairs,
-    detrended_from_pairs,
-    dkw_epsilon,
-    pp_from_pairs,
-    qq_from_pairs,
-    with_dkw_band,
-)
+from ..fit.band import dkw_epsilon, with_dkw_band
+from ..fit.curves import PlotData, cdf_from_pairs, detrended_from_pairs, pp_from_pairs, qq_from_pairs
 from ..fit.qq import QuantilePairs, probability_grid
 from ..fit.shift import ShiftFunction
 from . import draw
