@@ -13,6 +13,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from textual.widgets import Input
 
 from ogive.sketch import Sketch, SketchSet
 from ogive.store import load_sketches, save_sketches
@@ -25,6 +26,7 @@ from ogive.ui.path_input import PathInput, complete_path
 from ogive.ui.plot_panel import PlotPanel
 from ogive.ui.screen_text import screen_text
 from ogive.ui.shelf import DistributionShelf
+from ogive.ui.workspace import partner
 
 FAST = ("lognormal", "gamma")
 """Two families keep each fit well under a second; the ranking itself is the fit tests' job."""
@@ -291,3 +293,32 @@ async def test_lone_subject_gets_best_model_until_a_sketch_arrives(
         await _settle(app, pilot)
         assert app.ws.reference is not None and app.ws.reference.kind == "sketch"
         assert (app.ws.subject, app.ws.reference.name) == ("before", "after")
+
+
+async def test_open_dialog_splits_by_time_and_groups(tmp_path: Path) -> None:
+    """Issue 15: the Open dialog sets split-at and by (it used to need the CLI flags)."""
+    log = tmp_path / "svc.csv"
+    rows = ["ts,route,ms"] + [
+        f"2026-05-01T{10 + i // 600:02d}:{(i // 10) % 60:02d}:{i % 10:02d}Z,{'ab'[i % 2]},{1 + i % 7}"
+        for i in range(2400)
+    ]
+    log.write_text("\n".join(rows) + "\n")
+    app = OgiveApp(families=FAST)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("o")
+        await pilot.pause(0.1)
+        screen = app.screen
+        assert isinstance(screen, OpenPrompt)
+        values = {"open-path": str(log), "open-column": "ms", "open-unit": "ms", "open-by": "route"}
+        values |= {"open-time-field": "ts", "open-split-at": "2026-05-01T12:00:00Z"}
+        for key, value in values.items():
+            screen.query_one(f"#{key}", Input).value = value
+        await pilot.pause(0.5)
+        screen.query_one("#open-path", PathInput).focus()
+        await pilot.press("enter")
+        await _settle(app, pilot)
+        names = sorted(app.ws.dists)
+        assert names == ["svc:after/route=a", "svc:after/route=b", "svc:before/route=a", "svc:before/route=b"]
+        # Counted by hand from the rows written: hours 10 and 11 are before 12:00.
+        assert app.ws.dists["svc:before/route=a"].sketch.count == 600
+        assert app.ws.reference is not None and app.ws.reference.name == partner(app.ws.subject or "")

@@ -78,7 +78,13 @@ async def test_scans_fill_the_shelf(tmp_path: Path) -> None:
         # 8000 values <= 2 * tail_size? no (tail 1024): the digest answers p50; its rank
         # error at n=8000 is well under 1 % of n, so 2 % of the value is a loose bound.
         assert float(base.quantile(0.5)) == pytest.approx(float(np.quantile(a, 0.5)), rel=0.02)
-        text = screen_text(app)
+        # The list resizes to its rows when they arrive: wait for that layout to be drawn.
+        text = ""
+        for _ in range(50):
+            text = screen_text(app)
+            if "base" in text and "8k" in text:
+                break
+            await pilot.pause(0.1)
         assert "base" in text and "8k" in text and "16" in text
         await pilot.press("c")
         await _idle(app, pilot)

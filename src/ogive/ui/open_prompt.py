@@ -117,15 +117,23 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
     def start_preview(self) -> None:
         path = self.path
         if not path:
-            self.query_one("#open-preview", Static).update("type a path to see a preview")
+            self._say("type a path to see a preview")
             return
+        options = self._checked_options()
+        if options is not None:
+            self._say(f"reading the start of {path} …")
+            self.run_preview(path, options)
+
+    def _checked_options(self) -> ScanOptions | None:
+        """The options typed, or None after saying (in the dialog's words) why they cannot be."""
         try:
-            options = self.options()
+            return self.options()
         except (OgiveError, ValueError) as exc:
-            self.query_one("#open-preview", Static).update(preview.in_dialog_words(str(exc)))
-            return
-        self.query_one("#open-preview", Static).update(f"reading the start of {path} …")
-        self.run_preview(path, options)
+            self._say(preview.in_dialog_words(str(exc)))
+            return None
+
+    def _say(self, text: str) -> None:
+        self.query_one("#open-preview", Static).update(text)
 
     @work(thread=True, exclusive=True, group="preview")
     def run_preview(self, path: str, options: ScanOptions) -> None:
@@ -151,18 +159,15 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
 
     def on_input_submitted(self, _event: Input.Submitted) -> None:
         if not self.path:
-            self.query_one("#open-preview", Static).update("a path is needed")
+            self._say("a path is needed")
             return
         fmt = self.query_one(f"#{_id('format')}", Input).value.strip()
         if fmt and fmt not in FORMATS:
-            self.query_one("#open-preview", Static).update(f"format must be one of {', '.join(FORMATS)}")
+            self._say(f"format must be one of {', '.join(FORMATS)}")
             return
-        try:
-            options = self.options()
-        except (OgiveError, ValueError) as exc:
-            self.query_one("#open-preview", Static).update(preview.in_dialog_words(str(exc)))
-            return
-        self.dismiss(OpenRequest(self.path, options))
+        options = self._checked_options()
+        if options is not None:
+            self.dismiss(OpenRequest(self.path, options))
 
     def action_cancel(self) -> None:
         self.dismiss(None)
