@@ -135,7 +135,7 @@ def renamed(named: list[tuple[str, SketchSet]], specs: list[str]) -> list[tuple[
         if new in sets[path] and new != old:
             raise OgiveError(f"--as {spec!r}: {path} already holds a sketch named {new!r}.")
         sets[path] = {new if n == old else n: s for n, s in sets[path].items()}
-    return [(path, SketchSet(sets[path])) for path, _ in named]
+    return [(path, SketchSet(sets[path], unassigned=sset.unassigned)) for path, sset in named]
 
 
 def run(args: argparse.Namespace) -> int:
