@@ -46,9 +46,7 @@ def test_hdr_levels_follow_the_definition() -> None:
     x = np.concatenate((rng.lognormal(0, 0.2, 3000), rng.lognormal(3, 0.2, 1000)))  # two modes
     s = Sketch("ms", compression=200, tail_size=128)
     s.add(x)
-    from ogive.fit.timeline import Stream
-
-    strip = density_strip(Stream("all", s, [s]), rows=20, columns=1, low=0.3, high=60.0)
+    strip = density_strip([s], rows=20, columns=1, low=0.3, high=60.0)
     counts = np.histogram(x, bins=strip.edges)[0].astype(float)  # numpy on the raw values
     order = np.argsort(-counts, kind="stable")
     before = (np.cumsum(counts[order]) - counts[order]) / x.size

@@ -122,7 +122,10 @@ def run(args: argparse.Namespace) -> int:
 
     if not 0.001 <= args.false_alarm <= 0.2:
         raise OgiveError(f"--false-alarm must lie between 0.001 and 0.2, got {args.false_alarm:g}.")
-    qs = tuple(sorted(set(parse_quantiles(args.quantiles))))
+    asked = parse_quantiles(args.quantiles)
+    qs = tuple(sorted({q for q in asked if isinstance(q, float)}))
+    if len(qs) != len(set(asked)):
+        raise OgiveError("--quantiles draws quantiles only (p50, 0.99, 99.9%), not the mean.")
     if len(qs) > 5:
         raise OgiveError("--quantiles draws at most five lines; choose five or fewer.")
     sset, base = _load(args)
@@ -160,17 +163,15 @@ def _title(args: argparse.Namespace) -> str:
 # ---------------------------------------------------------------- reading
 def _load(args: argparse.Namespace) -> tuple[SketchSet, str | None]:
     """The window sketches (scanned, or a saved timeline) and the start of the gate command."""
-    from ..store import load_sketches
-    from .common import is_sketch_file
+    from ..store import load_ref, sketch_ref
 
-    if len(args.sources) == 1 and is_sketch_file(args.sources[0]):
-        sset = load_sketches(args.sources[0])
+    ref = sketch_ref(args.sources[0]) if len(args.sources) == 1 else None
+    if ref is not None:
+        sset = load_ref(ref)
         return sset, _saved_gate_base(sset)
     for src in args.sources:
-        if is_sketch_file(src):
+        if sketch_ref(src) is not None:
             raise OgiveError(f"{src} is a saved sketch; give a saved timeline on its own.")
-    if not args.time_field:
-        raise OgiveError("a timeline needs --time-field, the column or field holding each record's time.")
     if args.split_at:
         raise OgiveError(
             "--split-at cuts one moment; a timeline cuts windows (--window) and finds the moments."

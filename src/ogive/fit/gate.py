@@ -27,6 +27,7 @@ import re
 from dataclasses import dataclass
 from typing import Any
 
+from ..numbers import quantity
 from ..sketch import Sketch, quantile_label
 from ..sketch.units import SECONDS_PER_UNIT
 from .ladder import QuantileInterval, quantile_intervals
@@ -172,13 +173,10 @@ MEANING = (
 )
 
 
-def _fmt(x: float, unit: str) -> str:
-    if not math.isfinite(x):
-        return "unbounded"
-    return f"{x:.4g} {unit}".rstrip()
-
-
 def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, prove: bool) -> LimitCheck:
+    def q(x: float) -> str:  # the one number formatter of ogive.numbers, to four figures
+        return quantity(x, unit, digits=4)
+
     lab = limit.label
     allowed_hi = limit.allowed(a.high)
     allowed_lo = limit.allowed(a.low)
@@ -186,8 +184,8 @@ def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, pr
     if math.isfinite(b.low) and math.isfinite(allowed_hi) and b.low > allowed_hi:
         return LimitCheck(
             limit, EXCEEDED, a, b, allowed_pt,
-            f"B's {lab} is at least {_fmt(b.low, unit)}, above the {_fmt(allowed_hi, unit)} the limit "
-            f"allows even at A's highest plausible {lab} ({_fmt(a.high, unit)}).",
+            f"B's {lab} is at least {q(b.low)}, above the {q(allowed_hi)} the limit "
+            f"allows even at A's highest plausible {lab} ({q(a.high)}).",
         )  # fmt: skip
     if not (math.isfinite(b.high) and math.isfinite(allowed_lo)):
         short = [name for name, iv in (("A", a), ("B", b)) if not iv.bounded]
@@ -200,12 +198,12 @@ def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, pr
     if b.high <= allowed_lo:
         return LimitCheck(
             limit, HOLDS, a, b, allowed_pt,
-            f"shown within the limit: B's {lab} is at most {_fmt(b.high, unit)}, within the "
-            f"{_fmt(allowed_lo, unit)} allowed even at A's lowest plausible {lab}.",
+            f"shown within the limit: B's {lab} is at most {q(b.high)}, within the "
+            f"{q(allowed_lo)} allowed even at A's lowest plausible {lab}.",
         )  # fmt: skip
     straddle = (
-        f"B's {lab} ({_fmt(b.estimate, unit)}, plausibly {_fmt(b.low, unit)} to {_fmt(b.high, unit)}) "
-        f"against {_fmt(allowed_pt, unit)} allowed: the interval reaches both sides of the limit"
+        f"B's {lab} ({q(b.estimate)}, plausibly {q(b.low)} to {q(b.high)}) "
+        f"against {q(allowed_pt)} allowed: the interval reaches both sides of the limit"
     )
     if prove:
         return LimitCheck(limit, UNDECIDED, a, b, allowed_pt, straddle + "; --prove needs it shown within.")

@@ -26,18 +26,30 @@ segmentation cuts a slow rollout into a staircase of steps).
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any
+from typing import Any, Protocol
 
 import numpy as np
 from numpy.typing import NDArray
 
 from .splits import best_split, run_weights
 
-if TYPE_CHECKING:
-    from .changes import Split
-
 FloatArray = NDArray[np.float64]
+
+
+class Tested(Protocol):
+    """What the search says of a split it called a change (``ogive.fit.changes.Split``)."""
+
+    @property
+    def at(self) -> int: ...
+    @property
+    def distance(self) -> float: ...
+    @property
+    def threshold(self) -> float: ...
+    @property
+    def p_value(self) -> float: ...
+
 
 BOOTSTRAP = 99
 """Redraws for the interval of a change's place."""
@@ -268,7 +280,7 @@ def describe(
     counts: FloatArray,
     sizes: FloatArray,
     bounds: list[int],
-    tests: dict[int, Split],
+    tests: Mapping[int, Tested],
     rng: np.random.Generator,
 ) -> list[Change]:
     """Join rollout staircases, then place each change and decide step or span."""

@@ -9,16 +9,13 @@ regions (numpy only; no I/O).
 from __future__ import annotations
 
 import itertools
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.typing import NDArray
 
 from ..sketch import Sketch
-
-if TYPE_CHECKING:
-    from .timeline import Stream
 
 FloatArray = NDArray[np.float64]
 
@@ -62,20 +59,22 @@ def strip_range(whole: Sketch) -> tuple[float, float] | None:
     return (lo, hi) if 0 < lo < hi else None
 
 
-def density_strip(stream: Stream, *, rows: int, columns: int, low: float, high: float) -> Strip:
-    """The strip of one stream on ``rows`` value rows between ``low`` and ``high`` (> 0),
-    windows grouped into at most ``columns`` columns."""
+def density_strip(
+    windows: Sequence[Sketch | None], *, rows: int, columns: int, low: float, high: float
+) -> Strip:
+    """The strip of one stream's windows on ``rows`` value rows between ``low`` and
+    ``high`` (> 0), windows grouped into at most ``columns`` columns."""
     if not 0 < low < high:
         raise ValueError("the strip's value range must be positive and increasing.")
     edges = np.geomspace(low, high, rows + 1)
-    count = len(stream.windows)
+    count = len(windows)
     ncol = max(min(columns, count), 1)
     cuts = np.linspace(0, count, ncol + 1).round().astype(int)
     spans = tuple((int(a), int(b)) for a, b in itertools.pairwise(cuts))
     levels = np.zeros((rows, ncol), dtype=np.int8)
     for j, (a, b) in enumerate(spans):
         mass = np.zeros(rows)
-        for s in stream.windows[a:b]:
+        for s in windows[a:b]:
             if s is not None and s.count:
                 mass += cell_mass(s, edges)
         levels[:, j] = _hdr_levels(mass)

@@ -22,11 +22,10 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch, SketchSet, quantile_label, timekeys
+from ..sketch import Sketch, SketchSet, timekeys
 from .changes import ALPHA, GRID_QS, Change, ChangeSearch, find_changes
-from .ladder import LADDER_QS, QuantileInterval, quantile_intervals
-from .spans import locate
-from .splits import MIN_TAIL_COUNT
+from .ladder import QuantileInterval, quantile_intervals
+from .moves import ChangeReport, Counts, Stretch, describe_changes
 from .strip import STRIP_COLUMNS, Strip, density_strip, strip_range
 
 FloatArray = NDArray[np.float64]
@@ -35,14 +34,8 @@ TABLE_QS: tuple[float, ...] = (0.5, 0.9, 0.99, 0.999)
 """The quantiles of the window table."""
 CHART_QS: tuple[float, ...] = (0.5, 0.9, 0.99)
 """The quantiles drawn over time unless others are asked for."""
-BODY_MAX_Q = 0.9
-"""Quantiles up to this are the body; above it, the tail."""
 MAX_SPAN_WINDOWS = 1_000_000
 """A timeline longer than this many windows (e.g. 1-second windows over two weeks) is refused."""
-LADDER_WINDOWS = 500
-"""The windows nearest a change merged into its before and after sketches for the
-ladder's estimates (merging costs about 0.3 ms a window; the test of what moved reads
-the whole periods, from counts)."""
 
 
 # ---------------------------------------------------------------- the input
@@ -184,95 +177,6 @@ class WindowRow:
 
 
 @dataclass(frozen=True)
-class QuantileMove:
-    """One quantile before and after a change, and whether it moved beyond chance.
-
-    ``z`` is the standardised gap between the CDFs of the two periods at the whole's
-    value of this quantile (the statistic of :mod:`ogive.fit.splits` at one grid point);
-    the quantile *moved* when ``|z|`` passes the threshold of the test that found the
-    change. That threshold bounds the largest gap over every split and every grid
-    point of random orders, so the calls hold for all quantiles at once. The ladder's
-    order-statistic intervals are not used here: read through window sketches merged
-    by the hundred, they carry the merge's rank error and would hide most tail moves;
-    ``ogive gate`` on the logs gives them at full precision.
-    """
-
-    label: str
-    q: float
-    before: float
-    after: float
-    z: float | None
-    """None where the grid has no point for this quantile or too few values lie beyond it."""
-    moved: bool
-
-    @property
-    def relative(self) -> float:
-        return (self.after - self.before) / abs(self.before) if self.before else float("nan")
-
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "label": self.label,
-            "q": self.q,
-            "before": _num(self.before),
-            "after": _num(self.after),
-            "relative_change": _num(self.relative),
-            "z": self.z,
-            "moved": self.moved,
-        }
-
-
-@dataclass(frozen=True)
-class ChangeReport:
-    """A change point in time, and what changed (after against before)."""
-
-    change: Change
-    start_us: float
-    """A step's moment (a window boundary), or where a span begins."""
-    end_us: float
-    """Where a span ends (equal to ``start_us`` for a step)."""
-    low_us: float
-    high_us: float
-    """The step's interval (a span: a window either side of it)."""
-    split_us: float
-    """Where to split for ``gate --split-at``: the step, or the end of a span."""
-    before_n: int
-    after_n: int
-    ladder: tuple[QuantileMove, ...]
-    """p50 … p99.9, before against after."""
-    kind: str
-    """``body``, ``tail``, ``body and tail``, or ``shape`` (no single quantile moved clearly)."""
-    moved: tuple[str, ...]
-    """Labels of the quantiles that moved, largest relative move first."""
-
-    @property
-    def gradual(self) -> bool:
-        return self.change.gradual
-
-    def move(self, label: str) -> QuantileMove | None:
-        return next((m for m in self.ladder if m.label == label), None)
-
-    @property
-    def size(self) -> float:
-        """The largest |relative change| of a quantile that moved (0 when none did)."""
-        return max((abs(m.relative) for m in self.ladder if m.moved and np.isfinite(m.relative)), default=0.0)
-
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "start": timekeys.start_text(self.start_us),
-            "end": timekeys.start_text(self.end_us),
-            "interval": [timekeys.start_text(self.low_us), timekeys.start_text(self.high_us)],
-            "gradual": self.gradual,
-            "split_at": timekeys.start_text(self.split_us),
-            "kind": self.kind,
-            "moved": list(self.moved),
-            "before_n": self.before_n,
-            "after_n": self.after_n,
-            "ladder": [m.to_dict() for m in self.ladder],
-            "search": self.change.to_dict(),
-        }
-
-
-@dataclass(frozen=True)
 class StreamTimeline:
     """The timeline of one stream."""
 
@@ -366,7 +270,7 @@ def build_timeline(
     strip = (
         None
         if span is None
-        else density_strip(whole, rows=strip_rows, columns=STRIP_COLUMNS, low=span[0], high=span[1])
+        else density_strip(whole.windows, rows=strip_rows, columns=STRIP_COLUMNS, low=span[0], high=span[1])
     )
     return Timeline(
         data.width_us, data.first_us, data.count, data.unit, tuple(chart_qs), confidence,
@@ -392,17 +296,11 @@ def stream_timeline(
     grid = grid_of(stream.whole)
     counts, sizes = count_matrix(stream.windows, grid)
     search = find_changes(counts, sizes, alpha=alpha, seed=seed, grid=tuple(grid.tolist()))
-    reports = _reports(data, stream, search.changes, _Counts(grid, counts, sizes))
+    stretch = Stretch(stream.windows, stream.whole, data.unit, data.start)
+    reports = describe_changes(stretch, search.changes, Counts(grid, counts, sizes))
     shown = _table_windows(data.count, sizes, search.changes, table)
     rows = tuple(_row(data, stream, i, confidence) for i in shown)
     return StreamTimeline(stream.name, stream.whole.count, chart, sizes, rows, search, reports)
-
-
-@dataclass(frozen=True)
-class _Counts:
-    grid: FloatArray
-    counts: FloatArray
-    sizes: FloatArray
 
 
 def _table_windows(count: int, sizes: FloatArray, changes: tuple[Change, ...], table: str) -> list[int]:
@@ -423,131 +321,3 @@ def _row(data: Windows, stream: Stream, i: int, confidence: float) -> WindowRow:
         return WindowRow(start, 0, s.provenance.skipped_total if s is not None else 0, ())
     qi = tuple(quantile_intervals(s, TABLE_QS, confidence))
     return WindowRow(start, s.count, s.provenance.skipped_total + s.nan_count + s.inf_count, qi)
-
-
-def _period(stream: Stream, a: int, b: int, near_end: bool, unit: str) -> Sketch:
-    """The windows ``a:b`` merged (at most the LADDER_WINDOWS nearest the change), into a
-    sketch with the windows' own tail size: its exact tails then hold the true extremes
-    of all of them (a larger buffer would be filled from each window's few)."""
-    idx = list(range(a, b))
-    idx = idx[-LADDER_WINDOWS:] if near_end else idx[:LADDER_WINDOWS]
-    parts = [s for s in (stream.windows[i] for i in idx) if s is not None and s.count]
-    tail = min((s.tail_size for s in parts), default=stream.whole.tail_size)
-    out = Sketch(unit, compression=stream.whole.compression, tail_size=tail)
-    for s in parts:
-        out.merge(s)
-    return out
-
-
-def _reports(
-    data: Windows, stream: Stream, changes: tuple[Change, ...], cm: _Counts
-) -> tuple[ChangeReport, ...]:
-    """What moved at each change, after against before, the periods reaching to the
-    neighbouring changes.
-
-    A change after which no quantile moved clearly (``shape``) is still reported, but
-    does not cut its neighbours' periods short: a chance split beside a real change
-    would otherwise leave that change a thin period to be read against. Such changes
-    are set aside one at a time, the weakest first, until every change left moved a
-    quantile (the test is on counts, so this costs little); the ladders are then read
-    from merged window sketches once.
-    """
-    active = list(changes)
-    while active:
-        moves = [_moved(stream, c, *_periods(c, active, data.count), cm) for c in active]
-        shapes = [c for c, m in zip(active, moves, strict=True) if not any(m)]
-        if not shapes:
-            break
-        active.remove(min(shapes, key=lambda c: c.distance))
-    out = []
-    for c in changes:
-        others = [x for x in active if x is not c]
-        out.append(_report(data, stream, c, *_periods(c, others, data.count), cm))
-    return tuple(out)
-
-
-def _periods(c: Change, bounds: list[Change], count: int) -> tuple[tuple[int, int], tuple[int, int]]:
-    """The windows before and after ``c``, reaching to the nearest of ``bounds`` either side."""
-    before = max((x.last for x in bounds if x.last <= c.first and x is not c), default=0)
-    after = min((x.first for x in bounds if x.first >= c.last and x is not c), default=count)
-    return (before, c.first), (c.last, after)
-
-
-def _moved(
-    stream: Stream, c: Change, before: tuple[int, int], after: tuple[int, int], cm: _Counts
-) -> list[bool]:
-    """Per ladder quantile: did the CDF there move beyond the threshold that found ``c``."""
-    return [z is not None and abs(z) > c.threshold for z in _gaps(stream.whole, cm, before, after)]
-
-
-def _report(
-    data: Windows,
-    stream: Stream,
-    c: Change,
-    span_before: tuple[int, int],
-    span_after: tuple[int, int],
-    cm: _Counts,
-) -> ChangeReport:
-    before = _period(stream, span_before[0], span_before[1], True, data.unit)
-    after = _period(stream, span_after[0], span_after[1], False, data.unit)
-    qs = np.array(LADDER_QS[:-1])  # p99.99 is beyond what a grid point can carry
-    b_est, a_est = before.quantile(qs), after.quantile(qs)
-    z = _gaps(stream.whole, cm, span_before, span_after)
-    ladder = tuple(
-        QuantileMove(quantile_label(q), q, float(b), float(a), zq, moved)
-        for q, b, a, zq, moved in zip(
-            qs.tolist(), b_est, a_est, z, _moved(stream, c, span_before, span_after, cm), strict=True
-        )
-    )
-    moved = sorted((m for m in ladder if m.moved), key=_size_of_move)
-    body = any(m.q <= BODY_MAX_Q for m in moved)
-    tail = any(m.q > BODY_MAX_Q for m in moved)
-    kind = "body and tail" if body and tail else "body" if body else "tail" if tail else "shape"
-    if c.gradual:
-        start, end = data.start(c.start), data.start(c.end)
-        low, high, split = data.start(c.first - 1), data.start(c.last + 1), data.start(c.last)
-    else:
-        start = end = split = data.start(c.first)
-        # Placed again between the neighbours kept (a chance split set aside beside it
-        # would otherwise pinch the bootstrap to a few windows on one side).
-        rng = np.random.default_rng(c.first)
-        low_i, high_i = locate(cm.counts, cm.sizes, span_before[0], c.first, span_after[1], rng)
-        low, high = data.start(low_i), data.start(high_i)
-    return ChangeReport(
-        c,
-        start,
-        end,
-        low,
-        high,
-        split,
-        before.count,
-        after.count,
-        ladder,
-        kind,
-        tuple(m.label for m in moved),
-    )
-
-
-def _size_of_move(m: QuantileMove) -> float:
-    return -abs(m.relative) if np.isfinite(m.relative) else 0.0
-
-
-def _gaps(whole: Sketch, cm: _Counts, before: tuple[int, int], after: tuple[int, int]) -> list[float | None]:
-    """The standardised CDF gap between the periods at the whole's p50 … p99.9 (None
-    where the grid lacks the point or too few values lie beyond it)."""
-    nb, na = float(cm.sizes[before[0] : before[1]].sum()), float(cm.sizes[after[0] : after[1]].sum())
-    out: list[float | None] = []
-    if nb <= 0 or na <= 0:
-        return [None] * (len(LADDER_QS) - 1)
-    fb = cm.counts[before[0] : before[1]].sum(axis=0) / nb
-    fa = cm.counts[after[0] : after[1]].sum(axis=0) / na
-    f = (fb * nb + fa * na) / (nb + na)
-    for q in LADDER_QS[:-1]:
-        x = float(whole.quantile(q)[()])
-        g = int(np.searchsorted(cm.grid, x))
-        thin = g >= cm.grid.size or min(f[g], 1 - f[g]) * min(nb, na) < MIN_TAIL_COUNT
-        if thin or not np.isclose(cm.grid[g], x):
-            out.append(None)
-            continue
-        out.append(float((fb[g] - fa[g]) / np.sqrt(f[g] * (1 - f[g]) * (1 / nb + 1 / na))))
-    return out

@@ -16,10 +16,11 @@ from collections.abc import Callable
 import numpy as np
 
 from ..fit.timeline import StreamTimeline, Strip, Timeline
+from ..numbers import quantity
 from ..sketch import quantile_label
 from .canvas import Layer
 from .frame import Figure, LegendItem, PlotLines
-from .ticks import Scale, Tick, choose_ticks, format_value, make_scale
+from .ticks import Scale, Tick, choose_ticks, make_scale
 
 _EPOCH = dt.datetime(1970, 1, 1, tzinfo=dt.UTC)
 DAY_S = 86_400
@@ -90,7 +91,7 @@ def time_ticks(lo_us: float, hi_us: float, cols: int, *, min_gap: int = 2) -> li
 
 
 def _value_fmt(unit: str, ascii_only: bool) -> Callable[[float, int], str]:
-    return lambda v, d: format_value(v, unit, digits=d, ascii_only=ascii_only)
+    return lambda v, d: quantity(v, unit, digits=d, compact=True, ascii_only=ascii_only)
 
 
 # ---------------------------------------------------------------- the chart

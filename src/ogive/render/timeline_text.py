@@ -16,11 +16,13 @@ from collections.abc import Sequence
 import numpy as np
 
 from ..fit.ladder import QuantileInterval
-from ..fit.timeline import TABLE_QS, ChangeReport, StreamTimeline, Timeline
+from ..fit.moves import ChangeReport
+from ..fit.timeline import TABLE_QS, StreamTimeline, Timeline
+from ..numbers import number, percent, quantity
 from ..sketch import quantile_label, timekeys
 from .frame import PlotLines
 from .style import ansi_lines
-from .summary import format_value
+from .tables import table, text_lines
 from .timeline import chart_figure, span_text, sparkline, strip_lines, when
 
 GATE_LIMITS = 3
@@ -45,20 +47,13 @@ class _Marks:
 
 
 def _num(x: float, marks: _Marks, digits: int = 3) -> str:
-    """``3.40`` -> ``3.4``, ``1234`` -> ``1234``, ``inf`` -> ``∞``: a cell in the header's unit."""
-    if not math.isfinite(x):
-        return marks.dash if math.isnan(x) else (marks.inf if x > 0 else "-" + marks.inf)
-    if x == 0:
-        return "0"
-    decimals = max(digits - 1 - math.floor(math.log10(abs(x))), 0)
-    text = f"{x:.{decimals}f}"
-    return text.rstrip("0").rstrip(".") if "." in text else text
+    """A cell in the header's unit (``3.4``, ``1234``); ``inf`` in ASCII for an unbounded side."""
+    text = number(x, digits)
+    return text.replace("∞", marks.inf).replace("–", marks.dash)
 
 
 def _pct(x: float) -> str:
-    if not math.isfinite(x):
-        return "n/a"
-    return f"{x * 100:+.0f}%" if abs(x) >= 0.995 else f"{x * 100:+.1f}%"
+    return percent(x, signed=True) if math.isfinite(x) else "n/a"
 
 
 def _days(t: Timeline) -> bool:
@@ -68,20 +63,6 @@ def _days(t: Timeline) -> bool:
 
 def _wrap(text: str, width: int, indent: str = "") -> list[str]:
     return textwrap.wrap(text, width=max(width, 20), initial_indent=indent, subsequent_indent=indent + "  ")
-
-
-def columns(lines: Sequence[Sequence[str]], right: Sequence[int] = (), indent: int = 2) -> list[str]:
-    """Cells padded to the widest of each column, two spaces apart."""
-    if not lines:
-        return []
-    widths = [max(len(r[i]) for r in lines) for i in range(len(lines[0]))]
-    return [
-        " " * indent
-        + "  ".join(
-            c.rjust(w) if i in right else c.ljust(w) for i, (c, w) in enumerate(zip(r, widths, strict=True))
-        ).rstrip()
-        for r in lines
-    ]
 
 
 # ---------------------------------------------------------------- headline
@@ -136,12 +117,12 @@ def moves(c: ChangeReport, unit: str, mk: _Marks | None = None) -> str:
     for label in c.moved[:4]:
         m = c.move(label)
         if m is not None:
-            a, b = format_value(m.before, unit), format_value(m.after, unit)
+            a, b = quantity(m.before, unit), quantity(m.after, unit)
             parts.append(f"{label} {a} {to} {b} ({_pct(m.relative)})")
     if not parts:
         m = c.move("p50")
         if m is not None:
-            parts.append(f"p50 {format_value(m.before, unit)} {to} {format_value(m.after, unit)}")
+            parts.append(f"p50 {quantity(m.before, unit)} {to} {quantity(m.after, unit)}")
     n = f"(n {c.before_n:,} before, {c.after_n:,} after)"
     return "; ".join(parts) + ("  " if parts else "") + n
 
@@ -188,7 +169,8 @@ def window_table(
             cells = [when(r.start_us, days=days), f"{r.n:,}"]
             cells += [_interval(r.quantiles[i], mk) for i in keep] if r.quantiles else [mk.dash] * len(keep)
             body.append(cells + ([f"{r.skipped:,}" if r.skipped else ""] if bad else []))
-        lines = columns(body, right=[1] + ([len(head) - 1] if bad else []))
+        right = [1] + ([len(head) - 1] if bad else [])
+        lines = text_lines(table(head, body[1:], right), indent=2)
         if max(len(x) for x in lines) <= width:
             break
     starts = [r.start_us for r in stream.rows]
