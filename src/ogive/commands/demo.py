@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import os
 import tempfile
 from pathlib import Path
@@ -25,7 +26,14 @@ that folder is missing (an installed copy) the same set is generated into a cach
 
 EPILOG = """\
 The same data by hand:
-  ogive view demo_logs/checkout-before.log demo_logs/checkout-after.log.gz --pattern 'dur=(\\S+)' --unit ms"""
+  ogive view demo_logs/checkout-before.log demo_logs/checkout-after.log.gz --pattern 'dur=(\\S+)' --unit ms
+The demo also opens demo_logs/checkout-rollout.csv.gz with 5-minute windows: the same
+release deployed host by host from 13:00 to 13:40. t shows its timeline, where the
+rollout is a span; enter on it makes the time after it the subject, before it the
+reference."""
+
+ROLLOUT = "checkout-rollout.csv.gz"
+"""The demo day told as a rolling deploy (``ogive generate --phase rollout``)."""
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -113,9 +121,18 @@ def demo_app(folder: Path | None = None) -> OgiveApp:
         if pair is None:
             raise OgiveError(f"generating the demo logs into {folder} gave no before*/after* files.")
     before, after = pair
+    per_source = {str(p): demo_options(p) for p in (before, after)}
+    rollout = folder / ROLLOUT
+    if rollout.is_file():
+        # The same release deployed host by host: the Timeline pane (t) shows it as a span.
+        from .timeline import scan_options
+
+        per_source[str(rollout)] = scan_options(
+            dataclasses.replace(demo_options(rollout), time_field="timestamp"), "5m"
+        )
     return OgiveApp(
-        [str(before), str(after)],
-        per_source={str(p): demo_options(p) for p in (before, after)},
+        list(per_source),
+        per_source=per_source,
         subject=_stem(after),
         reference=_stem(before),
     )

@@ -13,6 +13,7 @@ from ..errors import OgiveError
 
 if TYPE_CHECKING:
     from ..fit.timeline import Timeline
+    from ..read.options import ScanOptions
     from ..sketch import SketchSet
 
 DESCRIPTION = """\
@@ -185,20 +186,33 @@ def _load(args: argparse.Namespace) -> tuple[SketchSet, str | None]:
     return _scan(args), _gate_base(args)
 
 
-def _scan(args: argparse.Namespace) -> SketchSet:
+def scan_options(base: ScanOptions, window: str, *, max_windows: int = MAX_WINDOWS) -> ScanOptions:
+    """The options of a timeline scan: ``base`` (how to read the records) with windows of
+    ``window`` kept beside the whole, at the timeline's compression, tail and cap."""
     import dataclasses
 
-    from .common import options_from_args, scan_sources
-
-    flags = argparse.Namespace(**{**vars(args), "window": None})  # --by is refused beside a plain --window
-    options = dataclasses.replace(
-        options_from_args(flags),
-        window=args.window,
+    return dataclasses.replace(
+        base,
+        window=window,
         timeline=True,
         window_compression=WINDOW_COMPRESSION,
         window_tail=WINDOW_TAIL,
-        max_windows=args.max_windows,
+        max_windows=max_windows,
     )
+
+
+def reading_options(args: argparse.Namespace) -> ScanOptions:
+    """How to read the records, from the flags, without ``--window`` (a plain window scan
+    refuses ``--by``; the timeline's own allows it)."""
+    from .common import options_from_args
+
+    return options_from_args(argparse.Namespace(**{**vars(args), "window": None}))
+
+
+def _scan(args: argparse.Namespace) -> SketchSet:
+    from .common import scan_sources
+
+    options = scan_options(reading_options(args), args.window, max_windows=args.max_windows)
     result = scan_sources(list(args.sources), args, options=options)
     if result.interrupted:
         print("ogive: the timeline shows what was read before Ctrl-C.", file=sys.stderr)

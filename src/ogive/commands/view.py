@@ -3,8 +3,12 @@
 from __future__ import annotations
 
 import argparse
+from typing import TYPE_CHECKING
 
 from .common import add_source_options
+
+if TYPE_CHECKING:
+    from ..read.options import ScanOptions
 
 DESCRIPTION = """\
 Open the workspace: every SOURCE (a log to scan in the background, or a saved .ogive
@@ -19,12 +23,15 @@ the data cannot tell, not that nothing changed.
 """
 
 EPILOG = """\
-keys: o open · 1/2 subject/reference · g f c panes · v/V picture · l lin/log ·
+keys: o open · 1/2 subject/reference · g f c t panes · v/V picture · l lin/log ·
       w write .ogive · e export report · x stop scans · s stop following ·
       ? all keys · q quit
 
 following a live log (the lines already there are read first, then what is appended):
   ogive view --follow /var/log/app.log --pattern 'dur=(\\S+)' --recent 5m
+
+when did it change (the Timeline pane, t; enter on a change point studies it):
+  ogive view app.log.gz --pattern 'dur=(\\S+)' --window 5m
 """
 
 
@@ -48,6 +55,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="keep reading the one log given as it grows (surviving rotation); s stops following",
     )
     parser.add_argument(
+        "--window",
+        metavar="WIDTH",
+        default=None,
+        help="keep a sketch per time window (30s, 5m, 1h) of each log beside its whole: the Timeline "
+        "pane (t) shows the quantiles over time and the change points, as 'ogive timeline' does",
+    )
+    parser.add_argument(
         "--recent",
         metavar="DURATION",
         default=None,
@@ -62,7 +76,6 @@ def run(args: argparse.Namespace) -> int:
     from ..errors import OgiveError
     from ..store import sketch_ref, split_group
     from ..ui import OgiveApp
-    from .common import options_from_args
 
     followed = [s for s in args.sources if sketch_ref(s) is None] if args.follow else []
     if args.follow and (len(followed) != 1 or followed[0] == "-"):
@@ -75,7 +88,7 @@ def run(args: argparse.Namespace) -> int:
             raise OgiveError("--recent keeps the last minutes of a followed log; use it with --follow.")
         from ..read.follow import recent_window
 
-        recent_window(args.recent, options_from_args(args))  # a bad width fails here, in one line
+        recent_window(args.recent, _options(args))  # a bad width fails here, in one line
     for spec in args.sources:
         if spec in followed:
             continue  # following waits for a file that does not exist yet, as scan --follow does
@@ -89,9 +102,10 @@ def run(args: argparse.Namespace) -> int:
             families = resolve(families)
         except ValueError as exc:
             raise OgiveError(str(exc)) from None
+    options = _options(args)
     app = OgiveApp(
         args.sources,
-        options_from_args(args),
+        options,
         subject=args.subject,
         reference=args.reference,
         families=families,
@@ -99,3 +113,13 @@ def run(args: argparse.Namespace) -> int:
         recent=args.recent,
     )
     return app.run() or 0
+
+
+def _options(args: argparse.Namespace) -> ScanOptions:
+    """The flags' reading options; with --window, those of a timeline (windows beside the whole)."""
+    from .common import options_from_args
+    from .timeline import reading_options, scan_options
+
+    if args.window is None:
+        return options_from_args(args)
+    return scan_options(reading_options(args), args.window)

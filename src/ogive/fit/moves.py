@@ -89,6 +89,9 @@ class ChangeReport:
     """Where to split for ``gate --split-at``: the step, or the end of a span."""
     before_n: int
     after_n: int
+    before_windows: tuple[int, int]
+    after_windows: tuple[int, int]
+    """The windows (start, stop) of the periods read against each other."""
     ladder: tuple[QuantileMove, ...]
     """p50 … p99.9, before against after."""
     kind: str
@@ -119,6 +122,8 @@ class ChangeReport:
             "moved": list(self.moved),
             "before_n": self.before_n,
             "after_n": self.after_n,
+            "before_windows": list(self.before_windows),
+            "after_windows": list(self.after_windows),
             "ladder": [m.to_dict() for m in self.ladder],
             "search": self.change.to_dict(),
         }
@@ -144,7 +149,7 @@ class Stretch:
     """Epoch microseconds where window position ``i`` (fractional) begins."""
 
 
-def _period(st: Stretch, a: int, b: int, near_end: bool) -> Sketch:
+def period_sketch(st: Stretch, a: int, b: int, near_end: bool) -> Sketch:
     """The windows ``a:b`` merged (at most the LADDER_WINDOWS nearest the change), into a
     sketch with the windows' own tail size: its exact tails then hold the true extremes
     of all of them (a larger buffer would be filled from each window's few)."""
@@ -202,8 +207,8 @@ def _report(
     span_after: tuple[int, int],
     cm: Counts,
 ) -> ChangeReport:
-    before = _period(st, span_before[0], span_before[1], True)
-    after = _period(st, span_after[0], span_after[1], False)
+    before = period_sketch(st, span_before[0], span_before[1], True)
+    after = period_sketch(st, span_after[0], span_after[1], False)
     qs = np.array(LADDER_QS[:-1])  # p99.99 is beyond what a grid point can carry
     b_est, a_est = before.quantile(qs), after.quantile(qs)
     z = _gaps(st.whole, cm, span_before, span_after)
@@ -236,6 +241,8 @@ def _report(
         split,
         before.count,
         after.count,
+        span_before,
+        span_after,
         ladder,
         kind,
         tuple(m.label for m in moved),

@@ -28,6 +28,7 @@ from .timeline import chart_figure, span_text, sparkline, strip_lines, when
 GATE_LIMITS = 3
 """Quantiles the suggested gate command checks, at most (the largest moves)."""
 CHART_HEIGHT = 16
+SHORT_KIND = {"body": "body", "tail": "tail", "body and tail": "body and tail", "shape": "shape only"}
 KIND_TEXT = {
     "body": "the body moved",
     "tail": "the tail moved",
@@ -86,7 +87,6 @@ def change_lines(
     mk = _Marks(ascii_only)
     s = stream.search
     days = _days(t)
-    w = span_text(t.width_us / 1e6)
     out = _wrap(
         f"Change points in {stream.name} (false-alarm rate {s.alpha:.0%} on a steady timeline, "
         f"calibrated by {s.permutations} random orders of the windows)",
@@ -97,17 +97,37 @@ def change_lines(
             "none found: no split of the windows stands out from random orders of them.", width, "  "
         )
     for k, c in enumerate(stream.changes, 1):
-        if c.gradual:
-            a, b = when(c.start_us, days=days), when(c.end_us, days=days)
-            moment = f"{a} {mk.to} {b} (gradual, {mk.pm} {w} each end)"
-        else:
-            half = max(c.high_us - c.start_us, c.start_us - c.low_us)
-            moment = f"{when(c.start_us, days=days)} {mk.pm} {span_text(half / 1e6)}"
+        moment = _moment(t, c, mk, days)
         out += _wrap(f"{k}. {moment}  {KIND_TEXT[c.kind]}  (p = {c.change.p_value:.2g})", width, "  ")
         out += _wrap(moves(c, t.unit, mk), width, "     ")
         if c.kind != "shape" and gate_base is not None:
             out.append(f"     check it: {gate_command(gate_base, c)}")
     return out
+
+
+def _moment(t: Timeline, c: ChangeReport, mk: _Marks, days: bool) -> str:
+    """``13:00 ± 5m``, or ``13:00 → 13:40 (gradual, ± 5m each end)``."""
+    if c.gradual:
+        w = span_text(t.width_us / 1e6)
+        a, b = when(c.start_us, days=days), when(c.end_us, days=days)
+        return f"{a} {mk.to} {b} (gradual, {mk.pm} {w} each end)"
+    half = max(c.high_us - c.start_us, c.start_us - c.low_us)
+    return f"{when(c.start_us, days=days)} {mk.pm} {span_text(half / 1e6)}"
+
+
+def change_summary(t: Timeline, k: int, *, ascii_only: bool = False) -> str:
+    """Change ``k`` (0-based) of the whole on one line: ``1. 13:00 ± 5m  body and tail moved:
+    p90 +445%, p99 +144%`` (the workspace's list)."""
+    mk = _Marks(ascii_only)
+    c = t.streams[0].changes[k]
+    days = _days(t)
+    if c.gradual:
+        moment = f"{when(c.start_us, days=days)} {mk.to} {when(c.end_us, days=days)}, gradual"
+    else:
+        moment = _moment(t, c, mk, days)
+    top = [m for m in (c.move(q) for q in c.moved[:2]) if m is not None]
+    shown = ", ".join(f"{m.label} {_pct(m.relative)}" for m in top)
+    return f"{k + 1}. {moment}: {SHORT_KIND[c.kind]}" + (f" ({shown})" if shown else "")
 
 
 def moves(c: ChangeReport, unit: str, mk: _Marks | None = None) -> str:

@@ -38,16 +38,19 @@ from .open_prompt import OpenPrompt, OpenRequest
 from .plot_panel import PlotPanel
 from .schedule import Scheduler
 from .shelf import DistributionShelf
-from .sources import open_source
+from .sources import open_source, without_windows
 from .state import ScanJob
 from .status_line import FeedStatus, headline
+from .timeline_panel import TimelinePanel
+from .timeline_study import study_change
 from .workspace import AXES, KIND_NAMES, KINDS, Workspace
 
 if TYPE_CHECKING:
     from ..fit.compare import Comparison
     from ..fit.models import FitReport
+    from ..fit.timeline import Timeline
 
-PANES = ("picture", "models", "ladder")
+PANES = ("picture", "models", "ladder", "timeline")
 
 
 class ScanTick(Message):
@@ -71,6 +74,7 @@ class OgiveApp(App[int]):
     | g | Show the picture pane. |
     | f | Show the model-ranking pane. |
     | c | Show the comparison-ladder pane (up/down/page keys scroll it). |
+    | t | Show the Timeline pane (quantiles over time, change points). |
     | v | Next picture: Q-Q → detrended → P-P → CDF → shift. |
     | V | Previous picture. |
     | l | Value axes: auto → log → linear. |
@@ -96,6 +100,7 @@ class OgiveApp(App[int]):
         Binding("g", "pane('picture')", "Picture"),
         Binding("f", "pane('models')", "Models"),
         Binding("c", "pane('ladder')", "Ladder"),
+        Binding("t", "pane('timeline')", "Timeline", show=False),  # the footer must fit 80 columns
         Binding("v", "cycle_kind(1)", "View"),
         Binding("V", "cycle_kind(-1)", "Prev view", show=False),
         Binding("l", "cycle_axes", "Axes", show=False),  # in the key overlay; the footer must fit 80 columns
@@ -151,6 +156,7 @@ class OgiveApp(App[int]):
             yield ModelRanking(id="models", classes="pane")
             with VerticalScroll(id="ladder", classes="pane"):
                 yield LadderPanel(id="ladder-text")
+            yield TimelinePanel(id="timeline", classes="pane")
         yield FeedStatus(id="status")
         yield Footer()
 
@@ -177,6 +183,8 @@ class OgiveApp(App[int]):
         if got.rows:
             self.ws.add_rows(got.rows)
             self.request_analysis()
+        if got.windows and self.ws.take_timeline_input(source, got.windows, live=False):
+            self.request_timeline()
         if got.job is not None:
             self.ws.jobs.append(got.job)
             self.scan_worker(got.job)
@@ -239,7 +247,10 @@ class OgiveApp(App[int]):
     def _take(self, job: ScanJob, sketches: dict[str, Sketch], *, state: str, note: str) -> None:
         window = recent_name(job.recent) if job.recent is not None else None
         rows = len(self.ws.dists)
-        self.ws.take_scan(job, sketches, state=state, note=note, window=window)
+        kept = without_windows(sketches)
+        if len(kept) < len(sketches) and self.ws.take_timeline_input(job.source, sketches, live=job.follow):
+            self.request_timeline()
+        self.ws.take_scan(job, kept, state=state, note=note, window=window)
         self.request_analysis()
         if len(self.ws.dists) != rows:
             self.refresh_all()  # new rows (and perhaps new roles) show at once
@@ -318,6 +329,39 @@ class OgiveApp(App[int]):
         if again:
             self._start_compare()
 
+    # ------------------------------------------------------------------ the timeline
+    def request_timeline(self) -> None:
+        if self.schedule.plan_timeline(self.ws, time.monotonic()) and self.schedule.timeline.claim():
+            self.timeline_worker(dict(self.ws.timeline_input))
+
+    @work(thread=True, exclusive=True, group="timeline")
+    def timeline_worker(self, sketches: dict[str, Sketch]) -> None:
+        """``ogive timeline``'s analysis off the screen's thread (the change search takes a while)."""
+        result, note = workers.run_timeline(sketches)
+        self.call_from_thread(self._timeline_done, result, note)
+
+    def _timeline_done(self, result: Timeline | None, note: str) -> None:
+        again = self.schedule.timeline_ended_at(time.monotonic())
+        self.ws.take_timeline(result, note)
+        if not self._gone:
+            self.workspace_screen.query_one(TimelinePanel).show(self.ws)
+        if again:
+            self.request_timeline()
+
+    @on(TimelinePanel.Chosen)
+    def _study_change(self, msg: TimelinePanel.Chosen) -> None:
+        study = study_change(self.ws, msg.index)
+        if study.job is not None:
+            self.ws.jobs.append(study.job)
+            self.scan_worker(study.job)
+        if study.rows:
+            self.ws.add_rows(study.rows)
+        self.ws.study(*study.roles)
+        self.say(study.message)
+        self.request_analysis(force_fit=True)
+        self.action_pane("ladder")
+        self.refresh_all()
+
     # ------------------------------------------------------------------ drawing
     @property
     def _gone(self) -> bool:
@@ -344,6 +388,7 @@ class OgiveApp(App[int]):
         screen.query_one(PlotPanel).show(ws)
         screen.query_one(ModelRanking).show(ws, fitting=self.schedule.fit.busy)
         screen.query_one(LadderPanel).show(ws)
+        screen.query_one(TimelinePanel).show(ws)
         screen.query_one(FeedStatus).show_jobs(ws.jobs)
 
     # ------------------------------------------------------------------ actions
@@ -352,7 +397,9 @@ class OgiveApp(App[int]):
         screen = self.workspace_screen
         for name in PANES:
             screen.query_one(f"#{name}").set_class(name == pane, "-current")
-        target = {"models": "#models", "ladder": "#ladder"}.get(pane, "#shelf")
+        # Wide screens show every pane; the timeline takes the picture's place when asked for.
+        screen.query_one("#picture").set_class(pane == "timeline", "-covered")
+        target = {"models": "#models", "ladder": "#ladder", "timeline": "#timeline"}.get(pane, "#shelf")
         screen.query_one(target).focus()
 
     def action_cycle_kind(self, step: int) -> None:

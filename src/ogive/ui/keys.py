@@ -12,6 +12,7 @@ from .fit_panel import ModelRanking
 from .open_prompt import OpenPrompt
 from .path_input import PathInput
 from .shelf import DistributionShelf
+from .timeline_panel import TimelinePanel
 
 KeyRows = list[tuple[str, str]]
 
@@ -34,6 +35,7 @@ def key_groups(app_class: type) -> list[tuple[str, KeyRows]]:
         ("Everywhere", key_table(app_class)),
         ("Distributions", key_table(DistributionShelf)),
         ("Models", key_table(ModelRanking)),
+        ("Timeline", key_table(TimelinePanel)),
         ("Open prompt", key_table(OpenPrompt)),
         ("Path fields", key_table(PathInput)),
         ("Write / export prompt", key_table(AskPath)),

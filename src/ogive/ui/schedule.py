@@ -17,6 +17,8 @@ from .workspace import Workspace
 
 FOLLOW_FIT_S = 30.0
 FOLLOW_FIT_DUTY = 4.0
+TIMELINE_LIVE_S = 5.0
+"""A followed timeline is rebuilt at most this often (and never twice at once)."""
 
 
 @dataclass
@@ -50,9 +52,23 @@ class Plan:
 class Scheduler:
     fit: OneAtATime = field(default_factory=OneAtATime)
     compare: OneAtATime = field(default_factory=OneAtATime)
+    timeline: OneAtATime = field(default_factory=OneAtATime)
     fit_started: float = 0.0
     fit_free_at: float = 0.0
     """When a followed subject may be refitted next."""
+    timeline_free_at: float = 0.0
+    """When a followed timeline may be rebuilt next."""
+
+    def plan_timeline(self, ws: Workspace, now: float) -> bool:
+        """True when the timeline should be (re)built now from the windows at hand."""
+        if not ws.timeline_input:
+            return False
+        return not ws.timeline_live or now >= self.timeline_free_at
+
+    def timeline_ended_at(self, now: float) -> bool:
+        """Record the end of a build; True when another was asked for meanwhile."""
+        self.timeline_free_at = now + TIMELINE_LIVE_S
+        return self.timeline.release()
 
     def plan(self, ws: Workspace, now: float, *, force_fit: bool = False) -> Plan:
         """What to start for the workspace as it is; updates its notes (never its results)."""

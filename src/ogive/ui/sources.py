@@ -3,7 +3,9 @@
 Which one a name is, :func:`ogive.store.sketch_ref` decides (from the file's bytes), as
 for every sub-command. Rows of a sketch file are named after the file (``before``) or,
 when it holds several sketches, ``file:sketch`` (``day:after``); a scan's rows get the
-same names from :meth:`.workspace.Workspace.take_scan` as its groups appear.
+same names from :meth:`.workspace.Workspace.take_scan` as its groups appear. A timeline's
+window sketches (``2026-03-04T13:00:00Z/PT5M``) are not rows: they feed the Timeline
+pane, and only the wholes beside them (``all``, the groups) are rows.
 """
 
 from __future__ import annotations
@@ -13,6 +15,7 @@ from pathlib import Path
 
 from ..errors import OgiveError
 from ..read.options import ScanOptions
+from ..sketch import Sketch, timekeys
 from ..store import load_ref, sketch_ref, source_stem
 from .state import Distribution, ScanJob
 
@@ -24,6 +27,13 @@ class Opened:
     rows: list[Distribution] = field(default_factory=list)
     job: ScanJob | None = None
     message: str = ""
+    windows: dict[str, Sketch] = field(default_factory=dict)
+    """A saved timeline's sketches, windows and wholes, for the Timeline pane (else empty)."""
+
+
+def without_windows(sketches: dict[str, Sketch]) -> dict[str, Sketch]:
+    """The sketches that are not a timeline's windows (those become rows)."""
+    return {n: s for n, s in sketches.items() if timekeys.parse_key(n) is None}
 
 
 def open_source(
@@ -40,13 +50,16 @@ def open_source(
         except OgiveError as exc:
             return Opened(message=str(exc))
         stem = source_stem(ref.path)
-        names = sset.names()
+        kept = without_windows(sset.sketches)
+        windows = dict(sset.sketches) if len(kept) < len(sset.sketches) else {}
+        names = list(kept)
         several = ref.group is not None or len(names) > 1
         rows = [
             Distribution(f"{stem}:{name}" if several else stem, sset[name], ref.path, seq=(order, i))
             for i, name in enumerate(names)
         ]
-        return Opened(rows=rows, message=f"loaded {ref.path}")
+        hint = f" ({len(windows) - len(kept):,} time windows: t shows the timeline)" if windows else ""
+        return Opened(rows=rows, message=f"loaded {ref.path}{hint}", windows=windows)
     if follow:
         return Opened(job=ScanJob(spec, options, seq=order, follow=True, recent=recent))
     if spec != "-" and not Path(spec).exists():

@@ -30,6 +30,7 @@ from .state import Distribution, ReferenceChoice, ScanJob
 if TYPE_CHECKING:
     from ..fit.compare import Comparison
     from ..fit.models import FitReport
+    from ..fit.timeline import Timeline
 
 KINDS: tuple[str, ...] = ("qq", "detrended", "pp", "cdf", "shift")
 """The pictures, in the order ``v`` steps through them (the kinds of ``ogive plot``)."""
@@ -83,6 +84,18 @@ class Workspace:
     """The reference is the best model only because the subject was alone."""
     opened: int = 0
     """Sources opened so far (orders the rows)."""
+    timeline_source: str | None = None
+    """The log (or saved timeline) the Timeline pane shows: the first one opened with windows."""
+    timeline_input: dict[str, Sketch] = field(default_factory=dict)
+    """Its window sketches and wholes as they stand (copies, never the scan's own)."""
+    timeline_live: bool = False
+    """The source is being followed: the timeline is rebuilt as windows arrive."""
+    timeline: Timeline | None = None
+    timeline_note: str = ""
+    timeline_pick: int = 0
+    """The change point highlighted in the Timeline pane."""
+    study_roles: tuple[str, str] | None = None
+    """(subject, reference) to take once both rows exist: a change point chosen for study."""
 
     # ------------------------------------------------------------------ queries
     @property
@@ -129,7 +142,30 @@ class Workspace:
         for d in rows:
             self.dists[d.name] = d
         self.dists = dict(sorted(self.dists.items(), key=lambda item: item[1].seq))
+        wanted = self.study_roles
+        if wanted is not None and all(n in self.dists for n in wanted):
+            self.study_roles = None
+            self.set_subject(wanted[0])
+            self.set_reference_sketch(wanted[1])
         self.auto_roles()
+
+    # ------------------------------------------------------------------ the timeline
+    def take_timeline_input(self, source: str, sketches: dict[str, Sketch], *, live: bool) -> bool:
+        """Window sketches (and wholes) of a source; False when the pane shows another one."""
+        if self.timeline_source not in (None, source):
+            return False
+        self.timeline_source, self.timeline_input, self.timeline_live = source, sketches, live
+        return True
+
+    def take_timeline(self, result: Timeline | None, note: str) -> None:
+        self.timeline, self.timeline_note = result, note
+        count = len(result.streams[0].changes) if result is not None else 0
+        self.timeline_pick = min(self.timeline_pick, max(count - 1, 0))
+
+    def study(self, subject: str, reference: str) -> None:
+        """Make ``subject`` the subject and ``reference`` the reference once both rows exist."""
+        self.study_roles = (subject, reference)
+        self.add_rows([])
 
     def take_scan(
         self, job: ScanJob, sketches: dict[str, Sketch], *, state: str, note: str, window: str | None
