@@ -24,7 +24,7 @@ def _sketch(x: np.ndarray, unit: str = "ms") -> Sketch:
 @pytest.fixture(scope="module")
 def small_pair() -> tuple[np.ndarray, np.ndarray]:
     rng = np.random.default_rng(21)
-    return rng.lognormal(3.0, 0.6, 1500), np.round(rng.lognormal(3.1, 0.65, 1200))
+    return rng.lognormal(3.0, 0.6, 1000), np.round(rng.lognormal(3.1, 0.65, 900))
 
 
 @pytest.fixture(scope="module")

@@ -29,7 +29,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ..sketch import Sketch, SketchSet
-from .ladder import LADDER_QS, LadderRow, ladder, local_rank_error
+from .ladder import LADDER_QS, LadderRow, ladder
 from .shift import ShiftFunction, shift_function
 
 FloatArray = NDArray[np.float64]
@@ -214,10 +214,9 @@ def g_test_2x2(k1: float, n1: float, k2: float, n2: float) -> tuple[float, float
 
 def _count_error(s: Sketch, x: float) -> float:
     """How far the sketch's count of values <= x may be off (0 where the buffers are exact)."""
-    if s.exact or (s.high.size and x >= s.high[0]) or (s.low.size and x < s.low[-1]):
-        return 0.0
-    pos = np.array(float(s.rank(np.array(x))) - 1.0)
-    return float(local_rank_error(s, pos))
+    at_least, at_most = s.count_bounds(np.array(x))
+    r = float(s.rank(np.array(x)))
+    return max(r - float(at_least), float(at_most) - r, 0.0)
 
 
 def tail_budget(a: Sketch, b: Sketch, q: float, *, confidence: float = 0.95) -> TailBudget:
