@@ -22,18 +22,15 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ..sketch import SketchSet
+from ..sketch.units import span_seconds
 from .ladder import LadderRow, ladder
-
-_WIDTH = re.compile(r"^\s*([0-9]+(?:\.[0-9]+)?)\s*(s|m|h|d)\s*$")
-_SECONDS = {"s": 1.0, "m": 60.0, "h": 3600.0, "d": 86400.0}
 
 
 def parse_window(text: str) -> float:
     """'10m' -> 600.0 seconds; s, m, h, d suffixes. Raises ValueError (a full sentence)."""
-    m = _WIDTH.match(text)
-    if not m:
+    width = span_seconds(text)
+    if width is None:
         raise ValueError(f"window width {text!r} is not a number with s, m, h or d, such as 30s, 10m or 1h.")
-    width = float(m[1]) * _SECONDS[m[2]]
     if width <= 0:
         raise ValueError(f"window width {text!r} must be more than zero.")
     return width

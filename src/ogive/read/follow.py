@@ -1,7 +1,8 @@
 """Following a growing log: read what is appended, survive rotation, keep the sketch live.
 
-The same parsing and accounting as :func:`ogive.read.scan` (one ``_State``), fed from a
-file that is polled for new complete lines instead of read once. Rotation is noticed
+The same feeder, parsing and accounting as :func:`ogive.read.scan` (one
+:class:`~ogive.read.scan.Pipeline`), fed from a file that is polled for new bytes
+instead of read once. Rotation is noticed
 the way log shippers commonly do it (common practice): the path now names another
 inode (renamed and recreated: the old file is read to its end first, then the new one
 from its start), or the file is shorter than what was read (truncated in place: read
@@ -26,9 +27,12 @@ from numpy.typing import NDArray
 
 from ..errors import OgiveError
 from ..sketch import DEFAULT_COMPRESSION, DEFAULT_TAIL, Sketch
-from . import records, sources, times
+from ..sketch.units import span_seconds
+from . import times
+from .decode import Batch
+from .feed import Piece
 from .options import ScanOptions, ScanProgress, ScanResult
-from .scan import TOO_LONG, _lines_in, _State
+from .scan import Job, Pipeline
 
 DEFAULT_SLICES = 12
 """Slices per recent window: the window's edge moves in steps of 1/12 of its width
@@ -201,14 +205,11 @@ def recent_window(text: str, options: ScanOptions, *, clock: Callable[[], float]
 
     One line for a width that cannot be read (OgiveError), never a traceback.
     """
-    try:
-        span = times.window_width_us(text)
-    except OgiveError:
-        raise OgiveError(
-            f"--recent {text!r} is not a positive number with s, m, h or d, such as 5m."
-        ) from None
+    seconds = span_seconds(text)
+    if seconds is None or seconds <= 0:
+        raise OgiveError(f"--recent {text!r} is not a positive number with s, m, h or d, such as 5m.")
     return RecentWindow(
-        span,
+        seconds * 1e6,
         name=recent_name(text),
         compression=options.compression,
         tail_size=options.tail_size,
@@ -229,13 +230,10 @@ class _Follower:
     def __init__(self, path: str, options: ScanOptions, recent: RecentWindow | None = None) -> None:
         self.path = path
         self.options = options
-        self.state = _State([path], options)
+        self.run = Pipeline([path], options)
         self.recent = recent
         self.fh: BinaryIO | None = None
         self.inode = -1
-        self.carry = b""
-        self.next_line = 1
-        self.header_pending = True
         self.rotations = 0
         self.caught_up = False
         """Set when the first read finds nothing new: the backlog is behind us. On the
@@ -251,7 +249,7 @@ class _Follower:
             self.caught_up = True
             return False
         self.inode = os.fstat(self.fh.fileno()).st_ino
-        self.carry, self.next_line, self.header_pending = b"", 1, True
+        self.run.start_source()
         return True
 
     def close(self) -> None:
@@ -262,64 +260,34 @@ class _Follower:
     def read_new(self) -> bool:
         """Read what was appended; True when anything was."""
         assert self.fh is not None
-        data = self.fh.read(self.state.chunk_size())
+        data = self.fh.read(self.run.feed.chunk_size())
         if not data:
             self.caught_up = True
             return False
-        self.state.bytes_seen += len(data)
-        buf = self.carry + data
-        # A CSV record may hold quoted newlines (or be half written): cut after the last
-        # whole record, as the one-pass reader does; ``buf`` starts on a record boundary.
-        limit = sources.hold_limit(self.state.chunk_size(), self.options.max_line_bytes)
-        cut = sources.last_cut(buf, self.state.cutting(), may_hold=len(buf) <= limit)
-        if cut < 0:
-            self.carry = buf
-            if len(buf) > self.options.max_line_bytes:
-                self.state.unassigned(TOO_LONG, self.path, [self.next_line])
-                self.state.lines += 1
-                self.next_line += 1
-                self.carry = b""
-            return True
-        self.carry = buf[cut + 1 :]
-        self.feed(buf[: cut + 1])
+        self.run.bytes_seen += len(data)
+        # The same cutting as a scan: whole records only (a CSV record may hold quoted
+        # newlines, or be half written); the rest waits for the next read.
+        piece = self.run.feed.push(data)
+        if piece is not None:
+            self.take(piece)
         return True
 
-    def feed(self, chunk: bytes) -> None:
-        state = self.state
-        if state.layout is None:
-            state.start(records.plan(chunk, self.options))
-        layout = state.layout
-        assert layout is not None
-        if self.header_pending and layout.header:
-            head, _, rest = chunk.partition(b"\n")
-            if head.rstrip(b"\r") == layout.header_line.rstrip(b"\r"):
-                chunk = rest
-                state.lines += 1
-                self.next_line += 1
-        self.header_pending = False
-        if not chunk:
-            return
-        df, held = layout.parse(chunk, numeric=state.numeric, literal_quotes=state.literal_quotes)
-        state.numeric = state.numeric and held
-        # ``_State.feed`` in two steps, so the rows it kept can go to the recent window too.
-        state.ready(df)
-        prepared = state.prepare(df, self.path, self.next_line)
-        _lines_in(prepared, chunk, layout.format)
-        state.commit(prepared)
-        self.next_line += prepared.lines
-        self._to_recent(prepared.values, prepared.ok, prepared.tus)
+    def take(self, piece: Piece) -> None:
+        run = self.run
+        batch = run.parse(piece.data, self.path, here=True) if piece.data else None
+        run.commit(Job(self.path, piece.too_long, piece.header, done=batch))
+        if batch is not None:
+            self._to_recent(batch)
 
-    def _to_recent(
-        self, vals: NDArray[np.float64], ok: NDArray[np.bool_], tus: NDArray[np.float64] | None
-    ) -> None:
-        recent = self.recent
+    def _to_recent(self, batch: Batch) -> None:
+        recent, ok = self.recent, batch.ok
         if recent is None or not ok.any():
             return
-        recent.unit = self.state.unit or ""
-        if self.options.time_field and tus is not None:
-            recent.add(vals[ok], tus[ok])
+        recent.unit = self.run.decoder.unit or ""
+        if self.options.time_field and batch.tus is not None:
+            recent.add(batch.values[ok], batch.tus[ok])
         elif self.caught_up:
-            recent.add(vals[ok])
+            recent.add(batch.values[ok])
 
     def rotated(self) -> bool:
         """Reopen after a rename/recreate or a truncation; True when that happened."""
@@ -334,20 +302,21 @@ class _Follower:
             return self.open()
         if st.st_size < self.fh.tell():
             self.fh.seek(0)
-            self.carry, self.next_line, self.header_pending = b"", 1, True
+            self.run.start_source()
             self.rotations += 1
             return True
         return False
 
     def progress(self, now: float, start: float) -> FollowProgress:
-        sset = self.state.sset()
+        run = self.run
+        sset = run.sset()
         if self.recent is not None:
-            sset.sketches[self.recent.name] = self.recent.sketch(self.path, self.state.description)
+            sset.sketches[self.recent.name] = self.recent.sketch(self.path, run.description)
         return FollowProgress(
-            self.state.bytes_seen,
+            run.bytes_seen,
             None,
-            self.state.rows,
-            self.state.values,
+            run.rows,
+            run.values,
             now - start,
             self.path,
             sset,
@@ -399,13 +368,14 @@ def follow(
         if f.fh is not None:
             while f.read_new():
                 pass
-            if f.carry:
-                f.feed(f.carry + b"\n")
+            last = f.run.feed.end()  # a last line still being written, read as it stands
+            if last is not None:
+                f.take(last)
     finally:
         f.close()
-    result = f.state.finish(time.monotonic() - start)
+    result = f.run.finish(time.monotonic() - start)
     if recent is not None:
-        window = recent.sketch(path, f.state.description)
-        window.provenance.lines_read = f.state.lines
+        window = recent.sketch(path, f.run.description)
+        window.provenance.lines_read = f.run.lines.total
         result.sketches.sketches[recent.name] = window
     return result, f.rotations

@@ -7,10 +7,14 @@ either.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
 from typing import Any
 
+from ..errors import OgiveError
 from ..sketch import DEFAULT_COMPRESSION, DEFAULT_TAIL, SketchSet, SkipTally
+from ..sketch.digest import MAX_COMPRESSION
+from ..sketch.units import span_seconds
 
 CSV_CHUNK = 8 << 20
 LINE_CHUNK = 4 << 20
@@ -18,6 +22,13 @@ LINE_CHUNK = 4 << 20
 
 @dataclass(frozen=True)
 class ScanOptions:
+    """Everything a scan is asked to do, checked when built (OgiveError, one sentence).
+
+    Checked here, once, for every caller (CLI, workspace, library): numeric ranges and
+    the combinations that cannot work. What can only be judged against the data (a
+    column name, a regex, a moment in time) is checked by the reader when it gets there.
+    """
+
     format: str | None = None
     """'csv', 'tsv', 'ndjson', 'text', 'parquet', or None to detect from the content."""
     field: str | None = None
@@ -42,8 +53,8 @@ class ScanOptions:
     """A timestamp: values before it go to sketch 'before', the rest to 'after'."""
     window: str | None = None
     """Width of consecutive time windows (``30s``, ``10m``, ``1h``, ``1d``): each window gets a
-    sketch named by its start in ISO 8601 UTC (``ogive.fit.windows.window_names`` does the
-    naming from epoch seconds; ``parse_window`` the width). None: no windows."""
+    sketch named by its start in ISO 8601 UTC. None: no windows. Read once, into
+    ``window_us``, by ``ogive.sketch.units.span_seconds`` (as ``fit.windows.parse_window`` does)."""
     strict: bool = False
     compression: float = DEFAULT_COMPRESSION
     tail_size: int = DEFAULT_TAIL
@@ -59,6 +70,32 @@ class ScanOptions:
     ``ScanResult.error`` set and the sketches marked partial) instead of raising."""
     max_line_bytes: int = 64 << 20
     """A line longer than this (no newline within it) is skipped as ``too_long``."""
+    window_us: float | None = dataclasses.field(default=None, init=False, repr=False, compare=False)
+    """``window`` in microseconds, set when the options are built (``field`` is an option
+    name in this class body, hence ``dataclasses.field``)."""
+
+    def __post_init__(self) -> None:
+        if not 10 <= self.compression <= MAX_COMPRESSION:
+            raise OgiveError(
+                f"--compression must lie between 10 and {MAX_COMPRESSION:g}, got {self.compression:g}."
+            )
+        if (self.chunk_bytes is not None and self.chunk_bytes < 1) or self.max_groups < 1:
+            raise OgiveError("chunk_bytes and max_groups must be at least 1.")
+        if self.split_at is not None and not self.time_field:
+            raise OgiveError("--split-at needs --time-field, the column or field holding each record's time.")
+        if self.window is not None:
+            if not self.time_field:
+                raise OgiveError(
+                    "--window needs --time-field, the column or field holding each record's time."
+                )
+            if self.by or self.split_at is not None:
+                raise OgiveError("--window cannot be combined with --by or --split-at.")
+            seconds = span_seconds(self.window)
+            if seconds is None or seconds <= 0:
+                raise OgiveError(
+                    f"window width {self.window!r} is not a positive number with s, m, h or d, such as 10m."
+                )
+            object.__setattr__(self, "window_us", seconds * 1e6)  # frozen: set once, here
 
     def chunk_size(self, fmt: str | None, *, value_only: bool = False) -> int:
         """Bytes per chunk for a source of format ``fmt`` (None: not known yet).

@@ -26,7 +26,7 @@ class Router:
     def __init__(self, options: ScanOptions) -> None:
         self.options = options
         self.split_us = None if options.split_at is None else times.parse_moment(options.split_at)
-        self.window_us = None if options.window is None else times.window_width_us(options.window)
+        self.window_us = options.window_us
         self.by_time = self.split_us is not None or self.window_us is not None
         """Rows without a readable time belong to no sketch."""
         self.groups: dict[str, str] = {}

@@ -15,7 +15,6 @@ import lzma
 import os
 import sys
 import zlib
-from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from typing import BinaryIO, cast
 
@@ -319,53 +318,53 @@ def last_cut(data: bytes, mode: str, *, open_quote: bool = False, may_hold: bool
     return cut
 
 
-def chunks(
-    src: Opened,
-    chunk_bytes: Callable[[], int],
-    max_line_bytes: int,
-    cutting: Callable[[], str] = lambda: LINES,
-) -> Iterator[Chunk]:
-    """Whole-record chunks of about ``chunk_bytes()`` decompressed bytes.
+class Cutter:
+    """Cuts a source's bytes, pushed in as they are read, into whole-record chunks.
 
-    ``chunk_bytes`` and ``cutting`` are asked before each read: both depend on the
-    format, which the first chunk decides. A CSV record whose quoted field spans
-    newlines is held whole, up to ``max(4 chunks, 1 MB)``; beyond that the quotes are
-    taken to be unbalanced (a stray ``"``) and the chunk is cut at its last newline,
-    leaving the parser to read the quotes as it can.
+    One per source; the same for a file read once and for a growing file polled for
+    new bytes. A CSV record whose quoted field spans newlines is held whole, up to
+    :func:`hold_limit`; beyond that the quotes are taken to be unbalanced (a stray
+    ``"``) and the chunk is cut at its last newline, leaving the parser to read the
+    quotes as it can. A line longer than ``max_line_bytes`` is dropped up to its end
+    and counted in the next chunk's ``too_long``, so no input can exhaust memory.
 
     Lines are not counted here: ``bytes.count`` holds the GIL for ~15 ms per 8 MB,
     while the parser's row count (one row per line) comes for free; the caller
     numbers lines from it.
     """
-    parts: list[bytes] = []  # an unfinished line, possibly over several reads
-    held = 0
-    open_quote = False  # an odd number of quotes in ``parts``
-    too_long = 0
-    skipping = False  # inside a too-long line, looking for its end
-    while True:
-        size = chunk_bytes()
-        data = src.read_lines(size)
-        if not data:
-            break
-        if skipping:
+
+    def __init__(self, max_line_bytes: int) -> None:
+        self.max_line_bytes = max_line_bytes
+        self._parts: list[bytes] = []  # an unfinished record, possibly over several reads
+        self._held = 0
+        self._open_quote = False  # an odd number of quotes in ``_parts``
+        self._too_long = 0
+        self._skipping = False  # inside a too-long line, looking for its end
+
+    def push(self, data: bytes, size: int, mode: str) -> Chunk | None:
+        """The whole records ``data`` completes (None: wait for more bytes).
+
+        ``size`` is the read size (it sets how long a quoted record may be held);
+        ``mode`` how to cut: ``LINES``, ``CSV`` or ``GUESS``.
+        """
+        if self._skipping:
             nl = data.find(b"\n")
             if nl < 0:
-                continue
+                return None
             data = data[nl + 1 :]
-            skipping = False
-        mode = cutting()
-        cut = last_cut(
-            data, mode, open_quote=open_quote, may_hold=held + len(data) <= hold_limit(size, max_line_bytes)
-        )
+            self._skipping = False
+        may_hold = self._held + len(data) <= hold_limit(size, self.max_line_bytes)
+        cut = last_cut(data, mode, open_quote=self._open_quote, may_hold=may_hold)
         if cut < 0:
-            parts.append(data)
-            held += len(data)
+            self._parts.append(data)
+            self._held += len(data)
             if mode != LINES:
-                open_quote ^= bool(data.count(b'"') & 1)
-            if held > max_line_bytes:
-                too_long += 1
-                parts, held, skipping, open_quote = [], 0, True, False
-            continue
+                self._open_quote ^= bool(data.count(b'"') & 1)
+            if self._held > self.max_line_bytes:
+                self._too_long += 1
+                self._parts, self._held, self._skipping, self._open_quote = [], 0, True, False
+            return None
+        parts = self._parts
         view = memoryview(data)
         body = (
             b"".join((*parts, view[: cut + 1]))
@@ -375,11 +374,17 @@ def chunks(
             else data
         )
         tail = data[cut + 1 :]
-        parts, held = ([tail], len(tail)) if tail else ([], 0)
-        open_quote = mode != LINES and bool(tail.count(b'"') & 1)
-        yield Chunk(body, too_long)
-        too_long = 0
-    if parts and not skipping:
-        yield Chunk(b"".join(parts), too_long)
-    elif too_long:
-        yield Chunk(b"", too_long)
+        self._parts, self._held = ([tail], len(tail)) if tail else ([], 0)
+        self._open_quote = mode != LINES and bool(tail.count(b'"') & 1)
+        chunk = Chunk(body, self._too_long)
+        self._too_long = 0
+        return chunk
+
+    def end(self) -> Chunk | None:
+        """At the end of the input: the last record, even without its newline, or just the
+        count of too-long lines still to report; None when nothing is left."""
+        parts, too_long = self._parts, self._too_long
+        self._parts, self._held, self._too_long = [], 0, 0
+        if parts and not self._skipping:
+            return Chunk(b"".join(parts), too_long)
+        return Chunk(b"", too_long) if too_long else None

@@ -11,7 +11,6 @@ rows rather than being silently reinterpreted.
 from __future__ import annotations
 
 import datetime as dt
-import re
 
 import numpy as np
 import polars as pl
@@ -94,18 +93,6 @@ def iso(us: float) -> str:
     """Epoch microseconds as an ISO 8601 UTC string (for provenance)."""
     moment = dt.datetime(1970, 1, 1, tzinfo=dt.UTC) + dt.timedelta(microseconds=int(us))
     return moment.isoformat().replace("+00:00", "Z")
-
-
-_WINDOW_RE = re.compile(r"^\s*(\d+(?:\.\d+)?)\s*(s|m|h|d)\s*$")
-_WINDOW_UNIT_US = {"s": 1e6, "m": 60e6, "h": 3600e6, "d": 86400e6}
-
-
-def window_width_us(text: str) -> float:
-    """``--window`` width (``30s``, ``10m``, ``1h``, ``1d``) in microseconds."""
-    m = _WINDOW_RE.match(text)
-    if not m or float(m[1]) <= 0:
-        raise OgiveError(f"window width {text!r} is not a positive number with s, m, h or d, such as 10m.")
-    return float(m[1]) * _WINDOW_UNIT_US[m[2]]
 
 
 def window_starts(tus: NDArray[np.float64], width_us: float) -> NDArray[np.float64]:

@@ -1,0 +1,223 @@
+"""The chunk feeder: whole-record pieces of a stream of sources, parsed into frames.
+
+One feeder serves a scan (sources read once, one after another) and a follow (one
+growing file polled for new bytes): both push the bytes they read into
+:meth:`Feed.push` and get the same pieces back. The record layout is decided once,
+from the first piece of the first source with any bytes (the sniffed head), and with
+it the chunk size and the cutting rule that every later read uses. A header line is
+taken off each source's first piece here; lines are numbered by the caller, in
+commit order, from the counts a piece and its frame carry.
+"""
+
+from __future__ import annotations
+
+import queue
+import threading
+from collections.abc import Iterator
+from dataclasses import dataclass
+from typing import TypeVar
+
+import numpy as np
+import polars as pl
+from numpy.typing import NDArray
+
+from . import records, sources
+from .options import ScanOptions
+
+_T = TypeVar("_T")
+
+
+@dataclass
+class Piece:
+    """Whole records of one source, ready to parse (``data`` may be empty)."""
+
+    data: bytes
+    nbytes: int
+    """Bytes of the source this piece covers, header line included."""
+    too_long: int = 0
+    """Lines skipped just before this piece for being too long."""
+    header: bool = False
+    """The source's header line came off the front of ``data``."""
+
+
+@dataclass
+class Frame:
+    """A parsed piece: columns ``v`` (and ``g``, ``t``), and the lines its rows span."""
+
+    df: pl.DataFrame
+    lines: int
+    """Lines the piece spans: its rows, plus newlines inside quoted CSV fields."""
+    line_of: NDArray[np.int64] | None = None
+    """Each row's first line (0-based within the piece) when records span several lines."""
+
+
+class Feed:
+    """Pieces and frames of one stream of sources, with the layout decided once.
+
+    Thread use: :meth:`push`/:meth:`pieces` run in one reader thread at a time;
+    :meth:`parse` may run in several parser threads at once (it only reads the
+    layout, and its two flags tolerate racing updates: each only ever goes one way).
+    """
+
+    def __init__(self, options: ScanOptions) -> None:
+        self.options = options
+        self.layout: records.Layout | None = None
+        self.numeric = True
+        """Try reading a CSV value column as Float64 until a chunk shows it is not plain numbers."""
+        self.quote_chunks = 0
+        """Chunks whose quotes did not balance, read with quotes as plain characters."""
+        self._quote_lock = threading.Lock()
+        self._cutter = sources.Cutter(options.max_line_bytes)
+        self._header_pending = True
+
+    # ----------------------------------------------------------------- layout
+    def plan(self, head: bytes) -> records.Layout:
+        """The layout, decided from ``head`` (whole records) the first time only."""
+        if self.layout is None:
+            self.layout = records.plan(head, self.options)
+        return self.layout
+
+    def chunk_size(self) -> int:
+        """Bytes per read: by format once the layout is known."""
+        layout = self.layout
+        if layout is None:
+            return self.options.chunk_size(None)
+        return self.options.chunk_size(layout.format, value_only=layout.names == ("v",))
+
+    def cutting(self) -> str:
+        """How to cut: CSV records may hold quoted newlines; before the layout, guess."""
+        layout = self.layout
+        if layout is None:
+            return sources.GUESS if self.options.format in (None, "csv", "tsv") else sources.LINES
+        return sources.CSV if layout.format in ("csv", "tsv") else sources.LINES
+
+    def starts_with_header(self, data: bytes) -> bool:
+        """True when the first line of ``data`` is the layout's header line."""
+        layout = self.layout
+        if layout is None or not layout.header:
+            return False
+        nl = data.find(b"\n")
+        head = data if nl < 0 else data[:nl]  # not split(): that would copy the whole chunk
+        return head.rstrip(b"\r") == layout.header_line.rstrip(b"\r")
+
+    # ----------------------------------------------------------------- pieces
+    def start_source(self) -> None:
+        """A new source (or a followed file reopened): fresh cutting, header expected."""
+        self._cutter = sources.Cutter(self.options.max_line_bytes)
+        self._header_pending = True
+
+    def push(self, data: bytes) -> Piece | None:
+        """The whole records that ``data`` (the next bytes read) completes, if any."""
+        chunk = self._cutter.push(data, self.chunk_size(), self.cutting())
+        return None if chunk is None else self._take(chunk)
+
+    def end(self) -> Piece | None:
+        """What is left at the end of the source: a last line without its newline."""
+        chunk = self._cutter.end()
+        return None if chunk is None else self._take(chunk)
+
+    def pieces(self, src: sources.Opened) -> Iterator[Piece]:
+        """Every piece of ``src``, read to its end (call :meth:`start_source` first)."""
+        while data := src.read_lines(self.chunk_size()):
+            piece = self.push(data)
+            if piece is not None:
+                yield piece
+        last = self.end()
+        if last is not None:
+            yield last
+
+    def _take(self, chunk: sources.Chunk) -> Piece:
+        data = chunk.data
+        piece = Piece(data, len(data), chunk.too_long)
+        if data:
+            self.plan(data)
+            if self._header_pending:
+                self._header_pending = False
+                if self.starts_with_header(data):
+                    piece.data, piece.header = data.partition(b"\n")[2], True
+        return piece
+
+    # ----------------------------------------------------------------- frames
+    def parse(self, data: bytes) -> Frame:
+        """One piece's records as a frame (thread-safe; see the class docstring)."""
+        layout = self.layout
+        assert layout is not None, "parse() before any piece decided the layout"
+        df, held = layout.parse(data, numeric=self.numeric, literal_quotes=self._literal_quotes)
+        self.numeric = self.numeric and held
+        lines, line_of = lines_in(data, df.height, layout.format)
+        return Frame(df, lines, line_of)
+
+    def _literal_quotes(self) -> None:
+        with self._quote_lock:
+            self.quote_chunks += 1
+
+    def quote_warning(self) -> str | None:
+        if not self.quote_chunks:
+            return None
+        return (
+            f"{self.quote_chunks} chunk(s) had a double quote that opens a field and never closes "
+            "(or one inside an unquoted field); there quotes were read as plain characters."
+        )
+
+
+def lines_in(data: bytes, rows: int, fmt: str) -> tuple[int, NDArray[np.int64] | None]:
+    """The lines a chunk of ``rows`` records spans, and each record's first line when
+    that differs from its row (quoted CSV fields holding newlines), so bad rows are
+    reported where an editor shows them. Looked at only when the chunk has a quote."""
+    if fmt not in ("csv", "tsv") or b'"' not in data:  # other formats: one record per line
+        return rows, None
+    lines = data.count(b"\n") + (0 if data.endswith(b"\n") else 1)
+    if lines <= rows:
+        return rows, None
+    a = np.frombuffer(data, dtype=np.uint8)
+    newlines = np.flatnonzero(a == 0x0A)
+    quotes_before = np.searchsorted(np.flatnonzero(a == 0x22), newlines)  # no 8x cumsum buffer
+    ends = np.flatnonzero((quotes_before & 1) == 0)  # line numbers (0-based) ending a record
+    starts = np.concatenate(([0], ends + 1))[:rows]
+    if starts.size == rows:
+        return lines, starts.astype(np.int64)
+    return rows, None
+
+
+def prefetch(it: Iterator[_T], depth: int = 1) -> Iterator[_T]:
+    """Run ``it`` in a thread, ``depth`` items ahead, re-raising its errors here.
+
+    The reader thread reads and decompresses the next chunk (zlib, zstd and polars
+    release the GIL) while the caller works on this one.
+    """
+    q: queue.Queue[tuple[str, object]] = queue.Queue(maxsize=depth)
+    stop = threading.Event()
+
+    def work() -> None:
+        try:
+            for item in it:
+                while not stop.is_set():
+                    try:
+                        q.put(("item", item), timeout=0.1)
+                        break
+                    except queue.Full:
+                        continue
+                if stop.is_set():
+                    return
+            q.put(("end", None))
+        except BaseException as exc:  # handed to the consumer, raised there
+            q.put(("error", exc))
+
+    thread = threading.Thread(target=work, name="ogive-reader", daemon=True)
+    thread.start()
+    try:
+        while True:
+            kind, payload = q.get()
+            if kind == "item":
+                yield payload  # type: ignore[misc]
+            elif kind == "error":
+                raise payload  # type: ignore[misc]
+            else:
+                return
+    finally:
+        stop.set()
+        while thread.is_alive():
+            try:
+                q.get_nowait()
+            except queue.Empty:
+                thread.join(0.05)
