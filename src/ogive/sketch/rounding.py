@@ -64,12 +64,18 @@ def shortest(x: FloatArray, tol: FloatArray, *, down: bool) -> FloatArray:
     todo = (tol > 0) & np.isfinite(x) & (x != 0)
     if not todo.any():
         return out
-    rnd = np.floor if down else np.ceil
     with np.errstate(all="ignore"):
         mag = np.floor(np.log10(np.abs(np.where(todo, x, 1.0))))
         for digits in range(1, 17):
             scale = 10.0 ** (digits - 1 - mag)
-            cand = rnd(x * scale) / scale
+            # x * scale carries rounding error (1.005 * 1000 = 1004.999...): try the next
+            # integer inwards too, and keep it when it is still on the right side of x.
+            if down:
+                k = np.floor(x * scale)
+                cand = np.where((k + 1) / scale <= x, (k + 1) / scale, k / scale)
+            else:
+                k = np.ceil(x * scale)
+                cand = np.where((k - 1) / scale >= x, (k - 1) / scale, k / scale)
             inside = (cand <= x) & (cand >= x - tol) if down else (cand >= x) & (cand <= x + tol)
             ok = todo & np.isfinite(cand) & inside
             out = np.where(ok, cand, out)
