@@ -22,6 +22,7 @@ the shift function's band is simultaneous by construction, and the gate
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Any
 
@@ -54,44 +55,70 @@ class KSResult:
 
     Method: N. Smirnov (1948), "Table for estimating the goodness of fit of empirical
     distributions", *Ann. Math. Statist.* 19, 279–281: under no difference,
-    sqrt(nm/(n+m))·D has the Kolmogorov limit distribution. Each sketch's CDF may be
-    off by its rank error, so the true distance lies within ``slack`` (both sketches'
-    whole-digest bounds) of ``distance``. For the call only a lower bound is needed, and
-    at the point ``at`` where the gap was seen the true gap is at least ``distance -
-    slack_at`` (the local errors there, which are far smaller in the tails); the
-    difference is called only when that passes the critical value, and the p-value is
-    computed at it.
+    sqrt(nm/(n+m))·D has the Kolmogorov limit distribution. A sketch bounds the count
+    of values below any x (``Sketch.count_bounds``), so the distance the raw data would
+    give lies in [``distance_low``, ``distance_high``] for sure; the difference is called
+    only when ``distance_low`` passes the critical value. The p-value is a number only
+    when both sketches hold every value; otherwise what is known is the interval
+    [``p_low``, ``p_high``] it lies in (from the two ends of the distance), and
+    ``p_value`` is NaN: a bound printed as a p-value averaged 0.998 under no change.
     """
 
     distance: float
+    """The sketches' own estimate (their interpolated CDFs)."""
+    distance_low: float
+    distance_high: float
     at: float
-    """The value where the CDFs are furthest apart."""
-    slack: float
-    """Sum of the two sketches' whole-digest rank errors (fraction of n)."""
-    slack_at: float
-    """Sum of the two sketches' local rank errors at ``at`` (fraction of n)."""
+    """The value where the estimated CDFs are furthest apart."""
     critical: float
-    """Asymptotic critical value at 1 - confidence, before the slack."""
-    threshold: float
-    """``critical + slack_at``: what ``distance`` must exceed to be called a difference."""
+    """Asymptotic critical value at 1 - confidence."""
     p_value: float
-    """Asymptotic, at ``max(distance - slack_at, 0)`` (conservative)."""
+    """Asymptotic p-value when both sketches are exact; NaN otherwise (see p_low/p_high)."""
+    p_low: float
+    p_high: float
     differs: bool
     confidence: float
+    exact: bool
+
+    @property
+    def slack(self) -> float:
+        """How far the raw-data distance may lie from the estimate, either way."""
+        return max(self.distance_high - self.distance, self.distance - self.distance_low)
+
+    @property
+    def slack_at(self) -> float:
+        """How far below the estimate the raw-data distance may lie."""
+        return self.distance - self.distance_low
+
+    @property
+    def threshold(self) -> float:
+        """What ``distance`` must exceed to be called a difference."""
+        return self.critical + self.slack_at
 
     def to_dict(self) -> dict[str, Any]:
         return {
             "distance": self.distance,
+            "distance_low": self.distance_low,
+            "distance_high": self.distance_high,
             "at": _num(self.at),
-            "slack": self.slack,
-            "slack_at": self.slack_at,
             "critical": self.critical,
-            "threshold": self.threshold,
-            "p_value": self.p_value,
+            "p_value": _num(self.p_value),
+            "p_low": self.p_low,
+            "p_high": self.p_high,
             "differs": self.differs,
             "confidence": self.confidence,
-            "method": "two-sample Kolmogorov-Smirnov (Smirnov asymptotic), widened by sketch rank error",
+            "exact": self.exact,
+            "method": "two-sample Kolmogorov-Smirnov (Smirnov asymptotic); distance bounded by the "
+            "sketches' count bounds",
         }
+
+
+def _breakpoints(s: Sketch) -> FloatArray:
+    """Every x where the sketch's CDF or its count bounds can step."""
+    if s.count == 0:
+        return np.empty(0)
+    lo, hi = s.digest.ranges()
+    return np.concatenate((_support(s), lo, hi, np.nextafter(hi, -np.inf), np.nextafter(s.low, -np.inf)))
 
 
 def ks_distance(a: Sketch, b: Sketch, *, confidence: float = 0.95) -> KSResult:
@@ -100,25 +127,36 @@ def ks_distance(a: Sketch, b: Sketch, *, confidence: float = 0.95) -> KSResult:
     x = np.unique(np.concatenate((_support(a), _support(b))))
     if x.size == 0:
         raise ValueError("both sketches are empty; there is nothing to compare.")
+    n, m = a.count, b.count
     gap = np.abs(a.cdf(x) - b.cdf(x))
     i = int(np.argmax(gap))
     d = float(gap[i])
-    slack = a.rank_error_bound() + b.rank_error_bound()
-    slack_at = min(_count_error(a, float(x[i])) / a.count + _count_error(b, float(x[i])) / b.count, slack)
-    n, m = a.count, b.count
+    # Bounds on the raw-data distance: at each breakpoint the two counts lie in their
+    # sketches' bounds; the true sup is at least the smallest gap they allow anywhere,
+    # and at most the largest (the bounds are flat between breakpoints).
+    xb = np.unique(np.concatenate((_breakpoints(a), _breakpoints(b))))
+    a_lo, a_hi = (v / n for v in a.count_bounds(xb))
+    b_lo, b_hi = (v / m for v in b.count_bounds(xb))
+    d_lo = float(max(np.max(np.maximum(a_lo - b_hi, b_lo - a_hi)), 0.0))
+    d_hi = float(np.max(np.maximum(a_hi - b_lo, b_hi - a_lo)))
+    d_lo, d_hi = min(d_lo, d), max(d_hi, d)
     scale = np.sqrt(n * m / (n + m))
     crit = float(stats.kstwobign.isf(1.0 - confidence) / scale)
-    p = float(stats.kstwobign.sf(max(d - slack_at, 0.0) * scale))
+    exact = a.exact and b.exact
+    p_low = float(min(stats.kstwobign.sf(d_hi * scale), 1.0))
+    p_high = float(min(stats.kstwobign.sf(d_lo * scale), 1.0))
     return KSResult(
         distance=d,
+        distance_low=d_lo,
+        distance_high=d_hi,
         at=float(x[i]),
-        slack=slack,
-        slack_at=slack_at,
         critical=crit,
-        threshold=crit + slack_at,
-        p_value=min(p, 1.0),
-        differs=d > crit + slack_at,
+        p_value=float(min(stats.kstwobign.sf(d * scale), 1.0)) if exact else float("nan"),
+        p_low=p_low,
+        p_high=p_high,
+        differs=d_lo > crit,
         confidence=confidence,
+        exact=exact,
     )
 
 
@@ -134,10 +172,18 @@ class WassersteinResult:
     distance: float
     unit: str
     relative: float
-    """W1 divided by A's mean absolute value: a unit-free size of the move."""
+    """W1 divided by |A's mean|: a unit-free size of the move; NaN when that mean is near
+    zero (see ``relative_note``), where the ratio would say nothing."""
+    relative_note: str = ""
+    """Why no relative size is given, or empty."""
 
     def to_dict(self) -> dict[str, Any]:
-        return {"distance": self.distance, "unit": self.unit, "relative": _num(self.relative)}
+        return {
+            "distance": self.distance,
+            "unit": self.unit,
+            "relative": _num(self.relative),
+            "relative_note": self.relative_note,
+        }
 
 
 def wasserstein(a: Sketch, b: Sketch) -> WassersteinResult:
@@ -148,8 +194,26 @@ def wasserstein(a: Sketch, b: Sketch) -> WassersteinResult:
     # the midpoint rule is exact for both (bar a sign change inside one linear piece).
     mid = (x[:-1] + x[1:]) / 2.0
     w1 = float(np.sum(np.abs(a.cdf(mid) - b.cdf(mid)) * np.diff(x)))
-    scale = abs(a.mean) if a.count else float("nan")
-    return WassersteinResult(w1, a.unit, w1 / scale if scale else float("nan"))
+    note = _mean_far_from_zero(a)
+    return WassersteinResult(w1, a.unit, w1 / abs(a.mean) if not note else float("nan"), note)
+
+
+def _mean_far_from_zero(a: Sketch) -> str:
+    """Empty when |A's mean| is a fair yardstick for a move; else why it is not.
+
+    It is when A's values all lie on one side of zero (latencies, sizes), or when the
+    mean is at least as far from zero as A's p10-p90 spread; otherwise a small mean
+    would turn any move into a huge percentage.
+    """
+    mean = a.mean
+    if not math.isfinite(mean) or mean == 0:
+        return "A's mean is 0"
+    if a.min >= 0 or a.max <= 0:
+        return ""
+    p10, p90 = a.quantile(np.array([0.1, 0.9]))
+    if abs(mean) >= p90 - p10:
+        return ""
+    return "A's mean is near zero against its spread (values on both sides of zero)"
 
 
 # ---------------------------------------------------------------- tail budget
@@ -178,9 +242,11 @@ class TailBudget:
     ratio: float
     """``b_share / a_share``: 2.0 means B spends the tail budget twice as fast."""
     g: float
+    """NaN when the table is too thin for the test (``verdict`` 'too few values')."""
     p_value: float
     verdict: str
-    """'more above the cut', 'less above the cut' or 'no clear change' (B against A)."""
+    """'more above the cut', 'less above the cut', 'no clear change' (B against A), or 'too
+    few values' when an expected count is below ``MIN_EXPECTED`` and χ² does not apply."""
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -193,8 +259,8 @@ class TailBudget:
             "b_count_low": self.b_count_low,
             "b_count_high": self.b_count_high,
             "ratio": _num(self.ratio),
-            "g": self.g,
-            "p_value": self.p_value,
+            "g": _num(self.g),
+            "p_value": _num(self.p_value),
             "verdict": self.verdict,
             "method": "G test (likelihood ratio) of equal proportions above A's cut",
         }
@@ -212,11 +278,8 @@ def g_test_2x2(k1: float, n1: float, k2: float, n2: float) -> tuple[float, float
     return g, float(stats.chi2.sf(g, 1))
 
 
-def _count_error(s: Sketch, x: float) -> float:
-    """How far the sketch's count of values <= x may be off (0 where the buffers are exact)."""
-    at_least, at_most = s.count_bounds(np.array(x))
-    r = float(s.rank(np.array(x)))
-    return max(r - float(at_least), float(at_most) - r, 0.0)
+MIN_EXPECTED = 5.0
+"""Smallest expected count for the χ² reference of the G test (common practice)."""
 
 
 def tail_budget(a: Sketch, b: Sketch, q: float, *, confidence: float = 0.95) -> TailBudget:
@@ -226,22 +289,31 @@ def tail_budget(a: Sketch, b: Sketch, q: float, *, confidence: float = 0.95) -> 
     cut = float(a.quantile(np.array(q)))
     ka = float(na - a.rank(np.array(cut)))
     kb = float(nb - b.rank(np.array(cut)))
-    ea = _count_error(a, cut)
-    eb = _count_error(b, cut)
-    kb_lo, kb_hi = max(kb - eb, 0.0), min(kb + eb, float(nb))
-    ka_lo, ka_hi = max(ka - ea, 0.0), min(ka + ea, float(na))
+    # Counts above the cut, bounded by the sketches (exact where they hold the values).
+    a_le_lo, a_le_hi = (float(v) for v in a.count_bounds(np.array(cut)))
+    b_le_lo, b_le_hi = (float(v) for v in b.count_bounds(np.array(cut)))
+    ka_lo, ka_hi = na - a_le_hi, na - a_le_lo
+    kb_lo, kb_hi = nb - b_le_hi, nb - b_le_lo
     pa, pb = ka / na, kb / nb
-    # Move both counts, within their error, towards each other before testing.
+    # Move both counts, within their bounds, towards each other before testing.
     if kb_lo / nb > ka_hi / na:
-        g, p = g_test_2x2(ka_hi, na, kb_lo, nb)
+        ta, tb = ka_hi, kb_lo
     elif kb_hi / nb < ka_lo / na:
-        g, p = g_test_2x2(ka_lo, na, kb_hi, nb)
+        ta, tb = ka_lo, kb_hi
     else:
-        g, p = 0.0, 1.0
+        ta, tb = None, None
     alpha = 1.0 - confidence
-    verdict = "no clear change"
-    if p < alpha:
-        verdict = "more above the cut" if pb > pa else "less above the cut"
+    above = ka + kb
+    fewest = min(above, na + nb - above) * min(na, nb) / (na + nb)  # smallest expected cell
+    if fewest < MIN_EXPECTED:
+        g, p, verdict = float("nan"), float("nan"), "too few values"
+    elif ta is None or tb is None:
+        g, p, verdict = 0.0, 1.0, "no clear change"
+    else:
+        g, p = g_test_2x2(ta, na, tb, nb)
+        verdict = "no clear change"
+        if p < alpha:
+            verdict = "more above the cut" if pb > pa else "less above the cut"
     return TailBudget(
         label=f"above A {quantile_label(q)}",
         q=q,
@@ -333,6 +405,22 @@ def _summary(
     return "; ".join(parts) + "."
 
 
+def _ladder_vs_shift(rows: tuple[LadderRow, ...], shift: ShiftFunction) -> list[str]:
+    """Why a ladder row and the shift function can disagree, where they do."""
+    direction = dict(zip(np.round(shift.probs, 6).tolist(), shift.direction, strict=True))
+    called = [r for r in rows if r.q is not None and r.verdict in ("higher", "lower")]
+    split = [r.label for r in called if direction.get(round(r.q or 0.0, 6)) == "no clear change"]
+    if not split:
+        return []
+    k = shift.probs.size
+    return [
+        f"{', '.join(split)}: the ladder calls a change and the shift function does not. Each ladder row is "
+        f"its own {shift.confidence:.0%} comparison; the shift band holds for all {k} quantiles at once "
+        f"(each interval at {shift.per_interval_confidence:.2%}), so it is wider: a change this close to "
+        "the noise may be one of several rows that separate by chance."
+    ]
+
+
 def compare_sketches(
     a: Sketch,
     b: Sketch,
@@ -350,7 +438,8 @@ def compare_sketches(
     rows = tuple(ladder(a, b, confidence, LADDER_QS))
     ks = ks_distance(a, b, confidence=confidence)
     tail = tuple(tail_budget(a, b, q, confidence=confidence) for q in (0.99, 0.999))
-    notes = []
+    shift = shift_function(a, b, confidence=confidence, labels=labels)
+    notes = list(_ladder_vs_shift(rows, shift))
     for s, name in ((a, labels[0]), (b, labels[1])):
         if s.provenance.partial:
             notes.append(f"{name} is partial: {s.provenance.partial}")
@@ -364,7 +453,7 @@ def compare_sketches(
         ladder=rows,
         ks=ks,
         wasserstein=wasserstein(a, b),
-        shift=shift_function(a, b, confidence=confidence, labels=labels),
+        shift=shift,
         tail=tail,
         summary=_summary(labels, rows, ks, tail),
         notes=tuple(notes),

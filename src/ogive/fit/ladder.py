@@ -69,6 +69,13 @@ class QuantileInterval:
     estimate of the bounding order statistic: what not holding the values costs here
     (0 where the exact buffers answer)."""
 
+    def __post_init__(self) -> None:
+        # The interval is built to contain its own estimate (quantile_intervals widens it
+        # where a layout would not); a result that did not would read as a contradiction.
+        if np.isfinite(self.estimate) and not self.low <= self.estimate <= self.high:
+            bounds = f"[{self.low!r}, {self.high!r}]"
+            raise AssertionError(f"{self.label}: estimate {self.estimate!r} outside {bounds}")
+
     @property
     def label(self) -> str:
         return quantile_label(self.q)
@@ -84,6 +91,8 @@ class QuantileInterval:
             "estimate": _num(self.estimate),
             "low": _num(self.low),
             "high": _num(self.high),
+            "low_unbounded": bool(not np.isfinite(self.low)),
+            "high_unbounded": bool(not np.isfinite(self.high)),
             "confidence": self.confidence,
             "n": self.n,
             "rank_low": self.rank_low,
