@@ -18,6 +18,10 @@ Parts, each printed as one table:
   ladder row and false gate failures.
 * ``width`` - interval width over the width of ``scipy.stats.quantile_test``'s interval
   on the same raw values, per ladder quantile, at 10^6 and 10^7 (median over runs).
+* ``drift`` - the same ratio where the sketch is weakest: quantiles that move while
+  it is built (a rising median, sorted arrival) and merges of hosts that differ, once
+  (``merge_all``) and as a left fold; each interval is also checked to contain the
+  exact one.
 * ``coverage`` - share of 95 % intervals that hold the true (population) quantile, over
   shapes chosen to stress a sketch: smooth, heavy tail, integer ms, two modes with a gap,
   a spike of one repeated value, sorted arrival, and a sketch merged from 16 parts.
@@ -39,7 +43,7 @@ from scipy import stats
 
 from ogive.fit.gate import gate, parse_limit
 from ogive.fit.ladder import LADDER_QS, ladder, quantile_intervals
-from ogive.sketch import Sketch, merge
+from ogive.sketch import Sketch, merge, merge_all
 
 FloatArray = NDArray[np.float64]
 BATCH = 1 << 16
@@ -148,6 +152,41 @@ def width(ns: list[int], runs: int, rng: np.random.Generator) -> None:
         print(f"{n:>11,} " + " ".join(f"{r:>8.3f}" for r in med))
 
 
+# ---------------------------------------------------------------- width where the sketch is weakest
+def drift(ns: list[int], rng: np.random.Generator) -> None:
+    """Width when the quantiles move while the sketch is built: the case the fine
+    centroids around the ladder's quantiles cannot anticipate (they sit where those
+    quantiles were at each flush)."""
+    print("\n== width / exact width when the data drift or differ (one run each; valid either way) ==")
+    print(f"{'n':>11} {'feed':<28} " + " ".join(f"{'p' + format(q * 100, 'g'):>8}" for q in QS))
+    for n in ns:
+        base = BASE.rvs(n, random_state=rng)
+        hosts = [BASE.rvs(n // 8, random_state=rng) * (1 + 0.1 * i) for i in range(8)]
+        cases = {
+            "shuffled (reference)": base,
+            "median rises 30 % in time": base * np.linspace(1.0, 1.3, n),
+            "sorted arrival": np.sort(base),
+            "8 hosts differing, merge_all": np.concatenate(hosts),
+            "8 hosts differing, left fold": np.concatenate(hosts),
+        }
+        for label, x in cases.items():
+            if label.endswith("merge_all"):
+                s = merge_all([build(h) for h in hosts])
+            elif label.endswith("left fold"):
+                s = build(hosts[0])
+                for h in hosts[1:]:
+                    s = merge(s, build(h))
+            else:
+                s = build(x)
+            xs = np.sort(x)
+            ratios = []
+            for iv in quantile_intervals(s, tuple(QS), 0.95):
+                lo, hi = exact_interval(xs, iv.q, 0.95)
+                assert iv.low <= lo and iv.high >= hi, (label, iv.q)  # validity, checked on the way
+                ratios.append((iv.high - iv.low) / (hi - lo))
+            print(f"{n:>11,} {label:<28} " + " ".join(f"{r:>8.3f}" for r in ratios))
+
+
 # ---------------------------------------------------------------- coverage
 def shapes(
     rng: np.random.Generator,
@@ -227,7 +266,7 @@ def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     ap.add_argument("--quick", action="store_true", help="fewer runs and smaller n")
     ap.add_argument("--runs", type=int, default=100)
-    ap.add_argument("--part", default="power,width,coverage")
+    ap.add_argument("--part", default="power,width,drift,coverage")
     ap.add_argument("--seed", type=int, default=2026)
     args = ap.parse_args()
     rng = np.random.default_rng(args.seed)
@@ -237,6 +276,8 @@ def main() -> None:
         power([100_000] if args.quick else [100_000, 1_000_000], runs, rng)
     if "width" in parts:
         width([1_000_000] if args.quick else [1_000_000, 10_000_000], 2 if args.quick else 5, rng)
+    if "drift" in parts:
+        drift([1_000_000] if args.quick else [1_000_000, 10_000_000], rng)
     if "coverage" in parts:
         coverage([100_000] if args.quick else [100_000, 1_000_000], runs if args.quick else 2 * runs, rng)
 
