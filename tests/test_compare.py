@@ -161,6 +161,16 @@ def test_shift_function_on_exact_sketches(small_pair: tuple[np.ndarray, np.ndarr
     assert sh.per_interval_confidence == pytest.approx(1 - 0.05 / (2 * sh.probs.size))
 
 
+def test_shift_band_ends_the_data_cannot_bound_are_infinite_not_float_max() -> None:
+    # Issue: unbounded ends printed as +-1.798e308 (numpy.nan_to_num's default for inf).
+    rng = np.random.default_rng(28)
+    sh = compare_sketches(_sketch(rng.lognormal(3, 1, 300)), _sketch(rng.lognormal(3, 1, 300))).shift
+    ends = np.concatenate((sh.delta_low, sh.delta_high))
+    assert np.isinf(ends).any()
+    assert np.all(np.isinf(ends) | (np.abs(ends) < 1e300))
+    assert None in sh.to_dict()["delta_high"]
+
+
 def test_shift_band_covers_a_known_shift() -> None:
     # B = A's distribution moved by +5 ms: every simultaneous band must contain 5.
     rng = np.random.default_rng(24)

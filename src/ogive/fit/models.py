@@ -198,7 +198,7 @@ def fit_one(
         loglik += z * math.log(share) + (n - z) * math.log1p(-share)
         k += 1
         dist = WithZeros(dist, share)
-    boundary = None
+    boundary = _edge_note(family, params)
     if family.shifted and data.points.size and not ctx.lattice:
         boundary = boundary_note(family, est.theta, float(data.points.min()), sketch.count)
     model = FittedModel(
@@ -230,6 +230,21 @@ def _estimate(family: Family, data: GroupedData, start: FloatArray | None) -> Es
     from .estimate import log_likelihood
 
     return dataclasses.replace(est, loglik=log_likelihood(family, data, est.theta))
+
+
+LOMAX_SHAPE_EDGE = 1e4
+"""A Lomax shape beyond this is the exponential limit (shape, scale -> infinity together)."""
+
+
+def _edge_note(family: Family, params: dict[str, float]) -> str | None:
+    """A fit whose parameters ran off to a limit where the family becomes another one."""
+    if family.name == "lomax" and params["shape"] > LOMAX_SHAPE_EDGE:
+        scale = params["scale"] / params["shape"]
+        return (
+            f"at the boundary: the shape ran to infinity, where a Lomax is the exponential of scale "
+            f"{scale:.4g} (fit that family instead)"
+        )
+    return None
 
 
 def _support_refusal(sketch: Sketch) -> str:
