@@ -102,21 +102,55 @@ def test_coverage_by_simulation_exact_sketches() -> None:
     assert np.all((cover >= 0.93) & (cover <= 0.97)), cover
 
 
-def test_coverage_by_simulation_digest_region_is_at_least_nominal() -> None:
-    # Beyond the exact buffers the interval is widened by the sketch's error, so it may
-    # only be more conservative: coverage >= 93 % (200 samples of 20,000 values; the
-    # lower limit is about 2 SE of a 95 % rate below it, which leaves room for noise).
+def test_coverage_by_simulation_digest_region_is_nominal() -> None:
+    # Beyond the exact buffers the interval is read through the digest, which may only
+    # widen it: coverage at least nominal, and (the goal) not much above it, or
+    # the intervals would be wasting power. 400 samples of 20,000 Weibull values, p50
+    # and p99 (truth from scipy.stats.weibull_min.ppf): SE of a 95 % rate over 800
+    # checks is 0.8 %, so 93-97.5 % is about -2.5/+3 SE. Full grid: interval_bench.py.
     rng = np.random.default_rng(15)
     dist = stats.weibull_min(c=1.5, scale=30.0)
-    truth = float(dist.ppf(0.5))
-    reps = 200
+    qs = (0.5, 0.99)
+    truth = dist.ppf(qs)
+    reps = 400
     hits = 0
     for _ in range(reps):
         s = _sketch(dist.rvs(size=20_000, random_state=rng))
-        (iv,) = quantile_intervals(s, (0.5,), 0.95)
         assert not s.exact
-        hits += iv.low <= truth <= iv.high
-    assert hits / reps >= 0.93
+        for k, iv in enumerate(quantile_intervals(s, qs, 0.95)):
+            hits += iv.low <= truth[k] <= iv.high
+    assert 0.93 <= hits / (2 * reps) <= 0.975
+
+
+def test_power_and_false_calls_at_two_hundred_thousand() -> None:
+    # The case at a size the default run affords (10^5 and 10^6 with 100 runs
+    # each are in benchmarks/interval_bench.py): B's values above the p98 of A's
+    # lognormal(ln 20, 1) ramp up to +5 % at p99. By the normal approximation (from
+    # memory: the sample p-quantile has log-scale sd s = sigma sqrt(p(1-p)/n) / phi(z_p),
+    # and two 95 % intervals separate when the estimates differ by 2 * 1.96 s) exact
+    # data call p99 higher with probability Phi((ln 1.05 - 3.92 s) / (sqrt(2) s)), about
+    # 91 % at n = 2*10^5. The sketch must do about as well (>= 22 of 30), and draw no
+    # more false calls than nominal when B is drawn like A (<= 3 % of rows; about 0.6 %
+    # expected).
+    rng = np.random.default_rng(19)
+    base = stats.lognorm(1.0, scale=20.0)
+
+    def raised(x: np.ndarray) -> np.ndarray:
+        ramp = np.clip((base.cdf(x) - 0.98) / 0.01, 0.0, 1.0)
+        return x * (1.0 + 0.05 * ramp)
+
+    runs, n = 30, 200_000
+    higher = false = rows = 0
+    for _ in range(runs):
+        a = _sketch(base.rvs(n, random_state=rng))
+        b = _sketch(raised(base.rvs(n, random_state=rng)))
+        higher += {r.label: r for r in ladder(a, b, 0.95)}["p99"].verdict == "higher"
+        null = ladder(a, _sketch(base.rvs(n, random_state=rng)), 0.95)
+        tested = [r for r in null if r.q is not None and r.verdict != "too few values"]
+        false += sum(r.verdict in ("higher", "lower") for r in tested)
+        rows += len(tested)
+    assert higher >= 22
+    assert false / rows <= 0.03
 
 
 def test_unbounded_side_when_too_few_values() -> None:
