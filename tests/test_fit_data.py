@@ -18,6 +18,7 @@ from scipy import stats
 from ogive.fit import fit_sketch
 from ogive.fit.grouped import detect_lattice
 from ogive.sketch import Sketch
+from test_fit import CASES
 
 
 def sketch_of(x: np.ndarray) -> Sketch:
@@ -171,18 +172,8 @@ def test_auto_key_finds_the_true_family_at_a_thousand() -> None:
     """The issue's measure, one seed per family at n = 1000 (the 5-seed grid and 10^5
     are in benchmarks/ranking_bench.py): the default key ranks the true family (or its
     shifted version) first for at least 7 of the 8."""
-    cases = {
-        "normal": stats.norm(100, 15),
-        "lognormal": stats.lognorm(0.6, scale=20),
-        "gamma": stats.gamma(2.5, scale=8),
-        "weibull": stats.weibull_min(1.4, scale=30),
-        "exponential": stats.expon(scale=12),
-        "loglogistic": stats.fisk(4.0, scale=20),
-        "invgauss": stats.invgauss(0.4, scale=30),
-        "lomax": stats.lomax(3.0, scale=20),
-    }
     hits = 0
-    for name, dist in cases.items():
+    for name, (dist, _) in CASES.items():
         x = dist.rvs(1000, random_state=np.random.default_rng(77))
         report = fit_sketch(sketch_of(x), bootstrap=0)
         hits += report.models[0].family in (name, name + "3")
