@@ -21,7 +21,7 @@ def test_compare_plot_draws_the_shift_function(
     assert main(["compare", a, b, *PATTERN, "--plot", "--ascii"]) == 0
     out = capsys.readouterr().out.splitlines()
     plot = out[-20:]
-    assert "B - A" in plot[0] and "p99" in plot[-1]
+    assert "checkout-after - checkout-before" in plot[0] and "p99" in plot[-1]  # names, not A/B
     assert all(len(line) <= 72 for line in plot)
 
 

@@ -9,7 +9,9 @@ import pytest
 from scipy import stats
 
 from ogive.cli import main
-from ogive.fit.compare import compare_groups, compare_sketches, g_test_2x2, ks_distance, wasserstein
+from ogive.fit.budget import g_test_2x2
+from ogive.fit.compare import compare_groups, compare_sketches
+from ogive.fit.distances import ks_distance, wasserstein
 from ogive.fit.windows import compare_windows, parse_window, window_names
 from ogive.sketch import Sketch, SketchSet
 from ogive.store import save_sketches

@@ -9,12 +9,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from ogive.commands.common import add_source_options, is_sketch_file, load_one, load_set, options_from_args
+from ogive.commands.common import add_source_options, load_one, load_set, options_from_args
 from ogive.commands.progress import ProgressLine, format_progress
 from ogive.errors import OgiveError
 from ogive.read import ScanProgress
 from ogive.sketch import Sketch, SketchSet
-from ogive.store import save_sketches
+from ogive.store import save_sketches, sketch_ref
 
 
 def _args(*argv: str) -> argparse.Namespace:
@@ -38,7 +38,7 @@ def test_sketch_file_is_sniffed_by_content(tmp_path: Path) -> None:
     b.add(np.arange(20.0))
     path = tmp_path / "renamed.json"  # not called .ogive: the bytes decide
     save_sketches(path, SketchSet({"before": a, "after": b}))
-    assert is_sketch_file(str(path))
+    assert sketch_ref(str(path)) is not None
     assert load_set([str(path)], _args()).names() == ["before", "after"]
     with pytest.raises(OgiveError, match="holds 2 sketches"):
         load_one(str(path), _args())

@@ -87,36 +87,16 @@ def test_json_gives_the_numbers_behind_each_plot(runs: Path, capsys: pytest.Capt
         assert data["kind"] == kind and key in data
 
 
-class _Wrapped:
-    """A scipy frozen distribution behind the fit package's model interface."""
+def test_model_reference_uses_the_fit_package(runs: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """``--model`` plots against ``fit_sketch``'s model of that family, drawn as the workspace draws it."""
+    from ogive import render
+    from ogive.fit.curves import plot_inputs
+    from ogive.fit.models import fit_sketch
+    from ogive.store import load_sketches
 
-    def __init__(self, dist: object, label: str) -> None:
-        self.dist, self.label = dist, label
-
-    def ppf(self, q: np.ndarray) -> np.ndarray:
-        return np.asarray(self.dist.ppf(q))  # type: ignore[attr-defined]
-
-    def cdf(self, x: np.ndarray) -> np.ndarray:
-        return np.asarray(self.dist.cdf(x))  # type: ignore[attr-defined]
-
-
-def test_model_reference_uses_the_fit_package(
-    runs: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
-) -> None:
-    import types
-
-    import scipy.stats as st
-
-    import ogive.fit
-
-    seen: list[object] = []
-
-    def fake_fit(sketch: Sketch, families: list[str] | None = None, **_: object) -> object:
-        seen.append(families)
-        # Stand-in until the fit package lands: scipy's lognormal at the fixture's parameters.
-        return types.SimpleNamespace(models=[_Wrapped(st.lognorm(0.5, scale=80.0), "lognormal(σ=0.5)")])
-
-    monkeypatch.setattr(ogive.fit, "fit_sketch", fake_fit, raising=False)
+    sketch = load_sketches(runs)["before"]
+    model = fit_sketch(sketch, ["lognormal"], bootstrap=0).best
+    assert model is not None
     for kind in ("qq", "detrended", "pp", "cdf"):
         args = [
             "plot",
@@ -132,9 +112,10 @@ def test_model_reference_uses_the_fit_package(
         ]
         assert main(args) == 0
         lines = capsys.readouterr().out.rstrip("\n").split("\n")
+        data = plot_inputs(kind, sketch, model, subject_label="before", reference_label=model.label)
+        assert lines == list(render.draw(kind, data, width=60, height=16)), kind
         assert len(lines) == 16 and max(map(len, lines)) <= 60
         assert "lognormal" in "\n".join(lines)
-    assert seen == [["lognormal"]] * 4
     assert main(["plot", f"{runs}:before", "--model", "lognormal", "--kind", "shift"]) == EXIT_ERROR
     assert "compares two distributions" in capsys.readouterr().err
 

@@ -19,7 +19,8 @@ import pytest
 import scipy.stats as st
 
 from ogive import render
-from ogive.fit.curves import dkw_epsilon, pp_from_pairs, with_dkw_band
+from ogive.fit.band import dkw_epsilon, with_dkw_band
+from ogive.fit.curves import cdf_from_pairs, detrended_from_pairs, pp_from_pairs, qq_from_pairs
 from ogive.fit.qq import QuantilePairs, probability_grid
 from ogive.fit.shift import ShiftFunction
 
@@ -59,13 +60,13 @@ def _draw(kind: str, width: int, height: int, ascii_only: bool) -> list[str]:
     pairs = _pairs()
     opts: dict[str, Any] = {"width": width, "height": height, "ascii_only": ascii_only}
     if kind == "qq":
-        return render.qq_plot(pairs, **opts)
+        return render.qq_plot(qq_from_pairs(pairs), **opts)
     if kind == "detrended":
-        return render.detrended_plot(pairs, **opts)
+        return render.detrended_plot(detrended_from_pairs(pairs), **opts)
     if kind == "pp":
         return render.pp_plot(pp_from_pairs(pairs, epsilon=dkw_epsilon(100_000)), **opts)
     if kind == "cdf":
-        return render.cdf_plot(pairs, **opts)
+        return render.cdf_plot(cdf_from_pairs(pairs), **opts)
     return render.shift_plot(_shift(), **opts)
 
 

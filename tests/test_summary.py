@@ -5,31 +5,10 @@ from __future__ import annotations
 import json
 
 import numpy as np
-import pytest
 
-from ogive.render.summary import LADDER, format_value, quantile_lines, summarise, summary_dict, summary_lines
+from ogive.numbers import quantity
+from ogive.render.summary import LADDER, quantile_lines, summarise, summary_dict, summary_lines
 from ogive.sketch import Sketch, SketchSet
-
-
-@pytest.mark.parametrize(
-    ("value", "unit", "text"),
-    [
-        (0.412, "ms", "412 µs"),
-        (12.345, "ms", "12.3 ms"),
-        (1204.0, "ms", "1.20 s"),
-        (999.96, "ms", "1.00 s"),  # rounds up across the unit boundary
-        (0.9997, "ms", "1.00 ms"),
-        (4.2, "us", "4.20 µs"),
-        (700_000.0, "ms", "11.7 min"),
-        (0.0, "ms", "0 ms"),
-        (-5.5, "ms", "-5.50 ms"),
-        (1834.0, "bytes", "1,834 bytes"),
-        (0.25, "", "0.25"),
-        (float("nan"), "ms", "–"),
-    ],
-)
-def test_format_value(value: float, unit: str, text: str) -> None:
-    assert format_value(value, unit) == text
 
 
 def _small_set() -> tuple[SketchSet, np.ndarray]:
@@ -69,7 +48,7 @@ def test_text_shows_provenance_table_and_every_skip_reason() -> None:
     assert header.split() == ["sketch", "n", "skipped", "min", "p50", "p90", "p99", "p99.9", "p99.99", "max"]
     row = lines[lines.index(header) + 1].split("  ")
     assert row[0] == "all"
-    assert format_value(float(np.quantile(values, 0.5)), "ms") in text
+    assert quantity(float(np.quantile(values, 0.5)), "ms") in text
     assert "not a number: 2 (first at a.log:7; b.log:9)" in text
     assert "missing field: 1 (first at a.log:30)" in text
     assert "every value is held exactly" in text

@@ -13,6 +13,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from textual.widgets import Input
 
 from ogive.sketch import Sketch, SketchSet
 from ogive.store import load_sketches, save_sketches
@@ -25,6 +26,7 @@ from ogive.ui.path_input import PathInput, complete_path
 from ogive.ui.plot_panel import PlotPanel
 from ogive.ui.screen_text import screen_text
 from ogive.ui.shelf import DistributionShelf
+from ogive.ui.workspace import partner
 
 FAST = ("lognormal", "gamma")
 """Two families keep each fit well under a second; the ranking itself is the fit tests' job."""
@@ -70,8 +72,8 @@ async def test_roles_shelf_and_ladder(pair: tuple[Path, Path, np.ndarray, np.nda
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
         # last given is the subject, first the reference ("after against before")
-        assert app.subject == "after"
-        assert app.reference is not None and app.reference.name == "before"
+        assert app.ws.subject == "after"
+        assert app.ws.reference is not None and app.ws.reference.name == "before"
         text = screen_text(app)
         assert "subject: after · reference: before" in text
         # p50 on the shelf against numpy.quantile of the raw values; 4 significant
@@ -89,9 +91,9 @@ async def test_roles_shelf_and_ladder(pair: tuple[Path, Path, np.ndarray, np.nda
         from ogive.fit.compare import compare_sketches
 
         direct = compare_sketches(
-            app.dists["before"].sketch, app.dists["after"].sketch, labels=("before", "after")
+            app.ws.dists["before"].sketch, app.ws.dists["after"].sketch, labels=("before", "after")
         )
-        assert app.comparison.to_dict() == direct.to_dict()
+        assert app.ws.comparison.to_dict() == direct.to_dict()
 
 
 async def test_swap_roles_and_refuse_same(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
@@ -104,11 +106,11 @@ async def test_swap_roles_and_refuse_same(pair: tuple[Path, Path, np.ndarray, np
         shelf.move_cursor(row=0)
         await pilot.press("1")  # 'before' becomes the subject; 'after' takes the reference
         await _settle(app, pilot)
-        assert app.subject == "before"
-        assert app.reference is not None and app.reference.name == "after"
+        assert app.ws.subject == "before"
+        assert app.ws.reference is not None and app.ws.reference.name == "after"
         await pilot.press("2")  # same row as reference: refused with a message
         await pilot.pause(0.1)
-        assert app.reference.name == "after"
+        assert app.ws.reference.name == "after"
         assert "must differ" in screen_text(app)
         await pilot.press("c")
         await _settle(app, pilot)
@@ -121,21 +123,20 @@ async def test_picture_modes_and_axes(pair: tuple[Path, Path, np.ndarray, np.nda
     app = OgiveApp(families=FAST, sources=[str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
-        plot = app.query_one(PlotPanel)
-        seen = [plot.kind]
+        seen = [app.ws.kind]
         for _ in range(5):
             await pilot.press("v")
-            seen.append(plot.kind)
+            seen.append(app.ws.kind)
         assert seen == ["qq", "detrended", "pp", "cdf", "shift", "qq"]
         await pilot.press("V")
-        assert plot.kind == "shift"
-        assert plot.axes == "auto"
+        assert app.ws.kind == "shift"
+        assert app.ws.axes == "auto"
         await pilot.press("l")
         await pilot.pause(0.1)
-        assert plot.axes == "log" and plot.log_axes is True
+        assert app.ws.axes == "log" and app.ws.log_axes is True
         assert "Picture: shift function (log axes)" in screen_text(app)
         await pilot.press("l")
-        assert plot.axes == "linear" and plot.log_axes is False
+        assert app.ws.axes == "linear" and app.ws.log_axes is False
 
 
 async def test_write_and_export(pair: tuple[Path, Path, np.ndarray, np.ndarray], tmp_path: Path) -> None:
@@ -163,7 +164,7 @@ async def test_write_and_export(pair: tuple[Path, Path, np.ndarray, np.ndarray],
         assert "Subject: **after**" in md and "| p50 |" in md
         assert "## Picture: Q-Q (auto axes)" in md and js["picture"]["axes"] == "auto"
         assert js["picture"]["lines"] == list(app.query_one(PlotPanel).lines)
-        assert app.fit_report is not None and f"| 1 | {app.fit_report.ranked[0].label} |" in md
+        assert app.ws.fit is not None and f"| 1 | {app.ws.fit.ranked[0].label} |" in md
         assert js["subject"] == "after" and js["reference"] == {"kind": "sketch", "name": "before"}
         assert js["comparison"]["ladder"][0]["verdict"] == "higher"
         assert [d["summary"]["n"] for d in js["distributions"]] == [20_000, 20_000]
@@ -194,7 +195,7 @@ async def test_open_prompt_previews_and_opens(pair: tuple[Path, Path, np.ndarray
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
         # one distribution alone: nothing to compare against yet
-        assert app.reference is None or app.reference.kind == "model"
+        assert app.ws.reference is None or app.ws.reference.kind == "model"
         await pilot.press("o")
         await pilot.pause(0.1)
         assert isinstance(app.screen, OpenPrompt)
@@ -205,7 +206,7 @@ async def test_open_prompt_previews_and_opens(pair: tuple[Path, Path, np.ndarray
         assert "sketch file with 1 sketch" in screen_text(app)
         await pilot.press("enter")
         await _settle(app, pilot)
-        assert list(app.dists) == ["before", "after"]
+        assert list(app.ws.dists) == ["before", "after"]
 
 
 async def test_models_rank_and_a_model_becomes_the_reference(
@@ -219,18 +220,18 @@ async def test_models_rank_and_a_model_becomes_the_reference(
         await _settle(app, pilot)
         models = app.query_one(ModelRanking)
         assert models.has_focus
-        assert app.fit_report is not None, app.fit_note
+        assert app.ws.fit is not None, app.ws.fit_note
         # the table lists the fit package's ranking in its order (lognormal data: scipy's
         # lognorm family must be among the fitted, both families fitted here)
-        labels = [c.label for c in app.fit_report.ranked]
+        labels = [c.label for c in app.ws.fit.ranked]
         assert models.row_count == len(labels) == 2
         text = screen_text(app)
         assert all(label in text for label in labels)
         models.move_cursor(row=1)
         await pilot.press("2")
         await _settle(app, pilot)
-        assert app.reference is not None and app.reference.kind == "model"
-        assert app.reference.name == labels[1]
+        assert app.ws.reference is not None and app.ws.reference.kind == "model"
+        assert app.ws.reference.name == labels[1]
         # the ladder compares sketches only, and says so
         await pilot.press("c")
         await pilot.pause(0.1)
@@ -286,9 +287,38 @@ async def test_lone_subject_gets_best_model_until_a_sketch_arrives(
     app = OgiveApp(families=FAST, sources=[str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
         await _settle(app, pilot)
-        assert app.reference is not None and app.reference.kind == "model"
-        assert app.reference.name == app.fit_report.ranked[0].label
-        app.open_source(str(before), app.options)
+        assert app.ws.reference is not None and app.ws.reference.kind == "model"
+        assert app.ws.reference.name == app.ws.fit.ranked[0].label
+        app.open(str(before), app.options)
         await _settle(app, pilot)
-        assert app.reference is not None and app.reference.kind == "sketch"
-        assert (app.subject, app.reference.name) == ("before", "after")
+        assert app.ws.reference is not None and app.ws.reference.kind == "sketch"
+        assert (app.ws.subject, app.ws.reference.name) == ("before", "after")
+
+
+async def test_open_dialog_splits_by_time_and_groups(tmp_path: Path) -> None:
+    """Issue 15: the Open dialog sets split-at and by (it used to need the CLI flags)."""
+    log = tmp_path / "svc.csv"
+    rows = ["ts,route,ms"] + [
+        f"2026-05-01T{10 + i // 600:02d}:{(i // 10) % 60:02d}:{i % 10:02d}Z,{'ab'[i % 2]},{1 + i % 7}"
+        for i in range(2400)
+    ]
+    log.write_text("\n".join(rows) + "\n")
+    app = OgiveApp(families=FAST)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("o")
+        await pilot.pause(0.1)
+        screen = app.screen
+        assert isinstance(screen, OpenPrompt)
+        values = {"open-path": str(log), "open-column": "ms", "open-unit": "ms", "open-by": "route"}
+        values |= {"open-time-field": "ts", "open-split-at": "2026-05-01T12:00:00Z"}
+        for key, value in values.items():
+            screen.query_one(f"#{key}", Input).value = value
+        await pilot.pause(0.5)
+        screen.query_one("#open-path", PathInput).focus()
+        await pilot.press("enter")
+        await _settle(app, pilot)
+        names = sorted(app.ws.dists)
+        assert names == ["svc:after/route=a", "svc:after/route=b", "svc:before/route=a", "svc:before/route=b"]
+        # Counted by hand from the rows written: hours 10 and 11 are before 12:00.
+        assert app.ws.dists["svc:before/route=a"].sketch.count == 600
+        assert app.ws.reference is not None and app.ws.reference.name == partner(app.ws.subject or "")

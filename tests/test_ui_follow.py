@@ -18,10 +18,9 @@ from textual import events
 
 from ogive.read.options import ScanOptions
 from ogive.ui import OgiveApp
-from ogive.ui.app import key_groups
 from ogive.ui.fit_panel import ModelRanking
 from ogive.ui.help_overlay import KeyHelp
-from ogive.ui.plot_panel import PlotPanel
+from ogive.ui.keys import key_groups
 from ogive.ui.screen_text import screen_text
 from ogive.ui.shelf import DistributionShelf
 
@@ -62,12 +61,12 @@ async def test_following_fills_the_rows_and_the_recent_window(tmp_path: Path) ->
     _append(log, backlog)
     app = OgiveApp([str(log)], OPTIONS, follow=True, recent="1m", families=FAST)
     async with app.run_test(size=(80, 24)) as pilot:
-        job = app.jobs[0]
-        await _until(pilot, lambda: job.caught_up and "live:all" in app.dists, "reading the backlog")
-        assert app.dists["live:all"].sketch.count == backlog.size
-        assert app.dists["live:recent-1m"].sketch.count == 0  # the backlog has no arrival time
-        assert app.subject == "live:recent-1m" and app.reference is not None
-        assert app.reference.name == "live:all"
+        job = app.ws.jobs[0]
+        await _until(pilot, lambda: job.caught_up and "live:all" in app.ws.dists, "reading the backlog")
+        assert app.ws.dists["live:all"].sketch.count == backlog.size
+        assert app.ws.dists["live:recent-1m"].sketch.count == 0  # the backlog has no arrival time
+        assert app.ws.subject == "live:recent-1m" and app.ws.reference is not None
+        assert app.ws.reference.name == "live:all"
 
         fresh: list[np.ndarray] = []
         for _ in range(3):  # three bursts while the app runs, as a busy service would write
@@ -80,16 +79,18 @@ async def test_following_fills_the_rows_and_the_recent_window(tmp_path: Path) ->
         await _until(
             pilot,
             lambda: (
-                app.dists["live:all"].sketch.count == everything.size
-                and app.dists["live:recent-1m"].sketch.count == appended.size
+                app.ws.dists["live:all"].sketch.count == everything.size
+                and app.ws.dists["live:recent-1m"].sketch.count == appended.size
             ),
             "the appended lines reaching both rows",
         )
         qs = np.array([0.0, 0.25, 0.5, 0.9, 0.99, 1.0])
         # numpy.quantile on the values written; under 2 x 1024 values the sketches are exact.
-        np.testing.assert_allclose(app.dists["live:all"].sketch.quantile(qs), np.quantile(everything, qs))
-        np.testing.assert_allclose(app.dists["live:recent-1m"].sketch.quantile(qs), np.quantile(appended, qs))
-        assert app.dists["live:all"].state == "following" and not job.done
+        np.testing.assert_allclose(app.ws.dists["live:all"].sketch.quantile(qs), np.quantile(everything, qs))
+        np.testing.assert_allclose(
+            app.ws.dists["live:recent-1m"].sketch.quantile(qs), np.quantile(appended, qs)
+        )
+        assert app.ws.dists["live:all"].state == "following" and not job.done
         await _until(pilot, lambda: "values" in screen_text(app), "the follow status line")
         text = screen_text(app)
         assert "following live.log" in text and "/s now" in text and "(s stops)" in text
@@ -97,16 +98,15 @@ async def test_following_fills_the_rows_and_the_recent_window(tmp_path: Path) ->
         assert job.rate > 0
 
         # Keys stay live while the file is followed.
-        plot = app.query_one(PlotPanel)
-        await _tap(app, pilot, "v", lambda: plot.kind == "detrended")
+        await _tap(app, pilot, "v", lambda: app.ws.kind == "detrended")
         await _tap(app, pilot, "question_mark", lambda: isinstance(app.screen, KeyHelp))
         await _tap(app, pilot, "escape", lambda: not isinstance(app.screen, KeyHelp))
         assert not job.done
 
         await _tap(app, pilot, "s", lambda: job.done)
-        await _until(pilot, lambda: app.dists["live:all"].state == "ready", "the rows becoming ready")
-        assert app.dists["live:all"].sketch.count == everything.size
-        assert app.dists["live:recent-1m"].state == "ready"
+        await _until(pilot, lambda: app.ws.dists["live:all"].state == "ready", "the rows becoming ready")
+        assert app.ws.dists["live:all"].sketch.count == everything.size
+        assert app.ws.dists["live:recent-1m"].state == "ready"
         await _until(pilot, lambda: "stopped following" in screen_text(app), "the stop message")
 
 
@@ -114,24 +114,26 @@ async def test_following_counts_rotation_and_waits_for_a_missing_file(tmp_path: 
     log = tmp_path / "svc.log"  # does not exist yet: the follow waits for it
     app = OgiveApp([str(log)], OPTIONS, follow=True, families=FAST)
     async with app.run_test(size=(80, 24)) as pilot:
-        job = app.jobs[0]
+        job = app.ws.jobs[0]
         await _until(pilot, lambda: "Following" in screen_text(app), "the waiting picture")
         first = np.arange(1.0, 51.0)
         _append(log, first)
-        await _until(pilot, lambda: "svc" in app.dists and app.dists["svc"].sketch.count == 50, "first lines")
+        await _until(
+            pilot, lambda: "svc" in app.ws.dists and app.ws.dists["svc"].sketch.count == 50, "first lines"
+        )
         os.rename(log, tmp_path / "svc.log.1")  # rotated away; a new file takes the name
         second = np.arange(1000.0, 1020.0)
         _append(log, second)
-        await _until(pilot, lambda: job.rotations == 1 and app.dists["svc"].sketch.count == 70, "rotation")
+        await _until(pilot, lambda: job.rotations == 1 and app.ws.dists["svc"].sketch.count == 70, "rotation")
         await _until(pilot, lambda: "1 rotation" in screen_text(app), "rotation on the status line")
         # numpy.quantile on the 70 values written across both files.
         both = np.concatenate([first, second])
         np.testing.assert_allclose(
-            app.dists["svc"].sketch.quantile([0.1, 0.5, 0.9]), np.quantile(both, [0.1, 0.5, 0.9])
+            app.ws.dists["svc"].sketch.quantile([0.1, 0.5, 0.9]), np.quantile(both, [0.1, 0.5, 0.9])
         )
         await _tap(app, pilot, "x", lambda: job.done)  # 'stop every scan' stops a follow too
-        await _until(pilot, lambda: app.dists["svc"].state == "ready", "the row becoming ready")
-        assert "rotated or truncated 1 time(s)" in app.dists["svc"].note
+        await _until(pilot, lambda: app.ws.dists["svc"].state == "ready", "the row becoming ready")
+        assert "rotated or truncated 1 time(s)" in app.ws.dists["svc"].note
 
 
 async def test_stop_follow_key_when_nothing_is_followed(tmp_path: Path) -> None:
@@ -143,7 +145,7 @@ async def test_stop_follow_key_when_nothing_is_followed(tmp_path: Path) -> None:
 
 
 def test_stop_follow_key_is_listed_and_clashes_with_nothing() -> None:
-    everywhere = dict(key_groups()[0][1])
+    everywhere = dict(key_groups(OgiveApp)[0][1])
     assert everywhere["s"].startswith("Stop following")
     keys = [b.key for b in OgiveApp.BINDINGS]  # type: ignore[union-attr]
     assert len(keys) == len(set(keys))
@@ -183,18 +185,18 @@ async def test_a_quiet_log_empties_the_recent_row_without_stale_numbers(tmp_path
     clock = _Clock()
     app = OgiveApp([str(log)], OPTIONS, follow=True, recent="1m", families=FAST, clock=clock)
     async with app.run_test(size=(80, 24)) as pilot:
-        job = app.jobs[0]
+        job = app.ws.jobs[0]
         await _until(pilot, lambda: job.caught_up, "catching up on the empty file")
         _append(log, np.arange(1.0, 201.0))
         await _until(
             pilot,
-            lambda: "quiet:recent-1m" in app.dists and app.dists["quiet:recent-1m"].sketch.count == 200,
+            lambda: "quiet:recent-1m" in app.ws.dists and app.ws.dists["quiet:recent-1m"].sketch.count == 200,
             "the appended lines in the window",
         )
-        await _until(pilot, lambda: app.comparison is not None, "a comparison of window and all-time")
+        await _until(pilot, lambda: app.ws.comparison is not None, "a comparison of window and all-time")
         clock.t += 120  # two quiet minutes
-        await _until(pilot, lambda: app.dists["quiet:recent-1m"].sketch.count == 0, "the window emptying")
-        assert app.dists["quiet:all"].sketch.count == 200
-        await _until(pilot, lambda: app.comparison is None, "the stale comparison going")
+        await _until(pilot, lambda: app.ws.dists["quiet:recent-1m"].sketch.count == 0, "the window emptying")
+        assert app.ws.dists["quiet:all"].sketch.count == 200
+        await _until(pilot, lambda: app.ws.comparison is None, "the stale comparison going")
         await _until(pilot, lambda: "quiet:recent-1m: no values" in screen_text(app), "the empty notice")
         assert "— ms" not in screen_text(app)

@@ -21,7 +21,6 @@ from ogive.commands import demo as demo_cmd
 from ogive.read.options import ScanOptions
 from ogive.ui import OgiveApp
 from ogive.ui.help_overlay import KeyHelp
-from ogive.ui.plot_panel import PlotPanel
 from ogive.ui.screen_text import screen_text
 
 FAST = ("lognormal", "gamma")
@@ -51,7 +50,7 @@ async def _idle(app: OgiveApp, pilot: object, limit_s: float = 30.0) -> None:
 
 async def _wait_scans(app: OgiveApp, pilot: object, limit_s: float = 20.0) -> None:
     waited = 0.0
-    while any(not j.done for j in app.jobs) and waited < limit_s:
+    while any(not j.done for j in app.ws.jobs) and waited < limit_s:
         await pilot.pause(0.1)  # type: ignore[attr-defined]
         waited += 0.1
     await _idle(app, pilot)
@@ -70,16 +69,22 @@ async def test_scans_fill_the_shelf(tmp_path: Path) -> None:
     )
     async with app.run_test(size=(80, 24)) as pilot:
         await _wait_scans(app, pilot)
-        assert list(app.dists) == ["base", "cand"]
-        assert app.subject == "cand" and app.reference is not None and app.reference.name == "base"
-        base = app.dists["base"].sketch
+        assert list(app.ws.dists) == ["base", "cand"]
+        assert app.ws.subject == "cand" and app.ws.reference is not None and app.ws.reference.name == "base"
+        base = app.ws.dists["base"].sketch
         assert base.count == a.size
         assert base.provenance.skipped_total == bad_a == 16
-        assert app.dists["cand"].sketch.provenance.skipped_total == bad_b == 0
+        assert app.ws.dists["cand"].sketch.provenance.skipped_total == bad_b == 0
         # 8000 values <= 2 * tail_size? no (tail 1024): the digest answers p50; its rank
         # error at n=8000 is well under 1 % of n, so 2 % of the value is a loose bound.
         assert float(base.quantile(0.5)) == pytest.approx(float(np.quantile(a, 0.5)), rel=0.02)
-        text = screen_text(app)
+        # The list resizes to its rows when they arrive: wait for that layout to be drawn.
+        text = ""
+        for _ in range(50):
+            text = screen_text(app)
+            if "base" in text and "8k" in text:
+                break
+            await pilot.pause(0.1)
         assert "base" in text and "8k" in text and "16" in text
         await pilot.press("c")
         await _idle(app, pilot)
@@ -144,30 +149,29 @@ async def test_keys_answer_while_a_large_scan_runs(tmp_path: Path) -> None:
     app = OgiveApp([str(fifo)], slow, families=FAST)
     try:
         async with app.run_test(size=(80, 24)) as pilot:
-            job = app.jobs[0]
+            job = app.ws.jobs[0]
             waited = 0.0
-            while "big" not in app.dists and waited < 10:
+            while "big" not in app.ws.dists and waited < 10:
                 await pilot.pause(0.05)
                 waited += 0.05
             assert not job.done
-            plot = app.query_one(PlotPanel)
-            await _tap(app, pilot, "v", lambda: plot.kind == "detrended")
-            await _tap(app, pilot, "l", lambda: plot.axes == "log")
+            await _tap(app, pilot, "v", lambda: app.ws.kind == "detrended")
+            await _tap(app, pilot, "l", lambda: app.ws.axes == "log")
             await _tap(app, pilot, "question_mark", lambda: isinstance(app.screen, KeyHelp))
             assert not job.done  # all three answered while the scan was still reading
             await _tap(app, pilot, "escape", lambda: not isinstance(app.screen, KeyHelp))
-            n_before = app.dists["big"].sketch.count
+            n_before = app.ws.dists["big"].sketch.count
             waited = 0.0  # the shelf fills as data streams (ticks ~2x/s)
-            while app.dists["big"].sketch.count == n_before and waited < 10:
+            while app.ws.dists["big"].sketch.count == n_before and waited < 10:
                 await pilot.pause(0.05)
                 waited += 0.05
-            assert app.dists["big"].sketch.count > n_before
+            assert app.ws.dists["big"].sketch.count > n_before
             assert not job.done
             text = screen_text(app)
             assert "scanning big.csv" in text and "rows/s" in text
             await _tap(app, pilot, "x", lambda: job.cancel.is_set())
             await _wait_scans(app, pilot)
-            dist = app.dists["big"]
+            dist = app.ws.dists["big"]
             assert dist.state == "partial"
             assert 0 < dist.sketch.count < values.size
     finally:
@@ -192,9 +196,9 @@ async def test_demo_opens_after_against_before(tmp_path: Path) -> None:
     async with app.run_test(size=(80, 24)) as pilot:
         await _wait_scans(app, pilot)
         assert [p.name for p in pair] == ["checkout-before.log", "checkout-after.log.gz"]
-        assert app.subject == "checkout-after"
-        assert app.reference is not None and app.reference.name == "checkout-before"
-        after_sketch = app.dists["checkout-after"].sketch
+        assert app.ws.subject == "checkout-after"
+        assert app.ws.reference is not None and app.ws.reference.name == "checkout-before"
+        after_sketch = app.ws.dists["checkout-after"].sketch
         assert after_sketch.unit == "ms"
         # demo_logs/README.md: 12,000 records, 4 spoilt on purpose
         assert after_sketch.count == 12_000 - 4

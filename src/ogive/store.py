@@ -1,4 +1,9 @@
-"""Saving and loading ``.ogive`` files: atomic writes, one-line errors."""
+"""Saving and loading ``.ogive`` files: atomic writes, one-line errors, and the one place
+that decides whether a name on a command line or in the Open dialog is a saved sketch or a log.
+
+That decision is made from the file's first bytes, never its name, so a sketch renamed
+``x.json`` still loads and an access log called ``a.ogive`` is still scanned.
+"""
 
 from __future__ import annotations
 
@@ -6,10 +11,11 @@ import contextlib
 import os
 import sys
 import tempfile
+from dataclasses import dataclass
 from pathlib import Path
 
 from .errors import OgiveError
-from .sketch import Sketch, SketchFormatError, SketchSet, dumps, loads
+from .sketch import SketchFormatError, SketchSet, dumps, loads
 
 
 def write_atomic(path: str | os.PathLike[str], data: bytes) -> None:
@@ -72,6 +78,70 @@ def load_sketches(path: str | os.PathLike[str]) -> SketchSet:
         raise OgiveError(f"{path}: {exc}") from None
 
 
+SNIFF_BYTES = 4096
+"""Enough to see the ``format`` key, which the codec writes first."""
+
+
+def _looks_like_sketch_file(path: str) -> bool:
+    if path == "-" or not os.path.isfile(path):
+        return False
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(SNIFF_BYTES)
+    except OSError:
+        return False
+    return head.lstrip().startswith(b"{") and b'"ogive-sketch-set"' in head
+
+
+@dataclass(frozen=True)
+class SketchRef:
+    """A saved sketch set named on a command line or in a dialog: ``PATH`` or ``PATH:GROUP``."""
+
+    path: str
+    group: str | None = None
+
+
+def sketch_ref(spec: str) -> SketchRef | None:
+    """``spec`` as a saved sketch (file, optionally ``:GROUP``), or None when it is a log to scan.
+
+    Every caller (the sub-commands, the workspace, the Open dialog's preview) asks this
+    one function, so they cannot disagree about what a name is.
+    """
+    if _looks_like_sketch_file(spec):
+        return SketchRef(spec)
+    path, group = split_group(spec)
+    if group is not None and _looks_like_sketch_file(path):
+        return SketchRef(path, group)
+    return None
+
+
+def load_ref(ref: SketchRef) -> SketchSet:
+    """The set a reference names: the whole file, or the one sketch its group picks."""
+    sset = load_sketches(ref.path)
+    if ref.group is None:
+        return sset
+    if ref.group not in sset.sketches:
+        raise OgiveError(f"{ref.path} has no sketch named {ref.group!r} (it has: {few(sset.names())}).")
+    return SketchSet({ref.group: sset[ref.group]})
+
+
+NAME_SUFFIXES = (".gz", ".zst", ".bz2", ".xz", ".log", ".ndjson", ".jsonl", ".json", ".csv", ".tsv", ".txt",
+                 ".parquet", ".ogive")  # fmt: skip
+"""Suffixes dropped from a file's name to name its sketches (names only: content decides the format)."""
+
+
+def source_stem(source: str) -> str:
+    """``/var/log/before.ndjson.gz`` -> ``before``: the name a file's sketches go by."""
+    stem = Path(source).name
+    changed = True
+    while changed:
+        changed = False
+        for suffix in NAME_SUFFIXES:
+            if stem.endswith(suffix) and len(stem) > len(suffix):
+                stem, changed = stem[: -len(suffix)], True
+    return stem or source
+
+
 def split_group(spec: str) -> tuple[str, str | None]:
     """``file.ogive:route=/v2`` -> (``file.ogive``, ``route=/v2``); no group -> None.
 
@@ -84,22 +154,7 @@ def split_group(spec: str) -> tuple[str, str | None]:
     return spec[: marker + 6], spec[marker + 7 :]
 
 
-def load_one(spec: str) -> tuple[str, Sketch]:
-    """One named sketch from ``PATH[:GROUP]``; a file of one sketch needs no group."""
-    path, group = split_group(spec)
-    sset = load_sketches(path)
-    names = sset.names()
-    if group is None:
-        if len(names) == 1:
-            return names[0], sset[names[0]]
-        raise OgiveError(
-            f"{path} holds {len(names)} sketches; name one as {path}:GROUP (one of: {_few(names)})."
-        )
-    if group not in sset.sketches:
-        raise OgiveError(f"{path} has no sketch named {group!r} (it has: {_few(names)}).")
-    return group, sset[group]
-
-
-def _few(names: list[str], limit: int = 8) -> str:
+def few(names: list[str], limit: int = 8) -> str:
+    """``a, b, c, … (12 more)``: a list of names short enough for a one-line error."""
     shown = ", ".join(names[:limit])
     return shown + (f", … ({len(names) - limit} more)" if len(names) > limit else "")

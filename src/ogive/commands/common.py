@@ -1,9 +1,8 @@
 """What every sub-command that takes a distribution shares: source flags, loading, scanning.
 
 A distribution on the command line is either a saved sketch (``run.ogive`` or
-``run.ogive:GROUP``) or raw sources to scan (``app.log app.log.1.gz``). Which one is
-decided by the file's bytes, never its name, so a sketch renamed ``x.json`` still loads
-and an access log called ``a.ogive`` is still scanned.
+``run.ogive:GROUP``) or raw sources to scan (``app.log app.log.1.gz``);
+:func:`ogive.store.sketch_ref` decides which, from the file's bytes.
 
 Only the standard library is imported at module level (``ogive --help`` stays fast);
 polars and the reader come in when a scan actually runs.
@@ -14,7 +13,6 @@ from __future__ import annotations
 import argparse
 import contextlib
 import dataclasses
-import os
 import signal
 import sys
 import threading
@@ -26,9 +24,6 @@ from ..errors import OgiveError
 if TYPE_CHECKING:
     from ..read.options import ScanOptions, ScanResult
     from ..sketch import Sketch, SketchSet
-
-SNIFF_BYTES = 4096
-"""Enough to see the ``format`` key, which the codec writes first."""
 
 FORMAT_CHOICES = ("csv", "tsv", "ndjson", "text", "parquet")
 TIME_FORMAT_CHOICES = ("iso", "epoch_s", "epoch_ms", "epoch_us", "clf")
@@ -176,49 +171,18 @@ def options_from_args(args: argparse.Namespace) -> ScanOptions:
     return ScanOptions(**kwargs)  # type: ignore[arg-type]
 
 
-def is_sketch_file(path: str) -> bool:
-    """True when the file's first bytes are those of an ``.ogive`` sketch set."""
-    if path == "-" or not os.path.isfile(path):
-        return False
-    try:
-        with open(path, "rb") as fh:
-            head = fh.read(SNIFF_BYTES)
-    except OSError:
-        return False
-    return head.lstrip().startswith(b"{") and b'"ogive-sketch-set"' in head
-
-
-def _sketch_spec(spec: str) -> tuple[str, str | None] | None:
-    """(path, group) when ``spec`` names a sketch file, else None."""
-    from ..store import split_group
-
-    if is_sketch_file(spec):
-        return spec, None
-    path, group = split_group(spec)
-    if group is not None and is_sketch_file(path):
-        return path, group
-    return None
-
-
 def load_set(specs: list[str], args: argparse.Namespace) -> SketchSet:
     """A saved sketch set (one file, optionally ``:GROUP``) or a fresh scan of the sources."""
-    from ..sketch import SketchSet
-    from ..store import load_sketches
+    from ..store import load_ref, sketch_ref
 
     if not specs:
         raise OgiveError("no source given; name a file, '-' for standard input, or a saved .ogive sketch.")
     if len(specs) == 1:
-        found = _sketch_spec(specs[0])
-        if found is not None:
-            path, group = found
-            sset = load_sketches(path)
-            if group is None:
-                return sset
-            if group not in sset.sketches:
-                raise OgiveError(f"{path} has no sketch named {group!r} (it has: {_few(sset.names())}).")
-            return SketchSet({group: sset[group]})
+        ref = sketch_ref(specs[0])
+        if ref is not None:
+            return load_ref(ref)
     for spec in specs:
-        if _sketch_spec(spec) is not None:
+        if sketch_ref(spec) is not None:
             raise OgiveError(
                 f"{spec} is a saved sketch; give it on its own, or merge sketches first with 'ogive merge'."
             )
@@ -227,6 +191,8 @@ def load_set(specs: list[str], args: argparse.Namespace) -> SketchSet:
 
 def load_one(spec: str, args: argparse.Namespace) -> tuple[str, Sketch]:
     """One distribution: a sketch file[:GROUP] or a source; several groups need a choice."""
+    from ..store import few
+
     sset = load_set([spec], args)
     names = sset.names()
     if len(names) == 1:
@@ -235,8 +201,107 @@ def load_one(spec: str, args: argparse.Namespace) -> tuple[str, Sketch]:
         raise OgiveError(f"{spec} gave no sketch at all.")
     raise OgiveError(
         f"{spec} holds {len(names)} sketches; choose one as {spec}:GROUP for a saved file, "
-        f"or drop --by/--split-at for a source (groups: {_few(names)})."
+        f"or drop --by/--split-at for a source (groups: {few(names)})."
     )
+
+
+GENERIC_NAMES = ("all",)
+"""Sketch names that say nothing about where the values came from (a scan without groups)."""
+
+
+def side_names(specs: tuple[str, str], names: tuple[str, str]) -> tuple[str, str]:
+    """What two distributions are called in tables, plot axes and JSON: their sketch names.
+
+    A generic name (``all``) gives way to the file's name (``before.log`` -> ``before``);
+    two sides that would read the same are told apart by their files (``web-1:all``
+    and ``web-2:all``), and as a last resort by the text given on the command line.
+    """
+    from ..store import source_stem, split_group
+
+    stems = tuple(source_stem(split_group(spec)[0]) for spec in specs)
+    out = tuple(stem if name in GENERIC_NAMES else name for stem, name in zip(stems, names, strict=True))
+    if out[0] == out[1]:
+        out = tuple(f"{stem}:{name}" for stem, name in zip(stems, names, strict=True))
+    if out[0] == out[1]:
+        out = specs
+    return out[0], out[1]
+
+
+def in_baseline_unit(b: Sketch, a: Sketch, names: tuple[str, str], *, quiet: bool = False) -> Sketch:
+    """B in A's unit: durations convert (s, ms, us, ns), anything else is refused in one sentence."""
+    from ..sketch.units import duration_factor, in_unit
+
+    if b.unit == a.unit:
+        return b
+    if duration_factor(b.unit, a.unit) is None:
+        raise OgiveError(
+            f"{names[0]} is in {a.unit or 'no unit'!r} and {names[1]} in {b.unit or 'no unit'!r}: "
+            "they measure different things and do not compare."
+        )
+    if not quiet:
+        note = f"{names[1]} ({b.unit}) is read in {a.unit}, the unit of {names[0]}"
+        print(f"ogive: note: {note}.", file=sys.stderr)
+    return in_unit(b, a.unit)
+
+
+def two_sides(args: argparse.Namespace) -> tuple[tuple[Sketch, Sketch], tuple[str, str], tuple[str, str]]:
+    """The baseline A and the other side B of ``compare``/``gate``, their names and where each came from.
+
+    ``A B`` (each a sketch or sources), or one source split with ``--split-at`` (or one
+    sketch file holding ``before`` and ``after``, or exactly two sketches).
+    """
+    if args.b is not None:
+        name_a, a = load_one(args.a, args)
+        name_b, b = load_one(args.b, args)
+        names = side_names((args.a, args.b), (name_a, name_b))
+        b = in_baseline_unit(b, a, names, quiet=bool(getattr(args, "quiet", False)) or args.json)
+        return (a, b), names, (args.a, args.b)
+    sset = load_set([args.a], args)
+    held = sset.names()
+    if set(held) >= {"before", "after"}:
+        pair = ("before", "after")
+    elif len(held) == 2:
+        pair = (held[0], held[1])
+    else:
+        command = getattr(args, "command", None) or "compare"
+        raise OgiveError(
+            f"{command} needs two sides: give A and B, or one source with --split-at TIME, "
+            f"or one sketch file holding exactly two sketches ({args.a} holds {len(held)})."
+        )
+    where = (f"{args.a} ({pair[0]})", f"{args.a} ({pair[1]})")
+    quiet = bool(getattr(args, "quiet", False)) or args.json
+    a = sset[pair[0]]
+    return (a, in_baseline_unit(sset[pair[1]], a, pair, quiet=quiet)), pair, where
+
+
+def group_sides(args: argparse.Namespace) -> tuple[tuple[SketchSet, SketchSet], tuple[str, str]]:
+    """The groups of ``--by`` on each side: ``A B`` scanned or loaded (each group of B read in
+    the unit of A's), or one source split at a time."""
+    from ..sketch import SketchSet
+
+    if args.b is not None:
+        sa, sb = load_set([args.a], args), load_set([args.b], args)
+        names = side_names((args.a, args.b), (GENERIC_NAMES[0], GENERIC_NAMES[0]))
+        quiet = bool(getattr(args, "quiet", False)) or args.json
+        unit_of = {g: s for g, s in sa.sketches.items()}
+        converted = {
+            g: in_baseline_unit(s, unit_of[g], (f"{names[0]}:{g}", f"{names[1]}:{g}"), quiet=quiet)
+            if g in unit_of
+            else s
+            for g, s in sb.sketches.items()
+        }
+        return (sa, SketchSet(converted)), names
+    sset = load_set([args.a], args)
+    halves: tuple[SketchSet, SketchSet] = (SketchSet(), SketchSet())
+    for name in sset.names():
+        side, _, group = name.partition("/")
+        if side in ("before", "after") and group:
+            halves[side == "after"].sketches[group] = sset[name]
+    if not halves[0].sketches and not halves[1].sketches:
+        raise OgiveError(
+            "--by with one source needs --split-at TIME (groups before and after it), or give A and B."
+        )
+    return halves, ("before", "after")
 
 
 def scan_sources(sources: list[str], args: argparse.Namespace, *, keep_partial: bool = False) -> ScanResult:
@@ -289,8 +354,3 @@ def first_ctrl_c_stops(*, quiet: bool = False) -> Iterator[threading.Event]:
         yield stopped
     finally:
         signal.signal(signal.SIGINT, previous)
-
-
-def _few(names: list[str], limit: int = 8) -> str:
-    shown = ", ".join(names[:limit])
-    return shown + (f", … ({len(names) - limit} more)" if len(names) > limit else "")

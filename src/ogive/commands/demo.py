@@ -3,13 +3,16 @@
 from __future__ import annotations
 
 import argparse
-import importlib
 import os
 import tempfile
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING
 
 from ..errors import OgiveError
+
+if TYPE_CHECKING:
+    from ..read.options import ScanOptions
+    from ..ui import OgiveApp
 
 DESCRIPTION = """\
 Open the workspace on the bundled demo data: the request latencies of an invented
@@ -20,7 +23,9 @@ that folder is missing (an installed copy) the same set is generated into a cach
 (~/.cache/ogive/demo_logs) first.
 """
 
-EPILOG = "The same data by hand: ogive view demo_logs/before… demo_logs/after…  (see README)."
+EPILOG = """\
+The same data by hand:
+  ogive view demo_logs/checkout-before.log demo_logs/checkout-after.log.gz --pattern 'dur=(\\S+)' --unit ms"""
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -63,41 +68,41 @@ def _cache_folder() -> Path:
 
 def generate_small(folder: Path) -> None:
     """Write the demo set with ``ogive.demo`` (byte for byte the bundled files)."""
-    try:
-        demo = importlib.import_module("ogive.demo")
-    except ImportError:
-        raise OgiveError(
-            "the demo logs (demo_logs/) are missing and the generator ogive.demo is not installed; "
-            "run 'ogive view' on your own logs instead."
-        ) from None
-    demo.write_demo_set(folder)
+    from ..demo import write_demo_set
+
+    write_demo_set(folder)
 
 
-def demo_options(path: Path) -> Any:
+def demo_options(path: Path) -> ScanOptions:
     """How to read one demo log, by the layout the generator gives each format.
 
     The field, column and pattern are the generator's own constants where it names them,
     so the demo and its data cannot drift apart.
     """
+    from ..demo import TEXT_PATTERN
     from ..read.options import ScanOptions
 
-    try:
-        demo: Any = importlib.import_module("ogive.demo")
-    except ImportError:
-        demo = None
     name = path.name
     if ".ndjson" in name or ".jsonl" in name:
         return ScanOptions(format="ndjson", field="timing.total_ms", unit="ms")
     if ".csv" in name:
         return ScanOptions(format="csv", column="latency_ms", unit="ms")
-    pattern = getattr(demo, "TEXT_PATTERN", r"dur=(\S+)")
-    return ScanOptions(format="text", pattern=pattern, unit="ms")
+    return ScanOptions(format="text", pattern=TEXT_PATTERN, unit="ms")
 
 
 def run(args: argparse.Namespace) -> int:
-    folder = Path(args.folder) if args.folder else demo_folder()
+    return demo_app(Path(args.folder) if args.folder else None).run() or 0
+
+
+def demo_app(folder: Path | None = None) -> OgiveApp:
+    """The workspace on the demo pair, subject 'after' and reference 'before' (also what
+    the README's screenshots are taken of, by a test)."""
+    from ..ui import OgiveApp
+
+    given = folder is not None
+    folder = folder if folder is not None else demo_folder()
     pair = pick_pair(folder)
-    if pair is None and args.folder:
+    if pair is None and given:
         raise OgiveError(f"{folder} holds no before*/after* logs.")
     if pair is None:
         folder = _cache_folder()
@@ -108,19 +113,16 @@ def run(args: argparse.Namespace) -> int:
         if pair is None:
             raise OgiveError(f"generating the demo logs into {folder} gave no before*/after* files.")
     before, after = pair
-    from ..ui import OgiveApp
-
-    app = OgiveApp(
+    return OgiveApp(
         [str(before), str(after)],
         per_source={str(p): demo_options(p) for p in (before, after)},
         subject=_stem(after),
         reference=_stem(before),
     )
-    return app.run() or 0
 
 
 def _stem(path: Path) -> str:
     """The row name the workspace gives a scanned file (its name without log suffixes)."""
-    from ..ui.app import row_stem
+    from ..store import source_stem
 
-    return row_stem(str(path))
+    return source_stem(str(path))

@@ -4,15 +4,10 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 import sys
-from typing import TYPE_CHECKING
 
 from ..errors import OgiveError
 from .plot import add_plot_option, print_plot
-
-if TYPE_CHECKING:
-    from ..fit.models import Candidate, FitReport
 
 DESCRIPTION = """\
 Fit candidate probability models to one distribution and rank them, best first.
@@ -65,9 +60,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--rank-by",
-        choices=("tail", "ks", "ad", "cvm", "aic", "bic"),
+        metavar="KEY",
         default="tail",
-        help="ranking statistic (default tail: largest relative quantile error p50..p99.9)",
+        help="ranking statistic, one of the keys above (default tail: largest relative quantile "
+        "error p50..p99.9)",
     )
     parser.add_argument(
         "--bootstrap",
@@ -82,9 +78,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..fit.models import fit_sketch
+    from ..fit.models import RANK_KEYS, fit_sketch
+    from ..render.reports import fit_text
     from .common import load_one
 
+    if args.rank_by not in RANK_KEYS:  # before a scan that may take minutes
+        keys = ", ".join(RANK_KEYS)
+        raise OgiveError(f"--rank-by {args.rank_by!r} is not a ranking key; choose from {keys}.")
     name, sketch = load_one(args.source, args)
     families = [f for f in args.families.split(",") if f.strip()] if args.families else None
     if args.bootstrap < 0:
@@ -98,79 +98,8 @@ def run(args: argparse.Namespace) -> int:
         json.dump(doc, sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
     else:
-        sys.stdout.write(format_report(report, f"{args.source} ({name})" if name else args.source))
+        sys.stdout.write(fit_text(report, f"{args.source} ({name})" if name else args.source))
         if args.plot and report.ranked:
             best = report.ranked[0]
             print_plot(args.plot, sketch, best, name or args.source, best.label, ascii_only=args.ascii)
     return 0
-
-
-# ---------------------------------------------------------------- text
-def num(x: float | None) -> str:
-    if x is None or not math.isfinite(x):
-        return "-" if x is None or math.isnan(x) else "inf"
-    if x != 0 and (abs(x) >= 1e6 or abs(x) < 1e-3):
-        return f"{x:.3e}"
-    return f"{x:.4g}"
-
-
-def pct(x: float | None) -> str:
-    if x is None or not math.isfinite(x):
-        return "-"
-    return f"{x * 100:+.2f}%"
-
-
-def abs_pct(x: float | None) -> str:
-    return "-" if x is None or not math.isfinite(x) else f"{x * 100:.2f}%"
-
-
-def _params(c: Candidate) -> str:
-    return ", ".join(f"{k}={num(v)}" for k, v in c.params.items())
-
-
-def _block(c: Candidate, report: FitReport, unit: str) -> list[str]:
-    s = c.scores
-    head = f"{c.rank:>2}. {c.label}  ({_params(c)})"
-    stats = (
-        f"    tail error {abs_pct(s.tail_error)}   KS {num(s.ks)}   AD {num(s.ad)}   CvM {num(s.cvm)}   "
-        f"AIC {s.aic:.1f}   BIC {s.bic:.1f}"
-    )
-    lines = [head, stats]
-    if s.p_values:
-        pv = "   ".join(f"{k.upper()} p={v:.3f}" for k, v in s.p_values.items())
-        lines.append(f"    bootstrap ({s.bootstrap} replicates): {pv}")
-    qs = []
-    for label, sv in report.sketch_quantiles.items():
-        mv = c.quantiles.get(label)
-        err = (mv - sv) / abs(sv) if mv is not None and sv and math.isfinite(mv) else None
-        qs.append(f"{label} {num(mv)} ({pct(err)})")
-    lines.append("    model" + unit + ": " + "  ".join(qs))
-    lines.append(
-        f"    support: {c.model.support}" + ("" if c.model.success else f"; optimiser: {c.model.message}")
-    )
-    return lines
-
-
-def format_report(report: FitReport, source: str) -> str:
-    unit = f" [{report.unit}]" if report.unit else ""
-    out = [f"fit of {source}: n = {report.n}{unit}"]
-    out.append(f"ranked by {report.rank_key} (best first)")
-    out.append(
-        "sketch" + unit + ": " + "  ".join(f"{k} {num(v)}" for k, v in report.sketch_quantiles.items())
-    )
-    out.append("")
-    for c in report.models:
-        out.extend(_block(c, report, unit))
-    if report.tail_models:
-        out.append("")
-        out.append("tail-only (not ranked with the above; scored on values above the threshold):")
-        for c in report.tail_models:
-            out.extend(_block(c, report, unit))
-    if report.not_fitted:
-        out.append("")
-        out.append("not fitted:")
-        for nf in report.not_fitted:
-            out.append(f"  {nf.label}: {nf.reason}")
-    out.append("")
-    out.extend(f"note: {n}" for n in report.notes)
-    return "\n".join(out) + "\n"

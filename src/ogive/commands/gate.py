@@ -5,12 +5,22 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+from collections.abc import Callable
+from functools import partial
+from typing import TYPE_CHECKING, Any
 
 from ..errors import OgiveError
 
+if TYPE_CHECKING:
+    from ..fit.gate import GateResult
+    from ..fit.group_gate import GroupGate
+
 DESCRIPTION = """\
 Check a candidate B against a baseline A on limits for named quantiles, for CI
-pipelines. Each --limit says how far B's quantile may rise above A's:
+pipelines. A and B are saved sketches (run.ogive, run.ogive:GROUP) or sources to scan;
+one source with --split-at TIME gates what came after TIME against what came before.
+With --by FIELD every group on both sides is gated and the worst group decides. Each
+--limit says how far B's quantile may rise above A's:
 
   --limit p99=+5%      B's p99 at most 5% above A's p99
   --limit p50=+2ms     B's p50 at most 2 ms above A's (converted to the sketches' unit)
@@ -36,12 +46,15 @@ team's own release policy; this gate is one input to it.
 
 Confidence: with L limits, each of the 2L quantile intervals is taken at
 1 - (1 - confidence)/(2L), so every "exceeded" holds together with at least the stated
-confidence (Bonferroni). Intervals are distribution-free (order statistics) and
-widened by the sketches' own rank error.
+confidence (Bonferroni). With --by and G groups each group's gate runs at
+1 - (1 - confidence)/G, so the claims of all groups hold together too. Intervals are
+distribution-free (order statistics) and widened by the sketches' own rank error.
 
 examples:
   ogive gate base.ogive cand.ogive --limit p99=+5% --limit p50=+2ms
   ogive gate base.ogive cand.ogive --limit p99.9=+10% --prove --json
+  ogive gate app.log --time-field ts --split-at 2026-03-04T13:00:00Z --limit p99=+10%
+  ogive gate base.ogive cand.ogive --by route --limit p99=+10%
 """
 
 
@@ -49,7 +62,14 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     from .common import add_source_options
 
     parser.add_argument("a", metavar="BASELINE", help="A: a sketch file[:GROUP] or a source")
-    parser.add_argument("b", metavar="CANDIDATE", help="B: a sketch file[:GROUP] or a source")
+    parser.add_argument(
+        "b",
+        metavar="CANDIDATE",
+        nargs="?",
+        default=None,
+        help="B: a sketch file[:GROUP] or a source (omit with --split-at, or for one file holding "
+        "before and after)",
+    )
     parser.add_argument(
         "--limit",
         action="append",
@@ -74,32 +94,36 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..fit.gate import MEANING, gate, parse_limit
-    from .common import load_one
+    from ..fit.gate import MEANING, Limit, gate, parse_limit
+    from ..fit.group_gate import gate_groups
+    from ..render.reports import gate_text, group_gate_text
+    from .common import group_sides, two_sides
 
     if not args.limit:
         raise OgiveError("no limit given; add at least one, such as --limit p99=+5%.")
     conf = float(args.confidence)
     if not 0.5 <= conf < 1:
         raise OgiveError(f"--confidence must be at least 0.5 and below 1, got {conf}.")
-    _, a = load_one(args.a, args)
-    _, b = load_one(args.b, args)
+    check: Callable[[list[Limit]], GateResult | GroupGate]
+    text: Callable[[Any], str]
+    if args.by:
+        (sa, sb), names = group_sides(args)
+        sources = (args.a, args.b) if args.b is not None else (f"{args.a} (before)", f"{args.a} (after)")
+        unit = next((s.unit for s in sa.sketches.values()), "")
+        check = partial(gate_groups, sa, sb, confidence=conf, prove=args.prove, labels=names)
+        text = partial(group_gate_text, sources=sources, by=args.by, meaning=MEANING)
+    else:
+        (a, b), names, sources = two_sides(args)
+        unit = a.unit
+        check = partial(gate, a, b, confidence=conf, prove=args.prove, labels=names)
+        text = partial(gate_text, names=names, sources=sources, meaning=MEANING)
     try:
-        limits = [parse_limit(t, a.unit) for t in args.limit]
-        result = gate(a, b, limits, confidence=conf, prove=args.prove)
+        result = check([parse_limit(t, unit) for t in args.limit])
     except ValueError as exc:
         raise OgiveError(str(exc)) from None
     if args.json:
         json.dump(result.to_dict(), sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
-        return result.exit_code
-    out = [
-        f"A: {args.a} (n={a.count:,})  B: {args.b} (n={b.count:,})  unit={a.unit or '-'}",
-        f"joint confidence {conf:.0%} (each interval at {result.per_interval_confidence:.4%})",
-    ]
-    for c in result.checks:
-        out.append(f"{c.status.upper():9s} {c.limit.text}: {c.reason}")
-    out.append(f"gate: {result.outcome} (exit {result.exit_code})")
-    out.append(MEANING)
-    sys.stdout.write("\n".join(out) + "\n")
+    else:
+        sys.stdout.write(text(result))
     return result.exit_code

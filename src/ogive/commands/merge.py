@@ -19,9 +19,12 @@ if TYPE_CHECKING:
 
 DESCRIPTION = """\
 Merge saved sketch sets into one: sketches with the same name are combined (a file of
-one sketch merges into that name), other names are carried over. Sketches of different
-units or of different fields are refused, because their union would be meaningless,
-unless --force says they measure the same thing."""
+one sketch merges into that name), other names are carried over. Durations in different
+units (s, ms, us, ns) are converted to the first file's unit. --as FILE=NAME puts a
+file's sketch under a name of your choice first, so per-host sketches can be gathered
+into one set side by side instead of merged. Sketches of unrelated units (ms and bytes)
+or of different fields are refused, because their union would be meaningless, unless
+--force says they measure the same thing."""
 
 EPILOG = """\
 examples:
@@ -29,7 +32,8 @@ examples:
     ssh $h ogive scan /var/log/app.log --pattern 'dur=(\\S+)' -o - > $h.ogive
   done
   ogive merge web-*.ogive -o fleet.ogive
-  ogive merge mon.ogive tue.ogive wed.ogive -o week.ogive --json"""
+  ogive merge mon.ogive tue.ogive wed.ogive -o week.ogive --json
+  ogive merge web-1.ogive web-2.ogive --as web-1.ogive=web-1 --as web-2.ogive=web-2 -o hosts.ogive"""
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -43,6 +47,15 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--force",
         action="store_true",
         help="merge even when units or fields differ (you vouch that they measure the same thing)",
+    )
+    parser.add_argument(
+        "--as",
+        dest="names",
+        action="append",
+        default=[],
+        metavar="FILE[:SKETCH]=NAME",
+        help="give that sketch the name NAME before merging (repeat for more); a file of one "
+        "sketch needs no :SKETCH",
     )
     parser.add_argument("--json", action="store_true", help="print the merged summary as JSON on stdout")
     parser.add_argument("--quiet", action="store_true", help="print nothing but errors")
@@ -58,6 +71,7 @@ def _clash(name: str, what: str, first: tuple[str, str], other: tuple[str, str])
 def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[SketchSet, list[str]]:
     """Merge by sketch name; returns the set and the warnings a forced merge owes the user."""
     from ..sketch import SketchSet, merge
+    from ..sketch.units import duration_factor, in_unit
 
     out: dict[str, Sketch] = {}
     origin: dict[str, str] = {}
@@ -69,6 +83,10 @@ def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[Sket
                 out[name], origin[name] = s, path  # the loaded sets are ours to fold into
                 continue
             have = out[name]
+            if s.unit != have.unit and duration_factor(s.unit, have.unit) is not None:
+                # Durations convert: the values are added in the first file's unit, never as raw numbers.
+                warnings.append(f"'{name}': {path} is in {s.unit}, converted to {have.unit} to merge")
+                s = in_unit(s, have.unit)
             for what, a, b in (
                 ("unit", have.unit, s.unit),
                 ("field", have.provenance.field, s.provenance.field),
@@ -83,8 +101,37 @@ def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[Sket
             if have.unit == s.unit:
                 out[name] = merge(have, s)
             else:
-                have.merge(s)  # forced: the first file's unit labels the result
+                have.merge(s)  # forced, unrelated units: the first file's unit labels the result
     return SketchSet(out), warnings
+
+
+def renamed(named: list[tuple[str, SketchSet]], specs: list[str]) -> list[tuple[str, SketchSet]]:
+    """The loaded sets with the ``--as FILE[:SKETCH]=NAME`` renamings applied (checked, in one line each)."""
+    from ..sketch import SketchSet
+    from ..store import few, split_group
+
+    sets = {path: dict(sset.sketches) for path, sset in named}
+    for spec in specs:
+        target, eq, new = spec.rpartition("=")
+        if not eq or not target or not new.strip():
+            raise OgiveError(f"--as {spec!r} is not of the form FILE=NAME or FILE:SKETCH=NAME.")
+        path, old = split_group(target)
+        if path not in sets:
+            raise OgiveError(f"--as {spec!r}: {path} is not one of the files being merged.")
+        names = list(sets[path])
+        if old is None:
+            if len(names) != 1:
+                raise OgiveError(
+                    f"--as {spec!r}: {path} holds {len(names)} sketches; name one as {path}:SKETCH=NAME "
+                    f"(one of: {few(names)})."
+                )
+            old = names[0]
+        if old not in sets[path]:
+            raise OgiveError(f"--as {spec!r}: {path} has no sketch named {old!r} (it has: {few(names)}).")
+        if new in sets[path] and new != old:
+            raise OgiveError(f"--as {spec!r}: {path} already holds a sketch named {new!r}.")
+        sets[path] = {new if n == old else n: s for n, s in sets[path].items()}
+    return [(path, SketchSet(sets[path])) for path, _ in named]
 
 
 def run(args: argparse.Namespace) -> int:
@@ -105,7 +152,7 @@ def run(args: argparse.Namespace) -> int:
     seen = {p for p in args.inputs if args.inputs.count(p) > 1}
     if seen:
         raise OgiveError(f"{sorted(seen)[0]} is given more than once; its values would be counted twice.")
-    named = [(path, load_sketches(path)) for path in args.inputs]
+    named = renamed([(path, load_sketches(path)) for path in args.inputs], args.names)
     merged, warnings = merge_sets(named, force=args.force)
     save_sketches(args.output, merged)
     summary = summarise(merged, warnings)

@@ -6,10 +6,14 @@ import argparse
 import os
 import shutil
 import sys
-from typing import Any
+from typing import TYPE_CHECKING
 
 from ..errors import OgiveError
 from .common import add_source_options
+
+if TYPE_CHECKING:
+    from ..fit.models import Candidate
+    from ..sketch import Sketch
 
 KINDS = ("qq", "detrended", "pp", "cdf", "shift")
 
@@ -31,7 +35,7 @@ Kinds (the "subject" is B, or A under --model; the reference is A, or the model)
   shift      B − A at the deciles and tail quantiles with simultaneous intervals
              (needs B; Doksum's shift function).
 
-The dashed band on qq, detrended and pp plots is a 95 % simultaneous band from the
+The dotted band on qq, detrended and pp plots is a 95 % simultaneous band from the
 Dvoretzky–Kiefer–Wolfowitz inequality (sketch error included): if the subject really
 followed the reference, the whole curve would stay inside it 95 times in 100. A curve that
 leaves it shows a real difference; one that stays inside is not proof of a good fit, only
@@ -74,10 +78,18 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--height", type=_size, default=None, help="lines (default: terminal height, at most 40)"
     )
     parser.add_argument("--ascii", action="store_true", help="plain ASCII instead of Unicode braille")
-    parser.add_argument(
+    axes = parser.add_mutually_exclusive_group()
+    axes.add_argument(
         "--linear",
         action="store_true",
-        help="linear value axes (default: log when every value is positive)",
+        help="linear value axes (default: log unless a value is negative; zeros are drawn at the "
+        "log axis's floor and counted in the legend)",
+    )
+    axes.add_argument(
+        "--log",
+        action="store_true",
+        help="log value axes even when some values are zero or negative (those are drawn at the "
+        "axis floor and counted in the legend)",
     )
     parser.add_argument(
         "--no-band", dest="band", action="store_false", help="leave out the simultaneous band"
@@ -127,46 +139,36 @@ def plot_size(width: int | None, height: int | None) -> tuple[int, int]:
     return w, h
 
 
-def _load(spec: str, args: argparse.Namespace) -> tuple[str, Any]:
-    try:
-        from .common import load_one
-    except ImportError:  # pragma: no cover - only before the reader lands
-        from ..store import load_one as load_saved
+def _load(spec: str, args: argparse.Namespace) -> tuple[str, Sketch]:
+    from .common import load_one
 
-        return load_saved(spec)
     return load_one(spec, args)
 
 
-def _fitted_model(sketch: Any, family: str) -> tuple[Any, str]:
-    """A model of ``family`` fitted to the sketch by :func:`ogive.fit.fit_sketch`, and its label."""
-    try:
-        from ..fit import fit_sketch
-    except ImportError:
-        raise OgiveError(
-            "model fitting is not available in this build; compare against a second distribution B instead."
-        ) from None
+def _fitted_model(sketch: Sketch, family: str) -> Candidate:
+    """A model of ``family`` fitted to the sketch by :func:`ogive.fit.models.fit_sketch`."""
+    from ..fit.models import fit_sketch
+
     try:
         # No bootstrap: p-values are not drawn, and they would cost seconds.
         report = fit_sketch(sketch, families=[family], bootstrap=0)
     except ValueError as exc:
         raise OgiveError(f"cannot fit {family!r}: {exc}") from None
-    models = list(getattr(report, "models", None) or [])
-    if not models:
-        if getattr(report, "tail_models", None):
+    if report.best is None:
+        if report.tail_models:
             raise OgiveError(
                 f"{family!r} describes only the tail beyond a threshold; plot it with 'ogive fit', "
                 "or pick a family for the whole distribution."
             )
-        reasons = [getattr(x, "reason", "") for x in getattr(report, "not_fitted", ())]
-        why = f": {reasons[0]}" if reasons and reasons[0] else "."
+        why = f": {report.not_fitted[0].reason}" if report.not_fitted else "."
         raise OgiveError(f"no {family!r} model could be fitted to these values{why}")
-    model = models[0]
-    return model, str(getattr(model, "label", family))
+    return report.best
 
 
 def run(args: argparse.Namespace) -> int:
     from .. import render
-    from ..fit.curves import plot_inputs
+    from ..fit.curves import Detrended, plot_inputs
+    from .common import side_names
 
     if args.b is not None and args.model is not None:
         raise OgiveError("give either a second distribution B or --model FAMILY, not both.")
@@ -183,16 +185,16 @@ def run(args: argparse.Namespace) -> int:
 
     # With two distributions B is read against A (A the baseline), as in 'compare';
     # with --model, A is read against the model.
-    reference: Any
+    reference: Sketch | Candidate
     if args.model is not None:
         if args.kind == "shift":
             raise OgiveError("the shift function compares two distributions; give B instead of --model.")
-        reference, ref_name = _fitted_model(a, args.model)
+        reference = _fitted_model(a, args.model)
+        ref_name = reference.label
         subject, subj_name = a, name_a
     else:
         name_b, b = _load(args.b, args)
-        if name_a == name_b:
-            name_a, name_b = "A", "B"
+        name_a, name_b = side_names((args.a, args.b), (name_a, name_b))
         subject, subj_name, reference, ref_name = b, name_b, a, name_a
     try:
         data = plot_inputs(
@@ -209,16 +211,13 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         import json
 
-        from ..fit.curves import detrended_from_pairs
-
-        shown = detrended_from_pairs(data) if args.kind == "detrended" else data
         from ..render.jsonsafe import json_safe
 
-        out = json_safe({"kind": args.kind, **shown.to_dict()})
+        out = json_safe({"kind": args.kind, **data.to_dict()})
         sys.stdout.write(json.dumps(out, allow_nan=False) + "\n")
         return 0
-    log = False if args.linear else None
-    if args.kind == "detrended":
+    log = True if args.log else False if args.linear else None
+    if isinstance(data, Detrended):
         lines = render.detrended_plot(
             data, width=width, height=height, x_axis=args.along, log=log, ascii_only=args.ascii
         )
@@ -242,7 +241,13 @@ def add_plot_option(parser: argparse.ArgumentParser, kinds: tuple[str, ...]) -> 
 
 
 def print_plot(
-    kind: str, subject: Any, reference: Any, subject_label: str, reference_label: str, *, ascii_only: bool
+    kind: str,
+    subject: Sketch,
+    reference: Sketch | Candidate,
+    subject_label: str,
+    reference_label: str,
+    *,
+    ascii_only: bool,
 ) -> None:
     """The same plot 'ogive plot' draws, printed to stdout (used by fit and compare)."""
     from .. import render
@@ -260,7 +265,7 @@ def print_plot(
     _emit(lines)
 
 
-def _emit(lines: Any) -> None:
+def _emit(lines: list[str]) -> None:
     from ..render import ansi_lines, color_allowed
 
     out = ansi_lines(lines) if color_allowed(sys.stdout) and not os.environ.get("NO_COLOR") else list(lines)

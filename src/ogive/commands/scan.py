@@ -67,8 +67,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from ..render.summary import summarise, summary_lines
-    from ..store import save_sketches
-    from .common import is_sketch_file, scan_sources
+    from ..store import save_sketches, sketch_ref
+    from .common import scan_sources
 
     to_stdout = args.output == "-"
     if to_stdout and args.json:
@@ -83,7 +83,7 @@ def run(args: argparse.Namespace) -> int:
         raise OgiveError(f"-o {args.output} is also a source; choose another output name.")
 
     for src in args.sources:
-        if is_sketch_file(src):
+        if sketch_ref(src) is not None:
             raise OgiveError(f"{src} is a saved sketch, not a log; look at it with 'ogive show {src}'.")
     if args.output and not to_stdout:
         # Fail before a long scan, not after it.
@@ -145,8 +145,8 @@ def _damaged(result: Any, output: str | None) -> None:
 
 def _follow(args: argparse.Namespace) -> Any:
     """Follow one file until Ctrl-C; ending this way is the normal end, not a partial scan."""
+    from ..numbers import quantity
     from ..read.follow import follow
-    from ..render.summary import format_value
     from .common import first_ctrl_c_stops, options_from_args
 
     if len(args.sources) != 1 or args.sources[0] == "-":
@@ -162,8 +162,7 @@ def _follow(args: argparse.Namespace) -> Any:
     def quantiles(label: str, s: Any) -> str:
         q50, q99, q999 = s.quantile([0.5, 0.99, 0.999])
         return (
-            f"{label}p50 {format_value(q50, s.unit)} p99 {format_value(q99, s.unit)} "
-            f"p99.9 {format_value(q999, s.unit)}"
+            f"{label}p50 {quantity(q50, s.unit)} p99 {quantity(q99, s.unit)} p99.9 {quantity(q999, s.unit)}"
         )
 
     def live(p: Any) -> None:

@@ -21,8 +21,9 @@ just the quantiles you ask for. SKETCH.ogive:GROUP picks one sketch of a set (a 
 --by, or 'before'/'after' of --split-at)."""
 
 EPILOG = """\
-quantiles may be written as fractions, percentiles or percents:
-  -q 0.5,0.999        -q p50,p99.9        -q 50%,99.9%        -q p99.99,max
+quantiles may be written as fractions, percentiles or percents; 'mean' adds the mean
+(exact: the sketch keeps the sum of the values):
+  -q 0.5,0.999        -q p50,p99.9        -q 50%,99.9%        -q p99.99,max,mean
 
 examples:
   ogive show before.ogive
@@ -34,7 +35,7 @@ _PCT_RE = re.compile(r"^(\d+(?:\.\d*)?)\s*%$")
 
 
 def parse_quantile(text: str) -> float:
-    """'0.999', 'p99.9', '99.9%', 'median', 'min', 'max' -> q in [0, 1].
+    """'0.999', 'p99.9', '99.9%', 'median', 'min', 'max' -> q in [0, 1] (``mean`` is not a quantile).
 
     A bare number above 1 is refused rather than guessed: '99.9' might mean p99.9, but
     '1' would then be ambiguous between the maximum and p1.
@@ -62,11 +63,14 @@ def parse_quantile(text: str) -> float:
     return q
 
 
-def parse_quantiles(text: str) -> list[float]:
+def parse_quantiles(text: str) -> list[float | str]:
+    """The columns ``-q`` asks for, in order: quantiles as q, and ``mean`` as itself."""
+    from ..render.summary import MEAN
+
     parts = [p for p in re.split(r"[,\s]+", text.strip()) if p]
     if not parts:
         raise OgiveError("-q needs at least one quantile, e.g. -q 0.5,0.999 or -q p50,p99.9.")
-    return [parse_quantile(p) for p in parts]
+    return [MEAN if p.strip().lower() == MEAN else parse_quantile(p) for p in parts]
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -78,28 +82,24 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..render.summary import LADDER, quantile_lines, summarise, summary_lines
-    from ..sketch import SketchSet
-    from ..store import load_sketches, split_group
-    from .common import is_sketch_file
+    from ..render.summary import LADDER, MEAN, quantile_lines, summarise, summary_lines
+    from ..store import SketchRef, load_ref, sketch_ref, split_group
 
-    qs = parse_quantiles(args.quantiles) if args.quantiles else list(LADDER)
+    columns = parse_quantiles(args.quantiles) if args.quantiles else list(LADDER)
+    qs = [float(c) for c in columns if c != MEAN]
     path, group = split_group(args.sketch)
-    if path != "-" and os.path.isfile(path) and not is_sketch_file(path):
-        raise OgiveError(f"{path} is not a saved sketch; to summarise a log, use 'ogive scan {path}'.")
-    sset = load_sketches(path)
-    if group is not None:
-        if group not in sset.sketches:
-            names = sset.names()
-            shown = ", ".join(names[:8]) + (f", … ({len(names) - 8} more)" if len(names) > 8 else "")
-            raise OgiveError(f"{path} has no sketch named {group!r} (it has: {shown}).")
-        sset = SketchSet({group: sset[group]})
+    ref = SketchRef(path, group) if path == "-" else sketch_ref(args.sketch)
+    if ref is None:
+        if os.path.isfile(path):
+            raise OgiveError(f"{path} is not a saved sketch; to summarise a log, use 'ogive scan {path}'.")
+        ref = SketchRef(path, group)  # loading says the file is missing, in one line
+    sset = load_ref(ref)
     summary = summarise(sset, qs=qs)
     if args.json:
         json.dump(summary.to_dict(), sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
         return 0
-    lines = quantile_lines(summary) if args.quantiles else summary_lines(summary)
+    lines = quantile_lines(summary, columns) if args.quantiles else summary_lines(summary)
     for line in lines:
         print(line)
     return 0

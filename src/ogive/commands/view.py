@@ -60,11 +60,11 @@ def run(args: argparse.Namespace) -> int:
     import os
 
     from ..errors import OgiveError
-    from ..store import split_group
+    from ..store import sketch_ref, split_group
     from ..ui import OgiveApp
-    from .common import is_sketch_file, options_from_args
+    from .common import options_from_args
 
-    followed = [s for s in args.sources if not is_sketch_file(split_group(s)[0])] if args.follow else []
+    followed = [s for s in args.sources if sketch_ref(s) is None] if args.follow else []
     if args.follow and (len(followed) != 1 or followed[0] == "-"):
         raise OgiveError(
             "--follow reads one growing log; name exactly one log file (not '-'), "

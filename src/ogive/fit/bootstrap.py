@@ -19,15 +19,13 @@ import numpy as np
 from ..sketch import Sketch
 from .family import FloatArray
 from .results import Candidate
+from .single import Context, context_of, fit_one
 
 
 def bootstrap_p_values(
-    cand: Candidate, theta: FloatArray, ctx: object, replicates: int, rng: np.random.Generator
+    cand: Candidate, theta: FloatArray, ctx: Context, replicates: int, rng: np.random.Generator
 ) -> dict[str, float]:
     """p-values of KS, A² and W² for ``cand`` (fitted with ``theta`` in context ``ctx``)."""
-    from .models import Context, context_of, fit_one
-
-    assert isinstance(ctx, Context)
     like = ctx.sketch
     observed = cand.scores
     loc = cand.model.params.get("location") if "location" in cand.model.params else None

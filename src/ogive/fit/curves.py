@@ -1,38 +1,29 @@
 """The numbers behind the plots that :mod:`ogive.fit.qq` does not already give.
 
-P-P points, CDF overlay series, detrended Q-Q series, the points at p50/p90/p99/p99.9,
-and a simultaneous band from the Dvoretzky–Kiefer–Wolfowitz inequality — all from
-sketches (or from quantile pairs, which came from sketches), so the renderer only
+P-P points, CDF overlay series, detrended Q-Q series, the points at p50/p90/p99/p99.9 —
+all from sketches (or from quantile pairs, which came from sketches), so the renderer only
 draws. Every function costs a few hundred sketch queries, whatever n is.
 
-DKW band. A. Dvoretzky, J. Kiefer and J. Wolfowitz, *Ann. Math. Statist.* 27 (1956)
-642–669, with the tight constant of P. Massart, "The tight constant in the
-Dvoretzky–Kiefer–Wolfowitz inequality", *Ann. Probab.* 18 (1990) 1269–1283:
-P(sup_x |F_n(x) − F(x)| > ε) ≤ 2·exp(−2nε²), so ε = sqrt(ln(2/α) / (2n)) holds for
-the whole curve at once at level 1 − α. A sketch's CDF is itself off by at most its
-rank error, which is added to ε. For two sketches both empirical CDFs must stay within
-their own ε of a common F (α/2 each, Bonferroni), so they differ by at most the sum.
-On a Q-Q plot the band is [Q_ref(p − ε), Q_ref(p + ε)] at x = Q_ref(p): if the subject
-follows the reference, every subject quantile lies inside it with probability at least
-1 − α; where p ± ε leaves [0, 1] the band is unbounded (±inf). Against a model fitted
-to the same data the band is conservative (the fit already pulled the model towards
-the data, as in Lilliefors' correction to the KS test), so a curve leaving it is all
-the stronger evidence of misfit.
+The simultaneous band on the Q-Q, detrended and P-P plots is :mod:`ogive.fit.band`'s.
 """
 
 from __future__ import annotations
 
 import dataclasses
 import math
-from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, Protocol
+from typing import TYPE_CHECKING, Any, Protocol, TypeAlias
 
 import numpy as np
 from numpy.typing import NDArray
 
 from ..sketch import Sketch, quantile_label
+from ..sketch.units import duration_factor, in_unit
+from .band import band_epsilon, with_dkw_band
 from .qq import QuantilePairs
+
+if TYPE_CHECKING:
+    from .shift import ShiftFunction
 
 FloatArray = NDArray[np.float64]
 
@@ -50,54 +41,6 @@ def _list(a: FloatArray | None) -> list[float | None] | None:
     if a is None:
         return None
     return [float(v) if np.isfinite(v) else None for v in a]
-
-
-# ---------------------------------------------------------------- DKW band
-def dkw_epsilon(n: int, confidence: float = 0.95) -> float:
-    """Half-width of the DKW–Massart band for an empirical CDF of ``n`` values."""
-    if n < 1:
-        raise ValueError(f"n must be at least 1, got {n!r}.")
-    if not 0 < confidence < 1:
-        raise ValueError(f"confidence must lie strictly between 0 and 1, got {confidence!r}.")
-    return math.sqrt(math.log(2.0 / (1.0 - confidence)) / (2.0 * n))
-
-
-def band_epsilon(subject: Sketch, reference: Sketch | None = None, *, confidence: float = 0.95) -> float:
-    """ε for subject vs a model (``reference`` None) or vs a second sketch, sketch error included."""
-    if reference is None:
-        return dkw_epsilon(subject.count, confidence) + subject.rank_error_bound()
-    alpha_each = (1.0 - confidence) / 2.0
-    return (
-        dkw_epsilon(subject.count, 1.0 - alpha_each)
-        + dkw_epsilon(reference.count, 1.0 - alpha_each)
-        + subject.rank_error_bound()
-        + reference.rank_error_bound()
-    )
-
-
-def with_dkw_band(
-    pairs: QuantilePairs,
-    reference_ppf: Callable[[FloatArray], FloatArray],
-    epsilon: float,
-    *,
-    confidence: float = 0.95,
-) -> QuantilePairs:
-    """``pairs`` with band_low/high = Q_ref(p ∓ ε): the simultaneous band of the module text.
-
-    ``reference_ppf`` is the reference's quantile function (``model.ppf`` or
-    ``sketch.quantile``); ``epsilon`` from :func:`band_epsilon`.
-    """
-    p = pairs.probs
-    lo_p, hi_p = p - epsilon, p + epsilon
-    low = np.full(p.shape, -np.inf)
-    high = np.full(p.shape, np.inf)
-    inside_lo, inside_hi = lo_p > 0, hi_p < 1
-    if inside_lo.any():
-        low[inside_lo] = np.asarray(reference_ppf(lo_p[inside_lo]), dtype=np.float64)
-    if inside_hi.any():
-        high[inside_hi] = np.asarray(reference_ppf(hi_p[inside_hi]), dtype=np.float64)
-    label = f"{confidence:.0%} simultaneous band (DKW, ε={epsilon:.3g})"
-    return dataclasses.replace(pairs, band_low=low, band_high=high, band_label=label)
 
 
 # ---------------------------------------------------------------- marks
@@ -141,6 +84,27 @@ def marks_from_pairs(pairs: QuantilePairs, qs: tuple[float, ...] = MARK_QS) -> t
     return tuple(out)
 
 
+@dataclass(frozen=True)
+class QQData:
+    """What the Q-Q plot draws: the quantile pairs (with their band) and the named points."""
+
+    pairs: QuantilePairs
+    marks: tuple[Mark, ...]
+    at_or_below_zero: tuple[tuple[str, int], ...] = ()
+    """(label, values <= 0) for each sketch that has any: a log axis draws them at its floor."""
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            **self.pairs.to_dict(),
+            "marks": [m.to_dict() for m in self.marks],
+            "at_or_below_zero": dict(self.at_or_below_zero),
+        }
+
+
+def qq_from_pairs(pairs: QuantilePairs) -> QQData:
+    return QQData(pairs, marks_from_pairs(pairs))
+
+
 # ---------------------------------------------------------------- detrended
 @dataclass(frozen=True)
 class Detrended:
@@ -158,6 +122,8 @@ class Detrended:
     band_high: FloatArray | None = None
     band_label: str = ""
     marks: tuple[Mark, ...] = ()
+    at_or_below_zero: tuple[tuple[str, int], ...] = ()
+    """As :class:`QQData`'s: for a log value axis (``x_axis='value'``)."""
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -318,9 +284,12 @@ class CDFOverlay:
 
     series: tuple[CDFSeries, ...]
     unit: str
+    at_or_below_zero: tuple[tuple[str, int], ...] = ()
+    """As :class:`QQData`'s."""
 
     def to_dict(self) -> dict[str, Any]:
         return {
+            "at_or_below_zero": dict(self.at_or_below_zero),
             "unit": self.unit,
             "series": [
                 {"label": s.label, "values": _list(s.values), "probs": s.probs.tolist()} for s in self.series
@@ -358,28 +327,11 @@ def cdf_from_pairs(pairs: QuantilePairs) -> CDFOverlay:
     )
 
 
-# ---------------------------------------------------------------- shift function input
-class ShiftLike(Protocol):
-    """What the shift plot draws; :class:`ogive.fit.shift.ShiftFunction` has it."""
-
-    @property
-    def probs(self) -> FloatArray: ...
-    @property
-    def delta(self) -> FloatArray: ...
-    @property
-    def delta_low(self) -> FloatArray: ...
-    @property
-    def delta_high(self) -> FloatArray: ...
-    @property
-    def unit(self) -> str: ...
-    @property
-    def labels(self) -> tuple[str, str]: ...
-    @property
-    def confidence(self) -> float: ...
-
-
 # ---------------------------------------------------------------- one entry for every plot
 PLOT_KINDS: tuple[str, ...] = ("qq", "detrended", "pp", "cdf", "shift")
+
+PlotData: TypeAlias = "QQData | Detrended | PPPoints | CDFOverlay | ShiftFunction"
+"""What :func:`plot_inputs` returns: the one object each plot kind draws."""
 
 
 class QuantileCDFModel(Protocol):
@@ -398,13 +350,14 @@ def plot_inputs(
     reference_label: str = "reference",
     band: bool = True,
     confidence: float = 0.95,
-) -> Any:
+) -> PlotData:
     """The result object each plot kind draws, with the subject read against the reference.
 
-    ``qq``/``detrended`` -> QuantilePairs (with the DKW band when ``band``), ``pp`` ->
-    PPPoints, ``cdf`` -> CDFOverlay, ``shift`` -> ShiftFunction (subject − reference;
-    needs a sketch as reference). The CLI and the workspace both call this, so the same
-    inputs give the same picture everywhere. Raises ValueError (a full sentence).
+    ``qq`` -> QQData (the quantile pairs with the DKW band when ``band``, and the named
+    points), ``detrended`` -> Detrended, ``pp`` -> PPPoints, ``cdf`` -> CDFOverlay,
+    ``shift`` -> ShiftFunction (subject − reference; needs a sketch as reference). The
+    CLI and the workspace both call this, so the same inputs give the same picture
+    everywhere; the renderer computes nothing. Raises ValueError (a full sentence).
     """
     from .qq import pairs_from_model, pairs_from_sketches
 
@@ -418,10 +371,12 @@ def plot_inputs(
         if reference.count == 0:
             raise ValueError(f"{reference_label!r} holds no values; there is nothing to plot.")
         if reference.unit != subject.unit:
-            raise ValueError(
-                f"{subject_label!r} is in {subject.unit or 'no unit'!r} and {reference_label!r} in "
-                f"{reference.unit or 'no unit'!r}; rescan one with the same --unit."
-            )
+            if duration_factor(subject.unit, reference.unit) is None:
+                raise ValueError(
+                    f"{subject_label!r} is in {subject.unit or 'no unit'!r} and {reference_label!r} in "
+                    f"{reference.unit or 'no unit'!r}: they measure different things and share no axis."
+                )
+            subject = in_unit(subject, reference.unit)  # read in the reference's unit, as compare does
     if kind == "shift":
         if not isinstance(reference, Sketch):
             raise ValueError(
@@ -440,15 +395,18 @@ def plot_inputs(
             reference_label=reference_label,
             confidence=confidence if band else None,
         )
+    floor = at_or_below_zero({subject_label: subject, reference_label: reference})
     if kind == "cdf":
         if isinstance(reference, Sketch):
-            return cdf_from_sketches({reference_label: reference, subject_label: subject})
+            overlay = cdf_from_sketches({reference_label: reference, subject_label: subject})
+            return dataclasses.replace(overlay, at_or_below_zero=floor)
         p = cdf_probs()
         with np.errstate(all="ignore"):
             ref_q = np.asarray(reference.ppf(p), dtype=np.float64)
         return CDFOverlay(
             (CDFSeries(ref_q, p, reference_label), CDFSeries(subject.quantile(p), p, subject_label)),
             subject.unit,
+            floor,
         )
     if isinstance(reference, Sketch):
         pairs = pairs_from_sketches(
@@ -464,4 +422,16 @@ def plot_inputs(
         if band:
             eps = band_epsilon(subject, confidence=confidence)
             pairs = with_dkw_band(pairs, reference.ppf, eps, confidence=confidence)
-    return pairs
+    if kind == "detrended":
+        return dataclasses.replace(detrended_from_pairs(pairs), at_or_below_zero=floor)
+    return dataclasses.replace(qq_from_pairs(pairs), at_or_below_zero=floor)
+
+
+def at_or_below_zero(named: dict[str, Sketch | QuantileCDFModel]) -> tuple[tuple[str, int], ...]:
+    """How many values of each sketch are zero or negative (models have no count): a log
+    value axis cannot place them, so the plot draws them at its floor and says how many."""
+    return tuple(
+        (label, s.zero_count + s.negative_count)
+        for label, s in named.items()
+        if isinstance(s, Sketch) and s.zero_count + s.negative_count
+    )

@@ -33,6 +33,7 @@ from typing import Any
 
 import numpy as np
 
+from ..numbers import quantity
 from ..sketch import Sketch, quantile_label
 from ..sketch.units import SECONDS_PER_UNIT
 from .ladder import QuantileInterval, quantile_intervals
@@ -210,14 +211,14 @@ MEANING = (
 
 
 def _fmt(x: float, unit: str) -> str:
-    if not math.isfinite(x):
-        return "unbounded"
-    return f"{x:.4g} {unit}".rstrip()
+    """The one number formatter (ogive.numbers), four figures; 'unbounded' for an end
+    the data cannot bound."""
+    return quantity(x, unit, digits=4) if math.isfinite(x) else "unbounded"
 
 
 def _iv(iv: QuantileInterval, unit: str) -> str:
-    """'3.642 ms [3.578, 3.71]': an estimate with its interval."""
-    return f"{_fmt(iv.estimate, unit)} [{_fmt(iv.low, '')}, {_fmt(iv.high, '')}]"
+    """'3.642 ms [3.578 ms, 3.71 ms]': an estimate with its interval."""
+    return f"{_fmt(iv.estimate, unit)} [{_fmt(iv.low, unit)}, {_fmt(iv.high, unit)}]"
 
 
 def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, prove: bool) -> LimitCheck:

@@ -8,11 +8,11 @@ from __future__ import annotations
 
 import shutil
 import sys
-from typing import Any
 
 import numpy as np
 
-from ..fit.curves import dkw_epsilon, with_dkw_band
+from ..fit.band import dkw_epsilon, with_dkw_band
+from ..fit.curves import PlotData, cdf_from_pairs, detrended_from_pairs, pp_from_pairs, qq_from_pairs
 from ..fit.qq import QuantilePairs, probability_grid
 from ..fit.shift import ShiftFunction
 from . import draw
@@ -48,8 +48,13 @@ def main(argv: list[str]) -> int:
         unit="ms",
         labels=("before", "after"),
     )
-    kinds: list[tuple[str, Any]] = [("qq", pairs), ("detrended", pairs), ("pp", pairs), ("cdf", pairs)]
-    kinds.append(("shift", shift))
+    kinds: list[tuple[str, PlotData]] = [
+        ("qq", qq_from_pairs(pairs)),
+        ("detrended", detrended_from_pairs(pairs)),
+        ("pp", pp_from_pairs(pairs, epsilon=dkw_epsilon(100_000))),
+        ("cdf", cdf_from_pairs(pairs)),
+        ("shift", shift),
+    ]
     try:
         for kind, inputs in kinds:
             print("\n".join(draw(kind, inputs, width=width, height=height, ascii_only=ascii_only)))

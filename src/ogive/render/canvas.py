@@ -31,6 +31,9 @@ class Layer:
     """ASCII mode: the character for every cell the layer touches."""
     priority: int = 0
     """Higher wins a cell; ties go to the layer added later."""
+    every: int = 1
+    """A marker layer stamps only cells with (row + col) divisible by this: a dotted
+    line, one glyph every few cells along it whatever its slope."""
 
 
 class Canvas:
@@ -129,6 +132,9 @@ class Canvas:
         winner = np.full((self.rows, self.cols), -1, dtype=np.int64)
         for i, layer in enumerate(self.layers):
             hit = self._bits[i] != 0
+            if layer.every > 1 and (layer.braille is not None or self.ascii_only):
+                rows, cols = np.indices(hit.shape)
+                hit &= (rows + cols) % layer.every == 0
             # A marker beats braille at equal priority: it carries the series identity.
             rank = layer.priority * 2 + (1 if (layer.braille is not None or self.ascii_only) else 0)
             take = hit & (rank >= best)

@@ -3,7 +3,7 @@
 Layout of a ``width`` × ``height`` plot (every line at most ``width`` cells, exactly
 ``height`` lines)::
 
-    header (1 line below 20 rows, 2 from 20): y-axis name, legend, x-axis name if it
+    header (1 line below 13 rows, 2 from 13): y-axis name, legend, x-axis name if it
     did not fit below
     y tick labels │ canvas rows
                   └──┬───────┬──  (axis line with tick marks)
@@ -82,14 +82,14 @@ class Figure:
     labels: list[PlacedLabel] = field(default_factory=list)
     marks: dict[str, tuple[int, int]] = field(default_factory=dict)
     """Mark name -> (row, col) inside the canvas."""
-    _pending: list[tuple[str, int, int]] = field(default_factory=list)
+    _pending: list[tuple[str, int, int, tuple[float, float]]] = field(default_factory=list)
 
     def __post_init__(self) -> None:
         if self.width < MIN_WIDTH or self.height < MIN_HEIGHT:
             raise ValueError(
                 f"a plot needs at least {MIN_WIDTH}×{MIN_HEIGHT} cells; got {self.width}×{self.height}."
             )
-        self.header_rows = 1 if self.height < 20 else 2
+        self.header_rows = 1 if self.height < 13 else 2  # from 13 rows a legend may take a second line
         rows = self.height - self.header_rows - 2
         self.yticks = [t for t in choose_ticks(self.yscale, rows, self.yfmt, horizontal=False) if t.major]
         self.ylabel_width = max([len(t.label) for t in self.yticks] + [1])
@@ -155,17 +155,28 @@ class Figure:
         self.marks[name] = cell
         self.put(r, c, glyph, "mark")
         if label:
-            self._pending.append((label, r, c))
+            self._pending.append((label, r, c, (x, y)))
 
     def finish(self) -> Figure:
         """Place the pending labels, after every mark is down (so none lands under one)."""
         pending, self._pending = self._pending, []
-        # Marks that share a cell (a step-shaped quantile function, few values) share
-        # one label, "p90/p99", instead of scattering labels around one glyph.
-        by_cell: dict[tuple[int, int], list[str]] = {}
-        for label, r, c in pending:
-            by_cell.setdefault((r, c), []).append(label)
-        for (r, c), names in by_cell.items():
+        # Marks at the same point (a step-shaped quantile function: p90 = p99 = 10 ms)
+        # share one label, "p90/p99", which says they are equal. Marks that only share a
+        # cell keep a label each: different quantiles never read as one.
+        # Only where the plot has no room for a label each do they share one ("p99/p99.9"),
+        # rather than one of them going unnamed.
+        by_cell: dict[tuple[int, int], dict[tuple[float, float], list[str]]] = {}
+        for label, r, c, point in pending:
+            by_cell.setdefault((r, c), {}).setdefault(point, []).append(label)
+        for (r, c), points in by_cell.items():
+            texts = ["/".join(names) for names in points.values()]
+            if len(texts) > 1:
+                kept = (len(self.labels), dict(self.overlay))
+                if all(self._place_label(text, r, c) for text in texts):
+                    continue
+                del self.labels[kept[0] :]
+                self.overlay = kept[1]
+            names = [n for group in points.values() for n in group]
             text = "/".join(names)
             if len(names) > 2 and not self._fits_somewhere(text, r, c):
                 text = f"{names[0]}-{names[-1]}"
@@ -184,11 +195,12 @@ class Figure:
                 return True
         return any(mr == row and col <= mc < col + length for mr, mc in self.marks.values())
 
-    def _place_label(self, text: str, r: int, c: int) -> None:
+    def _place_label(self, text: str, r: int, c: int) -> bool:
         """Beside the mark if possible; never nearer to another mark than to its own.
 
         Cost: rows away from the mark weigh most (a label on its mark's row cannot be
-        misread), then hidden data cells, then hidden lines and bands.
+        misread), then hidden data cells, then hidden lines and bands. False when no
+        place was free.
         """
         n = len(text)
         candidates = self._candidates(n, r, c)
@@ -209,9 +221,10 @@ class Figure:
             if cost < best_cost:
                 best, best_cost = (row, col), cost
         if best is None:
-            return
+            return False
         self.labels.append(PlacedLabel(text, best[0], best[1], (r, c)))
         self.put(best[0], best[1], text, "label")
+        return True
 
     @staticmethod
     def _candidates(n: int, r: int, c: int) -> list[tuple[int, int]]:
@@ -247,10 +260,19 @@ class Figure:
         # items; each goes on the first header line with room, or is left out.
         x_label_cells, x_title_placed = self._x_label_line()
         tokens: list[list[tuple[str, str]]] = []
-        if self.y_title:
-            tokens.append([(("^ " if a else "↑ ") + self.y_title, "title")])
-        if not x_title_placed and self.x_title:
-            tokens.append([(("-> " if a else "→ ") + self.x_title, "title")])
+        y_name = (("^ " if a else "↑ ") + self.y_title) if self.y_title else ""
+        x_name = (("-> " if a else "→ ") + self.x_title) if self.x_title and not x_title_placed else ""
+        if self.header_rows == 1 and y_name and x_name and len(y_name) + 2 + len(x_name) > W and W >= 42:
+            # One header line and two long axis names: both shortened in the middle, so
+            # neither is lost (a plot without its axis names cannot be read); below ~20
+            # cells a name is no longer readable, and the y name alone is kept.
+            room = W - 2
+            y_room = max(room - len(x_name), room // 2) if len(y_name) > room // 2 else len(y_name)
+            y_name, x_name = _middle(y_name, y_room, a), _middle(x_name, room - min(y_room, len(y_name)), a)
+        if y_name:
+            tokens.append([(y_name, "title")])
+        if x_name:
+            tokens.append([(x_name, "title")])
         for item in self.legend:
             tokens.append([(item.glyph, item.role), (" " + item.text, "legend")])
         head: list[list[tuple[str, str]]] = [[] for _ in range(self.header_rows)]
@@ -341,3 +363,13 @@ class Figure:
                     cells[start + i] = (ch, "title")
                 placed = True
         return cells, placed
+
+
+def _middle(text: str, room: int, ascii_only: bool) -> str:
+    """``text`` in ``room`` cells, shortened in the middle (both ends tell the most)."""
+    if len(text) <= room:
+        return text
+    if room < 5:
+        return text[:room]
+    head = (room - 1) // 2
+    return text[:head] + ("~" if ascii_only else "…") + text[len(text) - (room - 1 - head) :]

@@ -5,48 +5,42 @@ returns exactly ``height`` lines of at most ``width`` cells, legend and labels
 included. The ``*_figure`` variants return the assembled :class:`Figure` (marks, label
 positions) for callers and tests that need to know where things landed.
 
-No statistics here: the numbers come from :mod:`ogive.fit.qq`,
-:mod:`ogive.fit.curves` and :mod:`ogive.fit.shift`; this module only scales and draws.
+No statistics here: every plot takes the one object :func:`ogive.fit.curves.plot_inputs`
+makes for it (named points, bands, deviations included); this module only scales and
+draws.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
-from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
 
-from ..fit.curves import (
-    CDFOverlay,
-    Detrended,
-    PPPoints,
-    ShiftLike,
-    cdf_from_pairs,
-    detrended_from_pairs,
-    marks_from_pairs,
-    pp_from_pairs,
-)
-from ..fit.qq import QuantilePairs
+from ..fit.curves import CDFOverlay, Detrended, PlotData, PPPoints, QQData
+from ..fit.shift import ShiftFunction
+from ..numbers import count, percent, quantity
 from .canvas import Layer
 from .frame import Figure, LegendItem, PlotLines
-from .ticks import Scale, format_percent, format_value, make_scale
+from .ticks import Scale, make_scale
 
 FloatArray = NDArray[np.float64]
 
 # Glyphs: (unicode, ascii). Braille layers have unicode None.
 SUBJECT = ("•", "*")
+BAND = ("·", ":")
+"""The band is a row of small dots, not a braille line, so it reads apart from y = x without colour."""
 SECOND = ("∘", "o")
 MARK = ("◆", "O")
 UP, DOWN = ("↑", "^"), ("↓", "v")
 
 
 def _fmt(unit: str, ascii_only: bool) -> Callable[[float, int], str]:
-    return lambda v, d: format_value(v, unit, digits=d, ascii_only=ascii_only)
+    return lambda v, d: quantity(v, unit, digits=d, compact=True, ascii_only=ascii_only)
 
 
 def _pct(v: float, _d: int) -> str:
-    return format_percent(v)
+    return percent(v, signed=True, compact=True)
 
 
 def _prob(v: float, d: int) -> str:
@@ -55,12 +49,33 @@ def _prob(v: float, d: int) -> str:
 
 
 def _axis_kind(log: bool | None, *arrays: FloatArray) -> str:
-    """'log' when asked, or when not said and every finite value is positive."""
+    """'log' when asked, or when not said and no value is negative; 'linear' otherwise.
+
+    Zeros do not make an axis linear: a latency field full of ``0.000`` (an answer from
+    cache) on a linear axis squeezes p50 to p99 into one corner. They are drawn at the
+    log axis's floor instead (:func:`_on_axis`) and the legend says how many there are.
+    A log axis needs at least one positive value.
+    """
     finite = np.concatenate([a[np.isfinite(a)] for a in arrays]) if arrays else np.empty(0)
-    positive = finite.size > 0 and bool(np.all(finite > 0))
+    if not bool(np.any(finite > 0)):
+        return "linear"
     if log is None:
-        return "log" if positive else "linear"
-    return "log" if (log and positive) else "linear"
+        return "linear" if bool(np.any(finite < 0)) else "log"
+    return "log" if log else "linear"
+
+
+def _on_axis(scale: Scale, values: FloatArray) -> FloatArray:
+    """On a log axis, values at or below zero (which it cannot place) at its floor."""
+    if scale.kind != "log":
+        return values
+    return np.where(np.isfinite(values) & (values <= 0), scale.lo, values)
+
+
+def _floor_legend(fig: Figure, scale: Scale, counts: tuple[tuple[str, int], ...]) -> None:
+    """Say how many values sit at the floor of a log axis (zero or negative: no place on it)."""
+    if scale.kind == "log" and counts:
+        where = ", ".join(f"{label} {count(n)}" for label, n in counts)
+        fig.legend.append(LegendItem(fig.glyph("≤0", "<=0"), f"at floor: {where}", "axis"))
 
 
 def _with_unit(text: str, unit: str) -> str:
@@ -78,12 +93,12 @@ def _marker(role: str, glyphs: tuple[str, str], priority: int = 1) -> Layer:
 def _band_legend(label: str, fig: Figure) -> LegendItem:
     # "95% band": the long name and method stay in the data (band_label) and --help.
     short = label.split(" (")[0].replace(" simultaneous", "") if label else "band"
-    return LegendItem(fig.glyph("⠒", ":"), short, "band")
+    return LegendItem(fig.glyph(*BAND), short, "band")
 
 
 # ---------------------------------------------------------------- Q-Q
 def qq_figure(
-    pairs: QuantilePairs,
+    data: QQData,
     *,
     width: int,
     height: int,
@@ -91,9 +106,10 @@ def qq_figure(
     ascii_only: bool = False,
     marks: bool = True,
 ) -> Figure:
-    ref, sub = pairs.reference, pairs.subject
-    kind = _axis_kind(log, ref, sub)
-    scale = make_scale(kind, np.concatenate((ref, sub)))
+    pairs = data.pairs
+    kind = _axis_kind(log, pairs.reference, pairs.subject)
+    scale = make_scale(kind, np.concatenate((pairs.reference, pairs.subject)))
+    ref, sub = _on_axis(scale, pairs.reference), _on_axis(scale, pairs.subject)
     fmt = _fmt(pairs.unit, ascii_only)
     fig = Figure(
         width,
@@ -108,9 +124,9 @@ def qq_figure(
     )
     W, H = fig.canvas.dot_width, fig.canvas.dot_height
     if pairs.band_low is not None and pairs.band_high is not None:
-        band = _braille("band", ":")
-        fig.line(band, ref, pairs.band_low, dash=(2, 2))
-        fig.line(band, ref, pairs.band_high, dash=(2, 2))
+        band = Layer("band", BAND[0], BAND[1], 0, every=2)
+        fig.line(band, ref, _on_axis(scale, pairs.band_low))
+        fig.line(band, ref, _on_axis(scale, pairs.band_high))
         fig.legend.append(_band_legend(pairs.band_label, fig))
     # Same scale on both axes: the y = x line runs corner to corner.
     fig.line_dots(_braille("reference", "."), np.array([0.0, W - 1.0]), np.array([H - 1.0, 0.0]))
@@ -119,14 +135,16 @@ def qq_figure(
         LegendItem(fig.glyph(*SUBJECT), "quantiles", "subject"),
         LegendItem(fig.glyph("⠤", "."), "y = x", "reference"),
     ]
+    _floor_legend(fig, scale, data.at_or_below_zero)
     if marks:
-        for m in marks_from_pairs(pairs):
-            fig.mark(m.label, m.reference, m.subject, fig.glyph(*MARK), label=m.label)
+        for m in data.marks:
+            mx, my = _on_axis(scale, np.array([m.reference, m.subject]))
+            fig.mark(m.label, float(mx), float(my), fig.glyph(*MARK), label=m.label)
     return fig.finish()
 
 
 def qq_plot(
-    pairs: QuantilePairs,
+    data: QQData,
     *,
     width: int,
     height: int,
@@ -137,22 +155,23 @@ def qq_plot(
     """Subject quantiles (y) against reference quantiles (x) with the 45° line.
 
     Above the line: the subject is slower (larger) than the reference at that
-    probability. ``log`` None picks a log axis when every value is positive.
+    probability. ``log`` None picks a log axis unless a value is negative (zeros go to
+    its floor, counted in the legend).
     """
-    return qq_figure(pairs, width=width, height=height, log=log, ascii_only=ascii_only, marks=marks).lines()
+    return qq_figure(data, width=width, height=height, log=log, ascii_only=ascii_only, marks=marks).lines()
 
 
 # ---------------------------------------------------------------- detrended
-def _robust_range(values: list[FloatArray], cap_from: FloatArray) -> FloatArray:
-    """Band values within 4× the data's own spread (a runaway band edge would flatten the data)."""
+def _robust_range(values: list[FloatArray], cap_from: FloatArray, factor: float = 4.0) -> FloatArray:
+    """Band values within ``factor`` × the data's own size (a runaway band edge would flatten the data)."""
     data = cap_from[np.isfinite(cap_from)]
-    limit = 4 * max(float(np.abs(data).max()) if data.size else 0.0, 0.01)
+    limit = factor * max(float(np.abs(data).max()) if data.size else 0.0, 0.01)
     keep = [v[np.isfinite(v) & (np.abs(v) <= limit)] for v in values]
     return np.concatenate([data, *keep, np.array([0.0])])
 
 
 def detrended_figure(
-    data: QuantilePairs | Detrended,
+    d: Detrended,
     *,
     width: int,
     height: int,
@@ -160,7 +179,6 @@ def detrended_figure(
     log: bool | None = None,
     ascii_only: bool = False,
 ) -> Figure:
-    d = detrended_from_pairs(data) if isinstance(data, QuantilePairs) else data
     if x_axis not in ("prob", "value"):
         raise ValueError(f"x_axis must be 'prob' or 'value', got {x_axis!r}.")
     if x_axis == "prob":
@@ -169,8 +187,8 @@ def detrended_figure(
         xfmt: Callable[[float, int], str] = _prob
         x_title = f"probability ({d.reference_label})"
     else:
-        x = d.reference
-        xscale = make_scale(_axis_kind(log, x), x)
+        xscale = make_scale(_axis_kind(log, d.reference), d.reference)
+        x = _on_axis(xscale, d.reference)
         xfmt = _fmt(d.unit, ascii_only)
         x_title = d.reference_label
     bands = [b for b in (d.band_low, d.band_high) if b is not None]
@@ -189,9 +207,9 @@ def detrended_figure(
         ),
     )
     if d.band_low is not None and d.band_high is not None:
-        band = _braille("band", ":")
-        fig.line(band, x, d.band_low, dash=(2, 2))
-        fig.line(band, x, d.band_high, dash=(2, 2))
+        band = Layer("band", BAND[0], BAND[1], 0, every=2)
+        fig.line(band, x, d.band_low)
+        fig.line(band, x, d.band_high)
         fig.legend.append(_band_legend(d.band_label, fig))
     xs = np.array([xscale.lo, xscale.hi])
     fig.line(_braille("reference", "."), xs, np.zeros(2))
@@ -200,14 +218,16 @@ def detrended_figure(
         LegendItem(fig.glyph(*SUBJECT), "deviation", "subject"),
         LegendItem(fig.glyph("⠤", "."), "same", "reference"),
     ]
+    if x_axis == "value":
+        _floor_legend(fig, xscale, d.at_or_below_zero)
     for m in d.marks:
-        mx = m.q if x_axis == "prob" else m.reference
+        mx = m.q if x_axis == "prob" else float(_on_axis(xscale, np.array([m.reference]))[0])
         fig.mark(m.label, mx, m.subject, fig.glyph(*MARK), label=m.label)
     return fig.finish()
 
 
 def detrended_plot(
-    data: QuantilePairs | Detrended,
+    data: Detrended,
     *,
     width: int,
     height: int,
@@ -228,7 +248,7 @@ def detrended_plot(
 
 # ---------------------------------------------------------------- P-P
 def pp_figure(
-    data: QuantilePairs | PPPoints,
+    pp: PPPoints,
     *,
     width: int,
     height: int,
@@ -236,7 +256,6 @@ def pp_figure(
     ascii_only: bool = False,
 ) -> Figure:
     del log  # probabilities: a log axis means nothing here
-    pp = pp_from_pairs(data) if isinstance(data, QuantilePairs) else data
     unit = Scale("linear", 0.0, 1.0)
     fig = Figure(
         width,
@@ -251,10 +270,10 @@ def pp_figure(
     )
     W, H = fig.canvas.dot_width, fig.canvas.dot_height
     if pp.epsilon is not None and pp.epsilon > 0:
-        band = _braille("band", ":")
+        band = Layer("band", BAND[0], BAND[1], 0, every=2)
         e = pp.epsilon
-        fig.line(band, np.array([0.0, 1.0 - e]), np.array([e, 1.0]), dash=(2, 2))
-        fig.line(band, np.array([e, 1.0]), np.array([0.0, 1.0 - e]), dash=(2, 2))
+        fig.line(band, np.array([0.0, 1.0 - e]), np.array([e, 1.0]))
+        fig.line(band, np.array([e, 1.0]), np.array([0.0, 1.0 - e]))
         fig.legend.append(_band_legend(pp.band_label, fig))
     fig.line_dots(_braille("reference", "."), np.array([0.0, W - 1.0]), np.array([H - 1.0, 0.0]))
     fig.line(_marker("subject", SUBJECT), pp.reference_p, pp.subject_p)
@@ -268,7 +287,7 @@ def pp_figure(
 
 
 def pp_plot(
-    data: QuantilePairs | PPPoints,
+    data: PPPoints,
     *,
     width: int,
     height: int,
@@ -285,7 +304,7 @@ def pp_plot(
 
 # ---------------------------------------------------------------- CDF overlay
 def cdf_figure(
-    data: QuantilePairs | CDFOverlay,
+    ov: CDFOverlay,
     *,
     width: int,
     height: int,
@@ -293,7 +312,6 @@ def cdf_figure(
     prob_axis: str = "linear",
     ascii_only: bool = False,
 ) -> Figure:
-    ov = cdf_from_pairs(data) if isinstance(data, QuantilePairs) else data
     if prob_axis not in ("linear", "logit"):
         raise ValueError(f"prob_axis must be 'linear' or 'logit', got {prob_axis!r}.")
     values = [s.values for s in ov.series]
@@ -320,13 +338,14 @@ def cdf_figure(
         (_marker("second", SECOND, priority=2), fig.glyph(*SECOND)),
     ]
     for s, (layer, glyph) in zip(ov.series, styles, strict=False):
-        fig.line(layer, s.values, s.probs)
+        fig.line(layer, _on_axis(xscale, s.values), s.probs)
         fig.legend.append(LegendItem(glyph, s.label, layer.role))
+    _floor_legend(fig, xscale, ov.at_or_below_zero)
     return fig.finish()
 
 
 def cdf_plot(
-    data: QuantilePairs | CDFOverlay,
+    data: CDFOverlay,
     *,
     width: int,
     height: int,
@@ -336,7 +355,6 @@ def cdf_plot(
 ) -> PlotLines:
     """Two (up to three) CDFs on one value axis: the first as a braille line, the others as markers.
 
-    With pairs, the reference is the first series and the subject the second.
     ``prob_axis='logit'`` stretches the tails.
     """
     return cdf_figure(
@@ -349,18 +367,8 @@ def _unbounded(a: FloatArray) -> FloatArray:
     return np.where(a >= 1e300, np.inf, np.where(a <= -1e300, -np.inf, a))
 
 
-def _shift_of(data: Any) -> ShiftLike:
-    """A ShiftFunction, or anything holding one as ``.shift`` (a Comparison)."""
-    inner = getattr(data, "shift", None)
-    if inner is not None and hasattr(inner, "delta"):
-        return inner  # type: ignore[no-any-return]
-    if hasattr(data, "delta") and hasattr(data, "probs"):
-        return data  # type: ignore[no-any-return]
-    raise TypeError("shift_plot needs a ShiftFunction (or a Comparison holding one as .shift).")
-
-
 def shift_figure(
-    data: Any,
+    sf: ShiftFunction,
     *,
     width: int,
     height: int,
@@ -368,14 +376,18 @@ def shift_figure(
     ascii_only: bool = False,
 ) -> Figure:
     del log  # differences can be negative: the value axis is always linear
-    sf = _shift_of(data)
     probs = np.asarray(sf.probs, dtype=np.float64)
     delta = np.asarray(sf.delta, dtype=np.float64)
     # Unbounded ends may arrive as ±inf or as ±float max (numpy.nan_to_num's default).
     low = _unbounded(np.asarray(sf.delta_low, dtype=np.float64))
     high = _unbounded(np.asarray(sf.delta_high, dtype=np.float64))
     xscale = make_scale("logit", probs, pad=0.06)
-    yscale = make_scale("linear", np.concatenate((delta, low, high, np.array([0.0]))), pad=0.06)
+    # The range follows the estimates: an interval far wider than every shift (the far
+    # tail of a small sample) would flatten them all onto zero, so it is cut at the edge
+    # of the plot and marked with an arrow, as an unbounded end is.
+    yscale = make_scale("linear", _robust_range([low, high], delta, factor=1.25), pad=0.06)
+    off_top = ~np.isfinite(high) | (high > yscale.hi)
+    off_bottom = ~np.isfinite(low) | (low < yscale.lo)
     a, b = sf.labels
     fig = Figure(
         width,
@@ -392,8 +404,8 @@ def shift_figure(
     interval = _braille("band", "|")
     idx = fig.canvas.layer(interval)
     xd, _ = fig.to_dots(probs, delta)
-    _, lo_d = fig.to_dots(probs, np.where(np.isfinite(low), low, yscale.lo))
-    _, hi_d = fig.to_dots(probs, np.where(np.isfinite(high), high, yscale.hi))
+    _, lo_d = fig.to_dots(probs, np.where(off_bottom, yscale.lo, low))
+    _, hi_d = fig.to_dots(probs, np.where(off_top, yscale.hi, high))
     for i in range(probs.size):
         fig.canvas.polyline(idx, np.array([xd[i], xd[i]]), np.array([lo_d[i], hi_d[i]]))
     # Points only, not joined: a joining line would hide the intervals, which are the message.
@@ -403,9 +415,9 @@ def shift_figure(
     top, bottom = 0, fig.canvas.rows - 1
     for i in range(probs.size):
         col = int(np.rint(xd[i])) // 2
-        if not np.isfinite(high[i]):
+        if off_top[i]:
             fig.put(top, col, fig.glyph(*UP), "band")
-        if not np.isfinite(low[i]):
+        if off_bottom[i]:
             fig.put(bottom, col, fig.glyph(*DOWN), "band")
     fig.legend.extend(
         [
@@ -413,11 +425,13 @@ def shift_figure(
             LegendItem(fig.glyph("⡇", "|"), f"{sf.confidence:.0%} simultaneous", "band"),
         ]
     )
+    if off_top.any() or off_bottom.any():
+        fig.legend.append(LegendItem(fig.glyph("↑↓", "^v"), "beyond the axis", "band"))
     return fig.finish()
 
 
 def shift_plot(
-    data: Any,
+    data: ShiftFunction,
     *,
     width: int,
     height: int,
@@ -428,7 +442,7 @@ def shift_plot(
 
     Above zero: B is slower there. An interval that does not reach zero is a credible
     change; arrows mark intervals the data cannot bound. ``log`` is ignored (differences
-    can be negative). Accepts a ShiftFunction or a Comparison (its ``.shift``).
+    can be negative).
     """
     return shift_figure(data, width=width, height=height, log=log, ascii_only=ascii_only).lines()
 
@@ -436,7 +450,7 @@ def shift_plot(
 # ---------------------------------------------------------------- dispatch
 def draw(
     kind: str,
-    data: Any,
+    data: PlotData,
     *,
     width: int,
     height: int,

@@ -14,60 +14,12 @@ from typing import Any
 
 import numpy as np
 
+from ..numbers import quantity
 from ..sketch import Sketch, SketchSet, quantile_label
+from .tables import table, text_lines
 
 LADDER = (0.5, 0.9, 0.99, 0.999, 0.9999)
 """The quantiles every summary shows, between min and max."""
-
-_TIME_SECONDS = {"ns": 1e-9, "us": 1e-6, "ms": 1e-3, "s": 1.0, "m": 60.0, "h": 3600.0}
-_TIME_STEPS = (("ns", 1e-9), ("µs", 1e-6), ("ms", 1e-3), ("s", 1.0))
-
-
-# ---------------------------------------------------------------------- numbers
-def _sig3(x: float) -> str:
-    """Three significant figures without exponent for the range a table shows."""
-    a = abs(x)
-    if a >= 1e6:
-        return f"{x:.3g}"  # an absurd value (1e308 in a log) must not print 300 digits
-    if a >= 100:
-        return f"{x:.0f}"
-    if a >= 10:
-        return f"{x:.1f}"
-    if a >= 1:
-        return f"{x:.2f}"
-    return f"{x:.3g}"
-
-
-def format_value(value: float, unit: str) -> str:
-    """A value for people: time units rescaled (412 µs, 12.3 ms, 1.20 s, 4.5 min), others as is.
-
-    Three significant figures: enough to read a tail, and the digest's own error is
-    larger than the fourth figure anywhere but at the exact tails.
-    """
-    if value is None or not math.isfinite(value):
-        return "–"
-    if unit in _TIME_SECONDS:
-        if value == 0:
-            return f"0 {unit}"
-        # Round to three figures first, then choose the unit, so 999.7 µs reads 1.00 ms.
-        seconds = float(f"{value * _TIME_SECONDS[unit]:.3g}")
-        a = abs(seconds)
-        if a >= 3 * 3600:
-            return f"{_sig3(seconds / 3600)} h"
-        if a >= 600:
-            return f"{_sig3(seconds / 60)} min"
-        name, scale = _TIME_STEPS[0]
-        for step, size in _TIME_STEPS:
-            if a >= size:
-                name, scale = step, size
-        return f"{_sig3(seconds / scale)} {name}"
-    if abs(value) < 1e7 and (value == int(value) or abs(value) >= 100):
-        text = f"{value:,.0f}"
-    elif abs(value) >= 1e7:
-        text = f"{value:.4g}"
-    else:
-        text = _sig3(value)
-    return f"{text} {unit}" if unit else text
 
 
 def _json_number(x: float) -> float | None:
@@ -192,16 +144,8 @@ def summary_dict(
 
 # ---------------------------------------------------------------------- text
 def _table(header: Sequence[str], rows: Sequence[Sequence[str]], left: int = 1) -> list[str]:
-    """Columns padded to their widest cell; the first ``left`` columns left-aligned."""
-    widths = [max(len(h), *(len(r[i]) for r in rows)) if rows else len(h) for i, h in enumerate(header)]
-
-    def line(cells: Sequence[str]) -> str:
-        parts = [
-            c.ljust(w) if i < left else c.rjust(w) for i, (c, w) in enumerate(zip(cells, widths, strict=True))
-        ]
-        return "  ".join(parts).rstrip()
-
-    return [line(header), *(line(r) for r in rows)]
+    """The one table layout (:func:`.tables.text_lines`): the first ``left`` columns left-aligned."""
+    return text_lines(table(header, rows, range(left, len(header))))
 
 
 def _short(name: str, limit: int = 28) -> str:
@@ -225,8 +169,13 @@ def _describe(summary: SetSummary) -> list[str]:
     if fields:
         bits.append("value: " + "; ".join(fields))
     bits.append("unit: " + (", ".join(u or "none (numbers as written)" for u in units)))
-    # Groups and splits of one scan each record the whole scan's line count: show it once.
-    lines = max(s.lines_read for s in summary.sketches)
+    # Groups and splits of one scan each record the whole scan's line count: count it once
+    # per scan (sketches of one scan share their sources), and add up different scans
+    # (a set the workspace wrote from two files).
+    per_scan: dict[tuple[str, ...], int] = {}
+    for s in summary.sketches:
+        per_scan[s.sources] = max(per_scan.get(s.sources, 0), s.lines_read)
+    lines = sum(per_scan.values())
     if lines:
         bits.append(f"lines read: {lines:,}")
     out.append("   ".join(bits))
@@ -252,9 +201,9 @@ def summary_lines(summary: SetSummary) -> list[str]:
                 _short(s.name),
                 f"{s.n:,}",
                 f"{s.skipped_total:,}",
-                format_value(s.minimum, s.unit),
-                *(format_value(v, s.unit) for _, v in s.quantiles),
-                format_value(s.maximum, s.unit),
+                quantity(s.minimum, s.unit),
+                *(quantity(v, s.unit) for _, v in s.quantiles),
+                quantity(s.maximum, s.unit),
             ]
         )
     if out:
@@ -323,13 +272,25 @@ def _notes(summary: SetSummary) -> list[str]:
     return ["", *notes] if notes else []
 
 
-def quantile_lines(summary: SetSummary) -> list[str]:
-    """Only the asked-for quantiles (``show -q``): one row per sketch."""
+MEAN = "mean"
+"""``show -q mean``: the arithmetic mean (exact: the sketch keeps the sum) beside the quantiles."""
+
+
+def quantile_lines(summary: SetSummary, columns: Sequence[float | str] | None = None) -> list[str]:
+    """Only the asked-for quantiles (``show -q``), and the mean where asked: one row per sketch.
+
+    ``columns`` orders them (quantiles as q, the mean as :data:`MEAN`); by default the
+    summary's quantiles.
+    """
     if not summary.sketches:
         return []
-    header = ["sketch", "n", *(_qlabel(q) for q, _ in summary.sketches[0].quantiles)]
-    rows = [
-        [_short(s.name), f"{s.n:,}", *(format_value(v, s.unit) for _, v in s.quantiles)]
-        for s in summary.sketches
-    ]
+    cols = list(columns) if columns is not None else [q for q, _ in summary.sketches[0].quantiles]
+
+    def cell(s: SketchSummary, col: float | str) -> str:
+        if col == MEAN:
+            return quantity(s.mean, s.unit)
+        return quantity(dict(s.quantiles)[float(col)], s.unit)
+
+    header = ["sketch", "n", *(MEAN if c == MEAN else _qlabel(float(c)) for c in cols)]
+    rows = [[_short(s.name), f"{s.n:,}", *(cell(s, c) for c in cols)] for s in summary.sketches]
     return _table(header, rows)

@@ -5,7 +5,7 @@ of ten), decades with 2 and 5 in between for log axes, and the trade's quantile 
 (p50, p99, p99.9) on the logit probability axis. A tick is kept only when its label
 fits beside its neighbours, so the axes stay readable at 40 columns.
 
-Durations are written in the unit a person would say: ``250ms``, ``1.5s``, ``2m``.
+Labels are written by :func:`ogive.numbers.quantity` (compact: ``250ms``, ``1.5s``, ``2m``).
 """
 
 from __future__ import annotations
@@ -17,63 +17,6 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..sketch import quantile_label
-from ..sketch.units import SECONDS_PER_UNIT
-
-TIME_UNITS = SECONDS_PER_UNIT
-"""Seconds per unit, for the units a sketch may carry."""
-
-_SPOKEN: tuple[tuple[str, float], ...] = (("h", 3600.0), ("m", 60.0), ("s", 1.0), ("ms", 1e-3), ("µs", 1e-6))
-
-
-def is_time_unit(unit: str) -> bool:
-    return unit in TIME_UNITS
-
-
-def _trim(x: float, digits: int) -> str:
-    """``x`` with at most ``digits`` significant digits and no trailing zeros."""
-    if x == 0:
-        return "0"
-    mag = math.floor(math.log10(abs(x)))
-    decimals = max(digits - 1 - mag, 0)
-    text = f"{x:.{decimals}f}"
-    if "." in text:
-        text = text.rstrip("0").rstrip(".")
-    return "0" if text in ("-0", "") else text
-
-
-def format_value(value: float, unit: str, *, digits: int = 3, ascii_only: bool = False) -> str:
-    """A compact label: durations in a spoken unit, other numbers with k/M/G.
-
-    >>> format_value(1500, "ms"), format_value(0.25, "s"), format_value(120, "s")
-    ('1.5s', '250ms', '2m')
-    """
-    if not math.isfinite(value):
-        return "inf" if value > 0 else "-inf" if value < 0 else "nan"
-    if value == 0:
-        return "0"
-    if unit in TIME_UNITS:
-        seconds = value * TIME_UNITS[unit]
-        mag = abs(seconds)
-        for name, size in _SPOKEN:
-            if mag >= size * 0.9995 or (name == "µs" and mag >= 1e-6 * 0.9995):
-                label = "us" if (name == "µs" and ascii_only) else name
-                return _trim(seconds / size, digits) + label
-        return _trim(seconds / 1e-9, digits) + "ns"
-    mag = abs(value)
-    for size, suffix in ((1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k")):
-        if mag >= size * 0.9995:
-            return _trim(value / size, digits) + suffix
-    if mag < 1e-3:
-        return f"{value:.{max(digits - 1, 0)}e}"
-    return _trim(value, digits)
-
-
-def format_percent(value: float) -> str:
-    """A relative deviation: ``0.1`` -> ``+10%``."""
-    if value == 0:
-        return "0"
-    text = _trim(value * 100, 3)
-    return ("+" if value > 0 else "") + text + "%"
 
 
 def distinct_labels(values: Sequence[float], fmt: Callable[[float, int], str]) -> list[str]:

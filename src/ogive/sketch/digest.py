@@ -340,6 +340,18 @@ class TDigest:
         self._means, self._lo, self._hi = settle(m, r_lo, r_hi, p)
         self._weights, self._pure = w, p
 
+    def scale_values(self, factor: float) -> None:
+        """Multiply every value by ``factor`` > 0 (a change of unit): order, weights and
+        ranges carry over, so every answer scales and every bound still holds."""
+        if not factor > 0:
+            raise ValueError(f"factor must be positive, got {factor!r}.")
+        self.flush()
+        m, lo, hi = self._means * factor, self._lo * factor, self._hi * factor
+        # Rounding may put a product a hair inside the true scaled end: widen by an ulp.
+        lo, hi = np.nextafter(lo, -np.inf), np.nextafter(hi, np.inf)
+        lo, hi = np.where(self._pure, m, lo), np.where(self._pure, m, hi)
+        self._means, self._lo, self._hi = settle(m, lo, hi, self._pure)
+
     # ------------------------------------------------------------------ reading
     @property
     def count(self) -> float:

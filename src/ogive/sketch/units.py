@@ -1,6 +1,14 @@
-"""Time units: one table for the reader, the gate's limits and the plot axes."""
+"""Time units: one table for the reader, the gate's limits and the plot axes, and the
+conversion of a sketch between duration units (compare, gate, merge and plot meet
+sketches kept in different ones)."""
 
 from __future__ import annotations
+
+import copy
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from .sketch import Sketch
 
 import re
 
@@ -32,3 +40,37 @@ def span_seconds(text: str) -> float | None:
     """
     m = _SPAN.match(text)
     return None if m is None else float(m[1]) * SPAN_SECONDS[m[2]]
+
+
+def duration_factor(from_unit: str, to_unit: str) -> float | None:
+    """What a value in ``from_unit`` is multiplied by to be in ``to_unit``; None unless both are durations."""
+    if from_unit == to_unit:
+        return 1.0
+    if from_unit in SECONDS_PER_UNIT and to_unit in SECONDS_PER_UNIT:
+        return SECONDS_PER_UNIT[from_unit] / SECONDS_PER_UNIT[to_unit]
+    return None
+
+
+def in_unit(sketch: Sketch, unit: str) -> Sketch:
+    """The sketch with every value expressed in ``unit`` (a duration unit, as the sketch's is).
+
+    Multiplying by a positive factor keeps every value's rank, so the centroids keep
+    their weights and their order, the exact tails stay exact and the rank-error bound
+    (in positions) is unchanged: the result answers exactly as the source does, times
+    the factor. Raises ValueError, in one sentence, when the units are not both
+    durations (ms and bytes measure different things).
+    """
+    factor = duration_factor(sketch.unit, unit)
+    if factor is None:
+        raise ValueError(
+            f"values in {sketch.unit or 'no unit'!r} cannot be expressed in {unit or 'no unit'!r}: "
+            "only durations (ns, us, ms, s, m, h) convert into one another."
+        )
+    if factor == 1.0:
+        return sketch
+    out = copy.deepcopy(sketch)
+    out.unit = unit
+    out.total = sketch.total * factor
+    out.low, out.high = sketch.low * factor, sketch.high * factor
+    out.digest.scale_values(factor)  # keeps each centroid's range, so the bounds carry over
+    return out

@@ -2,41 +2,20 @@
 
 from __future__ import annotations
 
-from typing import Any, ClassVar
+from typing import ClassVar
 
+from rich.text import Text
 from textual.binding import Binding, BindingType
 from textual.message import Message
 from textual.widgets import DataTable
 
-from . import fmt
+from ..numbers import count
+from ..render.tables import ranking_table
+from .workspace import Workspace
 
 
-def ranked_models(report: Any) -> list[Any]:
-    """The report's models, best first (the fit package ranks them; the UI keeps its order)."""
-    for attr in ("ranked", "models", "candidates"):
-        models = getattr(report, attr, None)
-        if models is not None:
-            return list(models)
-    return []
-
-
-def model_scores(model: Any) -> dict[str, Any]:
-    """The scores the fit package attached to a model, by the names it gave them."""
-    out: dict[str, Any] = {}
-    for key in ("tail_error", "ks", "ad", "cvm", "aic", "bic"):  # the fit ranks by tail error first
-        value = getattr(model, key, None)
-        if value is None:
-            scores = getattr(model, "scores", None)
-            value = getattr(scores, key, None) if scores is not None else None
-            if value is None and isinstance(scores, dict):
-                value = scores.get(key)
-        if value is not None:
-            out[key] = value
-    return out
-
-
-class ModelRanking(DataTable[str]):
-    """Fitted families for the subject, in the fit package's order.
+class ModelRanking(DataTable[str | Text]):
+    """Fitted families for the subject, best first, then tail-only models and families not fitted.
 
     | Key | Action |
     | :- | :- |
@@ -45,7 +24,7 @@ class ModelRanking(DataTable[str]):
     """
 
     BINDINGS: ClassVar[list[BindingType]] = [
-        Binding("2", "pick", "Model as reference", show=True),
+        Binding("2", "pick", "Ref model", show=True),
     ]
 
     class Picked(Message):
@@ -56,29 +35,31 @@ class ModelRanking(DataTable[str]):
     def on_mount(self) -> None:
         self.cursor_type = "row"
 
-    def show(self, report: Any, chosen_label: str | None) -> None:
+    def show(self, ws: Workspace, *, fitting: bool) -> None:
+        """The ranking ``ogive fit`` prints (as a table), or why there is none yet."""
         self.clear(columns=True)
-        models = ranked_models(report)
-        score_keys: list[str] = []
-        for m in models:
-            for k in model_scores(m):
-                if k not in score_keys:
-                    score_keys.append(k)
-        self.add_column("#", key="rank")
-        self.add_column("model", key="model")
-        for k in score_keys:
-            self.add_column(k.replace("_", " "), key=k)
-        for i, m in enumerate(models):
-            label = str(getattr(m, "label", m))
-            mark = "R " if label == chosen_label else ""
-            scores = model_scores(m)
+        if ws.fit is None:
+            self.border_subtitle = "" if ws.fit_note else "fitting…" if fitting else "no subject"
+            if ws.fit_note:
+                self.add_column("no fit on screen")
+                self.add_row(ws.fit_note)
+            elif fitting:
+                self.add_column("model ranking")
+                self.add_row(f"fitting {ws.subject}… (every family; this takes a few seconds)")
+            return
+        chosen = ws.reference.name if ws.reference is not None and ws.reference.kind == "model" else None
+        t = ranking_table(ws.fit, chosen=chosen)
+        for i, title in enumerate(t.header):
+            self.add_column(title, key=f"c{i}")
+        for i, cells in enumerate(t.rows):
             self.add_row(
-                f"{mark}{i + 1}",
-                label,
-                *(fmt.num(scores[k]) if k in scores else "—" for k in score_keys),
-                key=str(i),
+                *(Text(c, justify="right") if k in t.right else c for k, c in enumerate(cells)), key=str(i)
             )
+        subj = ws.subject_dist
+        when = f" at n={count(ws.fit_n)}" if subj is not None and subj.state == "following" else ""
+        self.border_subtitle = f"fitted to {ws.subject}{when}, ranked by {ws.fit.rank_key}"
 
     def action_pick(self) -> None:
+        """Only the ranked models can be a reference (tail-only models describe the tail alone)."""
         if self.row_count:
             self.post_message(self.Picked(self.cursor_row))

@@ -4,8 +4,10 @@ from __future__ import annotations
 
 import dataclasses
 from dataclasses import dataclass
-from typing import Any, ClassVar
+from typing import ClassVar
 
+from rich.console import Group
+from rich.text import Text
 from textual import events, work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
@@ -43,13 +45,18 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
 
     BINDINGS: ClassVar[list[BindingType]] = [Binding("escape", "cancel", "Cancel")]
 
-    FIELDS: ClassVar[list[tuple[str, str, str]]] = [
-        ("format", "format", "auto, csv, tsv, ndjson, text, parquet"),
-        ("field", "field", "NDJSON: dotted path, e.g. timing.total_ms"),
-        ("column", "column", "CSV/TSV: name or 1-based number"),
-        ("pattern", "pattern", "text: regex with one group"),
-        ("unit", "unit", "ms, s, us, ns, or a label"),
-    ]
+    FIELDS: ClassVar[list[list[tuple[str, str, str]]]] = [
+        [("format", "format", "auto, csv, tsv, ndjson, text, parquet"),
+         ("unit", "unit", "ms, s, us, ns, or a label")],
+        [("field", "field", "NDJSON: dotted path, e.g. timing.total_ms"),
+         ("column", "column", "CSV/TSV: the value's column, by name or 1-based number")],
+        [("pattern", "pattern", "text: a regular expression whose one group is the value")],
+        [("by", "by", "a sketch for each distinct value of this column or field (host, route)"),
+         ("time_field", "time", "the column or field holding each record's timestamp")],
+        [("split_at", "split at", "a moment such as 2026-03-04T13:00:00Z: rows before it go to 'before', "
+          "the rest to 'after'")],
+    ]  # fmt: skip
+    """Rows of (ScanOptions field, label, what it means) below the path."""
 
     def __init__(self, start: str = "", base: ScanOptions | None = None) -> None:
         super().__init__()
@@ -63,12 +70,13 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
             with Horizontal(classes="field-row"):
                 yield Label("path", classes="field-label")
                 yield PathInput(self.start, id="open-path")
-            for key, label, _hint in self.FIELDS:
+            for row in self.FIELDS:
                 with Horizontal(classes="field-row"):
-                    yield Label(label, classes="field-label")
-                    value = getattr(self.base, key, None) or ("auto" if key == "format" else "")
-                    suggester = SuggestFromList(FORMATS) if key == "format" else None
-                    yield Input(str(value), id=f"open-{key}", suggester=suggester)
+                    for key, label, _hint in row:
+                        yield Label(label, classes="field-label")
+                        value = getattr(self.base, key) or ("auto" if key == "format" else "")
+                        suggester = SuggestFromList(FORMATS) if key == "format" else None
+                        yield Input(str(value), id=_id(key), suggester=suggester)
             yield Static("type a path to see a preview", id="open-preview")
             yield Static(HINT, id="open-hint", classes="dialog-hint")
 
@@ -77,11 +85,15 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
         self.schedule_preview()
 
     def options(self) -> ScanOptions:
-        values: dict[str, Any] = {}
-        for key, _, _ in self.FIELDS:
-            text = self.query_one(f"#open-{key}", Input).value.strip()
+        """The reading options as typed (ScanOptions may refuse them: ValueError or OgiveError)."""
+        values: dict[str, str | None] = {}
+        for key, _, _ in self._fields():
+            text = self.query_one(f"#{_id(key)}", Input).value.strip()
             values[key] = None if not text or (key == "format" and text == "auto") else text
-        return dataclasses.replace(self.base, **values)
+        return dataclasses.replace(self.base, **values)  # type: ignore[arg-type]
+
+    def _fields(self) -> list[tuple[str, str, str]]:
+        return [f for row in self.FIELDS for f in row]
 
     @property
     def path(self) -> str:
@@ -89,7 +101,7 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
 
     def on_descendant_focus(self, event: events.DescendantFocus) -> None:
         """The focused field's meaning goes in the hint line (placeholders vanish without colour)."""
-        hints = {f"open-{key}": hint for key, _, hint in self.FIELDS}
+        hints = {_id(key): hint for key, _, hint in self._fields()}
         hints["open-path"] = "a log (any format, .gz/.zst) or a .ogive sketch; tab completes"
         text = hints.get(event.widget.id or "", "")
         self.query_one("#open-hint", Static).update(f"{text}\n{HINT}" if text else HINT)
@@ -105,10 +117,23 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
     def start_preview(self) -> None:
         path = self.path
         if not path:
-            self.query_one("#open-preview", Static).update("type a path to see a preview")
+            self._say("type a path to see a preview")
             return
-        self.query_one("#open-preview", Static).update(f"reading the start of {path} …")
-        self.run_preview(path, self.options())
+        options = self._checked_options()
+        if options is not None:
+            self._say(f"reading the start of {path} …")
+            self.run_preview(path, options)
+
+    def _checked_options(self) -> ScanOptions | None:
+        """The options typed, or None after saying (in the dialog's words) why they cannot be."""
+        try:
+            return self.options()
+        except (OgiveError, ValueError) as exc:
+            self._say(preview.in_dialog_words(str(exc)))
+            return None
+
+    def _say(self, text: str) -> None:
+        self.query_one("#open-preview", Static).update(text)
 
     @work(thread=True, exclusive=True, group="preview")
     def run_preview(self, path: str, options: ScanOptions) -> None:
@@ -119,18 +144,34 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
         self.app.call_from_thread(self._show_preview, path, text)
 
     def _show_preview(self, path: str, text: str) -> None:
+        """The file's own lines are cropped to the dialog (a long log line would push the
+        counts out of sight at 80×24); what ogive says wraps."""
         if path == self.path and self.is_mounted:
-            self.query_one("#open-preview", Static).update(text)
+            parts = [
+                Text(
+                    line,
+                    no_wrap=line.startswith("  "),
+                    overflow="ellipsis" if line.startswith("  ") else "fold",
+                )
+                for line in text.splitlines()
+            ]
+            self.query_one("#open-preview", Static).update(Group(*parts))
 
     def on_input_submitted(self, _event: Input.Submitted) -> None:
         if not self.path:
-            self.query_one("#open-preview", Static).update("a path is needed")
+            self._say("a path is needed")
             return
-        fmt = self.query_one("#open-format", Input).value.strip()
+        fmt = self.query_one(f"#{_id('format')}", Input).value.strip()
         if fmt and fmt not in FORMATS:
-            self.query_one("#open-preview", Static).update(f"format must be one of {', '.join(FORMATS)}")
+            self._say(f"format must be one of {', '.join(FORMATS)}")
             return
-        self.dismiss(OpenRequest(self.path, self.options()))
+        options = self._checked_options()
+        if options is not None:
+            self.dismiss(OpenRequest(self.path, options))
 
     def action_cancel(self) -> None:
         self.dismiss(None)
+
+
+def _id(key: str) -> str:
+    return "open-" + key.replace("_", "-")

@@ -1,66 +1,46 @@
-"""Feeding the renderer: which shared function draws which picture from which inputs.
+"""The workspace's picture: ``ogive plot``'s own path from the same inputs to the same text.
 
-The quantile pairs come from :mod:`ogive.fit.qq` and the shift function from the
-comparison, exactly as ``ogive plot`` gets them; the drawing is ``ogive.render``'s.
+:func:`ogive.fit.curves.plot_inputs` makes the numbers (quantile pairs with the DKW band,
+P-P points, CDF series, the shift function) and :func:`ogive.render.draw` draws them,
+exactly as ``ogive plot`` does; a test holds the two pictures equal for every kind.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable
-from typing import Any
-
-from ..fit.curves import band_epsilon, with_dkw_band
-from ..fit.qq import pairs_from_model, pairs_from_sketches
-from .capabilities import Unavailable, render_module
-from .state import Distribution, ReferenceChoice
+from ..fit.curves import plot_inputs
+from ..render import PlotLines, draw
+from .workspace import Workspace
 
 
-def _render(name: str) -> Callable[..., Any]:
-    mod = render_module()
-    fn = getattr(mod, name, None)
-    if not callable(fn):
-        raise Unavailable(f"Text plots are not available yet (ogive.render.{name} is missing).")
-    return fn  # type: ignore[no-any-return]
+class NoPicture(Exception):
+    """The picture cannot be drawn yet; the message says what is missing, in a sentence."""
 
 
-def draw(
-    kind: str,
-    subject: Distribution,
-    reference: ReferenceChoice | None,
-    reference_dist: Distribution | None,
-    comparison: Any,
-    *,
-    width: int,
-    height: int,
-    log_axes: bool | None,
-) -> list[str]:
-    """The plot's lines (a ``PlotLines`` with colour spans when the renderer gives them)."""
-    if reference is None:
-        raise Unavailable("Pick a reference: highlight a distribution and press 2, or a model in Models.")
-    if subject.sketch.count == 0:
-        raise Unavailable("The subject has no values yet.")
-    if kind == "shift":
-        if reference.kind != "sketch":
-            raise Unavailable("The shift function compares two sketches; pick a sketch as reference.")
-        if comparison is None:
-            raise Unavailable("The comparison is not ready yet.")
-        fn = _render("shift_plot")
-        return fn(comparison, width=width, height=height, log=log_axes)  # type: ignore[no-any-return]
-    if reference.kind == "sketch":
-        if reference_dist is None or reference_dist.sketch.count == 0:
-            raise Unavailable("The reference has no values yet.")
-        pairs = pairs_from_sketches(
-            subject.sketch,
-            reference_dist.sketch,
-            subject_label=subject.name,
-            reference_label=reference_dist.name,
+def draw_picture(ws: Workspace, *, width: int, height: int) -> PlotLines:
+    """The subject against its reference as picture ``ws.kind``, ``width`` × ``height`` cells.
+
+    Raises :class:`NoPicture` when something is missing, and ValueError (the
+    renderer's own sentence) when the picture cannot be drawn at this size.
+    """
+    subj, ref = ws.subject_dist, ws.reference
+    if subj is None or ref is None:
+        raise NoPicture("Pick a reference: highlight a distribution and press 2, or a model in Models.")
+    if subj.sketch.count == 0:
+        raise NoPicture("The subject has no values yet.")
+    if ref.kind == "sketch":
+        ref_dist = ws.reference_dist
+        if ref_dist is None or ref_dist.sketch.count == 0:
+            raise NoPicture("The reference has no values yet.")
+        if ws.kind == "shift" and ws.comparison is None:
+            # The shift function's intervals need scipy: wait for the comparison worker to
+            # have imported it, rather than import it here on the screen's thread.
+            raise NoPicture("The comparison is not ready yet.")
+        data = plot_inputs(
+            ws.kind, subj.sketch, ref_dist.sketch, subject_label=subj.name, reference_label=ref_dist.name
         )
-        eps = band_epsilon(subject.sketch, reference_dist.sketch)
-        pairs = with_dkw_band(pairs, reference_dist.sketch.quantile, eps)
     else:
-        pairs = pairs_from_model(
-            subject.sketch, reference.model, subject_label=subject.name, reference_label=reference.label
-        )
-        pairs = with_dkw_band(pairs, reference.model.ppf, band_epsilon(subject.sketch))
-    fn = _render({"qq": "qq_plot", "detrended": "detrended_plot", "pp": "pp_plot", "cdf": "cdf_plot"}[kind])
-    return fn(pairs, width=width, height=height, log=log_axes)  # type: ignore[no-any-return]
+        if ws.kind == "shift":
+            raise NoPicture("The shift function compares two sketches; pick a sketch as reference.")
+        assert ref.model is not None
+        data = plot_inputs(ws.kind, subj.sketch, ref.model, subject_label=subj.name, reference_label=ref.name)
+    return draw(ws.kind, data, width=width, height=height, log=ws.log_axes)

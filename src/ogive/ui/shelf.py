@@ -4,16 +4,22 @@ from __future__ import annotations
 
 from typing import ClassVar
 
-import numpy as np
+from rich.text import Text
 from textual.binding import Binding, BindingType
 from textual.message import Message
 from textual.widgets import DataTable
 
-from . import fmt
-from .state import Distribution
+from ..render.tables import distribution_table
+from .workspace import Workspace
+
+STATE_MARKS = {"scanning": "…", "following": "~", "partial": "!", "failed": "!"}
+"""After the role letter: still scanning, followed as it grows, stopped early."""
+VISIBLE_ROWS = {"short": 3, "tall": 9}
+"""Rows shown before the list scrolls: at 80x24 three, so the picture below keeps the 12
+lines a plot needs; from 36 lines up, nine."""
 
 
-class DistributionShelf(DataTable[str]):
+class DistributionShelf(DataTable[str | Text]):
     """Loaded distributions with n, p50, p99 and bad rows; ``1``/``2`` pick the roles.
 
     | Key | Action |
@@ -25,7 +31,7 @@ class DistributionShelf(DataTable[str]):
 
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("1", "pick('subject')", "Subject", show=True),
-        Binding("2", "pick('reference')", "Reference", show=True),
+        Binding("2", "pick('reference')", "Ref", show=True),
     ]
 
     class Picked(Message):
@@ -36,45 +42,55 @@ class DistributionShelf(DataTable[str]):
             self.name = name
             self.role = role
 
-    COLUMNS = ("", "name", "n", "p50", "p99", "bad")
-
     def on_mount(self) -> None:
         self.cursor_type = "row"
         self.zebra_stripes = False
-        for label in self.COLUMNS:
-            self.add_column(label, key=label or "role")
 
-    def show(self, items: list[Distribution], subject: str | None, reference: str | None) -> None:
+    def show(self, ws: Workspace) -> None:
         """Redraw the rows from the sketches as they are now, keeping the highlight."""
         keep = self.highlighted_name
-        self.clear()
-        for d in items:
-            s = d.sketch
-            if s.count:
-                p50, p99 = (float(v) for v in s.quantile(np.array([0.5, 0.99])))
-            else:
-                p50 = p99 = float("nan")
-            role = "S" if d.name == subject else "R" if d.name == reference else ""
-            if d.state == "scanning":
-                role += "…"
-            elif d.state == "following":
-                role += "~"  # still growing: a followed file
-            elif d.state in ("partial", "failed"):
-                role += "!"
-            unit = f" {s.unit}" if s.unit and s.count else ""  # no "— ms" for an empty row
-            self.add_row(
-                role,
+        ref = ws.reference_dist
+        marked = [
+            (
+                ("S" if d.name == ws.subject else "R" if ref is not None and d.name == ref.name else "")
+                + STATE_MARKS.get(d.state, ""),
                 d.name,
-                fmt.count(s.count),
-                fmt.num(p50) + unit,
-                fmt.num(p99) + unit,
-                fmt.count(s.provenance.skipped_total),
-                key=d.name,
+                d.sketch,
             )
-        if keep is not None:
-            names = [d.name for d in items]
-            if keep in names:
-                self.move_cursor(row=names.index(keep))
+            for d in ws.dists.values()
+        ]
+        t = distribution_table(marked, compact=True)
+        self._fit_height(len(marked))
+        self.clear(columns=True)
+        for title in t.header:
+            self.add_column(title, key=title or "role")
+        for (_, name, _), cells in zip(marked, t.rows, strict=True):
+            self.add_row(
+                *(Text(c, justify="right") if i in t.right else c for i, c in enumerate(cells)), key=name
+            )
+        # Keep the highlight; at first, rest it on the subject (the last row of a long list
+        # would otherwise be out of sight).
+        row = keep if keep is not None and keep in ws.dists else ws.subject
+        if row is not None and row in ws.dists:
+            self.move_cursor(row=list(ws.dists).index(row))
+
+    def _fit_height(self, rows: int) -> None:
+        """As tall as its rows (a fixed height wasted two lines at 80x24), up to a cap.
+
+        Set here rather than with ``height: auto`` in CSS: an auto-sized table that is
+        refilled twice a second kept the screen from redrawing while a scan streamed.
+        """
+        screen = self.screen
+        if screen.has_class("-wide") and screen.has_class("-tall"):
+            if self.styles.inline.has_rule("height"):
+                self.styles.inline.clear_rule("height")  # the grid of the wide layout decides
+                self.refresh(layout=True)
+            return
+        cap = VISIBLE_ROWS["tall" if self.app.size.height >= 36 else "short"]
+        height = min(max(rows, 1), cap) + 3  # header and the two border lines
+        current = self.styles.inline.height if self.styles.inline.has_rule("height") else None
+        if current is None or current.value != height:
+            self.styles.height = height
 
     @property
     def highlighted_name(self) -> str | None:

@@ -1,8 +1,8 @@
-"""What the workspace holds: the loaded distributions and the user's choices.
+"""The records the workspace is made of: a row (distribution), a running scan, a reference.
 
 Plain records, no statistics: every number the screen shows is asked of a
 :class:`~ogive.sketch.Sketch` or of the fit/compare functions the CLI also calls, so the
-screen and ``--json`` agree.
+screen and ``--json`` agree. :mod:`.workspace` holds them together with the rules.
 """
 
 from __future__ import annotations
@@ -10,12 +10,14 @@ from __future__ import annotations
 import threading
 from collections import deque
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Literal
 
 from ..read.options import ScanOptions
 from ..sketch import Sketch
 
-Role = Literal["subject", "reference"]
+if TYPE_CHECKING:
+    from ..fit.models import Candidate
+
 RATE_MARKS = 10
 """Ticks the follow rate is measured over: ~5 s at two ticks a second."""
 
@@ -97,8 +99,8 @@ class ReferenceChoice:
     kind: Literal["sketch", "model"]
     name: str
     """The distribution's name, or the model's label."""
-    model: Any = None
-    """The fitted model object (has ``ppf``/``cdf``/``label``) when ``kind == 'model'``."""
+    model: Candidate | None = None
+    """The fitted model when ``kind == 'model'`` (it has ``ppf`` and ``cdf``, as the plots need)."""
 
     @property
     def label(self) -> str:

@@ -1,0 +1,54 @@
+"""Opening a name in the workspace: a saved sketch becomes rows at once, a log becomes a scan.
+
+Which one a name is, :func:`ogive.store.sketch_ref` decides (from the file's bytes), as
+for every sub-command. Rows of a sketch file are named after the file (``before``) or,
+when it holds several sketches, ``file:sketch`` (``day:after``); a scan's rows get the
+same names from :meth:`.workspace.Workspace.take_scan` as its groups appear.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from ..errors import OgiveError
+from ..read.options import ScanOptions
+from ..store import load_ref, sketch_ref, source_stem
+from .state import Distribution, ScanJob
+
+
+@dataclass(frozen=True)
+class Opened:
+    """What opening a name gave: rows ready now, a scan to start, and what to tell the user."""
+
+    rows: list[Distribution] = field(default_factory=list)
+    job: ScanJob | None = None
+    message: str = ""
+
+
+def open_source(
+    spec: str, options: ScanOptions, *, order: int, follow: bool = False, recent: str | None = None
+) -> Opened:
+    """Rows for a saved sketch (``PATH`` or ``PATH:GROUP``), or a scan (a follow) for a log.
+
+    A followed log may not exist yet: following waits for it, as ``scan --follow`` does.
+    """
+    ref = sketch_ref(spec)
+    if ref is not None:
+        try:
+            sset = load_ref(ref)
+        except OgiveError as exc:
+            return Opened(message=str(exc))
+        stem = source_stem(ref.path)
+        names = sset.names()
+        several = ref.group is not None or len(names) > 1
+        rows = [
+            Distribution(f"{stem}:{name}" if several else stem, sset[name], ref.path, seq=(order, i))
+            for i, name in enumerate(names)
+        ]
+        return Opened(rows=rows, message=f"loaded {ref.path}")
+    if follow:
+        return Opened(job=ScanJob(spec, options, seq=order, follow=True, recent=recent))
+    if spec != "-" and not Path(spec).exists():
+        return Opened(message=f"cannot open {spec}: no such file.")
+    return Opened(job=ScanJob(spec, options, seq=order))

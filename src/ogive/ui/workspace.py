@@ -1,0 +1,248 @@
+"""The workspace as data: the rows, the roles, the current results, and the rules that tie them.
+
+Plain Python, no textual: the app shows this object, the exported report writes it and
+the tests assert on it, so what is on screen, what is exported and what is tested are
+one thing. Every number in it was made by the functions the CLI calls (a Sketch's
+queries, ``fit_sketch``, ``compare_sketches``).
+
+Role rules, in the order they apply:
+
+* the subject and reference asked for on the command line win once their rows exist;
+* otherwise the last row is the subject and the first the reference (``ogive view
+  before.log after.log`` reads "after against before"), except that a subject named
+  ``.../after/X`` is held against ``.../before/X`` when that row exists (a split by time
+  and by group pairs each group with itself);
+* a lone subject is held against its best fitted model until a second row arrives;
+* a model reference belongs to the subject it was fitted to, and goes when the subject
+  changes.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
+
+from ..sketch import Sketch
+from ..store import source_stem
+from .state import Distribution, ReferenceChoice, ScanJob
+
+if TYPE_CHECKING:
+    from ..fit.compare import Comparison
+    from ..fit.models import FitReport
+
+KINDS: tuple[str, ...] = ("qq", "detrended", "pp", "cdf", "shift")
+"""The pictures, in the order ``v`` steps through them (the kinds of ``ogive plot``)."""
+KIND_NAMES: dict[str, str] = {
+    "qq": "Q-Q",
+    "detrended": "detrended Q-Q",
+    "pp": "P-P",
+    "cdf": "CDF overlay",
+    "shift": "shift function",
+}
+AXES: tuple[str, ...] = ("auto", "log", "linear")
+"""Value axes: 'auto' lets the renderer choose (log unless a value is negative, as for latencies;
+zeros are drawn at the floor and counted)."""
+
+_AFTER = re.compile(r"(^|[:/])after(?=$|[:/])")
+
+
+def partner(name: str) -> str | None:
+    """``day:after/route=/v2`` -> ``day:before/route=/v2``: the row a split-by-time subject pairs with."""
+    if not _AFTER.search(name):
+        return None
+    return _AFTER.sub(lambda m: f"{m.group(1)}before", name, count=1)
+
+
+@dataclass
+class Workspace:
+    """Everything the workspace shows, as data."""
+
+    wanted_subject: str | None = None
+    """``--subject NAME``: applied once a row of that name exists."""
+    wanted_reference: str | None = None
+    dists: dict[str, Distribution] = field(default_factory=dict)
+    """The rows, in the order files were opened (then the groups' order)."""
+    jobs: list[ScanJob] = field(default_factory=list)
+    subject: str | None = None
+    reference: ReferenceChoice | None = None
+    fit: FitReport | None = None
+    """The model ranking for the subject on screen (None: none yet, see ``fit_note``)."""
+    fit_note: str = ""
+    fit_n: int = 0
+    """Values in the subject when the fit on screen was started (a followed one grows)."""
+    generation: int = 0
+    """Bumped when the subject changes: a fit started for an older subject is dropped."""
+    comparison: Comparison | None = None
+    compare_note: str = ""
+    kind: str = "qq"
+    """The picture: one of :data:`KINDS`."""
+    axes: str = "auto"
+    """The value axes: one of :data:`AXES`."""
+    auto_model: bool = False
+    """The reference is the best model only because the subject was alone."""
+    opened: int = 0
+    """Sources opened so far (orders the rows)."""
+
+    # ------------------------------------------------------------------ queries
+    @property
+    def subject_dist(self) -> Distribution | None:
+        return self.dists.get(self.subject or "")
+
+    @property
+    def reference_dist(self) -> Distribution | None:
+        """The reference's row when the reference is a sketch."""
+        ref = self.reference
+        return self.dists.get(ref.name) if ref is not None and ref.kind == "sketch" else None
+
+    @property
+    def scanning(self) -> bool:
+        return any(not j.done for j in self.jobs)
+
+    @property
+    def following(self) -> bool:
+        return any(j.follow and not j.done for j in self.jobs)
+
+    @property
+    def log_axes(self) -> bool | None:
+        """What the renderer is asked for: None lets it choose."""
+        return {"auto": None, "log": True, "linear": False}[self.axes]
+
+    def compare_key(self) -> tuple[str, str] | None:
+        """(subject, reference) when a comparison of two sketches with values is wanted."""
+        subj, ref = self.subject_dist, self.reference_dist
+        if subj is None or ref is None or ref.sketch.count == 0 or subj.sketch.count == 0:
+            return None
+        return subj.name, ref.name
+
+    def finished(self) -> tuple[dict[str, Sketch], list[str]]:
+        """Sketches that may be written now (followed ones as they stand), and the rows still scanning."""
+        ready = {n: d.sketch for n, d in self.dists.items() if d.state != "scanning"}
+        return ready, [n for n, d in self.dists.items() if d.state == "scanning"]
+
+    # ------------------------------------------------------------------ rows
+    def next_order(self) -> int:
+        self.opened += 1
+        return self.opened
+
+    def add_rows(self, rows: list[Distribution]) -> None:
+        for d in rows:
+            self.dists[d.name] = d
+        self.dists = dict(sorted(self.dists.items(), key=lambda item: item[1].seq))
+        self.auto_roles()
+
+    def take_scan(
+        self, job: ScanJob, sketches: dict[str, Sketch], *, state: str, note: str, window: str | None
+    ) -> None:
+        """The sketches a scan or follow delivered, each in the row it has had since its first tick.
+
+        ``window``: the name of a follow's recent window, whose row goes last so that it
+        is the subject, held against all-time.
+        """
+        rows = []
+        for group, sketch in sketches.items():
+            name = self._name_for(job, group, len(sketches))
+            order = (job.seq, 1 << 30 if group == window else list(job.names).index(group))
+            rows.append(Distribution(name, sketch, job.source, state=state, note=note, job=job, seq=order))
+        self.add_rows(rows)
+
+    def _name_for(self, job: ScanJob, group: str, groups: int) -> str:
+        if group not in job.names:
+            # A follow with a recent window always has two rows, even before 'all' has values.
+            alone = groups == 1 and job.recent is None
+            stem = source_stem(job.source)
+            job.names[group] = self._unique(stem if alone else f"{stem}:{group}", job)
+        return job.names[group]
+
+    def _unique(self, base: str, job: ScanJob) -> str:
+        """Names stay stable across a scan's ticks and distinct across files with the same stem."""
+        taken = {n for n, d in self.dists.items() if d.job is not job}
+        name, k = base, 2
+        while name in taken:
+            name, k = f"{base}#{k}", k + 1
+        return name
+
+    # ------------------------------------------------------------------ roles
+    def auto_roles(self) -> None:
+        """Apply the role rules of the module text to the rows as they are now."""
+        names = list(self.dists)
+        if self.auto_model and len(names) > 1:
+            self.reference, self.auto_model = None, False  # a sketch to compare with has arrived
+        if self.subject is None or self.subject not in self.dists:
+            if self.wanted_subject in self.dists:
+                self.subject = self.wanted_subject
+            elif self.wanted_subject is None and names:
+                self.subject = names[-1]
+        if (
+            self.subject is not None
+            and self.wanted_subject is None
+            and len(names) == 2
+            and self.reference is None
+        ):
+            self.subject = names[-1]
+        if self.reference is not None:
+            return
+        if self.wanted_reference in self.dists and self.wanted_reference != self.subject:
+            self.reference = ReferenceChoice("sketch", self.wanted_reference)
+        elif self.wanted_reference is None:
+            pair = partner(self.subject or "")
+            others = [n for n in names if n != self.subject]
+            if pair in self.dists:
+                self.reference = ReferenceChoice("sketch", pair)
+            elif others:
+                self.reference = ReferenceChoice("sketch", others[0])
+
+    def set_subject(self, name: str) -> None:
+        if self.reference is not None and self.reference.kind == "sketch" and self.reference.name == name:
+            self.reference = ReferenceChoice("sketch", self.subject) if self.subject else None
+        if self.reference is not None and self.reference.kind == "model":
+            self.reference = None  # a model belongs to the subject it was fitted to
+        self.subject = name
+        self.generation += 1
+        self.fit = None
+        self.comparison = None
+
+    def set_reference_sketch(self, name: str) -> str | None:
+        """Make a row the reference; returns why not, when it cannot be."""
+        if name == self.subject:
+            return "the reference must differ from the subject; pick another row, or press 1 first."
+        self.reference = ReferenceChoice("sketch", name)
+        self.auto_model = False
+        self.comparison = None
+        return None
+
+    def set_reference_model(self, index: int) -> bool:
+        """Make the fit's ``index``-th ranked model the reference (Q-Q/P-P/CDF against it)."""
+        models = self.fit.ranked if self.fit is not None else ()
+        if not 0 <= index < len(models):
+            return False
+        self.reference = ReferenceChoice("model", models[index].label, models[index])
+        self.auto_model = False
+        self.comparison = None
+        return True
+
+    # ------------------------------------------------------------------ results
+    def take_fit(self, result: FitReport | None, note: str, generation: int) -> bool:
+        """A finished fit; False when it was for an earlier subject (then it is dropped)."""
+        if generation != self.generation:
+            return False
+        self.fit, self.fit_note = result, note
+        ref = self.reference
+        if ref is not None and ref.kind == "model" and result is not None:
+            # keep the same family as reference, now refitted on more data
+            for m in result.ranked:
+                if m.label == ref.name:
+                    self.reference = ReferenceChoice("model", ref.name, m)
+        alone = len(self.dists) == 1 and not self.scanning
+        if self.reference is None and result is not None and alone and result.best is not None:
+            self.auto_model = True
+            self.reference = ReferenceChoice("model", result.best.label, result.best)
+        return True
+
+    def take_comparison(self, result: Comparison | None, note: str, key: tuple[str, str]) -> bool:
+        """A finished comparison; False when the roles changed while it ran (then it is dropped)."""
+        ref = self.reference
+        if ref is None or key != (self.subject, ref.name):
+            return False
+        self.comparison, self.compare_note = result, note
+        return True
