@@ -306,7 +306,7 @@ def test_command_on_a_saved_sketch(tmp_path, capsys) -> None:  # type: ignore[no
     assert doc["tail_models"][0]["tail_only"] is True
     assert main(["fit", str(path), "--families", "gamma"]) == 0
     text = capsys.readouterr().out
-    assert "ranked by tail" in text and "p99.99" in text
+    assert "ranked by bic (chosen by auto)" in text and "p99.99" in text
     assert main(["fit", str(path), "--families", "nope"]) == 3
     assert "unknown family 'nope'" in capsys.readouterr().err
 
