@@ -229,7 +229,7 @@ def test_show_quantiles_in_three_spellings(capsys: pytest.CaptureFixture[str], t
     "argv",
     [
         ["scan", "/nonexistent/file.log", "--pattern", PATTERN],
-        ["scan", str(DEMO / "checkout-before.log")],  # free text without --pattern
+        ["scan", str(DEMO / "checkout-before.log"), "--pattern", r"(\S+) dur=(\S+)"],  # two groups
         ["show", str(DEMO / "checkout-day.csv")],
         ["show", "/nonexistent.ogive"],
         ["merge", "/nonexistent.ogive", "/nonexistent2.ogive", "-o", "/tmp/never.ogive"],

@@ -49,6 +49,9 @@ def test_timestamps_going_backwards_are_counted(tmp_path: Path, chunk: int | Non
         "2026-03-04T10:00:01Z,6\n"  # 5 s before the latest so far
     )
     res = scan([str(f)], ScanOptions(column="latency_ms", time_field="ts", chunk_bytes=chunk))
-    assert res.sketches["all"].count == 6  # every value still counts
+    s = res.sketches["all"]
+    assert s.count == 5  # every row with a readable time still counts, out of order or not
+    # The row whose time cannot be read is skipped and counted (not kept untimed).
+    assert s.provenance.skipped["bad_timestamp"].examples == [f"{f}:6"]
     (note,) = [w for w in res.warnings if "earlier than a row before them" in w]
     assert note.startswith("2 rows") and f"{f}:4" in note and "65 s" in note

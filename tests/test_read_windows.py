@@ -41,7 +41,7 @@ def test_each_window_matches_numpy_on_its_rows(tmp_path: Path) -> None:
 def test_window_needs_a_time_field_and_stands_alone(tmp_path: Path) -> None:
     f = tmp_path / "w.csv"
     _write(f, np.array([T0, T0 + 1.0] * 30), np.ones(60))
-    with pytest.raises(OgiveError, match="--window needs --time-field"):
+    with pytest.raises(OgiveError, match="--window needs each record's time"):
         scan([str(f)], ScanOptions(column="latency_ms", window="10m"))
     with pytest.raises(OgiveError, match="cannot be combined"):
         scan([str(f)], ScanOptions(column="latency_ms", time_field="ts", window="10m", by="ts"))

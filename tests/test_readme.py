@@ -131,6 +131,7 @@ def test_readme_examples_print_what_the_readme_shows(
     tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
 ) -> None:
     shutil.copytree(ROOT / "demo_logs", tmp_path / "demo_logs")
+    shutil.copytree(ROOT / "tests" / "formats", tmp_path / "tests" / "formats")  # the format corpus
     monkeypatch.chdir(tmp_path)
     monkeypatch.setenv("NO_COLOR", "1")
     monkeypatch.setenv("COLUMNS", "100")

@@ -25,8 +25,8 @@ if TYPE_CHECKING:
     from ..read.options import ScanOptions, ScanResult
     from ..sketch import Sketch, SketchSet
 
-FORMAT_CHOICES = ("csv", "tsv", "ndjson", "text", "parquet")
-TIME_FORMAT_CHOICES = ("iso", "epoch_s", "epoch_ms", "epoch_us", "clf")
+FORMAT_CHOICES = ("csv", "tsv", "ndjson", "text", "access", "syslog", "otlp", "parquet")
+TIME_FORMAT_CHOICES = ("iso", "epoch_s", "epoch_ms", "epoch_us", "epoch_ns", "clf", "rfc3164")
 
 
 def add_source_options(parser: argparse.ArgumentParser) -> None:
@@ -36,13 +36,16 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         "--format",
         choices=FORMAT_CHOICES,
         default=None,
-        help="how the records are laid out; by default it is worked out from the first bytes",
+        help="how the records are laid out (access: Common Log Format and combined; syslog: RFC 3164 "
+        "and 5424; otlp: OTLP JSON traces); by default it is worked out from the first bytes",
     )
     g.add_argument(
         "--field",
         metavar="PATH",
         default=None,
-        help="NDJSON: dotted path to the number, e.g. timing.total_ms",
+        help="NDJSON: dotted path to the number, e.g. timing.total_ms (a dot inside a key: "
+        "labels.k\\.dot or labels[\"k.dot\"]); text and syslog: the KEY of KEY=VALUE pairs; "
+        "access logs: latency, bytes, status; OTLP: duration or a span attribute",
     )
     g.add_argument(
         "--column",
@@ -99,7 +102,9 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         "--time-field",
         metavar="FIELD",
         default=None,
-        help="column/field holding each record's timestamp (for --split-at and the time range)",
+        help="column/field holding each record's timestamp (for --split-at and the time range); "
+        "not needed where the format carries one (access logs, syslog, OTLP, NDJSON @timestamp, "
+        "text lines that begin with a time stamp)",
     )
     g.add_argument(
         "--time-format",

@@ -70,7 +70,7 @@ def _clash(name: str, what: str, first: tuple[str, str], other: tuple[str, str])
 
 def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[SketchSet, list[str]]:
     """Merge by sketch name; returns the set and the warnings a forced merge owes the user."""
-    from ..sketch import SketchSet, merge
+    from ..sketch import SketchSet, SkipTally, merge
     from ..sketch.units import duration_factor, in_unit
 
     out: dict[str, Sketch] = {}
@@ -102,7 +102,11 @@ def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[Sket
                 out[name] = merge(have, s)
             else:
                 have.merge(s)  # forced, unrelated units: the first file's unit labels the result
-    return SketchSet(out), warnings
+    merged = SketchSet(out)
+    for _, sset in named:  # rows that reached no sketch stay counted in the merged set
+        for reason, tally in sset.unassigned.items():
+            merged.unassigned.setdefault(reason, SkipTally()).add(tally.count, tally.examples)
+    return merged, warnings
 
 
 def renamed(named: list[tuple[str, SketchSet]], specs: list[str]) -> list[tuple[str, SketchSet]]:
@@ -131,7 +135,7 @@ def renamed(named: list[tuple[str, SketchSet]], specs: list[str]) -> list[tuple[
         if new in sets[path] and new != old:
             raise OgiveError(f"--as {spec!r}: {path} already holds a sketch named {new!r}.")
         sets[path] = {new if n == old else n: s for n, s in sets[path].items()}
-    return [(path, SketchSet(sets[path])) for path, _ in named]
+    return [(path, SketchSet(sets[path], unassigned=sset.unassigned)) for path, sset in named]
 
 
 def run(args: argparse.Namespace) -> int:

@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch, SketchSet
+from ..sketch import Sketch, SketchSet, SkipTally
 from . import times
 from .decode import Batch
 from .options import ScanOptions
@@ -38,6 +38,8 @@ class Builder:
         self.sketches: dict[str, Sketch] = {}
         self.values = 0
         """Good values given to the sketches (held ones included)."""
+        self.by_time = options.split_at is not None or options.window is not None
+        """Sketches are cut by time: a row without a readable time belongs to none."""
         self._held: dict[str, list[NDArray[np.float64]]] = {}
         self._held_n = 0
         self._spans: dict[str, list[float]] = {}
@@ -75,7 +77,7 @@ class Builder:
         self.values += good.size
         for reason, count, examples in self.skips.found(batch, idx):
             self.skips.count(reason, count, examples)
-            if reason != BAD_TIMESTAMP:  # a row without a time belongs to neither half
+            if reason != BAD_TIMESTAMP or not self.by_time:  # cut by time: in no sketch
                 prov.skip(reason, count, examples)
         if batch.tus is not None:
             t = batch.tus if idx is None else batch.tus[idx]
@@ -129,7 +131,21 @@ class Builder:
             span = self._spans.get(name)
             if span:
                 s.provenance.time_first, s.provenance.time_last = times.iso(span[0]), times.iso(span[1])
-        return SketchSet(dict(sorted(self.sketches.items(), key=lambda kv: _sort_key(kv[0]))))
+        ordered = dict(sorted(self.sketches.items(), key=lambda kv: _sort_key(kv[0])))
+        return SketchSet(ordered, unassigned=self._unassigned())
+
+    def _unassigned(self) -> dict[str, SkipTally]:
+        """Skipped rows of the scan that no sketch's provenance holds (counted scan-wide
+        minus the sketches' shares): rows that belonged to no sketch."""
+        out: dict[str, SkipTally] = {}
+        for reason, tally in self.skips.skipped.items():
+            have = [s for s in self.sketches.values() if reason in s.provenance.skipped]
+            owned = [s.provenance.skipped[reason] for s in have]
+            left = tally.count - sum(t.count for t in owned)
+            if left > 0:
+                seen = {e for t in owned for e in t.examples}
+                out[reason] = SkipTally(left, [e for e in tally.examples if e not in seen])
+        return out
 
 
 def _sort_key(name: str) -> tuple[int, int, str]:

@@ -9,6 +9,7 @@ after that :meth:`Decoder.prepare` runs in the parser threads (polars and numpy 
 from __future__ import annotations
 
 import re
+import time
 from dataclasses import dataclass
 
 import numpy as np
@@ -16,8 +17,9 @@ import polars as pl
 from numpy.typing import NDArray
 
 from . import records, times, values
+from .layout import NOT_RECORDS
 from .options import ScanOptions
-from .skips import BAD_TIMESTAMP, NO_MATCH
+from .skips import BAD_TIMESTAMP
 
 _NAME_UNITS = {
     "ns": "ns",
@@ -29,7 +31,10 @@ _NAME_UNITS = {
     "sec": "s",
     "secs": "s",
 }
-_NAME_UNIT = re.compile(r"[a-z0-9][_\-](ns|us|µs|ms|millis|s|sec|secs)$", re.IGNORECASE)
+_NAME_UNIT = re.compile(
+    r"[a-z0-9](?:[_\-]|\s*[(\[])(ns|us|µs|ms|millis|s|sec|secs)[)\]]?$", re.IGNORECASE
+)
+"""A unit at the end of a field's name: ``latency_ms``, ``total-s``, ``Latency (ms)``."""
 
 
 @dataclass
@@ -45,7 +50,10 @@ class Batch:
     groups: pl.Series | None
     suffixed: int
     unsuffixed: int
-    bad_time_kept: int
+    other_epoch: int
+    """Epoch times read in another unit than the file's, by their own magnitude."""
+    years: tuple[int, ...]
+    """RFC 3164 times: the years assumed."""
     time_format: str | None
     display: str
     lines: int = 0
@@ -54,6 +62,10 @@ class Batch:
     """Each row's first line, from ``first_line``, when records span several lines."""
     first_line: int = 0
     """Line number of the first row, given when the batch is committed in source order."""
+    fixed: tuple[tuple[str, int, list[int]], ...] = ()
+    """Bytes made readable before parsing: (what, lines, first 0-based lines of the piece)."""
+    loose: NDArray[np.bool_] | None = None
+    """Rows that are no record at all (the format's own reasons: not JSON, blank, ...)."""
 
     def line(self, row: int) -> int:
         """The line (as an editor numbers it) where row ``row`` starts."""
@@ -74,28 +86,38 @@ class Decoder:
         self.input_unit = options.input_unit
         """Unit of bare numbers: the option, else one read from the value's name."""
         self.time_format = options.time_format
-        self._pattern = False
-        """Free text: a line the regex does not match is ``no_match``, not a missing field."""
+        self.by_magnitude = options.time_format is None
+        """Epoch times are read each by its own magnitude unless --time-format fixed the unit."""
+        self.now_us = time.time() * 1e6
+        """The moment RFC 3164 years are assumed from: when the scan began."""
         self.suffixed = 0
         self.unsuffixed = 0
-        self.bad_time_kept = 0
+        self.other_epoch = 0
+        self.years: set[int] = set()
 
-    def ready(self, df: pl.DataFrame, layout: records.Layout) -> str | None:
+    def ready(self, df: pl.DataFrame, layout: records.Layout) -> list[str]:
         """Decide, from the first frame with rows, what later frames are read against.
 
-        Returns a warning to show when the unit of bare numbers came from the value's name.
+        Returns what the user must hear of the choices made (once): the value found
+        without being named, the unit of bare numbers from the format or the name.
         """
-        note = None
-        self._pattern = layout.format == "text"
+        notes: list[str] = []
         if self.unit is None and df.height:
-            note = self._name_unit(layout.description)
+            notes += layout.notes
+            if self.input_unit is None and layout.input_unit is not None:
+                self.input_unit = layout.input_unit  # the format says it (ECS, OTLP: ns)
+            else:
+                note = self._name_unit(layout.description)
+                if note is not None:
+                    notes.append(note)
             self.unit = self._decide_unit(df.get_column("v"))
         if self.time_format is None and "t" in df.columns:
-            self.time_format = times.detect_format(df.get_column("t"))
-        return note
+            self.time_format = layout.time_format or times.detect_format(df.get_column("t"))
+            self.by_magnitude = layout.time_format is None
+        return notes
 
     def _name_unit(self, description: str) -> str | None:
-        if self.options.input_unit is not None:
+        if self.options.input_unit is not None or self.input_unit is not None:
             return None
         # A name such as latency_ms or timing.total_s says what bare numbers are
         # (common practice in telemetry exports); told in a warning, overridable.
@@ -104,6 +126,8 @@ class Decoder:
         if not found:
             return None
         self.input_unit = values.canonical_unit(_NAME_UNITS[found.group(1).lower()])
+        if self.options.unit is not None:
+            return None  # the user chose the sketch unit: the reading of bare numbers is plain
         return (
             f"numbers without a suffix are taken to be in {self.input_unit}, from the name "
             f"{name!r} (say otherwise with --input-unit)."
@@ -127,42 +151,57 @@ class Decoder:
         return self.unit
 
     def prepare(self, df: pl.DataFrame, display: str) -> Batch:
-        """The thread-safe half of a chunk: values, reasons, times (polars and numpy only)."""
+        """The thread-safe half of a chunk: values, reasons, times (polars and numpy only).
+
+        A row the record format already found unusable (column ``r``: not JSON, not a line
+        of the format, blank) is skipped for that reason alone. A row whose time is
+        missing or unreadable, when the scan reads times, is skipped as ``bad_timestamp``:
+        it is counted, never silently kept outside the time range.
+        """
         n = df.height
         pv = values.parse_values(df.get_column("v"), input_unit=self.input_unit, target_unit=self.unit or "")
         reasons = dict(pv.reasons)
-        if self._pattern and values.MISSING_FIELD in reasons:
-            reasons[NO_MATCH] = reasons.pop(values.MISSING_FIELD)
         ok = pv.ok
+        loose = None
+        if "r" in df.columns:
+            ok, reasons = _record_reasons(df.get_column("r"), ok, reasons)
+            loose = df.get_column("r").is_in(NOT_RECORDS).fill_null(False).to_numpy()
         tus: NDArray[np.float64] | None = None
-        bad_time_kept = 0
+        other_epoch = 0
+        years: tuple[int, ...] = ()
         fmt = self.time_format
         if "t" in df.columns:
             tcol = df.get_column("t")
             fmt = fmt or times.detect_format(tcol)
-            tus = times.parse_times(tcol, fmt) if fmt is not None else np.full(n, np.nan)
-            bad_t = ~np.isfinite(tus)
-            if self.by_time:
-                bt = bad_t & ok
-                if bt.any():
-                    reasons[BAD_TIMESTAMP] = bt
-                    ok = ok & ~bad_t
+            if fmt is None:
+                tus = np.full(n, np.nan)
             else:
-                bad_time_kept = int((bad_t & ok).sum())
+                read = times.read_times(tcol, fmt, by_magnitude=self.by_magnitude, now_us=self.now_us)
+                tus, other_epoch, years = read.us, read.other_unit, read.years
+            bt = ~np.isfinite(tus) & ok
+            if bt.any():
+                reasons[BAD_TIMESTAMP] = bt
+                ok = ok & ~bt
         g = df.get_column("g").cast(pl.String) if "g" in df.columns else None
-        return Batch(
-            n, pv.values, ok, reasons, tus, g, pv.suffixed, pv.unsuffixed, bad_time_kept, fmt, display, n
+        batch = Batch(
+            n, pv.values, ok, reasons, tus, g, pv.suffixed, pv.unsuffixed, other_epoch, years, fmt, display, n
         )
+        batch.loose = loose
+        return batch
 
     def settle(self, batch: Batch) -> None:
-        """Count a committed batch (in source order): unit suffixes, untimed rows, time form."""
+        """Count a committed batch (in source order): unit suffixes, epoch units, time form."""
         self.suffixed += batch.suffixed
         self.unsuffixed += batch.unsuffixed
-        self.bad_time_kept += batch.bad_time_kept
+        self.other_epoch += batch.other_epoch
+        self.years.update(batch.years)
         if self.time_format is None:
             self.time_format = batch.time_format
 
     def mixed_units_warning(self) -> str | None:
+        o = self.options
+        if o.input_unit is not None or o.unit is not None:
+            return None  # the user said what the numbers are
         if self.suffixed and self.unsuffixed and self.input_unit is None and values.is_time_unit(self.unit):
             return (
                 f"{self.unsuffixed} values had no unit suffix while {self.suffixed} did; "
@@ -170,10 +209,34 @@ class Decoder:
             )
         return None
 
-    def untimed_warning(self) -> str | None:
-        if not self.bad_time_kept:
-            return None
-        return (
-            f"{self.bad_time_kept} rows had a missing or unreadable timestamp; their values were kept "
-            "but they do not count towards the time range."
-        )
+    def time_notes(self) -> list[str]:
+        """What reading the times assumed or found: RFC 3164 years, mixed epoch units."""
+        out = []
+        if self.time_format == "rfc3164" and self.years:
+            shown = ", ".join(str(y) for y in sorted(self.years))
+            out.append(f"{times.RFC3164_YEAR_RULE}; here: {shown}.")
+        if self.other_epoch:
+            unit = (self.time_format or "").removeprefix("epoch_")
+            out.append(
+                f"{self.other_epoch:,} epoch times were not in {unit} like the rest; each was read in "
+                "the unit its size says (s, ms, us or ns; --time-format fixes one unit for all)."
+            )
+        return out
+
+
+def _record_reasons(
+    r: pl.Series, ok: NDArray[np.bool_], reasons: dict[str, NDArray[np.bool_]]
+) -> tuple[NDArray[np.bool_], dict[str, NDArray[np.bool_]]]:
+    """The record format's own reasons win over what the value parser made of the row."""
+    bad = r.is_not_null().to_numpy()
+    if not bad.any():
+        return ok, reasons
+    out = {reason: mask & ~bad for reason, mask in reasons.items()}
+    out = {reason: mask for reason, mask in out.items() if mask.any()}
+    codes = r.filter(pl.Series(bad))
+    idx = np.flatnonzero(bad)
+    for reason in codes.unique(maintain_order=True).to_list():
+        mask = np.zeros(bad.size, dtype=bool)
+        mask[idx[(codes == reason).to_numpy()]] = True
+        out[reason] = out[reason] | mask if reason in out else mask
+    return ok & ~bad, out

@@ -46,7 +46,8 @@ class LazyFile:
         if cut < 0:
             return None
         sample = head[: cut + 1]
-        feed.plan(sample)
+        if not feed.plan(sample).one_row_per_line:
+            return None
         avg_line = max(1.0, len(sample) / max(1, sample.count(b"\n")))
         return cls(src, feed, feed.starts_with_header(sample), avg_line)
 
@@ -114,7 +115,9 @@ def parquet_frames(
     if o.time_field:
         exprs.append(column(o.time_field, "t"))
     if feed.layout is None:
-        feed.layout = records.Layout(format="parquet", description=f"column {want}")
+        cols = tuple(n for n, on in (("v", True), ("g", bool(o.by)), ("t", bool(o.time_field))) if on)
+        layout = records.Layout(format="parquet", names=cols, description=f"column {want}")
+        feed.layout = records.needs_time(layout, o)
     try:
         for batch in lf.select(exprs).collect_batches(chunk_size=PARQUET_BATCH_ROWS):
             if "t" in batch.columns and batch.schema["t"] != pl.String:

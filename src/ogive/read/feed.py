@@ -21,7 +21,7 @@ import numpy as np
 import polars as pl
 from numpy.typing import NDArray
 
-from . import records, sources
+from . import encoding, records, sources
 from .options import ScanOptions
 
 _T = TypeVar("_T")
@@ -42,13 +42,24 @@ class Piece:
 
 @dataclass
 class Frame:
-    """A parsed piece: columns ``v`` (and ``g``, ``t``), and the lines its rows span."""
+    """A parsed piece: columns ``v`` (and ``g``, ``t``, ``r``), and the lines its rows span."""
 
     df: pl.DataFrame
     lines: int
     """Lines the piece spans: its rows, plus newlines inside quoted CSV fields."""
     line_of: NDArray[np.int64] | None = None
-    """Each row's first line (0-based within the piece) when records span several lines."""
+    """Each row's first line (0-based within the piece) when records span several lines
+    (quoted CSV newlines) or a line holds several records (OTLP spans)."""
+    fixed: tuple[tuple[str, int, list[int]], ...] = ()
+    """Bytes made readable before parsing: (what, lines, first 0-based lines)."""
+
+
+BAD_UTF8 = "bad_utf8"
+NUL_BYTES = "nul_bytes"
+FIXED_TEXT = {
+    BAD_UTF8: "held bytes that are not UTF-8; each bad sequence was read as U+FFFD",
+    NUL_BYTES: "held NUL bytes, which were removed before reading",
+}
 
 
 class Feed:
@@ -69,6 +80,10 @@ class Feed:
         self._quote_lock = threading.Lock()
         self._cutter = sources.Cutter(options.max_line_bytes)
         self._header_pending = True
+        self._recode = encoding.Transcoder()
+        self._source = ""
+        self.notes: list[str] = []
+        """What was done to whole sources (UTF-16 decoded, CR line ends), once each."""
 
     # ----------------------------------------------------------------- layout
     def plan(self, head: bytes) -> records.Layout:
@@ -101,20 +116,38 @@ class Feed:
         return head.rstrip(b"\r") == layout.header_line.rstrip(b"\r")
 
     # ----------------------------------------------------------------- pieces
-    def start_source(self) -> None:
-        """A new source (or a followed file reopened): fresh cutting, header expected."""
+    def start_source(self, name: str = "") -> None:
+        """A new source (or a followed file reopened): fresh cutting, header expected,
+        its text encoding decided afresh from its first bytes."""
         self._cutter = sources.Cutter(self.options.max_line_bytes)
         self._header_pending = True
+        self._recode = encoding.Transcoder()
+        self._source = name
 
     def push(self, data: bytes) -> Piece | None:
         """The whole records that ``data`` (the next bytes read) completes, if any."""
-        chunk = self._cutter.push(data, self.chunk_size(), self.cutting())
+        data = self._recoded(data, self._recode.push(data))
+        chunk = self._cutter.push(data, self.chunk_size(), self.cutting()) if data else None
         return None if chunk is None else self._take(chunk)
 
     def end(self) -> Piece | None:
         """What is left at the end of the source: a last line without its newline."""
-        chunk = self._cutter.end()
+        tail = self._recoded(b"", self._recode.end())
+        first = self._cutter.push(tail, self.chunk_size(), self.cutting()) if tail else None
+        last = self._cutter.end()
+        if first is not None and last is not None:  # both whole records: one piece
+            first = sources.Chunk(first.data + last.data, first.too_long + last.too_long)
+        chunk = first or last
         return None if chunk is None else self._take(chunk)
+
+    def _recoded(self, raw: bytes, out: bytes) -> bytes:
+        """``out`` (the transcoder's answer to ``raw``), noting once what was done."""
+        note = self._recode.note
+        if note is not None and self._recode.encoding is not None:
+            where = f"{self._source}: " if self._source else ""
+            if f"{where}{note}" not in self.notes:
+                self.notes.append(f"{where}{note}")
+        return out
 
     def pieces(self, src: sources.Opened) -> Iterator[Piece]:
         """Every piece of ``src``, read to its end (call :meth:`start_source` first)."""
@@ -128,7 +161,8 @@ class Feed:
 
     def _take(self, chunk: sources.Chunk) -> Piece:
         data = chunk.data
-        piece = Piece(data, len(data), chunk.too_long)
+        # Transcoded text (UTF-16) is not as long as the source: count the source's bytes.
+        piece = Piece(data, round(len(data) * self._recode.ratio), chunk.too_long)
         if data:
             self.plan(data)
             if self._header_pending:
@@ -142,10 +176,26 @@ class Feed:
         """One piece's records as a frame (thread-safe; see the class docstring)."""
         layout = self.layout
         assert layout is not None, "parse() before any piece decided the layout"
+        clean = encoding.clean(data)
+        data = clean.data
         df, held = layout.parse(data, numeric=self.numeric, literal_quotes=self._literal_quotes)
         self.numeric = self.numeric and held
-        lines, line_of = lines_in(data, df.height, layout.format)
-        return Frame(df, lines, line_of)
+        line_of: NDArray[np.int64] | None
+        if "line" in df.columns:  # several records on a line (OTLP spans), or lines without one
+            line_of = df.get_column("line").to_numpy().astype(np.int64, copy=False)
+            df = df.drop("line")
+            lines = data.count(b"\n") + (0 if not data or data.endswith(b"\n") else 1)
+        else:
+            lines, line_of = lines_in(data, df.height, layout.format)
+        fixed = tuple(
+            (what, count, at)
+            for what, count, at in (
+                (BAD_UTF8, clean.bad_utf8, clean.bad_utf8_at),
+                (NUL_BYTES, clean.nul, clean.nul_at),
+            )
+            if count
+        )
+        return Frame(df, lines, line_of, fixed)
 
     def _literal_quotes(self) -> None:
         with self._quote_lock:

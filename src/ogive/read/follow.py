@@ -58,11 +58,11 @@ class RecentWindow:
       the moment it was read, by ``clock()`` (wall-clock seconds, injectable for tests).
       A quiet log's window empties as time passes, which is what "the last 5 minutes"
       means to someone watching it.
-    * record time (``times_us`` given, from ``--time-field``): a value belongs to the
-      slice of its own timestamp, and "now" is the newest timestamp seen. That keeps a
-      log read with a delay, or written in another time zone without an offset (read
-      as UTC), from looking empty, and it places the backlog already in the file by
-      when it happened. Records older than the window when they arrive are counted in
+    * record time (``times_us`` given: ``--time-field``, or a format that carries its time):
+      a value belongs to the slice of its own timestamp, and "now" is the newest timestamp
+      seen. That keeps a log read with a delay, or written in another time zone without an
+      offset (read as UTC), from looking empty, and it places the backlog already in the
+      file by when it happened. Records older than the window when they arrive are counted in
       ``too_old``, not put in it; the window does not move while no records come.
     """
 
@@ -249,7 +249,7 @@ class _Follower:
             self.caught_up = True
             return False
         self.inode = os.fstat(self.fh.fileno()).st_ino
-        self.run.start_source()
+        self.run.start_source(self.path)
         return True
 
     def close(self) -> None:
@@ -284,7 +284,7 @@ class _Follower:
         if recent is None or not ok.any():
             return
         recent.unit = self.run.decoder.unit or ""
-        if self.options.time_field and batch.tus is not None:
+        if batch.tus is not None:  # records with their own times: --time-field, or the format's
             recent.add(batch.values[ok], batch.tus[ok])
         elif self.caught_up:
             recent.add(batch.values[ok])
@@ -302,7 +302,7 @@ class _Follower:
             return self.open()
         if st.st_size < self.fh.tell():
             self.fh.seek(0)
-            self.run.start_source()
+            self.run.start_source(self.path)
             self.rotations += 1
             return True
         return False

@@ -18,6 +18,7 @@ from ..sketch.units import span_seconds
 
 CSV_CHUNK = 8 << 20
 LINE_CHUNK = 4 << 20
+OTLP_CHUNK = 2 << 20
 
 
 @dataclass(frozen=True)
@@ -30,9 +31,12 @@ class ScanOptions:
     """
 
     format: str | None = None
-    """'csv', 'tsv', 'ndjson', 'text', 'parquet', or None to detect from the content."""
+    """'csv', 'tsv', 'ndjson', 'text', 'access', 'syslog', 'otlp', 'parquet', or None to
+    detect from the content (``sniff.detect``)."""
     field: str | None = None
-    """NDJSON: dotted path of the value (``timing.total_ms``)."""
+    """NDJSON: path of the value (``timing.total_ms``, ``labels.k\\.dot``; see ``ndjson``);
+    text, syslog, access logs: the KEY of ``KEY=VALUE`` pairs or a field of the format;
+    OTLP: ``duration`` or an attribute. None: found from the records where they say."""
     column: str | None = None
     """CSV/TSV: column name, or 1-based index as digits."""
     pattern: str | None = None
@@ -47,8 +51,10 @@ class ScanOptions:
     """Field/column whose distinct values each get a sketch."""
     max_groups: int = 1000
     time_field: str | None = None
+    """Where each record's time is; None: the time the format carries, if any."""
     time_format: str | None = None
-    """'iso', 'epoch_s', 'epoch_ms', 'epoch_us', 'clf', or None to detect."""
+    """One of ``times.FORMATS``, or None to detect (epoch numbers then read per value by
+    their magnitude)."""
     split_at: str | None = None
     """A timestamp: values before it go to sketch 'before', the rest to 'after'."""
     window: str | None = None
@@ -81,13 +87,10 @@ class ScanOptions:
             )
         if (self.chunk_bytes is not None and self.chunk_bytes < 1) or self.max_groups < 1:
             raise OgiveError("chunk_bytes and max_groups must be at least 1.")
-        if self.split_at is not None and not self.time_field:
-            raise OgiveError("--split-at needs --time-field, the column or field holding each record's time.")
+        # Whether there is a time to split or window by is known once the records are:
+        # access logs, syslog, OTLP and text lines that begin with one carry their own
+        # (``records.plan`` refuses a layout without one).
         if self.window is not None:
-            if not self.time_field:
-                raise OgiveError(
-                    "--window needs --time-field, the column or field holding each record's time."
-                )
             if self.by or self.split_at is not None:
                 raise OgiveError("--window cannot be combined with --by or --split-at.")
             seconds = span_seconds(self.window)
@@ -105,10 +108,14 @@ class ScanOptions:
         per-call cost is amortised), at 189 MB peak RSS. With group or time columns
         8 MB reached 260 MB (``--by host``; 213 MB at 4 MB), and text and NDJSON lines
         become one String each, about twice the working set per byte (8 MB: 236-253
-        MB), over the 250 MB budget: those stay at 4 MB.
+        MB), over the 250 MB budget: those stay at 4 MB. OTLP documents decode into
+        nested lists several times their size: 4 MB reached 277 MB at peak, 2 MB 185 MB
+        at the same speed (``benchmarks/formats_bench.py``).
         """
         if self.chunk_bytes is not None:
             return self.chunk_bytes
+        if fmt == "otlp":
+            return OTLP_CHUNK
         return CSV_CHUNK if value_only and fmt in ("csv", "tsv") else LINE_CHUNK
 
 

@@ -23,14 +23,14 @@ import numpy as np
 import polars as pl
 
 from ..errors import OgiveError
-from ..sketch import SketchSet
+from ..sketch import SketchSet, SkipTally
 from . import direct, sources
 from .build import Builder, TimeOrder
 from .decode import Batch, Decoder
-from .feed import Feed, prefetch
+from .feed import FIXED_TEXT, Feed, prefetch
 from .options import ScanOptions, ScanProgress, ScanResult
 from .route import Router
-from .skips import TOO_LONG, Skips
+from .skips import TOO_LONG, Skips, places
 
 PROGRESS_INTERVAL_S = 0.2
 PARSE_WORKERS = 2
@@ -74,7 +74,7 @@ def scan(
     try:
         for name in sources_:
             src = sources.Opened(name)
-            run.start_source()
+            run.start_source(src.display)
             jobs = run.jobs(src, pool)
             try:
                 try:
@@ -182,14 +182,16 @@ class Pipeline:
         self.bytes_seen = 0
         self.warnings: list[str] = []
         """Things to tell the user, in the order they arose (more are added at the end)."""
+        self.fixed: dict[str, SkipTally] = {}
+        """Lines whose bytes were made readable (bad UTF-8, NUL bytes), by what was done."""
 
     @property
     def description(self) -> str:
         """How the value is found (``column latency_ms``), once the layout is known."""
         return self.feed.layout.description if self.feed.layout is not None else ""
 
-    def start_source(self) -> None:
-        self.feed.start_source()
+    def start_source(self, name: str = "") -> None:
+        self.feed.start_source(name)
         self.lines.start_source()
 
     # ----------------------------------------------------------------- pieces to batches
@@ -233,15 +235,13 @@ class Pipeline:
         """A piece's batch; thread-safe unless ``here`` (this thread decides the unit)."""
         frame = self.feed.parse(data)
         batch = self.prepare_here(frame.df, display) if here else self.decoder.prepare(frame.df, display)
-        batch.lines, batch.line_of = frame.lines, frame.line_of
+        batch.lines, batch.line_of, batch.fixed = frame.lines, frame.line_of, frame.fixed
         return batch
 
     def prepare_here(self, df: pl.DataFrame, display: str) -> Batch:
         """Decide the unit and time form if this is the first frame, then prepare it."""
         assert self.feed.layout is not None
-        note = self.decoder.ready(df, self.feed.layout)
-        if note is not None:
-            self.warnings.append(note)
+        self.warnings += self.decoder.ready(df, self.feed.layout)
         self.builder.unit = self.decoder.unit or ""
         self.builder.field = self.feed.layout.description
         return self.decoder.prepare(df, display)
@@ -258,6 +258,9 @@ class Pipeline:
         if batch is None:
             return
         batch.first_line = self.lines.take(batch.lines)
+        for what, count, at in batch.fixed:
+            where = [f"{job.display}:{batch.first_line + i}" for i in at]
+            self.fixed.setdefault(what, SkipTally()).add(count, where)
         if batch.rows == 0:
             return
         self.rows += batch.rows
@@ -272,8 +275,17 @@ class Pipeline:
                 self.skips.count(reason, count, examples)
         if isinstance(names, str):
             self.builder.add(names, batch, None)
-        else:
-            for name, idx in names:
+            return
+        loose = batch.loose
+        if loose is not None and loose.any() and self.router.window_us is None:
+            # Lines that are no record at all (not JSON, not a line of the format, blank)
+            # have no group and no time: they join no sketch, and are counted in the
+            # set's own tally instead of making up a group of their own.
+            for reason, count, examples in self.skips.found(batch, np.flatnonzero(loose)):
+                self.skips.count(reason, count, examples)
+            names = [(name, idx[~loose[idx]]) for name, idx in names]
+        for name, idx in names:
+            if idx.size:
                 self.builder.add(name, batch, idx)
 
     def unassigned(self, reason: str, display: str, lines: range) -> None:
@@ -301,17 +313,20 @@ class Pipeline:
         sset = self.builder.finish(
             lines=self.lines.total, partial=partial, halves=self.router.split_us is not None
         )
-        warnings = list(self.warnings)
+        warnings = [*self.feed.notes, *self.warnings]
+        for what, tally in self.fixed.items():
+            warnings.append(
+                f"{tally.count:,} lines {FIXED_TEXT[what]} (first at {places(tally.examples)})."
+            )
         for note in (
             self.router.overflow_warning(),
             self.decoder.mixed_units_warning(),
             self.order.warning(),
             self.feed.quote_warning(),
-            self.decoder.untimed_warning(),
         ):
             if note is not None:
                 warnings.append(note)
-        warnings += self.skips.ownerless_warnings(by_time=self.router.by_time, by=bool(self.options.by))
+        warnings += self.decoder.time_notes()
         return ScanResult(
             sketches=sset,
             bytes_read=self.bytes_seen,

@@ -15,24 +15,22 @@ from numpy.typing import NDArray
 from ..errors import OgiveError
 from ..sketch import SkipTally
 from ..sketch.sketch import EXAMPLES_KEPT
-from . import values
+from . import layout, values
 
 if TYPE_CHECKING:
     from .decode import Batch
 
 BAD_TIMESTAMP = "bad_timestamp"
 TOO_LONG = "too_long"
-BAD_RECORD = "bad_record"
-NO_MATCH = "no_match"
 
 REASON_TEXT = {
     values.MISSING_FIELD: "the value is missing",
     values.NOT_A_NUMBER: "the value is not a number",
     values.UNKNOWN_UNIT: "the value has a unit suffix ogive does not know",
     values.UNIT_MISMATCH: "the value is a duration but the sketch unit is not a time unit",
-    BAD_TIMESTAMP: "the timestamp is missing or unreadable",
+    BAD_TIMESTAMP: "the timestamp is missing or unreadable (or out of range)",
     TOO_LONG: "the line is longer than the longest line ogive will hold",
-    NO_MATCH: "the --pattern regex does not match the line",
+    **layout.REASON_TEXT,  # what the record formats find: not JSON, not a line of the format, ...
 }
 
 Found = list[tuple[str, int, list[str]]]
@@ -78,17 +76,17 @@ class Skips:
                 out.append((reason, count, [batch.where(int(i)) for i in rows]))
         return out
 
-    def ownerless_warnings(self, *, by_time: bool, by: bool) -> list[str]:
-        """Rows that reached no sketch at all (a bad time when cutting by time, a line too
-        long to read a group from): the only place the user hears of them."""
-        out = []
-        for reason, tally in self.skipped.items():
-            if reason in (TOO_LONG, BAD_TIMESTAMP) and (by_time or (by and reason == TOO_LONG)):
-                out.append(
-                    f"{tally.count} lines could not be given to any sketch ({reason}), first at "
-                    f"{', '.join(tally.examples)}."
-                )
-        return out
+
+def places(examples: list[str]) -> str:
+    """``a.log:3``, ``a.log:9``, ``b.log:4`` as ``a.log:3, 9; b.log:4`` (each file once)."""
+    parts: list[tuple[str, list[str]]] = []
+    for ex in examples:
+        where, _, line = ex.rpartition(":")
+        if parts and parts[-1][0] == where:
+            parts[-1][1].append(line)
+        else:
+            parts.append((where, [line]))
+    return "; ".join(f"{w}:{', '.join(ls)}" for w, ls in parts)
 
 
 def stop(reason: str, where: str) -> NoReturn:

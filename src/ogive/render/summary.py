@@ -94,9 +94,15 @@ class SketchSummary:
 class SetSummary:
     sketches: tuple[SketchSummary, ...]
     warnings: tuple[str, ...] = ()
+    unassigned: tuple[tuple[str, int, tuple[str, ...]], ...] = ()
+    """(reason, count, first locations) of rows read but given to no sketch."""
 
     def to_dict(self) -> dict[str, Any]:
-        return {"sketches": {s.name: s.to_dict() for s in self.sketches}, "warnings": list(self.warnings)}
+        return {
+            "sketches": {s.name: s.to_dict() for s in self.sketches},
+            "unassigned": {r: {"count": c, "examples": list(e)} for r, c, e in self.unassigned},
+            "warnings": list(self.warnings),
+        }
 
 
 def summarise_sketch(name: str, s: Sketch, qs: Sequence[float] = LADDER) -> SketchSummary:
@@ -133,6 +139,10 @@ def summarise(sset: SketchSet, warnings: Sequence[str] = (), qs: Sequence[float]
     return SetSummary(
         sketches=tuple(summarise_sketch(name, sset[name], qs) for name in sset.names()),
         warnings=tuple(warnings),
+        unassigned=tuple(
+            (r, t.count, tuple(t.examples))
+            for r, t in sorted(sset.unassigned.items(), key=lambda kv: -kv[1].count)
+        ),
     )
 
 
@@ -234,6 +244,9 @@ def _skipped_lines(summary: SetSummary) -> list[str]:
             where = f" (first at {_locations(examples)})" if examples else ""
             prefix = f"{_short(s.name)}: " if many else ""
             lines.append(f"  {prefix}{reason.replace('_', ' ')}: {count:,}{where}")
+    for reason, count, examples in summary.unassigned:
+        where = f" (first at {_locations(examples)})" if examples else ""
+        lines.append(f"  in no sketch: {reason.replace('_', ' ')}: {count:,}{where}")
     if not lines:
         return []
     return ["", "skipped rows (not in the sketch):", *lines]

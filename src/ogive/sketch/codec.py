@@ -10,8 +10,13 @@ Format 1, top level::
       "version": 1,
       "writer": "ogive 0.1.0",
       "sketches": {NAME: SKETCH, ...},
+      "unassigned": {REASON: {"count": N, "examples": [...]}, ...},   (optional)
       "checksum": "sha256:<hex of the canonical JSON of every other key>"
     }
+
+``unassigned`` counts rows that were read but belong to no sketch (a bad time when the
+sketches are cut by time); it is written only when there are such rows, so files
+without it are the same as before it existed.
 
 SKETCH holds ``unit``, ``compression``, ``scale``, ``tail_size``, the counts (``count``,
 ``sum``, ``nan_count``, ``inf_count``, ``negative_count``, ``zero_count``), the digest
@@ -80,12 +85,16 @@ def sketch_to_dict(s: Sketch) -> dict[str, Any]:
             "field": p.field,
             "lines_read": p.lines_read,
             "rows_read": p.rows_read,
-            "skipped": {r: {"count": t.count, "examples": list(t.examples)} for r, t in p.skipped.items()},
+            "skipped": _tallies(p.skipped),
             "time_first": p.time_first,
             "time_last": p.time_last,
             "partial": p.partial,
         },
     }
+
+
+def _tallies(tallies: dict[str, SkipTally]) -> dict[str, Any]:
+    return {r: {"count": t.count, "examples": list(t.examples)} for r, t in tallies.items()}
 
 
 def _floats(a: np.ndarray) -> list[float | int]:
@@ -100,6 +109,8 @@ def dumps(sketches: SketchSet) -> bytes:
         "writer": f"ogive {__version__}",
         "sketches": {name: sketch_to_dict(s) for name, s in sketches.sketches.items()},
     }
+    if sketches.unassigned:
+        doc["unassigned"] = _tallies(sketches.unassigned)
     doc["checksum"] = "sha256:" + hashlib.sha256(_canonical(doc)).hexdigest()
     return (_pretty(doc, 0) + "\n").encode()
 
@@ -158,7 +169,17 @@ def loads(data: bytes) -> SketchSet:
             ) from None
         except (TypeError, ValueError) as exc:
             raise SketchFormatError(f"sketch {name!r} in the file is malformed: {exc}.") from None
+    try:
+        out.unassigned = _read_tallies(doc.get("unassigned", {}))
+    except (AttributeError, KeyError, TypeError, ValueError):
+        raise SketchFormatError("the sketch file's 'unassigned' rows are malformed.") from None
     return out
+
+
+def _read_tallies(body: Any) -> dict[str, SkipTally]:
+    return {
+        str(r): SkipTally(int(t["count"]), [str(e) for e in t["examples"]]) for r, t in dict(body).items()
+    }
 
 
 def _array(body: Any, name: str) -> np.ndarray:

@@ -433,6 +433,10 @@ class SketchSet:
     """Named sketches that belong together (groups of ``--by``, before/after)."""
 
     sketches: dict[str, Sketch] = dataclasses.field(default_factory=dict)
+    unassigned: dict[str, SkipTally] = dataclasses.field(default_factory=dict)
+    """Rows read but given to no sketch, by reason: a missing or unreadable time when the
+    sketches are cut by time (``before``/``after``, windows), a line too long to read a
+    group from. Counted here so that every row read is in a sketch or counted."""
 
     def __getitem__(self, name: str) -> Sketch:
         return self.sketches[name]

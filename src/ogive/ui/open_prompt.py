@@ -22,7 +22,7 @@ from ..read.options import ScanOptions
 from . import preview
 from .path_input import PathInput
 
-FORMATS = ("auto", "csv", "tsv", "ndjson", "text", "parquet")
+FORMATS = ("auto", "csv", "tsv", "ndjson", "text", "access", "syslog", "otlp", "parquet")
 HINT = "enter: open · tab: complete/next · escape: cancel"
 
 
@@ -46,9 +46,9 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
     BINDINGS: ClassVar[list[BindingType]] = [Binding("escape", "cancel", "Cancel")]
 
     FIELDS: ClassVar[list[list[tuple[str, str, str]]]] = [
-        [("format", "format", "auto, csv, tsv, ndjson, text, parquet"),
+        [("format", "format", "auto, csv, tsv, ndjson, text, access, syslog, otlp, parquet"),
          ("unit", "unit", "ms, s, us, ns, or a label")],
-        [("field", "field", "NDJSON: dotted path, e.g. timing.total_ms"),
+        [("field", "field", "NDJSON: dotted path (timing.total_ms); text: KEY of KEY=VALUE"),
          ("column", "column", "CSV/TSV: the value's column, by name or 1-based number")],
         [("pattern", "pattern", "text: a regular expression whose one group is the value")],
         [("by", "by", "a sketch for each distinct value of this column or field (host, route)"),

@@ -1,0 +1,295 @@
+"""CSV and TSV records (RFC 4180): sniffing the separator, choosing the value column.
+
+Quoting follows RFC 4180 section 2: a field in double quotes may hold the separator,
+newlines and doubled quotes (``""``). The sniffer therefore counts fields with a real
+CSV parser (Python's ``csv`` module on the first lines), never by counting separator
+characters, so a first row like ``"Smith, J.",12`` is not taken for free text.
+"""
+
+from __future__ import annotations
+
+import csv
+import dataclasses
+import io
+from collections import Counter
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import polars as pl
+
+from ..errors import OgiveError
+from .layout import Layout
+from .options import ScanOptions
+from .values import looks_numeric
+
+SNIFF_LINES = 50
+SEPARATORS = ("\t", ",", ";", "|")
+TIME_NAMES = frozenset(
+    {"time", "timestamp", "ts", "@timestamp", "date", "datetime", "epoch", "when", "start", "end"}
+)
+"""Column names taken for times, never for the value, when the value column is chosen."""
+MOST = 0.8
+"""Share of sampled rows that must agree (a few junk rows among 50 are tolerated)."""
+
+
+@dataclass(frozen=True)
+class CsvLayout(Layout):
+    separator: str = ","
+    width: int = 0
+    """Fields per record (from the sample, at least the widest column used)."""
+    columns: tuple[int, ...] = ()
+    """0-based indices of the value, group and time columns, in file order."""
+
+    def parse(
+        self, data: bytes, *, numeric: bool = False, literal_quotes: object = None
+    ) -> tuple[pl.DataFrame, bool]:
+        """Rows of ``data``; with ``numeric`` the value column is first tried as Float64.
+
+        Returns the frame and whether the numeric attempt held (callers stop trying
+        once a chunk of durations or other text needed the String path).
+        ``literal_quotes`` is called when a chunk's quotes did not balance and it was
+        read with ``"`` as a plain character instead.
+        """
+        if numeric:
+            try:
+                return self._read(data, numeric=True), True
+            except pl.exceptions.PolarsError:
+                pass
+        try:
+            return self._read(data, numeric=False), False
+        except OgiveError:
+            if b'"' not in data:
+                raise
+        # A stray quote (``5" screen`` in an unquoted field, a field opened and never
+        # closed) makes polars reject the whole chunk; quotes as plain characters keep
+        # one row per line, so the other rows still count.
+        df = self._read(data, numeric=False, quote=None)
+        if callable(literal_quotes):
+            literal_quotes()
+        return df, False
+
+    def _read(self, data: bytes, *, numeric: bool, quote: str | None = '"') -> pl.DataFrame:
+        # Letting the reader parse floats itself skips a String column and a cast: the
+        # fast path for the usual plain-number latency column. Any non-number makes it
+        # raise, and the chunk is read again as text (durations, bad rows).
+        # The full width is given as a schema, so that a short (ragged) first line
+        # cannot narrow the frame for the whole chunk: short rows get nulls instead.
+        vcol = self.columns[self.names.index("v")]
+        schema = {f"c{i}": pl.Float64 if numeric and i == vcol else pl.String for i in range(self.width)}
+
+        def read(encoding: str) -> pl.DataFrame:
+            return pl.read_csv(
+                data,
+                has_header=False,
+                separator=self.separator,
+                quote_char=quote,
+                columns=list(self.columns),
+                schema=schema,
+                missing_columns="insert",
+                truncate_ragged_lines=True,
+                raise_if_empty=False,
+                encoding=encoding,  # type: ignore[arg-type]
+            )
+
+        try:
+            try:
+                df = read("utf8")
+            except pl.exceptions.ComputeError as exc:
+                if "utf-8" not in str(exc).lower():
+                    raise
+                # Invalid UTF-8 the byte cleaner did not see (a caller that skipped it):
+                # read with such bytes replaced rather than end the scan.
+                df = read("utf8-lossy")
+        except pl.exceptions.PolarsError as exc:
+            if numeric:
+                raise
+            first = str(exc).splitlines()[0][:200]
+            raise OgiveError(f"cannot parse the {self.format.upper()} records: {first}") from None
+        return df.rename(dict(zip(df.columns, self.names, strict=True)))
+
+    def lazy(self, path: str, skip: int, *, numeric: bool) -> pl.LazyFrame:
+        """The same columns from polars' streaming reader, after ``skip`` lines."""
+        vname = _csv_name(self.columns[self.names.index("v")])
+        lf = pl.scan_csv(
+            path,
+            has_header=False,
+            separator=self.separator,
+            infer_schema=False,
+            schema_overrides={vname: pl.Float64} if numeric else None,
+            truncate_ragged_lines=True,
+            skip_rows=skip,
+            raise_if_empty=False,
+        )
+        width = len(lf.collect_schema())
+        return lf.select(
+            (pl.col(_csv_name(c)) if c < width else pl.lit(None, dtype=pl.String)).alias(n)
+            for c, n in zip(self.columns, self.names, strict=True)
+        )
+
+
+_CSV_BASE = int(pl.read_csv(b"x\n", has_header=False).columns[0].rsplit("_", 1)[1])
+"""Polars names header-less columns ``column_N``; whether N starts at 0 or 1 is probed."""
+
+
+def _csv_name(index: int) -> str:
+    return f"column_{index + _CSV_BASE}"
+
+
+def sample_rows(data: bytes, sep: str) -> list[list[str]]:
+    """The first records of ``data`` as lists of fields, by RFC 4180 rules."""
+    text = data[: 1 << 16].decode("utf-8", errors="replace").lstrip("\ufeff")
+    cut = text.rfind("\n")
+    text = text[: cut + 1] if cut >= 0 else text
+    reader = csv.reader(io.StringIO(text), delimiter=sep, quotechar='"', doublequote=True, strict=False)
+    rows: list[list[str]] = []
+    try:
+        for row in reader:
+            if row and any(f.strip() for f in row):
+                rows.append(row)
+            if len(rows) >= SNIFF_LINES:
+                break
+    except csv.Error:
+        pass  # a field longer than the csv module allows: the rows so far decide
+    return rows
+
+
+def sniff(data: bytes, *, want_column: bool = False) -> str | None:
+    """The separator when the first lines are delimited records, else None.
+
+    Delimited means: most rows have the same number (>= 2) of fields, counted by a CSV
+    parser, and at least one column holds numbers in most rows (a log whose lines each
+    have one comma is not a table). With ``want_column`` (``--column`` was given) the
+    second condition is dropped. A file of one number per line is one-column CSV.
+    """
+    best: tuple[int, str] | None = None
+    loose: tuple[int, str] | None = None  # ragged rows, for when --column says it is a table
+    for sep in SEPARATORS:
+        rows = sample_rows(data, sep)
+        if not rows:
+            return None
+        widths = Counter(len(r) for r in rows)
+        width, count = widths.most_common(1)[0]
+        if width >= 2 and (loose is None or count > loose[0]):
+            loose = (count, sep)
+        if width < 2 or count < MOST * len(rows):
+            continue
+        if not want_column and not numeric_columns(rows[1:] or rows, width):
+            continue
+        if best is None or width > best[0]:
+            best = (width, sep)
+    if best is not None:
+        return best[1]
+    if want_column:
+        return loose[1] if loose is not None else ","
+    rows = sample_rows(data, ",")
+    if rows and all(len(r) == 1 for r in rows):
+        body = rows[1:] or rows
+        if sum(looks_numeric(r[0]) for r in body) >= MOST * len(body):
+            return ","
+    return None
+
+
+def numeric_columns(rows: list[list[str]], width: int) -> list[int]:
+    """Columns whose non-empty values are numbers (or durations) in most rows."""
+    out = []
+    for c in range(width):
+        vals = [r[c].strip() for r in rows if c < len(r) and r[c].strip()]
+        if vals and sum(looks_numeric(v) for v in vals) >= MOST * len(vals):
+            out.append(c)
+    return out
+
+
+def plan(data: bytes, options: ScanOptions, fmt: str, sep: str) -> CsvLayout:
+    """The layout for delimited records: header or not, which columns, and why."""
+    if options.column is None and options.field is not None:
+        # --field on a CSV: take it as the column rather than refusing.
+        options = dataclasses.replace(options, column=options.field)
+    rows = sample_rows(data, sep)
+    first = rows[0] if rows else []
+    width = max((len(r) for r in rows), default=0)
+    header = options.header
+    if header is None:
+        wanted = [c for c in (options.column, options.by, options.time_field) if c is not None]
+        if any(not c.isdigit() for c in wanted):
+            header = True
+        else:
+            later_numeric = bool(numeric_columns(rows[1:], width)) if len(rows) > 1 else False
+            header = bool(first) and not any(looks_numeric(f) for f in first if f.strip()) and later_numeric
+    names = [f.strip() for f in first] if header else []
+    header_line = data.split(b"\n", 1)[0] if header else b""
+    resolve = _resolver(names, header)
+
+    taken: list[int] = []
+    notes: list[str] = []
+    for spec, what in ((options.by, "--by"), (options.time_field, "--time-field")):
+        if spec is not None:
+            taken.append(resolve(spec, what))
+    if options.column is None:
+        vcol, note = _choose_value(rows[1:] if header else rows, width, names, taken)
+        notes.append(note)
+    else:
+        vcol = resolve(options.column, "--column")
+    cols: list[int] = [vcol]
+    outs: list[str] = ["v"]
+    for spec, out, what in ((options.by, "g", "--by"), (options.time_field, "t", "--time-field")):
+        if spec is not None:
+            idx = resolve(spec, what)
+            if idx in cols:
+                raise OgiveError(f"{what} names the same column as the value; choose another.")
+            cols.append(idx)
+            outs.append(out)
+    order = sorted(range(len(cols)), key=lambda i: cols[i])
+    label = names[vcol] if names and vcol < len(names) and names[vcol] else str(vcol + 1)
+    return CsvLayout(
+        format=fmt,
+        separator=sep,
+        header=header,
+        header_line=header_line,
+        width=max(width, max(cols) + 1),
+        columns=tuple(cols[i] for i in order),
+        names=tuple(outs[i] for i in order),
+        description=f"column {label}",
+        notes=tuple(n for n in notes if n),
+    )
+
+
+def _resolver(names: list[str], header: bool) -> Callable[[str, str], int]:
+    def resolve(spec: str, what: str) -> int:
+        if spec.isdigit():
+            idx = int(spec) - 1
+            if idx < 0:
+                raise OgiveError(f"{what} positions start at 1, got {spec}.")
+            return idx
+        if not header:
+            raise OgiveError(
+                f"{what} {spec!r} is a name, but the file has no header line; give a 1-based position."
+            )
+        if spec not in names:
+            raise OgiveError(f"no column named {spec!r} (the header has: {', '.join(names)}).")
+        return names.index(spec)
+
+    return resolve
+
+
+def _choose_value(rows: list[list[str]], width: int, names: list[str], taken: list[int]) -> tuple[int, str]:
+    """The only column that holds numbers (times, group and time columns aside), and a
+    note saying it was taken; an error naming the candidates otherwise."""
+    if width <= 1:
+        return 0, ""
+
+    def name(c: int) -> str:
+        return names[c] if c < len(names) and names[c] else f"column {c + 1}"
+
+    numeric = [
+        c
+        for c in numeric_columns(rows, width)
+        if c not in taken and not (c < len(names) and names[c].strip().lower() in TIME_NAMES)
+    ]
+    if len(numeric) == 1:
+        c = numeric[0]
+        label = f"column {names[c]!r}" if c < len(names) and names[c] else f"column {c + 1}"
+        return c, f"value: {label}, the only column that holds numbers (choose another with --column)."
+    shown = ", ".join(name(c) for c in numeric) if numeric else ", ".join(names) or f"{width} unnamed columns"
+    if numeric:
+        raise OgiveError(f"several columns hold numbers ({shown}); choose the value with --column NAME or N.")
+    raise OgiveError(f"no column holds numbers in the first rows ({shown}); choose one with --column.")

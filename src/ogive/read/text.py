@@ -1,0 +1,232 @@
+"""Free-text log lines: a regex, ``key=value`` pairs, and a leading time stamp.
+
+The value is found by ``--pattern`` (a regex whose single group, or group named
+``value``, captures the number) or by ``--field KEY``, which reads ``KEY=VALUE`` pairs
+(``dur=12ms``, ``took="1.5 s"``) wherever they sit in the line. Without either, a line
+whose pairs include exactly one key holding durations (``dur=12ms``) gives that key.
+
+Time: a named group of the pattern, a ``KEY=`` pair, or, when the lines begin with
+an ISO 8601 or epoch time stamp (optionally in brackets), that stamp: it is used for
+the time range without any option, and ``--time-field`` with any name that is not a
+group or key takes it too, so no regex is needed for the usual layout.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+import polars as pl
+
+from ..errors import OgiveError
+from . import layout as L
+from . import times
+from .delimited import MOST, SNIFF_LINES
+from .options import ScanOptions
+from .values import MISSING_FIELD, looks_numeric
+
+LEADING_TIME = rf"^\[?\s*({times.ISO_LEADING}|{times.EPOCH_LEADING})\]?(?:[\s,;|]|$)"
+"""A time stamp at the very start of a line, as one group."""
+_PAIR = r"(?:^|[^\w.@-])([A-Za-z_@][\w.@-]*)=(\"[^\"]*\"|[^\s,;\"\]\)}]*)"
+_VALUE_CHARS = r"(?:\"([^\"]*)\"|([^\s,;\"\]\)}]+))"
+
+
+def key_value_regex(key: str) -> str:
+    """A regex whose groups 1 (quoted) or 2 (bare) capture the value of ``key=``."""
+    return rf"(?:^|[^\w.@-]){re.escape(key)}={_VALUE_CHARS}"
+
+
+@dataclass(frozen=True)
+class Extract:
+    """One output column: the first non-null of some capture groups of a regex."""
+
+    name: str
+    regex: str
+    groups: tuple[int, ...]
+
+    def column(self, lines: pl.Series) -> pl.Series:
+        if len(self.groups) == 1:
+            return lines.str.extract(self.regex, self.groups[0]).alias(self.name)
+        found = lines.str.extract_groups(self.regex)
+        fields = found.struct.fields
+        parts = [found.struct.field(fields[g - 1]) for g in self.groups]
+        return pl.select(pl.coalesce(parts)).to_series().alias(self.name)
+
+
+@dataclass(frozen=True)
+class TextLayout(L.Layout):
+    extracts: tuple[Extract, ...] = ()
+    missing_reason: str = L.NO_MATCH
+    """Why a line without a value is skipped: the regex did not match, or the key was absent."""
+
+    def frame(self, lines: pl.Series) -> pl.DataFrame:
+        df = pl.DataFrame([e.column(lines) for e in self.extracts])
+        missing = L.rows_where(df.get_column("v").is_null())
+        if not missing.size:
+            return df
+        empty = missing[L.rows_where(L.blank(lines.gather(missing)))]
+        r = L.reason_column(len(lines), [(empty, L.BLANK_LINE), (missing, self.missing_reason)])
+        return df if r is None else df.with_columns(r)
+
+
+def sample_lines(data: bytes) -> list[str]:
+    text = data[: 1 << 16].decode("utf-8", errors="replace")
+    lines = [ln.rstrip("\r") for ln in text.split("\n")[:SNIFF_LINES]]
+    return [ln for ln in lines if ln.strip()]
+
+
+def leading_time(lines: list[str]) -> bool:
+    """Whether at least half the lines begin with an ISO 8601 or epoch time stamp (the
+    rest may be continuation lines: stack traces, wrapped messages)."""
+    rx = re.compile(LEADING_TIME)
+    return bool(lines) and sum(bool(rx.match(ln)) for ln in lines) >= 0.5 * len(lines)
+
+
+def pairs(lines: list[str]) -> dict[str, list[str]]:
+    """``key=value`` pairs of the sample lines: the values seen per key."""
+    rx = re.compile(_PAIR)
+    seen: dict[str, list[str]] = {}
+    for ln in lines:
+        for key, value in rx.findall(ln):
+            value = value.strip('"')
+            if value:
+                seen.setdefault(key, []).append(value)
+    return seen
+
+
+def choose_key(lines: list[str], exclude: set[str]) -> tuple[str | None, list[str]]:
+    """The one key whose values are durations (``12ms``) wherever it appears, in at least
+    a tenth of the lines (syslog mixes many programs); else the one key that holds
+    numbers in most lines. Also the numeric keys seen, for an error message."""
+    found = pairs(lines)
+    durations: list[str] = []
+    numbers: list[str] = []
+    for key, vals in found.items():
+        if key in exclude or key.lower() in ("ts", "time", "timestamp"):
+            continue
+        numeric = [v for v in vals if looks_numeric(v)]
+        if len(numeric) >= MOST * len(lines):
+            numbers.append(key)
+        suffixed = sum(not _plain_number(v) for v in numeric)
+        if suffixed >= MOST * len(vals) and len(vals) >= max(2, 0.1 * len(lines)):
+            durations.append(key)
+    if len(durations) == 1:
+        return durations[0], numbers
+    if not durations and len(numbers) == 1:
+        return numbers[0], numbers
+    return None, sorted(set(numbers) | set(durations))
+
+
+def _plain_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
+
+
+@dataclass(frozen=True)
+class ValueSource:
+    """Where the value (and named groups) come from, for any line format."""
+
+    extract: Extract
+    named: dict[str, int]
+    """Named groups of --pattern (name -> index)."""
+    pattern: str
+    description: str
+    missing_reason: str
+    note: str = ""
+
+
+def value_source(options: ScanOptions, lines: list[str], *, what: str = "free text") -> ValueSource:
+    """The value from --pattern, from --field KEY (``KEY=VALUE`` pairs), or else the one
+    key whose pairs hold durations; an error saying what to give when none fits."""
+    pattern = options.pattern
+    if pattern:
+        compiled = _compile(pattern)
+        named = dict(compiled.groupindex)
+        if "value" in named:
+            vidx = named["value"]
+        elif compiled.groups == 1:
+            vidx = 1
+        else:
+            raise OgiveError(
+                f"the --pattern regex has {compiled.groups} groups; use exactly one, "
+                "or name the number (?P<value>...)."
+            )
+        return ValueSource(Extract("v", pattern, (vidx,)), named, pattern, f"pattern {pattern}", L.NO_MATCH)
+    key = options.field or options.column
+    note = ""
+    if key is None:
+        key, numeric = choose_key(lines, {k for k in (options.by, options.time_field) if k})
+        if key is None:
+            found = f" (keys with numbers: {', '.join(numeric[:8])})" if numeric else ""
+            raise OgiveError(
+                f"the records look like {what}; give --field KEY for KEY=VALUE pairs{found}, or "
+                "--pattern with a regex whose group captures the number (or --format to say what they are)."
+            )
+        note = f"value: the {key}= pairs, the only ones that hold durations (choose another with --field)."
+    return ValueSource(
+        Extract("v", key_value_regex(key), (1, 2)), {}, "", f"field {key}", MISSING_FIELD, note
+    )
+
+
+NEVER = r"$x(x)"
+"""A regex that matches no line: for a source whose first lines are all blank."""
+
+
+def plan(data: bytes, options: ScanOptions) -> TextLayout:
+    lines = sample_lines(data)
+    if not lines and not (options.pattern or options.field or options.column):
+        # Nothing but blank lines to go by: each line is counted blank, and the scan says
+        # there were no usable values (as for an empty file), instead of asking for a regex.
+        return TextLayout(format="text", extracts=(Extract("v", NEVER, (1,)),), description="no records")
+    src = value_source(options, lines)
+    extracts = [src.extract]
+    named, pattern = src.named, src.pattern
+    starts_with_time = leading_time(lines)
+    if options.by is not None:
+        if options.by in named:
+            extracts.append(Extract("g", pattern, (named[options.by],)))
+        else:
+            extracts.append(Extract("g", key_value_regex(options.by), (1, 2)))
+    spec = options.time_field
+    time_source = ""
+    if spec is not None:
+        if spec in named:
+            extracts.append(Extract("t", pattern, (named[spec],)))
+        elif spec in pairs(lines):
+            extracts.append(Extract("t", key_value_regex(spec), (1, 2)))
+        elif starts_with_time:
+            extracts.append(Extract("t", LEADING_TIME, (1,)))
+        else:
+            raise OgiveError(
+                f"--time-field {spec!r} is not a named group (?P<{spec}>...) of --pattern nor a "
+                f"{spec}=VALUE pair of the lines, and the lines do not begin with a time stamp."
+            )
+    elif starts_with_time:
+        extracts.append(Extract("t", LEADING_TIME, (1,)))
+        time_source = "the time stamp that begins each line"
+    return TextLayout(
+        format="text",
+        names=tuple(e.name for e in extracts),
+        extracts=tuple(extracts),
+        missing_reason=src.missing_reason,
+        description=src.description,
+        time_source=time_source,
+        notes=(src.note,) if src.note else (),
+    )
+
+
+def _compile(pattern: str) -> re.Pattern[str]:
+    try:
+        compiled = re.compile(pattern)
+    except re.error as exc:
+        raise OgiveError(f"the --pattern regex does not compile: {exc}.") from None
+    try:
+        pl.Series([""], dtype=pl.String).str.extract(pattern, 0)
+    except pl.exceptions.PolarsError as exc:
+        raise OgiveError(
+            f"the --pattern regex is not accepted by the parser: {str(exc).splitlines()[0][:200]}."
+        ) from None
+    return compiled
