@@ -55,7 +55,8 @@ scan_s = time.perf_counter() - t0
 def hwm_mb():
     with open("/proc/self/status") as fh:
         return int([ln for ln in fh if ln.startswith("VmHWM:")][0].split()[1]) / 1024
-out = {"scan_s": scan_s, "scan_cpu": time.process_time() - c0, "scan_rss_mb": hwm_mb(), "scan_anon_mb": peak_anon[0] / 1024, "sketches": len(res.sketches.names()), "n": res.sketches["all"].count}
+out = {"scan_s": scan_s, "scan_cpu": time.process_time() - c0, "scan_rss_mb": hwm_mb()}
+out.update(scan_anon_mb=peak_anon[0] / 1024, sketches=len(res.sketches.names()), n=res.sketches["all"].count)
 if mode == "timeline":
     from ogive.fit.timeline import build_timeline, read_windows
     t1 = time.perf_counter()
@@ -99,7 +100,8 @@ def bench_scan(folder: Path, size: str, repeat: int) -> None:
     csv, log = folder / f"timeline_{size}.csv", folder / f"timeline_{size}.log"
     for path, fmt in ((csv, "csv"), (log, "text")):
         if not path.exists():
-            subprocess.run(["ogive", "generate", "--format", fmt, "--size", size, "-o", str(path)], check=True)
+            cmd = ["ogive", "generate", "--format", fmt, "--size", size, "-o", str(path)]
+            subprocess.run(cmd, check=True)
     text_pattern = r"^(?P<ts>\S+) .*" + TEXT_PATTERN.replace("(", "(?P<value>", 1)
     cases = (
         (csv, {"column": "latency_ms", "time_field": "timestamp", "unit": "ms"}),
@@ -119,10 +121,12 @@ def bench_scan(folder: Path, size: str, repeat: int) -> None:
         base_cpu = min(r["scan_cpu"] for r in runs["scan"])
         for label in ("timeline 5m", "timeline 1m"):
             rs = runs[label]
+            wall = base / min(r["scan_s"] for r in rs)
+            cpu = base_cpu / min(r["scan_cpu"] for r in rs)
+            after = statistics.median(r["analysis_s"] for r in rs)
             print(
-                f"  {label}: speed ratio to scan --time-field {base / min(r['scan_s'] for r in rs):.2f} wall, "
-                f"{base_cpu / min(r['scan_cpu'] for r in rs):.2f} CPU (best against best; goal >= 0.9); then "
-                f"{statistics.median(r['analysis_s'] for r in rs):.2f} s for quantiles, change points and ladders"
+                f"  {label}: speed ratio to scan --time-field {wall:.2f} wall, {cpu:.2f} CPU "
+                f"(best against best; goal >= 0.9); then {after:.2f} s for quantiles, change points, ladders"
             )
 
 
@@ -196,7 +200,8 @@ def bench_search() -> None:
     rng = np.random.default_rng(3)
     t = 10_000
     p = np.diff(np.concatenate(([0.0], GRID_QS, [1.0])))
-    for label, shift_at in (("no change", None), ("one change at 6000", 6000), ("three changes", (2000, 5000, 8000))):
+    cases = (("no change", None), ("one change at 6000", 6000), ("three changes", (2000, 5000, 8000)))
+    for label, shift_at in cases:
         sizes = rng.poisson(300, t).astype(float)
         probs = np.tile(p, (t, 1))
         if shift_at is not None:
@@ -214,16 +219,16 @@ def bench_search() -> None:
             times.append((time.perf_counter() - t0, time.process_time() - c0))
         best = min(times)
         print(
-            f"  10^4 windows, {label:<20}: search {best[0]:.2f} s wall, {best[1]:.2f} s CPU (best of 3; goal <= 2 s); "
-            f"found at {[c.first for c in res.changes]}"
+            f"  10^4 windows, {label:<20}: search {best[0]:.2f} s wall, {best[1]:.2f} s CPU "
+            f"(best of 3; goal <= 2 s); found at {[c.first for c in res.changes]}"
         )
 
 
 def bench_false_alarms(days: int) -> None:
     from scipy import stats
-    from timeline_streams import KINDS, TRUTH, day, sketch_set
 
     from ogive.fit.timeline import build_timeline, read_windows
+    from timeline_streams import KINDS, TRUTH, day, sketch_set
 
     print(f"{days} simulated days of 288 five-minute windows each, false-alarm rate 5 %:")
     for kind in KINDS:
@@ -232,7 +237,8 @@ def bench_false_alarms(days: int) -> None:
         n = days if kind in ("none", "wobble") else max(days // 4, 10)
         t0 = time.perf_counter()
         for seed in range(n):
-            tl = build_timeline(read_windows(sketch_set(day(kind, 10_000 + seed, per_window=per))), table="none")
+            windows = read_windows(sketch_set(day(kind, 10_000 + seed, per_window=per)))
+            tl = build_timeline(windows, table="none")
             found = tl.streams[0].changes
             if not TRUTH[kind]:
                 alarms += bool(found)
