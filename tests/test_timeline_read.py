@@ -251,3 +251,11 @@ def test_a_followed_timeline_keeps_its_latest_windows(tmp_path: Path) -> None:
     assert windows == [f"2026-03-04T23:{m}:00Z/PT1M" for m in range(47, 52)]  # T0 is 23:40
     assert result.sketches["all"].count == 12 * 20
     assert result.sketches[windows[-1]].quantile(0.5)[()] == 12.5  # the last minute's value
+
+
+def test_no_timed_value_is_one_sentence(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    f = tmp_path / "empty.csv"
+    f.write_text("ts,latency_ms\nnot-a-time,5\n")
+    assert main(["timeline", str(f), "--column", "latency_ms", "--time-field", "ts", "--quiet"]) == 3
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "no time window holds a value" in err

@@ -82,8 +82,6 @@ def shifted(base: Family, name: str, title: str, minimum: float) -> Family:
     )
 
 
-
-
 def boundary_note(family: Family, theta: FloatArray, minimum: float, n: int) -> str | None:
     """A sentence when the fitted floor sits at the smallest value, else None.
 

@@ -80,6 +80,11 @@ def read_windows(sset: SketchSet) -> Windows:
             continue
         keyed.setdefault(key.group, []).append((key.start_us, s))
         widths.add(key.width_us)
+    if not keyed and timekeys.WHOLE in sset.sketches:
+        raise ValueError(
+            "no time window holds a value: no record had both a usable value and a readable time "
+            f"({sset[timekeys.WHOLE].count:,} values in all)."
+        )
     if not keyed:
         keyed, widths, note = _plain_windows(sset)
         wholes = {}

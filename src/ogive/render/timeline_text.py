@@ -72,9 +72,8 @@ def headline(t: Timeline, source: str, *, width: int = 100, ascii_only: bool = F
     first, last = when(t.first_us, days=True), when(t.start(t.count), days=True)
     unit = f" [{t.unit}]" if t.unit else ""
     head = f"timeline of {source}{unit}:"
-    tail = (
-        f"{whole.n:,} values in {t.count:,} windows of {span_text(t.width_us / 1e6)}, {first} to {last} UTC"
-    )
+    windows = f"{t.count:,} window{'s' if t.count != 1 else ''}"
+    tail = f"{whole.n:,} values in {windows} of {span_text(t.width_us / 1e6)}, {first} to {last} UTC"
     lines = [f"{head} {tail}"] if len(head) + 1 + len(tail) <= width else [*_wrap(head, width), f"  {tail}"]
     return lines + [line for n in t.notes for line in _wrap(f"note: {n}", width)]
 
@@ -256,11 +255,12 @@ def report_lines(
     width = max(width, 40)
     whole = t.streams[0]
     out = headline(t, source, width=width)
-    fig = chart_figure(t, whole, width=width, height=CHART_HEIGHT, ascii_only=ascii_only)
-    out += _shown(fig.lines(), colour)
-    if t.strip is not None:
-        strip = strip_lines(t, t.strip, width=width, label_width=fig.ylabel_width, ascii_only=ascii_only)
-        out += ["", *_shown(strip, colour)]
+    if whole.n:
+        fig = chart_figure(t, whole, width=width, height=CHART_HEIGHT, ascii_only=ascii_only)
+        out += _shown(fig.lines(), colour)
+        if t.strip is not None:
+            strip = strip_lines(t, t.strip, width=width, label_width=fig.ylabel_width, ascii_only=ascii_only)
+            out += ["", *_shown(strip, colour)]
     out += ["", *change_lines(t, whole, gate_base, width=width, ascii_only=ascii_only)]
     table = window_table(t, whole, width=width, ascii_only=ascii_only)
     if table:

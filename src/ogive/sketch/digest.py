@@ -457,6 +457,7 @@ def _merge_sorted(first: Columns, second: Columns) -> Columns:
     n = m1.size + m2.size
     slot = np.ones(n, dtype=bool)
     slot[at] = False
+
     def place(a: NDArray[T], b: NDArray[T]) -> NDArray[T]:
         c = np.empty(n, dtype=a.dtype)
         c[at], c[slot] = a, b
