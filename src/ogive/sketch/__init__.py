@@ -1,15 +1,20 @@
-"""Quantile sketches: a vectorised merging t-digest with exact tails (numpy only, no I/O)."""
+"""Quantile sketches (a vectorised merging t-digest with exact tails) and binned
+distributions from telemetry histograms; numpy only, no I/O."""
 
 from __future__ import annotations
 
 from collections.abc import Sequence
 
+from .binned import Binned
 from .codec import SketchFormatError, dumps, from_tdigest_dict, loads
 from .digest import DEFAULT_COMPRESSION, TDigest
+from .distribution import Distribution, is_binned, is_distribution
 from .sketch import DEFAULT_TAIL, Provenance, Sketch, SketchSet, SkipTally, quantile_label
 
 __all__ = [
     "DEFAULT_COMPRESSION",
+    "Binned",
+    "Distribution",
     "DEFAULT_TAIL",
     "Provenance",
     "Sketch",
@@ -19,6 +24,8 @@ __all__ = [
     "TDigest",
     "dumps",
     "from_tdigest_dict",
+    "is_binned",
+    "is_distribution",
     "loads",
     "quantile_label",
 ]

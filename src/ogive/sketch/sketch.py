@@ -14,12 +14,15 @@ import dataclasses
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .digest import DEFAULT_COMPRESSION, TDigest
+
+if TYPE_CHECKING:
+    from .binned import Binned
 
 FloatArray = NDArray[np.float64]
 
@@ -67,6 +70,20 @@ class Provenance:
     @property
     def skipped_total(self) -> int:
         return sum(t.count for t in self.skipped.values())
+
+    def absorb(self, b: Provenance) -> None:
+        """Fold in where another sketch's values came from (a merge keeps every source)."""
+        self.sources.extend(s for s in b.sources if s not in self.sources)
+        self.field = self.field or b.field
+        self.lines_read += b.lines_read
+        self.rows_read += b.rows_read
+        for reason, tally in b.skipped.items():
+            self.skip(reason, tally.count, tally.examples)
+        firsts = [t for t in (self.time_first, b.time_first) if t]
+        lasts = [t for t in (self.time_last, b.time_last) if t]
+        self.time_first = min(firsts) if firsts else None
+        self.time_last = max(lasts) if lasts else None
+        self.partial = "; ".join(p for p in (self.partial, b.partial) if p) or None
 
 
 class Sketch:
@@ -191,18 +208,7 @@ class Sketch:
         self.zero_count += other.zero_count
         self.tail_size = max(self.tail_size, other.tail_size)
         self._fold_tails(other.low, other.high)
-        a, b = self.provenance, other.provenance
-        a.sources.extend(s for s in b.sources if s not in a.sources)
-        a.field = a.field or b.field
-        a.lines_read += b.lines_read
-        a.rows_read += b.rows_read
-        for reason, tally in b.skipped.items():
-            a.skip(reason, tally.count, tally.examples)
-        firsts = [t for t in (a.time_first, b.time_first) if t]
-        lasts = [t for t in (a.time_last, b.time_last) if t]
-        a.time_first = min(firsts) if firsts else None
-        a.time_last = max(lasts) if lasts else None
-        a.partial = "; ".join(p for p in (a.partial, b.partial) if p) or None
+        self.provenance.absorb(other.provenance)
 
     # ------------------------------------------------------------------ queries
     @property
@@ -407,6 +413,22 @@ class Sketch:
         r = self.rank(x)
         return float(np.max(np.maximum(r - at_least, at_most - r)) / self.count)
 
+    def cdf_knots(self) -> FloatArray:
+        """Every x where the sketch's CDF can bend: digest knots and the exact buffers."""
+        if self.count == 0:
+            return np.empty(0)
+        _, knot_vals = self.digest.knots()
+        return np.concatenate((knot_vals, self.low, self.high))
+
+    def bound_steps(self) -> FloatArray:
+        """Every x where ``count_bounds`` can step: centroid ends, buffered values and their neighbours."""
+        if self.count == 0:
+            return np.empty(0)
+        lo, hi = self.digest.ranges()
+        return np.concatenate(
+            (self.cdf_knots(), lo, hi, np.nextafter(hi, -np.inf), np.nextafter(self.low, -np.inf))
+        )
+
     def summary(self) -> dict[str, Any]:
         """The fields every view shows, as plain numbers."""
         qs = (0.5, 0.9, 0.99, 0.999, 0.9999)
@@ -430,15 +452,16 @@ def quantile_label(q: float) -> str:
 
 @dataclass
 class SketchSet:
-    """Named sketches that belong together (groups of ``--by``, before/after)."""
+    """Named sketches that belong together (groups of ``--by``, before/after); an entry may
+    also be a binned distribution read from telemetry histograms (``binned.py``)."""
 
-    sketches: dict[str, Sketch] = dataclasses.field(default_factory=dict)
+    sketches: dict[str, Sketch | Binned] = dataclasses.field(default_factory=dict)
     unassigned: dict[str, SkipTally] = dataclasses.field(default_factory=dict)
     """Rows read but given to no sketch, by reason: a missing or unreadable time when the
     sketches are cut by time (``before``/``after``, windows), a line too long to read a
     group from. Counted here so that every row read is in a sketch or counted."""
 
-    def __getitem__(self, name: str) -> Sketch:
+    def __getitem__(self, name: str) -> Sketch | Binned:
         return self.sketches[name]
 
     def names(self) -> list[str]:
