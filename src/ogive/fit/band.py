@@ -50,7 +50,9 @@ def _own_error(d: Distribution) -> float:
     return 0.0 if is_binned(d) else d.rank_error_bound()
 
 
-def band_epsilon(subject: Distribution, reference: Distribution | None = None, *, confidence: float = 0.95) -> float:
+def band_epsilon(
+    subject: Distribution, reference: Distribution | None = None, *, confidence: float = 0.95
+) -> float:
     """ε for subject vs a model (``reference`` None) or vs a second sketch, sketch error included."""
     if reference is None:
         return dkw_epsilon(subject.count, confidence) + _own_error(subject)

@@ -5,7 +5,8 @@ from the fitted model, refitting, and recomputing the statistic gives their null
 distribution (Stute, González Manteiga & Presedo Quindimil 1993; the procedure
 ``scipy.stats.goodness_of_fit`` follows). Each replicate goes the whole way the data
 went: rounded to the data's lattice, sketched with the same settings (or counted into
-the same buckets, for a binned distribution), read as grouped data, fitted from the original estimate and scored from its sketch, so whatever the
+the same buckets, for a binned distribution), read as grouped data, fitted from the
+original estimate and scored from its sketch, so whatever the
 sketch or the grouping does to the statistic is in its null distribution too.
 p = (1 + #{T* >= T}) / (B + 1).
 """
@@ -39,7 +40,9 @@ def bootstrap_p_values(
             rctx = context_of(like.like(x))  # counted into the same buckets, as the data were
         else:
             assert isinstance(like, Sketch)
-            s = Sketch(like.unit, compression=like.compression, tail_size=like.tail_size, scale=like.digest.scale)
+            s = Sketch(
+                like.unit, compression=like.compression, tail_size=like.tail_size, scale=like.digest.scale
+            )
             s.add(x)
             rctx = context_of(s)
         t0 = theta.copy()

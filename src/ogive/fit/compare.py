@@ -140,9 +140,9 @@ def binned_notes(
     for s, name in zip(sides, labels, strict=True):
         if is_binned(s):
             out.append(
-                f"{name} is binned (telemetry histograms, {len(s.parts)} bucket layout(s)): its intervals map "
-                "the order-statistic ranks through the bucket bounds, which is conservative (never narrower "
-                f"than the bucket a quantile lies in); its point estimates are {s.interpolation} "
+                f"{name} is binned (telemetry histograms, {len(s.parts)} bucket layout(s)): its intervals "
+                "map the order-statistic ranks through the bucket bounds, which is conservative (never "
+                f"narrower than the bucket a quantile lies in); its point estimates are {s.interpolation} "
                 "interpolations inside a bucket, not measurements."
             )
     unit = sides[0].unit

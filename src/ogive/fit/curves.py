@@ -421,7 +421,9 @@ def plot_inputs(
         if band:
             eps = band_epsilon(subject, reference, confidence=confidence)
             bounds = reference.quantile_bounds if is_binned(reference) else None
-            pairs = with_dkw_band(pairs, reference.quantile, eps, confidence=confidence, reference_bounds=bounds)
+            pairs = with_dkw_band(
+                pairs, reference.quantile, eps, confidence=confidence, reference_bounds=bounds
+            )
     else:
         pairs = pairs_from_model(
             subject, reference, subject_label=subject_label, reference_label=reference_label

@@ -50,7 +50,8 @@ _LIMIT = re.compile(
     r"^\s*(?P<q>p[0-9.]+|median)\s*=\s*(?P<amount>[+-]?[0-9.]+(?:[eE][+-]?[0-9]+)?)\s*(?P<unit>%|[A-Za-zµ]+)?\s*$"
 )
 
-EXCEEDED, HOLDS, UNCLEAR, TOO_FEW, COARSE = "exceeded", "holds", "unclear", "too few values", "buckets too coarse"
+EXCEEDED, HOLDS, UNCLEAR, TOO_FEW = "exceeded", "holds", "unclear", "too few values"
+COARSE = "buckets too coarse"
 STATUSES = (EXCEEDED, HOLDS, UNCLEAR, TOO_FEW, COARSE)
 
 

@@ -199,7 +199,8 @@ def grouped_from_binned(b: Binned, *, zero_atom: bool = False) -> GroupedData:
     lows, highs, kept = bk.lows[keep], bk.highs[keep], counts[keep]
     z = float(counts[zeros].sum())
     if z:
-        lows, highs, kept = np.concatenate(([-np.inf], lows)), np.concatenate(([0.0], highs)), np.concatenate(([z], kept))
+        lows, highs = np.concatenate(([-np.inf], lows)), np.concatenate(([0.0], highs))
+        kept = np.concatenate(([z], kept))
     return GroupedData(np.sort(points), lows, highs, kept, b.count, None, z)
 
 

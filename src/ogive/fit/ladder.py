@@ -264,7 +264,9 @@ def verdict_of(a: QuantileInterval, b: QuantileInterval) -> str:
     return NO_CHANGE
 
 
-def ladder(a: Distribution, b: Distribution, confidence: float, qs: tuple[float, ...] = LADDER_QS) -> list[LadderRow]:
+def ladder(
+    a: Distribution, b: Distribution, confidence: float, qs: tuple[float, ...] = LADDER_QS
+) -> list[LadderRow]:
     ia = quantile_intervals(a, qs, confidence)
     ib = quantile_intervals(b, qs, confidence)
     rows = []

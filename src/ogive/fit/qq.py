@@ -139,7 +139,9 @@ class BucketBox:
         }
 
 
-def _side(d: Sketch | Binned | QuantileModel, p: FloatArray, mid: FloatArray) -> tuple[FloatArray, FloatArray]:
+def _side(
+    d: Sketch | Binned | QuantileModel, p: FloatArray, mid: FloatArray
+) -> tuple[FloatArray, FloatArray]:
     """A side's range over each probability segment: bucket bounds (binned), else its quantiles
     at the segment's ends."""
     if is_binned(d):

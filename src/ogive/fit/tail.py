@@ -109,7 +109,11 @@ class SplicedTail:
 
 
 def fit_tail(
-    sketch: Distribution, data: GroupedData, sample: WeightedSample, tail_prob: float, probs: tuple[float, ...]
+    sketch: Distribution,
+    data: GroupedData,
+    sample: WeightedSample,
+    tail_prob: float,
+    probs: tuple[float, ...],
 ) -> Candidate | NotFitted:
     """The GPD above the sketch's ``tail_prob`` quantile, scored on the tail alone.
 

@@ -13,9 +13,9 @@ from .sketch import DEFAULT_TAIL, Provenance, Sketch, SketchSet, SkipTally, quan
 
 __all__ = [
     "DEFAULT_COMPRESSION",
+    "DEFAULT_TAIL",
     "Binned",
     "Distribution",
-    "DEFAULT_TAIL",
     "Provenance",
     "Sketch",
     "SketchFormatError",
@@ -62,3 +62,16 @@ def merge_all(sketches: Sequence[Sketch]) -> Sketch:
 
 
 __all__ += ["merge", "merge_all"]
+
+
+def merge_binned(items: Sequence[Binned]) -> Binned:
+    """A new binned distribution holding all of them (same unit, checked by the caller): counts of
+    one bucket layout add; different layouts are kept as parts, never re-binned."""
+    if not items:
+        raise ValueError("nothing to merge: no distribution given.")
+    out = Binned(items[0].unit)
+    out.merge_many(items)
+    return out
+
+
+__all__ += ["merge_binned"]

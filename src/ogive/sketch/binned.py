@@ -122,9 +122,11 @@ class Binned:
 
     def _extreme(self, which: str) -> float:
         vals = [getattr(p.extremes, which) for p in self.parts if p.count]
-        return float(min(vals) if which == "minimum" else max(vals)) if vals and not any(
-            math.isnan(v) for v in vals
-        ) else math.nan
+        return (
+            float(min(vals) if which == "minimum" else max(vals))
+            if vals and not any(math.isnan(v) for v in vals)
+            else math.nan
+        )
 
     @property
     def min_known(self) -> bool:
@@ -344,7 +346,7 @@ class Binned:
         """Shares of n at which ``quantile_bounds`` can change: the cumulative shares at edges."""
         if not self.count:
             return np.empty(0)
-        hs, cum_h, cum_l, _, _ = self._by_high
+        _, cum_h, cum_l, _, _ = self._by_high
         return np.unique(np.concatenate(([0.0], cum_h / self.count, cum_l / self.count, [1.0])))
 
     def summary(self) -> dict[str, Any]:

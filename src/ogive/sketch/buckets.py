@@ -133,10 +133,14 @@ class ExplicitPart:
         return _clip(raw, self.extremes) if clipped else raw
 
     def plus(self, other: ExplicitPart) -> ExplicitPart:
-        return ExplicitPart(self.bounds, self.counts + other.counts, self.floor, self.extremes + other.extremes)
+        return ExplicitPart(
+            self.bounds, self.counts + other.counts, self.floor, self.extremes + other.extremes
+        )
 
     def scaled(self, factor: float) -> ExplicitPart:
-        return ExplicitPart(self.bounds * factor, self.counts, self.floor * factor, self.extremes.scaled(factor))
+        return ExplicitPart(
+            self.bounds * factor, self.counts, self.floor * factor, self.extremes.scaled(factor)
+        )
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -189,9 +193,7 @@ class ExponentialPart:
         lows = np.concatenate((neg_lo[::-1], [-t], self.edges(ip)))
         highs = np.concatenate((neg_hi[::-1], [t], self.edges(ip + 1)))
         counts = np.concatenate((self.negative[::-1], [self.zero_count], self.positive))
-        closed = np.concatenate(
-            (np.ones(ineg.size, dtype=bool), [True], np.zeros(ip.size, dtype=bool))
-        )
+        closed = np.concatenate((np.ones(ineg.size, dtype=bool), [True], np.zeros(ip.size, dtype=bool)))
         log = np.concatenate((np.zeros(ineg.size + 1, dtype=bool), np.ones(ip.size, dtype=bool)))
         raw = Buckets(lows, highs, counts.astype(np.float64), closed, log)
         return _clip(raw, self.extremes) if clipped else raw

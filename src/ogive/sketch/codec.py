@@ -50,8 +50,8 @@ from typing import Any
 import numpy as np
 
 from .. import __version__
-from .digest import DEFAULT_COMPRESSION
 from .binned import KIND, Binned
+from .digest import DEFAULT_COMPRESSION
 from .sketch import Provenance, Sketch, SketchSet, SkipTally
 
 FORMAT = "ogive-sketch-set"

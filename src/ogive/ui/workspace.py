@@ -23,7 +23,7 @@ import re
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
-from ..sketch import Sketch
+from ..sketch import Binned, Sketch
 from ..store import source_stem
 from .state import Distribution, ReferenceChoice, ScanJob
 
@@ -115,7 +115,7 @@ class Workspace:
             return None
         return subj.name, ref.name
 
-    def finished(self) -> tuple[dict[str, Sketch], list[str]]:
+    def finished(self) -> tuple[dict[str, Sketch | Binned], list[str]]:
         """Sketches that may be written now (followed ones as they stand), and the rows still scanning."""
         ready = {n: d.sketch for n, d in self.dists.items() if d.state != "scanning"}
         return ready, [n for n, d in self.dists.items() if d.state == "scanning"]
@@ -132,7 +132,7 @@ class Workspace:
         self.auto_roles()
 
     def take_scan(
-        self, job: ScanJob, sketches: dict[str, Sketch], *, state: str, note: str, window: str | None
+        self, job: ScanJob, sketches: dict[str, Sketch | Binned], *, state: str, note: str, window: str | None
     ) -> None:
         """The sketches a scan or follow delivered, each in the row it has had since its first tick.
 
