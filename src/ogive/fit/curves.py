@@ -20,7 +20,7 @@ from numpy.typing import NDArray
 from ..sketch import Binned, Distribution, Sketch, is_binned, is_distribution, quantile_label
 from ..sketch.units import duration_factor, in_unit
 from .band import band_epsilon, with_dkw_band
-from .qq import BucketBox, QuantilePairs, bucket_boxes
+from .qq import BucketBox, QuantilePairs, bucket_boxes, probability_grid
 
 if TYPE_CHECKING:
     from .shift import ShiftFunction
@@ -416,7 +416,11 @@ def plot_inputs(
         )
     if is_distribution(reference):
         pairs = pairs_from_sketches(
-            subject, reference, subject_label=subject_label, reference_label=reference_label
+            subject,
+            reference,
+            subject_label=subject_label,
+            reference_label=reference_label,
+            probs=resolved_probs(probability_grid(min(subject.count, reference.count)), (subject, reference)),
         )
         if band:
             eps = band_epsilon(subject, reference, confidence=confidence)
@@ -426,7 +430,11 @@ def plot_inputs(
             )
     else:
         pairs = pairs_from_model(
-            subject, reference, subject_label=subject_label, reference_label=reference_label
+            subject,
+            reference,
+            subject_label=subject_label,
+            reference_label=reference_label,
+            probs=resolved_probs(probability_grid(subject.count), (subject,)),
         )
         if band:
             eps = band_epsilon(subject, confidence=confidence)
@@ -436,9 +444,22 @@ def plot_inputs(
     qq = dataclasses.replace(qq_from_pairs(pairs), at_or_below_zero=floor)
     if is_binned(subject) or is_binned(reference):
         sides = [lab for lab, d in ((subject_label, subject), (reference_label, reference)) if is_binned(d)]
-        boxes = bucket_boxes(subject, reference, pairs.probs)
+        n = min(subject.count, reference.count) if is_distribution(reference) else subject.count
+        boxes = bucket_boxes(subject, reference, probability_grid(n))
         qq = dataclasses.replace(qq, boxes=boxes, boxes_label=f"buckets of {' and '.join(sides)}")
     return qq
+
+
+def resolved_probs(probs: FloatArray, sides: tuple[Distribution, ...]) -> FloatArray:
+    """The grid without the probabilities a binned side only places in a bucket that starts at
+    0 (its first, [0, b]): a point estimate there is an interpolation from 0, which a log axis
+    would draw decades below any real value. The bucket itself is still drawn as a box."""
+    keep = np.ones(probs.shape, dtype=bool)
+    for d in sides:
+        if is_binned(d):
+            low, _ = d.quantile_bounds(probs)
+            keep &= low > 0
+    return probs[keep] if keep.sum() >= 2 else probs
 
 
 def at_or_below_zero(named: dict[str, Sketch | Binned | QuantileCDFModel]) -> tuple[tuple[str, int], ...]:

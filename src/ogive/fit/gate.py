@@ -41,7 +41,7 @@ import numpy as np
 from ..numbers import quantity, span
 from ..sketch import Distribution, quantile_label
 from ..sketch.units import SECONDS_PER_UNIT
-from .ladder import QuantileInterval, quantile_intervals
+from .ladder import QuantileInterval, above, quantile_intervals
 
 TIME_UNITS = SECONDS_PER_UNIT
 """Seconds per unit, for limits written in another time unit than the sketch's."""
@@ -242,7 +242,7 @@ def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, pr
     def check(status: str, reason: str) -> LimitCheck:
         return LimitCheck(limit, status, a, b, allowed_pt, reason, lo_allowed, hi_allowed, note)
 
-    if math.isfinite(b.low) and math.isfinite(hi_allowed) and b.low > hi_allowed:
+    if math.isfinite(b.low) and math.isfinite(hi_allowed) and above(b, hi_allowed):
         return check(
             EXCEEDED,
             f"B's {lab} is at least {_fmt(b.low, unit)}, above the most the limit allows at any plausible "

@@ -84,6 +84,9 @@ class QuantileInterval:
     bucket_limited: bool = False
     """Both ends of the interval come from that one bucket: the bucket, not the number
     of values, sets its width."""
+    low_open: bool = False
+    """The quantile lies strictly above ``low`` (an open bucket edge): an interval of the
+    other side ending exactly at ``low`` is still below it."""
 
     def __post_init__(self) -> None:
         # The interval is built to contain its own estimate (quantile_intervals widens it
@@ -158,7 +161,9 @@ def quantile_intervals(
     margin = np.maximum(guess[: qa.size] - below[: qa.size], above[qa.size :] - guess[qa.size :])
     buckets: list[tuple[float, float] | None] = [None] * qa.size
     limited = np.zeros(qa.size, dtype=bool)
+    low_open = np.zeros(qa.size, dtype=bool)
     if is_binned(sketch):
+        low_open = sketch.low_is_open(np.clip(lo_i, 0, n - 1).astype(np.float64))
         b_lo, b_hi = sketch.quantile_bounds(qa)
         buckets = [(float(x), float(y)) for x, y in zip(b_lo, b_hi, strict=True)]
         limited = (below[: qa.size] >= b_lo) & (above[qa.size :] <= b_hi)
@@ -177,6 +182,7 @@ def quantile_intervals(
                 sketch_margin=float(max(margin[k], 0.0)),
                 bucket=buckets[k],
                 bucket_limited=bool(limited[k] and lo_ok[k] and hi_ok[k]),
+                low_open=bool(low_open[k] and lo_ok[k]),
             )
         )
     return out
@@ -250,10 +256,15 @@ def coarse_bucket(a: QuantileInterval, b: QuantileInterval) -> tuple[float, floa
     return None
 
 
+def above(x: QuantileInterval, limit: float) -> bool:
+    """``x``'s quantile is surely above ``limit`` (strictly, an open bucket edge included)."""
+    return bool(x.low > limit or (x.low == limit and x.low_open))
+
+
 def verdict_of(a: QuantileInterval, b: QuantileInterval) -> str:
-    if b.low > a.high:
+    if above(b, a.high):
         return HIGHER
-    if b.high < a.low:
+    if above(a, b.high):
         return LOWER
     if a.rank_low is not None and a.rank_high is not None and b.rank_low is not None and (
         b.rank_high is not None

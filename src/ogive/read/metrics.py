@@ -81,7 +81,6 @@ class Run:
         self.other_types = 0
         self.other_names = 0
         self.metric_names: set[str] = set()
-        self.layouts: set[str] = set()
         self.exposition = openmetrics.Exposition(options.metric, floor_of)
 
     def skip(self, reason: str, where: str) -> None:
@@ -96,7 +95,6 @@ class Run:
         for p in sorted(pts, key=lambda q: q.time_ns):
             self.rows += 1
             where = f"{display}:{p.line}"
-            self.layouts.add(p.part.kind)
             w = self.book.window(p, where)
             if isinstance(w, str):
                 self.skip(w, where)
@@ -137,12 +135,7 @@ class Run:
         if self.options.metric is not None and not self.collect.out and self.options.metric not in names:
             have = ", ".join(sorted(names)[:12]) or "none"
             raise OgiveError(f"no histogram metric named {self.options.metric!r}; the input has: {have}.")
-        kinds = sorted(self.layouts)
-        desc = (
-            "OpenMetrics text, classic buckets"
-            if self.fmt == "openmetrics"
-            else f"OTLP JSON metrics, {' and '.join(kinds) or 'no'} buckets"
-        )
+        desc = "OpenMetrics text" if self.fmt == "openmetrics" else "OTLP JSON metrics"
         sset = self.collect.finish(
             ["<stdin>" if n == "-" else n for n in self.names], desc, self.lines, self.skipped
         )

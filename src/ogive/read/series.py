@@ -238,7 +238,8 @@ class Collector:
         sset = SketchSet()
         for (metric, name), b in sorted(self.out.items(), key=lambda kv: (kv[0][0], _order(kv[0][1]))):
             b.provenance.sources = list(sources)
-            b.provenance.field = f"histogram {metric} ({description})"
+            kinds = " and ".join(sorted({p.kind for p in b.parts}))
+            b.provenance.field = f"histogram {metric} ({description}, {kinds} buckets)"
             b.provenance.lines_read = lines
             first, last = self.spans.get((metric, name), [0, 0])
             b.provenance.time_first = times.iso(first / 1e3) if first else None

@@ -153,7 +153,7 @@ BOX = ("▫", "#")
 def _box_values(data: QQData) -> FloatArray:
     """The finite box corners, so the axes hold every box the buckets give."""
     v = np.array([[b.x_low, b.x_high, b.y_low, b.y_high] for b in data.boxes]).ravel()
-    return v[np.isfinite(v)] if v.size else np.empty(0)
+    return v[np.isfinite(v) & (v > 0)] if v.size else np.empty(0)  # a 0 end sits at a log axis's floor
 
 
 def _draw_boxes(fig: Figure, scale: Scale, data: QQData) -> None:

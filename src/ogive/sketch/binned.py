@@ -37,7 +37,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from .buckets import INTERPOLATION, BoolArray, Buckets, ExponentialPart, FloatArray, Part, combine
-from .sketch import Provenance, quantile_label
+from .provenance import Provenance, quantile_label
 
 KIND = "binned"
 
@@ -88,7 +88,7 @@ class Binned:
         """
         from .bucketing import fill
 
-        return fill(self, np.asarray(values, dtype=np.float64))
+        return Binned(self.unit, fill(self.parts, np.asarray(values, dtype=np.float64)))
 
     def _forget(self) -> None:
         for name in ("_b", "_by_high", "_curve", "count", "interpolation"):
@@ -235,6 +235,22 @@ class Binned:
             low = np.where(last, self._extreme("maximum"), low)
             high = np.where(last, self._extreme("maximum"), high)
         return np.asarray(low, dtype=np.float64), np.asarray(high, dtype=np.float64)
+
+    def low_is_open(self, rank: ArrayLike) -> BoolArray:
+        """Whether X_(rank) lies strictly above its lower bound (the bound is an open bucket end,
+        as every explicit bucket's lower edge is): equal lower and upper bounds of two sides
+        then still order them."""
+        n = self.count
+        r = np.clip(np.asarray(rank, dtype=np.float64), 0, max(n - 1, 0))
+        if not n:
+            return np.zeros(r.shape, dtype=bool)
+        b = self._b
+        _, _, cum_l, _, _ = self._by_high
+        k = np.minimum(np.searchsorted(cum_l, r + 0.5, side="left"), b.lows.size - 1)
+        out = ~b.closed_low[k]
+        if self.min_known:
+            out &= r >= 0.5
+        return np.asarray(out, dtype=bool)
 
     def quantile_bounds(self, q: ArrayLike) -> tuple[FloatArray, FloatArray]:
         """[lo, hi] sure to hold ``numpy.quantile(raw, q)`` (type 7) for each q."""

@@ -29,7 +29,7 @@ import numpy as np
 
 from .binned import KIND, Binned
 from .buckets import EXPLICIT, EXPONENTIAL, ExplicitPart, ExponentialPart, Extremes, Part, inconsistency
-from .codec import array_field, int_field, provenance_from_dict, provenance_to_dict
+from .fields import array_field, int_field, provenance_from_dict, provenance_to_dict
 
 MIN_SCALE, MAX_SCALE = -10, 20
 """The scales the OpenTelemetry exponential histogram defines (base 2^1024 ... 2^(2^-20))."""

@@ -11,15 +11,11 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
-from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.typing import NDArray
 
 from .buckets import Buckets, ExplicitPart, ExponentialPart, Extremes, FloatArray, Part
-
-if TYPE_CHECKING:
-    from .binned import Binned
 
 IntArray = NDArray[np.int64]
 
@@ -83,21 +79,18 @@ def _share(x: FloatArray, lo: FloatArray, hi: FloatArray, log: NDArray[np.bool_]
 
 
 # ---------------------------------------------------------------- counting values in
-def fill(like: Binned, values: FloatArray) -> Binned:
-    """``values`` counted into ``like``'s layouts, shared among its parts by their counts."""
-    from .binned import Binned
-
-    out = Binned(like.unit)
-    weights = np.array([p.count for p in like.parts], dtype=np.float64)
-    if not like.parts or not weights.sum():
-        return out
+def fill(parts: list[Part], values: FloatArray) -> list[Part]:
+    """``values`` counted into the layouts of ``parts``, shared among them by their counts."""
+    weights = np.array([p.count for p in parts], dtype=np.float64)
+    if not parts or not weights.sum():
+        return []
     cuts = np.round(np.cumsum(weights) / weights.sum() * values.size).astype(np.int64)
-    start = 0
-    for part, stop in zip(like.parts, cuts, strict=True):
+    out, start = [], 0
+    for part, stop in zip(parts, cuts, strict=True):
         chunk = values[start:stop]
         start = stop
         if chunk.size:
-            out.add_part(_counted(part, chunk))
+            out.append(_counted(part, chunk))
     return out
 
 

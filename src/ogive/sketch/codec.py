@@ -51,8 +51,10 @@ import numpy as np
 
 from .. import __version__
 from .binned import KIND, Binned
+from .binned_codec import binned_from_dict, binned_to_dict
 from .digest import DEFAULT_COMPRESSION
-from .sketch import Provenance, Sketch, SketchSet, SkipTally
+from .fields import array_field, int_field, provenance_from_dict, provenance_to_dict, tallies_to_dict
+from .sketch import Sketch, SketchSet, SkipTally
 
 FORMAT = "ogive-sketch-set"
 VERSION = 2
@@ -67,8 +69,6 @@ class SketchFormatError(ValueError):
 def entry_to_dict(s: Sketch | Binned) -> dict[str, Any]:
     """One sketch set entry: a t-digest sketch, or a binned distribution (version 2)."""
     if isinstance(s, Binned):
-        from .binned_codec import binned_to_dict
-
         return binned_to_dict(s)
     return sketch_to_dict(s)
 
@@ -102,23 +102,6 @@ def sketch_to_dict(s: Sketch) -> dict[str, Any]:
     }
 
 
-def provenance_to_dict(p: Provenance) -> dict[str, Any]:
-    return {
-        "sources": list(p.sources),
-        "field": p.field,
-        "lines_read": p.lines_read,
-        "rows_read": p.rows_read,
-        "skipped": _tallies(p.skipped),
-        "time_first": p.time_first,
-        "time_last": p.time_last,
-        "partial": p.partial,
-    }
-
-
-def _tallies(tallies: dict[str, SkipTally]) -> dict[str, Any]:
-    return {r: {"count": t.count, "examples": list(t.examples)} for r, t in tallies.items()}
-
-
 def _floats(a: np.ndarray) -> list[float | int]:
     """Integral values as ints: shorter files, same numbers."""
     return [int(v) if v.is_integer() and abs(v) < 2**53 else v for v in a.tolist()]
@@ -132,7 +115,7 @@ def dumps(sketches: SketchSet) -> bytes:
         "sketches": {name: entry_to_dict(s) for name, s in sketches.sketches.items()},
     }
     if sketches.unassigned:
-        doc["unassigned"] = _tallies(sketches.unassigned)
+        doc["unassigned"] = tallies_to_dict(sketches.unassigned)
     doc["checksum"] = "sha256:" + hashlib.sha256(_canonical(doc)).hexdigest()
     return (_pretty(doc, 0) + "\n").encode()
 
@@ -204,40 +187,12 @@ def _read_tallies(body: Any) -> dict[str, SkipTally]:
     }
 
 
-def array_field(body: Any, name: str) -> np.ndarray:
-    value = body[name]
-    if not isinstance(value, list):
-        raise ValueError(f"'{name}' must be an array of numbers")
-    # One numpy pass instead of a Python isinstance per element (files hold ~10^4
-    # numbers per sketch, sets hold hundreds of sketches): a list of JSON numbers
-    # becomes an int or float array; strings, booleans, nulls or nesting do not.
-    try:
-        raw = np.array(value)
-    except ValueError:
-        raise ValueError(f"'{name}' must be a flat array of numbers") from None
-    if raw.ndim != 1 or (raw.size and raw.dtype.kind not in "iuf"):
-        raise ValueError(f"'{name}' must be an array of numbers")
-    arr = raw.astype(np.float64)
-    if not np.isfinite(arr).all():
-        raise ValueError(f"'{name}' holds a non-finite number")
-    return arr
-
-
-def int_field(body: dict[str, Any], name: str) -> int:
-    value = body[name]
-    if not isinstance(value, int) or isinstance(value, bool) or value < 0:
-        raise ValueError(f"'{name}' must be a non-negative integer")
-    return value
-
-
 def entry_from_dict(body: Any, version: int = VERSION) -> Sketch | Binned:
     """One entry of the ``sketches`` object: a binned distribution (version 2) or a sketch."""
     kind = body.get("kind", "tdigest") if isinstance(body, dict) else None
     if kind == KIND:
         if version < 2:
             raise ValueError("a binned distribution in a version-1 file (version 1 has none)")
-        from .binned_codec import binned_from_dict
-
         return binned_from_dict(body)
     if kind != "tdigest":
         raise ValueError(f"unknown kind {kind!r} (this ogive reads 'tdigest' and 'binned')")
@@ -291,25 +246,6 @@ def sketch_from_dict(body: Any) -> Sketch:
         raise ValueError("'merge_slack' must be a non-negative number")
     s.provenance = provenance_from_dict(body["provenance"])
     return s
-
-
-def provenance_from_dict(p: Any) -> Provenance:
-    """The provenance object of an entry (KeyError/TypeError/ValueError when malformed)."""
-    if not isinstance(p, dict):
-        raise ValueError("'provenance' must be an object")
-    return Provenance(
-        sources=[str(x) for x in p["sources"]],
-        field=str(p["field"]),
-        lines_read=int_field(p, "lines_read"),
-        rows_read=int_field(p, "rows_read"),
-        skipped={
-            str(r): SkipTally(int_field(t, "count"), [str(x) for x in t["examples"]])
-            for r, t in p["skipped"].items()
-        },
-        time_first=None if p["time_first"] is None else str(p["time_first"]),
-        time_last=None if p["time_last"] is None else str(p["time_last"]),
-        partial=None if p["partial"] is None else str(p["partial"]),
-    )
 
 
 def from_tdigest_dict(doc: Any, unit: str = "") -> Sketch:
