@@ -151,5 +151,5 @@ def run(args: argparse.Namespace) -> int:
             file=report,
         )
     for path in metric_files:
-        print(f"wrote {path}: the same day as telemetry histograms (OTLP JSON metrics or OpenMetrics)", file=report)
+        print(f"wrote {path}: the same day as telemetry histograms (OTLP JSON or OpenMetrics)", file=report)
     return 0
