@@ -204,6 +204,10 @@ class Exposition:
         return points, skipped
 
     def _part(self, h: _Histogram, floor: float) -> ExplicitPart:
+        with np.errstate(invalid="ignore"):  # inf - inf in a damaged exposition: judged below
+            return self._checked(h, floor)
+
+    def _checked(self, h: _Histogram, floor: float) -> ExplicitPart:
         if h.bad:
             raise _Bad(h.bad)
         les = np.array([b for b, _ in h.buckets])
