@@ -57,8 +57,15 @@ def exp_point(values: np.ndarray, scale: int, start: int, t: int, **extra: Any) 
     }
 
 
-def line(points: list[dict[str, Any]], *, name: str = "latency", unit: str = "ms",
-         temporality: int = 2, kind: str = "histogram", service: str = "svc") -> str:  # fmt: skip
+def line(
+    points: list[dict[str, Any]],
+    *,
+    name: str = "latency",
+    unit: str = "ms",
+    temporality: int = 2,
+    kind: str = "histogram",
+    service: str = "svc",
+) -> str:
     return json.dumps(
         {
             "resourceMetrics": [
@@ -68,8 +75,11 @@ def line(points: list[dict[str, Any]], *, name: str = "latency", unit: str = "ms
                         {
                             "scope": {"name": "test"},
                             "metrics": [
-                                {"name": name, "unit": unit, kind: {"aggregationTemporality": temporality,
-                                                                     "dataPoints": points}}  # fmt: skip
+                                {
+                                    "name": name,
+                                    "unit": unit,
+                                    kind: {"aggregationTemporality": temporality, "dataPoints": points},
+                                }
                             ],
                         }
                     ],
@@ -79,12 +89,20 @@ def line(points: list[dict[str, Any]], *, name: str = "latency", unit: str = "ms
     )
 
 
-def scrape(values: np.ndarray, labels: str = 'job="a"', ts: float | None = None, created: float | None = None,
-           name: str = "lat_seconds", bounds: list[float] = BOUNDS) -> list[str]:  # fmt: skip
+def scrape(
+    values: np.ndarray,
+    labels: str = 'job="a"',
+    ts: float | None = None,
+    created: float | None = None,
+    name: str = "lat_seconds",
+    bounds: list[float] = BOUNDS,
+) -> list[str]:
     """An OpenMetrics histogram (cumulative buckets, +Inf, _count, _sum) of ``values``."""
     cum = np.cumsum(explicit(values, bounds))
     stamp = f" {ts}" if ts is not None else ""
-    out = [f'{name}_bucket{{{labels},le="{b}"}} {c}{stamp}' for b, c in zip([*bounds, "+Inf"], cum, strict=True)]
+    out = [
+        f'{name}_bucket{{{labels},le="{b}"}} {c}{stamp}' for b, c in zip([*bounds, "+Inf"], cum, strict=True)
+    ]
     out += [f"{name}_count{{{labels}}} {len(values)}{stamp}", f"{name}_sum{{{labels}}} {values.sum()}{stamp}"]
     if created is not None:
         out.append(f"{name}_created{{{labels}}} {created}{stamp}")

@@ -64,7 +64,10 @@ def test_merge_adds_same_layout_and_keeps_others_apart() -> None:
     assert len(m.parts) == 1
     np.testing.assert_array_equal(m.parts[0].counts, explicit(np.concatenate((x, y))).counts)
     mixed = merge_binned([m, Binned("ms", [exponential(y, 2)]), Binned("ms", [exponential(x, 2)])])
-    assert [p.kind for p in mixed.parts] == ["explicit", "exponential"]  # exponential: one grid, offsets aligned
+    assert [p.kind for p in mixed.parts] == [
+        "explicit",
+        "exponential",
+    ]  # exponential: one grid, offsets aligned
     assert mixed.count == 2400
 
 
@@ -86,9 +89,9 @@ def test_codec_round_trip_and_version_1_files() -> None:
     # A version-1 file (no 'kind', version 1) loads as before; a binned entry in it does not.
     v1 = json.loads(dumps(SketchSet({"raw": s})))
     v1["version"] = 1
-    from ogive.sketch.codec import _canonical
-
     import hashlib
+
+    from ogive.sketch.codec import _canonical
 
     v1["checksum"] = "sha256:" + hashlib.sha256(_canonical(v1)).hexdigest()
     assert loads(json.dumps(v1).encode())["raw"].count == 500
@@ -164,8 +167,10 @@ def test_plot_draws_bucket_boxes_holding_the_truth() -> None:
     assert plot_inputs("qq", b, raw).to_dict()["boxes"]  # a log's sketch against a binned distribution
 
 
-@pytest.mark.parametrize(("family", "scipy_dist"), [("lognormal", stats.lognorm), ("gamma", stats.gamma),
-                                                    ("weibull", stats.weibull_min)])  # fmt: skip
+@pytest.mark.parametrize(
+    ("family", "scipy_dist"),
+    [("lognormal", stats.lognorm), ("gamma", stats.gamma), ("weibull", stats.weibull_min)],
+)
 def test_fit_matches_scipy_interval_censored(family: str, scipy_dist: stats.rv_continuous) -> None:
     """Grouped MLE on the buckets within 1% of scipy.stats.fit on the same intervals."""
     x = np.random.default_rng(7).gamma(2.5, 12.0, 8000)

@@ -22,12 +22,20 @@ from ogive.read import ScanOptions, scan
 
 RNG = np.random.default_rng(0)
 VALUES = RNG.lognormal(2, 1, 300)
-GOOD_POINT = mf.hist_point(mf.explicit(VALUES), mf.T0, mf.T0 + 60 * 10**9, {"route": "/a"}, min=0.1, max=900.0)
+GOOD_POINT = mf.hist_point(
+    mf.explicit(VALUES), mf.T0, mf.T0 + 60 * 10**9, {"route": "/a"}, min=0.1, max=900.0
+)
 GOOD_EXP = mf.exp_point(VALUES, 2, mf.T0, mf.T0 + 60 * 10**9)
 JUNK = st.one_of(
-    st.none(), st.booleans(), st.integers(-(2**70), 2**70), st.floats(allow_nan=True),
-    st.text(max_size=8), st.just("NaN"), st.just("-1"), st.lists(st.integers(-5, 5), max_size=20),
-)  # fmt: skip
+    st.none(),
+    st.booleans(),
+    st.integers(-(2**70), 2**70),
+    st.floats(allow_nan=True),
+    st.text(max_size=8),
+    st.just("NaN"),
+    st.just("-1"),
+    st.lists(st.integers(-5, 5), max_size=20),
+)
 
 
 @st.composite
@@ -38,7 +46,12 @@ def otlp_point(draw: st.DrawFn) -> dict[str, object]:
             p.pop(key, None)
         else:
             p[key] = draw(JUNK)
-    if "bucketCounts" in p and isinstance(p["bucketCounts"], list) and p["bucketCounts"] and draw(st.booleans()):
+    if (
+        "bucketCounts" in p
+        and isinstance(p["bucketCounts"], list)
+        and p["bucketCounts"]
+        and draw(st.booleans())
+    ):
         i = draw(st.integers(0, len(p["bucketCounts"]) - 1))
         p["bucketCounts"][i] = draw(st.sampled_from(["-3", "x", "1.5", "18446744073709551616", None]))
     if "explicitBounds" in p and isinstance(p["explicitBounds"], list) and draw(st.booleans()):
@@ -47,10 +60,15 @@ def otlp_point(draw: st.DrawFn) -> dict[str, object]:
 
 
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
-@given(points=st.lists(otlp_point(), min_size=1, max_size=4), temporality=st.sampled_from([0, 1, 2, "x", None]),
-       cut=st.integers(0, 400), tail=st.sampled_from(["", "\n{", "\n[]", "\n\x00\xff"]))  # fmt: skip
-def test_otlp_metrics_never_break(tmp_path: Path, points: list[dict[str, object]], temporality: object,
-                                  cut: int, tail: str) -> None:  # fmt: skip
+@given(
+    points=st.lists(otlp_point(), min_size=1, max_size=4),
+    temporality=st.sampled_from([0, 1, 2, "x", None]),
+    cut=st.integers(0, 400),
+    tail=st.sampled_from(["", "\n{", "\n[]", "\n\x00\xff"]),
+)
+def test_otlp_metrics_never_break(
+    tmp_path: Path, points: list[dict[str, object]], temporality: object, cut: int, tail: str
+) -> None:
     kind = "exponentialHistogram" if "scale" in points[0] else "histogram"
     text = mf.line(points, temporality=temporality, kind=kind)  # type: ignore[arg-type]
     if cut:
@@ -80,7 +98,9 @@ def exposition(draw: st.DrawFn) -> str:
         elif how == "value":
             head, _, _ = lines[i].rpartition(" ")
             name_labels, _, _ = head.rpartition(" ")
-            lines[i] = f"{name_labels} {draw(st.sampled_from(['-1', 'NaN', '+Inf', '1e400', 'x', '0']))} 1772582460"
+            lines[i] = (
+                f"{name_labels} {draw(st.sampled_from(['-1', 'NaN', '+Inf', '1e400', 'x', '0']))} 1772582460"
+            )
         elif how == "le":
             lines[i] = lines[i].replace('le="', f'le="{draw(st.sampled_from(["NaN", "-", "x", "1e9"]))}', 1)
         elif how == "dup":

@@ -102,12 +102,21 @@ def test_delta_exponential_with_min_max(tmp_path: Path) -> None:
     rng = np.random.default_rng(4)
     windows = [rng.gamma(2.0, 30.0, 400) + 0.01 for _ in range(4)]
     pts = [
-        mf.exp_point(w, 4, mf.T0 + k * MIN, mf.T0 + (k + 1) * MIN, min=float(w.min()), max=float(w.max()),
-                     sum=float(w.sum()))  # fmt: skip
+        mf.exp_point(
+            w,
+            4,
+            mf.T0 + k * MIN,
+            mf.T0 + (k + 1) * MIN,
+            min=float(w.min()),
+            max=float(w.max()),
+            sum=float(w.sum()),
+        )
         for k, w in enumerate(windows)
     ]
-    res = scan([write(tmp_path, "e.jsonl", [mf.line(pts, temporality=1, kind="exponentialHistogram")])],
-               ScanOptions())  # fmt: skip
+    res = scan(
+        [write(tmp_path, "e.jsonl", [mf.line(pts, temporality=1, kind="exponentialHistogram")])],
+        ScanOptions(),
+    )
     b = res.sketches["all"]
     raw = np.concatenate(windows)
     assert isinstance(b, Binned) and b.interpolation == "log-linear"
@@ -121,9 +130,17 @@ def test_unit_conversion_and_groups(tmp_path: Path) -> None:
     a, c = rng.lognormal(-3, 1, 800), rng.lognormal(-2, 1, 800)  # seconds
     bounds = [x / 1000 for x in mf.BOUNDS]
     lines = [
-        mf.line([mf.hist_point(mf.explicit(a, bounds), mf.T0, mf.T0 + MIN, {"http.route": "/a"}, bounds=bounds),
-                 mf.hist_point(mf.explicit(c, bounds), mf.T0, mf.T0 + MIN, {"http.route": "/c"}, bounds=bounds)],
-                unit="s"),  # fmt: skip
+        mf.line(
+            [
+                mf.hist_point(
+                    mf.explicit(a, bounds), mf.T0, mf.T0 + MIN, {"http.route": "/a"}, bounds=bounds
+                ),
+                mf.hist_point(
+                    mf.explicit(c, bounds), mf.T0, mf.T0 + MIN, {"http.route": "/c"}, bounds=bounds
+                ),
+            ],
+            unit="s",
+        ),
     ]
     res = scan([write(tmp_path, "g.jsonl", lines)], ScanOptions(by="http.route"))
     assert res.sketches.names() == ["http.route=/a", "http.route=/c"]
@@ -140,7 +157,7 @@ def test_metric_choice_and_errors(tmp_path: Path) -> None:
     res = scan([path], ScanOptions())
     assert res.sketches.names() == ["x.dur", "y.dur"]
     assert scan([path], ScanOptions(metric="y.dur")).sketches.names() == ["all"]
-    with pytest.raises(OgiveError, match="no histogram metric named 'z'; the input has: x.dur, y.dur"):
+    with pytest.raises(OgiveError, match=r"no histogram metric named 'z'; the input has: x\.dur, y\.dur"):
         scan([path], ScanOptions(metric="z"))
 
 
@@ -187,7 +204,12 @@ def test_openmetrics_faults_are_counted(tmp_path: Path, bad: str, reason: str) -
 
 
 def test_le_out_of_order_is_put_in_order(tmp_path: Path) -> None:
-    lines = ["# TYPE lat histogram", 'lat_bucket{le="2"} 6', 'lat_bucket{le="1"} 5', 'lat_bucket{le="+Inf"} 6']
+    lines = [
+        "# TYPE lat histogram",
+        'lat_bucket{le="2"} 6',
+        'lat_bucket{le="1"} 5',
+        'lat_bucket{le="+Inf"} 6',
+    ]
     res = scan([write(tmp_path, "o.prom", lines)], ScanOptions())
     assert res.sketches["all"].count == 6
     assert any("out of le order" in w for w in res.warnings)
@@ -213,8 +235,18 @@ def test_otlp_faults_are_counted(tmp_path: Path, point: dict[str, object], reaso
 
 def test_otlp_lines_that_are_no_metrics(tmp_path: Path) -> None:
     good = mf.line([mf.hist_point([1, 2] + [0] * 12, mf.T0, mf.T0 + MIN)])
-    lines = [good, "{not json", "[1, 2]", '{"resourceSpans": []}', '{"resourceMetrics": [{"scopeMetrics": 3}]}']
+    lines = [
+        good,
+        "{not json",
+        "[1, 2]",
+        '{"resourceSpans": []}',
+        '{"resourceMetrics": [{"scopeMetrics": 3}]}',
+    ]
     res = scan([write(tmp_path, "m.jsonl", lines)], ScanOptions())
     assert res.sketches["all"].count == 3
-    assert {r: t.count for r, t in res.skipped.items()} == {"not_json": 1, "not_an_object": 1, "no_metrics": 1}
+    assert {r: t.count for r, t in res.skipped.items()} == {
+        "not_json": 1,
+        "not_an_object": 1,
+        "no_metrics": 1,
+    }
     assert res.lines_read == 5
