@@ -79,8 +79,11 @@ def test_split_and_windows_take_the_differences(tmp_path: Path) -> None:
     res = scan([path], ScanOptions(window="20m"))
     assert res.sketches.names() == ["2026-03-04T00:00:00Z", "2026-03-04T00:20:00Z", "2026-03-04T00:40:00Z"]
     first = res.sketches["2026-03-04T00:00:00Z"]
-    assert isinstance(first, Binned)
-    np.testing.assert_array_equal(first.parts[0].counts, mf.explicit(windows[0]))  # ends at 00:10
+    assert isinstance(first, Binned)  # the windows ending at 00:10 and 00:20 (intervals (start, end])
+    np.testing.assert_array_equal(first.parts[0].counts, mf.explicit(np.concatenate(windows[:2])))
+    res = scan([path], ScanOptions(split_at="2026-03-04T00:20:00Z"))  # a window ending at the moment
+    assert res.sketches["before"].count == sum(w.size for w in windows[:2])
+    assert not any("spans" in w for w in res.warnings)
 
 
 def test_counts_going_down_are_a_reset(tmp_path: Path) -> None:

@@ -17,7 +17,8 @@ OpenMetrics counter semantics for classic histograms):
 
 Each window goes to one distribution, by the options, by its **end time** (the point's
 ``timeUnixNano``, the moment it was recorded): ``all``, ``ATTRIBUTE=VALUE`` (``--by``),
-``before``/``after`` (``--split-at``) or a window of ``--window`` width. A window whose
+``before``/``after`` (``--split-at``; an interval ending exactly at the moment is before
+it) or a window of ``--window`` width (likewise). A window whose
 interval reaches across the split moment or a window edge cannot be divided (nothing
 says when inside it each value came); those are counted in a warning.
 """
@@ -220,12 +221,14 @@ class Collector:
         if not w.end_ns:
             return None
         if self.split_ns is not None:
-            half = "after" if w.end_ns >= self.split_ns else "before"
-            if w.start_ns and w.start_ns < self.split_ns <= w.end_ns:
+            # An interval (start, end] that ends at the moment holds nothing after it.
+            half = "after" if w.end_ns > self.split_ns else "before"
+            if w.start_ns and w.start_ns < self.split_ns < w.end_ns:
                 self.straddling += 1
             return f"{half}/{label}" if label else half
         assert self.width_ns is not None
-        start = math.floor(w.end_ns / self.width_ns) * self.width_ns
+        width = round(self.width_ns)
+        start = (w.end_ns - 1) // width * width  # (start, end]: the end's last ns; integers, exact
         if w.start_ns and w.start_ns < start:
             self.straddling += 1
         return times.iso(start / 1e3)
