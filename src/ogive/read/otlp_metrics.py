@@ -106,12 +106,36 @@ def _float(v: Any) -> float:
 
 
 def _counts(v: Any) -> np.ndarray:
+    """Whole non-negative counts, written as decimal strings or numbers (numpy parses both at
+    once: a Python call per count cost most of the scan)."""
     if not isinstance(v, list):
-        raise TypeError
-    out = np.array([_int(c) for c in v], dtype=np.float64)
-    if np.any(out < 0):
+        raise TypeError  # (a null count becomes NaN below and is refused there)
+    out = np.array(v, dtype=np.float64)
+    if out.ndim != 1 or not np.all((out >= 0) & (out == np.floor(out)) & (out < 2.0**63)):
         raise ValueError
     return out
+
+
+_BOUNDS: dict[tuple[Any, ...], np.ndarray | str] = {}
+"""Explicit bounds already checked, by their JSON values: every point of a series (and mostly of
+a metric) repeats the same list, so each is read and judged once."""
+
+
+def _bounds(v: Any) -> np.ndarray:
+    key = tuple(v) if isinstance(v, list) else ()
+    got = _BOUNDS.get(key)
+    if got is None:
+        try:
+            arr = np.array([_float(b) for b in v], dtype=np.float64)
+        except (TypeError, ValueError):
+            got = BAD_COUNTS
+        else:
+            got = NAN_BOUND if not np.all(np.isfinite(arr)) else BAD_BOUNDS if np.any(np.diff(arr) <= 0) else arr
+        if len(_BOUNDS) < 1024:
+            _BOUNDS[key] = got
+    if isinstance(got, str):
+        raise Skip(got)
+    return got
 
 
 def _attrs(kvs: Any) -> dict[str, str]:
@@ -151,17 +175,13 @@ def explicit_part(dp: dict[str, Any], floor: float) -> ExplicitPart:
     """A ``HistogramDataPoint``'s buckets; ``floor`` closes the first bucket (0 for a duration)."""
     try:
         counts = _counts(dp.get("bucketCounts", []))
-        bounds = np.array([_float(b) for b in dp.get("explicitBounds", [])], dtype=np.float64)
     except (TypeError, ValueError):
         raise Skip(BAD_COUNTS) from None
     if counts.size == 0:
         raise Skip(MISSING)  # count and sum only: no distribution to read
+    bounds = _bounds(dp.get("explicitBounds", []))
     if counts.size != bounds.size + 1:
         raise Skip(BAD_COUNTS)
-    if not np.all(np.isfinite(bounds)):
-        raise Skip(NAN_BOUND)
-    if np.any(np.diff(bounds) <= 0):
-        raise Skip(BAD_BOUNDS)
     f = floor if bounds.size and floor <= bounds[0] else -math.inf
     return ExplicitPart(bounds, counts, f, _extremes(dp))
 
