@@ -245,8 +245,8 @@ def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, pr
     if math.isfinite(b.low) and math.isfinite(hi_allowed) and above(b, hi_allowed):
         return check(
             EXCEEDED,
-            f"B's {lab} is {'more than' if b.low_open else 'at least'} {_fmt(b.low, unit)}, above the most the "
-            "limit allows at any plausible "
+            f"B's {lab} is {'more than' if b.low_open else 'at least'} {_fmt(b.low, unit)}, above the "
+            "most the limit allows at any plausible "
             f"A ({_fmt(hi_allowed, unit)}); {sides}.",
         )
     if not (math.isfinite(b.high) and math.isfinite(lo_allowed)):

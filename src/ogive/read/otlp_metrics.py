@@ -130,7 +130,8 @@ def _bounds(v: Any) -> np.ndarray:
         except (TypeError, ValueError):
             got = BAD_COUNTS
         else:
-            got = NAN_BOUND if not np.all(np.isfinite(arr)) else BAD_BOUNDS if np.any(np.diff(arr) <= 0) else arr
+            finite = bool(np.all(np.isfinite(arr)))
+            got = NAN_BOUND if not finite else BAD_BOUNDS if np.any(np.diff(arr) <= 0) else arr
         if len(_BOUNDS) < 1024:
             _BOUNDS[key] = got
     if isinstance(got, str):
