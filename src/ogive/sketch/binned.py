@@ -38,6 +38,7 @@ from numpy.typing import ArrayLike
 
 from .buckets import INTERPOLATION, BoolArray, Buckets, ExponentialPart, FloatArray, Part, combine
 from .provenance import Provenance, quantile_label
+from .rank_error import quantile_rank_error
 
 KIND = "binned"
 
@@ -338,16 +339,7 @@ class Binned:
 
     def rank_error_at(self, q: ArrayLike) -> FloatArray:
         """Largest possible rank error / n of the quantile estimate at each q."""
-        qa = np.asarray(q, dtype=np.float64)
-        n = self.count
-        if not n:
-            return np.zeros(qa.shape)
-        pos = qa * (n - 1)
-        v = self.value_at(pos)
-        _, below_most = self.count_bounds(np.nextafter(v, -np.inf))
-        at_least, _ = self.count_bounds(v)
-        err = np.maximum(0.0, np.maximum(below_most - 1.0 - pos, pos - at_least))
-        return np.asarray(err / n, dtype=np.float64)
+        return quantile_rank_error(self, q)
 
     def cdf_knots(self) -> FloatArray:
         """Every x where the estimated CDF can bend: the finite bucket edges."""

@@ -22,6 +22,7 @@ from numpy.typing import ArrayLike, NDArray
 from .digest import DEFAULT_COMPRESSION, TDigest
 from .provenance import EXAMPLES_KEPT as EXAMPLES_KEPT
 from .provenance import Provenance, SkipTally, quantile_label
+from .rank_error import quantile_rank_error
 
 if TYPE_CHECKING:
     from .binned import Binned
@@ -329,16 +330,7 @@ class Sketch:
         rank interval [#(x < v) - 1, #(x <= v)]; ``count_bounds`` bounds both ends, so
         the bound holds for any centroid layout (``tests/test_sketch_bound.py``).
         """
-        qa = np.asarray(q, dtype=np.float64)
-        n = self.count
-        if self.exact or n == 0:
-            return np.zeros(qa.shape)
-        pos = qa * (n - 1)
-        v = self.value_at(pos)
-        _, below_most = self.count_bounds(np.nextafter(v, -np.inf))
-        at_least, _ = self.count_bounds(v)
-        err = np.maximum(0.0, np.maximum(below_most - 1.0 - pos, pos - at_least))
-        return np.asarray(err / n, dtype=np.float64)
+        return quantile_rank_error(self, q)
 
     def rank_error_bound(self) -> float:
         """Largest possible |error| / n of a count read from ``rank`` (or ``cdf``).
