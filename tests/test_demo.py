@@ -16,7 +16,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from ogive import demo
+from ogive import demo, demo_metrics
 from ogive.cli import main
 from ogive.errors import OgiveError
 
@@ -117,6 +117,8 @@ def test_generate_command_and_demo_set_match_bundled_files(
     bundled = Path(__file__).resolve().parents[1] / "demo_logs"
     for f in demo.DEMO_SET:
         assert (tmp_path / "set" / f.name).read_bytes() == (bundled / f.name).read_bytes(), f.name
+    for name in (demo_metrics.OTLP_NAME, *demo_metrics.PROM_NAMES):
+        assert (tmp_path / "set" / name).read_bytes() == (bundled / name).read_bytes(), name
 
 
 def test_generate_refuses_nonsense(capsys: pytest.CaptureFixture[str]) -> None:

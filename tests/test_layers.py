@@ -25,10 +25,12 @@ MAY_IMPORT: dict[str, set[str]] = {
     "cluster": {"read", "sketch", "store", "errors", "numbers"},
     "render": {"sketch", "fit", "errors", "numbers"},
     "demo": {"errors"},
+    "demo_metrics": {"demo", "errors"},
     "ui": {"read", "fit", "store", "render", "sketch", "errors", "numbers"},
     "commands": {
         "ui",
         "demo",
+        "demo_metrics",
         "cluster",
         "read",
         "fit",

@@ -86,7 +86,7 @@ def test_round_trip() -> None:
 
 def test_file_is_inspectable_json_with_named_fields() -> None:
     doc = json.loads(dumps(sample_set()))
-    assert doc["format"] == "ogive-sketch-set" and doc["version"] == 1
+    assert doc["format"] == "ogive-sketch-set" and doc["version"] == 2  # 2: binned distributions (issue 17)
     body = doc["sketches"]["before"]
     assert {
         "unit",
@@ -129,8 +129,8 @@ def test_truncated_file() -> None:
 
 def test_newer_version() -> None:
     doc = json.loads(dumps(sample_set()))
-    doc["version"] = 2
-    with pytest.raises(SketchFormatError, match="format version 2, written by a newer ogive"):
+    doc["version"] = 3
+    with pytest.raises(SketchFormatError, match="format version 3, written by a newer ogive"):
         loads(json.dumps(doc).encode())
 
 

@@ -204,3 +204,17 @@ def duration(seconds: float | None) -> str:
     if s < 3600:
         return f"{s // 60}m{s % 60:02d}s"
     return f"{s // 3600}h{(s % 3600) // 60:02d}m"
+
+
+def span(low: float, high: float, unit: str, *, digits: int = 3) -> str:
+    """A bucket or a bound as words: ``250 ms to 500 ms``, ``above 10 s``, ``at most 5 ms``,
+    ``exactly 0 ms`` (an open end is said, never written as infinity)."""
+    if low == high:
+        return f"exactly {quantity(low, unit, digits=digits)}"
+    if math.isinf(high) and math.isinf(low):
+        return "anywhere (no bucket edge bounds it)"
+    if math.isinf(high):
+        return f"above {quantity(low, unit, digits=digits)}"
+    if math.isinf(low):
+        return f"at most {quantity(high, unit, digits=digits)}"
+    return f"{quantity(low, unit, digits=digits)} to {quantity(high, unit, digits=digits)}"

@@ -23,9 +23,11 @@ from ..errors import OgiveError
 
 if TYPE_CHECKING:
     from ..read.options import ScanOptions, ScanResult
-    from ..sketch import Sketch, SketchSet
+    from ..sketch import Binned, Sketch, SketchSet
 
-FORMAT_CHOICES = ("csv", "tsv", "ndjson", "text", "access", "syslog", "otlp", "parquet")
+FORMAT_CHOICES = (
+    "csv", "tsv", "ndjson", "text", "access", "syslog", "otlp", "parquet", "otlp-metrics", "openmetrics",
+)  # fmt: skip
 TIME_FORMAT_CHOICES = ("iso", "epoch_s", "epoch_ms", "epoch_us", "epoch_ns", "clf", "rfc3164")
 
 
@@ -37,7 +39,15 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         choices=FORMAT_CHOICES,
         default=None,
         help="how the records are laid out (access: Common Log Format and combined; syslog: RFC 3164 "
-        "and 5424; otlp: OTLP JSON traces); by default it is worked out from the first bytes",
+        "and 5424; otlp: OTLP JSON traces; otlp-metrics: OTLP JSON metric histograms; openmetrics: "
+        "OpenMetrics/Prometheus text histograms); by default it is worked out from the first bytes",
+    )
+    g.add_argument(
+        "--metric",
+        metavar="NAME",
+        default=None,
+        help="OTLP metrics and OpenMetrics: the histogram metric to read (by default each one found "
+        "becomes a distribution of its own)",
     )
     g.add_argument(
         "--field",
@@ -162,6 +172,7 @@ def options_from_args(args: argparse.Namespace) -> ScanOptions:
         "unit",
         "input_unit",
         "by",
+        "metric",
         "max_groups",
         "time_field",
         "time_format",
@@ -194,7 +205,7 @@ def load_set(specs: list[str], args: argparse.Namespace) -> SketchSet:
     return scan_sources(specs, args).sketches
 
 
-def load_one(spec: str, args: argparse.Namespace) -> tuple[str, Sketch]:
+def load_one(spec: str, args: argparse.Namespace) -> tuple[str, Sketch | Binned]:
     """One distribution: a sketch file[:GROUP] or a source; several groups need a choice."""
     from ..store import few
 
@@ -232,7 +243,9 @@ def side_names(specs: tuple[str, str], names: tuple[str, str]) -> tuple[str, str
     return out[0], out[1]
 
 
-def in_baseline_unit(b: Sketch, a: Sketch, names: tuple[str, str], *, quiet: bool = False) -> Sketch:
+def in_baseline_unit(
+    b: Sketch | Binned, a: Sketch | Binned, names: tuple[str, str], *, quiet: bool = False
+) -> Sketch | Binned:
     """B in A's unit: durations convert (s, ms, us, ns), anything else is refused in one sentence."""
     from ..sketch.units import duration_factor, in_unit
 
@@ -249,7 +262,9 @@ def in_baseline_unit(b: Sketch, a: Sketch, names: tuple[str, str], *, quiet: boo
     return in_unit(b, a.unit)
 
 
-def two_sides(args: argparse.Namespace) -> tuple[tuple[Sketch, Sketch], tuple[str, str], tuple[str, str]]:
+def two_sides(
+    args: argparse.Namespace,
+) -> tuple[tuple[Sketch | Binned, Sketch | Binned], tuple[str, str], tuple[str, str]]:
     """The baseline A and the other side B of ``compare``/``gate``, their names and where each came from.
 
     ``A B`` (each a sketch or sources), or one source split with ``--split-at`` (or one

@@ -108,10 +108,14 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from .. import demo
 
+    metric_files: list[str] = []
     if args.demo_set:
+        from .. import demo_metrics
+
         if args.output or args.rows or args.size:
             raise OgiveError("--demo-set writes fixed files; drop -o, --rows and --size, or drop --demo-set.")
         results = demo.write_demo_set(args.demo_set)
+        metric_files = demo_metrics.write_metrics_set(args.demo_set)
     else:
         if not args.output:
             raise OgiveError("name the file to write with -o PATH ('-' for standard output).")
@@ -133,7 +137,8 @@ def run(args: argparse.Namespace) -> int:
             )
         ]
     if args.json:
-        json.dump({"files": [r.to_dict() for r in results]}, sys.stdout, indent=2)
+        doc = {"files": [r.to_dict() for r in results], "metrics": metric_files}
+        json.dump(doc, sys.stdout, indent=2)
         sys.stdout.write("\n")
         return 0
     report = sys.stderr if args.output == "-" else sys.stdout
@@ -148,4 +153,6 @@ def run(args: argparse.Namespace) -> int:
             f"{mb:.1f} MB uncompressed in {r.elapsed_s:.1f} s ({rate:.0f} MB/s)",
             file=report,
         )
+    for path in metric_files:
+        print(f"wrote {path}: the same day as telemetry histograms (OTLP JSON or OpenMetrics)", file=report)
     return 0

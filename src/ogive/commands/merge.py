@@ -15,7 +15,7 @@ from typing import TYPE_CHECKING
 from ..errors import OgiveError
 
 if TYPE_CHECKING:
-    from ..sketch import Sketch, SketchSet
+    from ..sketch import Binned, Sketch, SketchSet
 
 DESCRIPTION = """\
 Merge saved sketch sets into one: sketches with the same name are combined (a file of
@@ -68,12 +68,30 @@ def _clash(name: str, what: str, first: tuple[str, str], other: tuple[str, str])
     )
 
 
+def _merge_binned(
+    name: str, first: tuple[str, Sketch | Binned], other: tuple[str, Sketch | Binned]
+) -> Binned:
+    """Binned with binned only: counts of the same bucket layout add, other layouts stay parts."""
+    from ..sketch import Binned, merge_binned
+
+    (pa, a), (pb, b) = first, other
+    if not (isinstance(a, Binned) and isinstance(b, Binned)):
+        kind = {True: "a binned distribution (telemetry histograms)", False: "a sketch of raw values"}
+        raise OgiveError(
+            f"cannot merge '{name}': {pa} holds {kind[isinstance(a, Binned)]} and {pb} "
+            f"{kind[isinstance(b, Binned)]}; they do not add up into one (compare them instead)."
+        )
+    if a.unit != b.unit:
+        raise OgiveError(f"cannot merge '{name}': bucket edges in {a.unit!r} and {b.unit!r} do not add up.")
+    return merge_binned([a, b])
+
+
 def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[SketchSet, list[str]]:
     """Merge by sketch name; returns the set and the warnings a forced merge owes the user."""
-    from ..sketch import SketchSet, SkipTally, merge
+    from ..sketch import Binned, SketchSet, SkipTally, merge
     from ..sketch.units import duration_factor, in_unit
 
-    out: dict[str, Sketch] = {}
+    out: dict[str, Sketch | Binned] = {}
     origin: dict[str, str] = {}
     warnings: list[str] = []
     for path, sset in named:
@@ -98,7 +116,9 @@ def merge_sets(named: list[tuple[str, SketchSet]], *, force: bool) -> tuple[Sket
                         f"'{name}': merged {what} '{b or '(none)'}' from {path} "
                         f"into '{a or '(none)'}' (--force)"
                     )
-            if have.unit == s.unit:
+            if isinstance(have, Binned) or isinstance(s, Binned):
+                out[name] = _merge_binned(name, (origin[name], have), (path, s))
+            elif have.unit == s.unit:
                 out[name] = merge(have, s)
             else:
                 have.merge(s)  # forced, unrelated units: the first file's unit labels the result

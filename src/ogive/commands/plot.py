@@ -13,7 +13,7 @@ from .common import add_source_options
 
 if TYPE_CHECKING:
     from ..fit.models import Candidate
-    from ..sketch import Sketch
+    from ..sketch import Binned, Sketch
 
 KINDS = ("qq", "detrended", "pp", "cdf", "shift")
 
@@ -139,13 +139,13 @@ def plot_size(width: int | None, height: int | None) -> tuple[int, int]:
     return w, h
 
 
-def _load(spec: str, args: argparse.Namespace) -> tuple[str, Sketch]:
+def _load(spec: str, args: argparse.Namespace) -> tuple[str, Sketch | Binned]:
     from .common import load_one
 
     return load_one(spec, args)
 
 
-def _fitted_model(sketch: Sketch, family: str) -> Candidate:
+def _fitted_model(sketch: Sketch | Binned, family: str) -> Candidate:
     """A model of ``family`` fitted to the sketch by :func:`ogive.fit.models.fit_sketch`."""
     from ..fit.models import fit_sketch
 
@@ -185,7 +185,7 @@ def run(args: argparse.Namespace) -> int:
 
     # With two distributions B is read against A (A the baseline), as in 'compare';
     # with --model, A is read against the model.
-    reference: Sketch | Candidate
+    reference: Sketch | Binned | Candidate
     if args.model is not None:
         if args.kind == "shift":
             raise OgiveError("the shift function compares two distributions; give B instead of --model.")
@@ -242,8 +242,8 @@ def add_plot_option(parser: argparse.ArgumentParser, kinds: tuple[str, ...]) -> 
 
 def print_plot(
     kind: str,
-    subject: Sketch,
-    reference: Sketch | Candidate,
+    subject: Sketch | Binned,
+    reference: Sketch | Binned | Candidate,
     subject_label: str,
     reference_label: str,
     *,

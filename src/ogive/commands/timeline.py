@@ -219,7 +219,7 @@ def _scan(args: argparse.Namespace) -> SketchSet:
     return result.sketches
 
 
-FLAGS = ("format", "field", "column", "pattern", "unit", "input_unit", "time_field", "time_format")
+FLAGS = ("format", "field", "column", "pattern", "metric", "unit", "input_unit", "time_field", "time_format")
 
 
 def _gate_base(args: argparse.Namespace) -> str:

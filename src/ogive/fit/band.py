@@ -13,6 +13,12 @@ follows the reference, every subject quantile lies inside it with probability at
 to the same data the band is conservative (the fit already pulled the model towards
 the data, as in Lilliefors' correction to the KS test), so a curve leaving it is all
 the stronger evidence of misfit.
+
+A binned distribution's counts are exact at its bucket edges and unknown between them.
+That uncertainty is not folded into ε: the Q-Q plot draws it as boxes (``qq.bucket_boxes``)
+and a binned reference's band is taken from its bucket bounds, [low of Q_ref(p − ε),
+high of Q_ref(p + ε)], so the band stays sure while the boxes show what the buckets
+cannot resolve.
 """
 
 from __future__ import annotations
@@ -24,7 +30,7 @@ from collections.abc import Callable
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch
+from ..sketch import Distribution, is_binned
 from .qq import QuantilePairs
 
 FloatArray = NDArray[np.float64]
@@ -39,16 +45,23 @@ def dkw_epsilon(n: int, confidence: float = 0.95) -> float:
     return math.sqrt(math.log(2.0 / (1.0 - confidence)) / (2.0 * n))
 
 
-def band_epsilon(subject: Sketch, reference: Sketch | None = None, *, confidence: float = 0.95) -> float:
+def _own_error(d: Distribution) -> float:
+    """A sketch's rank error; none for a binned distribution, whose boxes carry it (module text)."""
+    return 0.0 if is_binned(d) else d.rank_error_bound()
+
+
+def band_epsilon(
+    subject: Distribution, reference: Distribution | None = None, *, confidence: float = 0.95
+) -> float:
     """ε for subject vs a model (``reference`` None) or vs a second sketch, sketch error included."""
     if reference is None:
-        return dkw_epsilon(subject.count, confidence) + subject.rank_error_bound()
+        return dkw_epsilon(subject.count, confidence) + _own_error(subject)
     alpha_each = (1.0 - confidence) / 2.0
     return (
         dkw_epsilon(subject.count, 1.0 - alpha_each)
         + dkw_epsilon(reference.count, 1.0 - alpha_each)
-        + subject.rank_error_bound()
-        + reference.rank_error_bound()
+        + _own_error(subject)
+        + _own_error(reference)
     )
 
 
@@ -58,11 +71,13 @@ def with_dkw_band(
     epsilon: float,
     *,
     confidence: float = 0.95,
+    reference_bounds: Callable[[FloatArray], tuple[FloatArray, FloatArray]] | None = None,
 ) -> QuantilePairs:
     """``pairs`` with band_low/high = Q_ref(p ∓ ε): the simultaneous band of the module text.
 
     ``reference_ppf`` is the reference's quantile function (``model.ppf`` or
-    ``sketch.quantile``); ``epsilon`` from :func:`band_epsilon`.
+    ``sketch.quantile``); ``epsilon`` from :func:`band_epsilon`. ``reference_bounds`` (a
+    binned reference's ``quantile_bounds``) takes the band's ends from the bounds instead.
     """
     p = pairs.probs
     lo_p, hi_p = p - epsilon, p + epsilon
@@ -70,8 +85,10 @@ def with_dkw_band(
     high = np.full(p.shape, np.inf)
     inside_lo, inside_hi = lo_p > 0, hi_p < 1
     if inside_lo.any():
-        low[inside_lo] = np.asarray(reference_ppf(lo_p[inside_lo]), dtype=np.float64)
+        at = lo_p[inside_lo]
+        low[inside_lo] = reference_bounds(at)[0] if reference_bounds else np.asarray(reference_ppf(at))
     if inside_hi.any():
-        high[inside_hi] = np.asarray(reference_ppf(hi_p[inside_hi]), dtype=np.float64)
+        at = hi_p[inside_hi]
+        high[inside_hi] = reference_bounds(at)[1] if reference_bounds else np.asarray(reference_ppf(at))
     label = f"{confidence:.0%} simultaneous band (DKW, ε={epsilon:.3g})"
     return dataclasses.replace(pairs, band_low=low, band_high=high, band_label=label)

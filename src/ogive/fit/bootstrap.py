@@ -4,8 +4,9 @@ With estimated parameters the classical tables of KS, A² and W² do not apply; 
 from the fitted model, refitting, and recomputing the statistic gives their null
 distribution (Stute, González Manteiga & Presedo Quindimil 1993; the procedure
 ``scipy.stats.goodness_of_fit`` follows). Each replicate goes the whole way the data
-went: rounded to the data's lattice, sketched with the same settings, read as grouped
-data, fitted from the original estimate and scored from its sketch, so whatever the
+went: rounded to the data's lattice, sketched with the same settings (or counted into
+the same buckets, for a binned distribution), read as grouped data, fitted from the
+original estimate and scored from its sketch, so whatever the
 sketch or the grouping does to the statistic is in its null distribution too.
 p = (1 + #{T* >= T}) / (B + 1).
 """
@@ -16,7 +17,7 @@ import math
 
 import numpy as np
 
-from ..sketch import Sketch
+from ..sketch import Sketch, is_binned
 from .family import FloatArray
 from .results import Candidate
 from .single import Context, context_of, fit_one
@@ -35,9 +36,15 @@ def bootstrap_p_values(
         x = np.asarray(cand.model.dist.rvs(size=like.count, random_state=rng), dtype=np.float64)
         if ctx.lattice:
             x = np.round(x / ctx.lattice) * ctx.lattice
-        s = Sketch(like.unit, compression=like.compression, tail_size=like.tail_size, scale=like.digest.scale)
-        s.add(x)
-        rctx = context_of(s)
+        if is_binned(like):
+            rctx = context_of(like.like(x))  # counted into the same buckets, as the data were
+        else:
+            assert isinstance(like, Sketch)
+            s = Sketch(
+                like.unit, compression=like.compression, tail_size=like.tail_size, scale=like.digest.scale
+            )
+            s.add(x)
+            rctx = context_of(s)
         t0 = theta.copy()
         if loc is not None:
             # The floor is measured from this replicate's own minimum.

@@ -11,7 +11,7 @@ from typing import Any
 
 import numpy as np
 
-from ..sketch import Sketch, quantile_label
+from ..sketch import Distribution, quantile_label
 from .distances import num_or_none
 
 
@@ -80,7 +80,7 @@ MIN_EXPECTED = 5.0
 """Smallest expected count for the χ² reference of the G test (common practice)."""
 
 
-def tail_budget(a: Sketch, b: Sketch, q: float, *, confidence: float = 0.95) -> TailBudget:
+def tail_budget(a: Distribution, b: Distribution, q: float, *, confidence: float = 0.95) -> TailBudget:
     na, nb = a.count, b.count
     cut = float(a.quantile(np.array(q)))
     ka = float(na - a.rank(np.array(cut)))

@@ -30,10 +30,11 @@ from typing import Any
 
 import numpy as np
 
-from ..sketch import Sketch, SketchSet
+from ..numbers import span
+from ..sketch import Distribution, SketchSet, is_binned
 from .budget import TailBudget, tail_budget
 from .distances import KSResult, WassersteinResult, ks_distance, wasserstein
-from .ladder import LADDER_QS, LadderRow, ladder
+from .ladder import COARSE, LADDER_QS, LadderRow, ladder
 from .shift import ShiftFunction, shift_function
 
 
@@ -75,7 +76,7 @@ class Comparison:
         }
 
 
-def _check_pair(a: Sketch, b: Sketch, labels: tuple[str, str]) -> None:
+def _check_pair(a: Distribution, b: Distribution, labels: tuple[str, str]) -> None:
     for s, name in ((a, labels[0]), (b, labels[1])):
         if s.count == 0:
             raise ValueError(f"sketch {name!r} holds no values; there is nothing to compare.")
@@ -97,12 +98,15 @@ def _summary(
         parts.append(f"{b} is higher than {a} at {', '.join(up)}")
     if down:
         parts.append(f"{b} is lower than {a} at {', '.join(down)}")
+    coarse = [r.label for r in rows if r.verdict == COARSE]
     if not up and not down:
         few = [r.label for r in rows if r.verdict == "too few values"]
         text = f"no quantile of {b} differs credibly from {a}"
         if few:
             text += f" (too few values to tell at {', '.join(few)})"
         parts.append(text)
+    if coarse:
+        parts.append(f"the buckets are too coarse to tell at {', '.join(coarse)}")
     parts.append(
         f"KS distance {ks.distance:.3g} "
         + ("beyond noise and sketch error" if ks.differs else "within noise and sketch error")
@@ -128,9 +132,33 @@ def _ladder_vs_shift(rows: tuple[LadderRow, ...], shift: ShiftFunction) -> list[
     ]
 
 
+def binned_notes(
+    rows: tuple[LadderRow, ...], sides: tuple[Distribution, Distribution], labels: tuple[str, str]
+) -> list[str]:
+    """What binned sides change in reading the ladder: the method, and each bucket too coarse."""
+    out = []
+    for s, name in zip(sides, labels, strict=True):
+        if is_binned(s):
+            out.append(
+                f"{name} is binned (telemetry histograms, {len(s.parts)} bucket layout(s)): its intervals "
+                "map the order-statistic ranks through the bucket bounds, which is conservative (never "
+                f"narrower than the bucket a quantile lies in); its point estimates are {s.interpolation} "
+                "interpolations inside a bucket, not measurements."
+            )
+    unit = sides[0].unit
+    for r in rows:
+        if r.verdict == COARSE and r.bucket is not None:
+            out.append(
+                f"{r.label}: both intervals reach into the bucket {span(*r.bucket, unit)}, and the "
+                "overlap lies inside it: the buckets are too coarse to tell whether it moved (finer "
+                "buckets there, or the raw values, would)."
+            )
+    return out
+
+
 def compare_sketches(
-    a: Sketch,
-    b: Sketch,
+    a: Distribution,
+    b: Distribution,
     *,
     labels: tuple[str, str] = ("A", "B"),
     confidence: float = 0.95,
@@ -146,7 +174,7 @@ def compare_sketches(
     ks = ks_distance(a, b, confidence=confidence)
     tail = tuple(tail_budget(a, b, q, confidence=confidence) for q in (0.99, 0.999))
     shift = shift_function(a, b, confidence=confidence, labels=labels)
-    notes = list(_ladder_vs_shift(rows, shift))
+    notes = [*_ladder_vs_shift(rows, shift), *binned_notes(rows, (a, b), labels)]
     for s, name in ((a, labels[0]), (b, labels[1])):
         if s.provenance.partial:
             notes.append(f"{name} is partial: {s.provenance.partial}")

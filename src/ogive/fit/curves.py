@@ -17,10 +17,10 @@ from typing import TYPE_CHECKING, Any, Protocol, TypeAlias
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch, quantile_label
+from ..sketch import Binned, Distribution, Sketch, is_binned, is_distribution, quantile_label
 from ..sketch.units import duration_factor, in_unit
 from .band import band_epsilon, with_dkw_band
-from .qq import QuantilePairs
+from .qq import BucketBox, QuantilePairs, bucket_boxes, probability_grid
 
 if TYPE_CHECKING:
     from .shift import ShiftFunction
@@ -92,13 +92,19 @@ class QQData:
     marks: tuple[Mark, ...]
     at_or_below_zero: tuple[tuple[str, int], ...] = ()
     """(label, values <= 0) for each sketch that has any: a log axis draws them at its floor."""
+    boxes: tuple[BucketBox, ...] = ()
+    """For a binned side: where its quantiles are sure to lie (``qq.bucket_boxes``)."""
+    boxes_label: str = ""
 
     def to_dict(self) -> dict[str, Any]:
-        return {
+        out = {
             **self.pairs.to_dict(),
             "marks": [m.to_dict() for m in self.marks],
             "at_or_below_zero": dict(self.at_or_below_zero),
         }
+        if self.boxes:
+            out.update(boxes=[b.to_dict() for b in self.boxes], boxes_label=self.boxes_label)
+        return out
 
 
 def qq_from_pairs(pairs: QuantilePairs) -> QQData:
@@ -213,8 +219,8 @@ def _pp_marks(ref_p: FloatArray, subj_p: FloatArray, qs: tuple[float, ...]) -> t
 
 
 def pp_from_sketches(
-    subject: Sketch,
-    reference: Sketch | CDFModel,
+    subject: Sketch | Binned,
+    reference: Sketch | Binned | CDFModel,
     *,
     subject_label: str = "subject",
     reference_label: str = "reference",
@@ -228,7 +234,7 @@ def pp_from_sketches(
     is what shows.
     """
     p = np.linspace(0.0, 1.0, 201) if probs is None else np.asarray(probs, dtype=np.float64)
-    if isinstance(reference, Sketch):
+    if is_distribution(reference):
         x = reference.quantile(p)
         ref_p = reference.cdf(x)
         eps = band_epsilon(subject, reference, confidence=confidence) if confidence else None
@@ -305,7 +311,7 @@ def cdf_probs(points: int = 241, edge: float = 1e-4) -> FloatArray:
     return np.unique(np.concatenate((body, tails)))
 
 
-def cdf_from_sketches(sketches: dict[str, Sketch], *, probs: FloatArray | None = None) -> CDFOverlay:
+def cdf_from_sketches(sketches: dict[str, Distribution], *, probs: FloatArray | None = None) -> CDFOverlay:
     if not sketches:
         raise ValueError("a CDF overlay needs at least one sketch.")
     units = {s.unit for s in sketches.values()}
@@ -343,8 +349,8 @@ class QuantileCDFModel(Protocol):
 
 def plot_inputs(
     kind: str,
-    subject: Sketch,
-    reference: Sketch | QuantileCDFModel,
+    subject: Sketch | Binned,
+    reference: Sketch | Binned | QuantileCDFModel,
     *,
     subject_label: str = "subject",
     reference_label: str = "reference",
@@ -365,9 +371,9 @@ def plot_inputs(
         raise ValueError(f"kind must be one of {', '.join(PLOT_KINDS)}; got {kind!r}.")
     if subject.count == 0:
         raise ValueError(f"{subject_label!r} holds no values; there is nothing to plot.")
-    is_sketch = isinstance(reference, Sketch)
+    is_sketch = is_distribution(reference)
     if is_sketch:
-        assert isinstance(reference, Sketch)
+        assert is_distribution(reference)
         if reference.count == 0:
             raise ValueError(f"{reference_label!r} holds no values; there is nothing to plot.")
         if reference.unit != subject.unit:
@@ -378,7 +384,7 @@ def plot_inputs(
                 )
             subject = in_unit(subject, reference.unit)  # read in the reference's unit, as compare does
     if kind == "shift":
-        if not isinstance(reference, Sketch):
+        if not is_distribution(reference):
             raise ValueError(
                 "the shift function compares two sketches; a model has no sampling error to show."
             )
@@ -397,7 +403,7 @@ def plot_inputs(
         )
     floor = at_or_below_zero({subject_label: subject, reference_label: reference})
     if kind == "cdf":
-        if isinstance(reference, Sketch):
+        if is_distribution(reference):
             overlay = cdf_from_sketches({reference_label: reference, subject_label: subject})
             return dataclasses.replace(overlay, at_or_below_zero=floor)
         p = cdf_probs()
@@ -408,30 +414,59 @@ def plot_inputs(
             subject.unit,
             floor,
         )
-    if isinstance(reference, Sketch):
+    if is_distribution(reference):
         pairs = pairs_from_sketches(
-            subject, reference, subject_label=subject_label, reference_label=reference_label
+            subject,
+            reference,
+            subject_label=subject_label,
+            reference_label=reference_label,
+            probs=resolved_probs(probability_grid(min(subject.count, reference.count)), (subject, reference)),
         )
         if band:
             eps = band_epsilon(subject, reference, confidence=confidence)
-            pairs = with_dkw_band(pairs, reference.quantile, eps, confidence=confidence)
+            bounds = reference.quantile_bounds if is_binned(reference) else None
+            pairs = with_dkw_band(
+                pairs, reference.quantile, eps, confidence=confidence, reference_bounds=bounds
+            )
     else:
         pairs = pairs_from_model(
-            subject, reference, subject_label=subject_label, reference_label=reference_label
+            subject,
+            reference,
+            subject_label=subject_label,
+            reference_label=reference_label,
+            probs=resolved_probs(probability_grid(subject.count), (subject,)),
         )
         if band:
             eps = band_epsilon(subject, confidence=confidence)
             pairs = with_dkw_band(pairs, reference.ppf, eps, confidence=confidence)
     if kind == "detrended":
         return dataclasses.replace(detrended_from_pairs(pairs), at_or_below_zero=floor)
-    return dataclasses.replace(qq_from_pairs(pairs), at_or_below_zero=floor)
+    qq = dataclasses.replace(qq_from_pairs(pairs), at_or_below_zero=floor)
+    if is_binned(subject) or is_binned(reference):
+        sides = [lab for lab, d in ((subject_label, subject), (reference_label, reference)) if is_binned(d)]
+        n = min(subject.count, reference.count) if is_distribution(reference) else subject.count
+        boxes = bucket_boxes(subject, reference, probability_grid(n))
+        qq = dataclasses.replace(qq, boxes=boxes, boxes_label=f"buckets of {' and '.join(sides)}")
+    return qq
 
 
-def at_or_below_zero(named: dict[str, Sketch | QuantileCDFModel]) -> tuple[tuple[str, int], ...]:
+def resolved_probs(probs: FloatArray, sides: tuple[Distribution, ...]) -> FloatArray:
+    """The grid without the probabilities a binned side only places in a bucket that starts at
+    0 (its first, [0, b]): a point estimate there is an interpolation from 0, which a log axis
+    would draw decades below any real value. The bucket itself is still drawn as a box."""
+    keep = np.ones(probs.shape, dtype=bool)
+    for d in sides:
+        if is_binned(d):
+            low, _ = d.quantile_bounds(probs)
+            keep &= low > 0
+    return probs[keep] if keep.sum() >= 2 else probs
+
+
+def at_or_below_zero(named: dict[str, Sketch | Binned | QuantileCDFModel]) -> tuple[tuple[str, int], ...]:
     """How many values of each sketch are zero or negative (models have no count): a log
     value axis cannot place them, so the plot draws them at its floor and says how many."""
     return tuple(
         (label, s.zero_count + s.negative_count)
         for label, s in named.items()
-        if isinstance(s, Sketch) and s.zero_count + s.negative_count
+        if is_distribution(s) and s.zero_count + s.negative_count
     )

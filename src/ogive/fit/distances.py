@@ -1,7 +1,8 @@
 """Distances between two sketches' distributions: Kolmogorov–Smirnov and Wasserstein-1.
 
 Both are computed from the sketches alone; the KS distance comes with the range the
-raw-data distance is sure to lie in (from ``Sketch.count_bounds``).
+raw-data distance is sure to lie in (from ``count_bounds``: a sketch's centroids, a
+binned distribution's buckets).
 """
 
 from __future__ import annotations
@@ -13,7 +14,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch
+from ..sketch import Distribution
 
 FloatArray = NDArray[np.float64]
 
@@ -22,12 +23,10 @@ def num_or_none(x: float) -> float | None:
     return float(x) if np.isfinite(x) else None
 
 
-def support(s: Sketch) -> FloatArray:
-    """Every x where the sketch's CDF can bend: digest knots and the exact buffers."""
-    if s.count == 0:
-        return np.empty(0)
-    _, knot_vals = s.digest.knots()
-    return np.concatenate((knot_vals, s.low, s.high))
+def support(s: Distribution) -> FloatArray:
+    """Every x where the distribution's CDF estimate can bend (digest knots and exact
+    buffers; bucket edges)."""
+    return s.cdf_knots()
 
 
 @dataclass(frozen=True)
@@ -94,15 +93,12 @@ class KSResult:
         }
 
 
-def _breakpoints(s: Sketch) -> FloatArray:
-    """Every x where the sketch's CDF or its count bounds can step."""
-    if s.count == 0:
-        return np.empty(0)
-    lo, hi = s.digest.ranges()
-    return np.concatenate((support(s), lo, hi, np.nextafter(hi, -np.inf), np.nextafter(s.low, -np.inf)))
+def _breakpoints(s: Distribution) -> FloatArray:
+    """Every x where the CDF estimate or its count bounds can step."""
+    return s.bound_steps()
 
 
-def ks_distance(a: Sketch, b: Sketch, *, confidence: float = 0.95) -> KSResult:
+def ks_distance(a: Distribution, b: Distribution, *, confidence: float = 0.95) -> KSResult:
     from scipy import stats
 
     x = np.unique(np.concatenate((support(a), support(b))))
@@ -167,7 +163,7 @@ class WassersteinResult:
         }
 
 
-def wasserstein(a: Sketch, b: Sketch) -> WassersteinResult:
+def wasserstein(a: Distribution, b: Distribution) -> WassersteinResult:
     x = np.unique(np.concatenate((support(a), support(b))))
     if x.size < 2:
         return WassersteinResult(0.0, a.unit, 0.0)
@@ -179,7 +175,7 @@ def wasserstein(a: Sketch, b: Sketch) -> WassersteinResult:
     return WassersteinResult(w1, a.unit, w1 / abs(a.mean) if not note else float("nan"), note)
 
 
-def _mean_far_from_zero(a: Sketch) -> str:
+def _mean_far_from_zero(a: Distribution) -> str:
     """Empty when |A's mean| is a fair yardstick for a move; else why it is not.
 
     It is when A's values all lie on one side of zero (latencies, sizes), or when the
@@ -187,6 +183,8 @@ def _mean_far_from_zero(a: Sketch) -> str:
     would turn any move into a huge percentage.
     """
     mean = a.mean
+    if math.isnan(mean):
+        return "A's mean is not known (its histograms gave no sum)"
     if not math.isfinite(mean) or mean == 0:
         return "A's mean is 0"
     if a.min >= 0 or a.max <= 0:

@@ -22,7 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import optimize, special
 
-from ..sketch import Sketch
+from ..sketch import Distribution
 from .family import DataSummary, Family, FloatArray, log1mexp
 from .grouped import GroupedData, spacings, summarise
 
@@ -159,7 +159,7 @@ def fit_family(family: Family, data: GroupedData) -> Estimate:
     return Estimate(est.theta, loglik, est.success, est.message, est.evaluations)
 
 
-def out_of_support(sketch: Sketch, lattice: float | None = None, zero_atom: bool = False) -> int:
+def out_of_support(sketch: Distribution, lattice: float | None = None, zero_atom: bool = False) -> int:
     """Values a positive family cannot hold: below zero, and zero itself unless the zeros
     are a lattice's rounding interval or a group of their own (``grouped.py``)."""
     if lattice or zero_atom:

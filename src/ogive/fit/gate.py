@@ -14,6 +14,11 @@ ends in one of four states:
   be shown within.
 * ``too few values`` — a side the check needs cannot be bounded (p99.99 needs well
   over 10,000 values).
+* ``buckets too coarse`` — binned distributions (telemetry histograms) only: unclear,
+  and the open question lies inside one bucket whose width alone sets the interval
+  (B's p99 is only known to lie between 250 ms and 500 ms, and the limit falls in
+  between). The data cannot decide it, so the gate is undecided (exit 2) rather than
+  passed; the reason names the bucket.
 
 Confidence. Intervals come from :mod:`ogive.fit.ladder` (order statistics, Conover
 1999 section 3.2). With L limits each interval is taken at 1 − (1 − confidence)/(2L)
@@ -33,10 +38,10 @@ from typing import Any
 
 import numpy as np
 
-from ..numbers import quantity
-from ..sketch import Sketch, quantile_label
+from ..numbers import quantity, span
+from ..sketch import Distribution, quantile_label
 from ..sketch.units import SECONDS_PER_UNIT
-from .ladder import QuantileInterval, quantile_intervals
+from .ladder import QuantileInterval, above, quantile_intervals
 
 TIME_UNITS = SECONDS_PER_UNIT
 """Seconds per unit, for limits written in another time unit than the sketch's."""
@@ -46,7 +51,8 @@ _LIMIT = re.compile(
 )
 
 EXCEEDED, HOLDS, UNCLEAR, TOO_FEW = "exceeded", "holds", "unclear", "too few values"
-STATUSES = (EXCEEDED, HOLDS, UNCLEAR, TOO_FEW)
+COARSE = "buckets too coarse"
+STATUSES = (EXCEEDED, HOLDS, UNCLEAR, TOO_FEW, COARSE)
 
 
 @dataclass(frozen=True)
@@ -181,7 +187,7 @@ class GateResult:
         statuses = {c.status for c in self.checks}
         if EXCEEDED in statuses:
             return 1
-        if TOO_FEW in statuses or (self.prove and UNCLEAR in statuses):
+        if TOO_FEW in statuses or COARSE in statuses or (self.prove and UNCLEAR in statuses):
             return 2
         return 0
 
@@ -236,10 +242,11 @@ def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, pr
     def check(status: str, reason: str) -> LimitCheck:
         return LimitCheck(limit, status, a, b, allowed_pt, reason, lo_allowed, hi_allowed, note)
 
-    if math.isfinite(b.low) and math.isfinite(hi_allowed) and b.low > hi_allowed:
+    if math.isfinite(b.low) and math.isfinite(hi_allowed) and above(b, hi_allowed):
         return check(
             EXCEEDED,
-            f"B's {lab} is at least {_fmt(b.low, unit)}, above the most the limit allows at any plausible "
+            f"B's {lab} is {'more than' if b.low_open else 'at least'} {_fmt(b.low, unit)}, above the "
+            "most the limit allows at any plausible "
             f"A ({_fmt(hi_allowed, unit)}); {sides}.",
         )
     if not (math.isfinite(b.high) and math.isfinite(lo_allowed)):
@@ -256,12 +263,37 @@ def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, pr
             f"shown within the limit: B's {lab} is at most {_fmt(b.high, unit)}, within the least the "
             f"limit allows at any plausible A ({_fmt(lo_allowed, unit)}); {sides}.",
         )
+    coarse = _coarse_reason(lab, a, b, (max(b.low, lo_allowed), min(b.high, hi_allowed)), unit)
+    if coarse:
+        return check(COARSE, f"{coarse}; {sides}.")
     tail = "--prove needs it shown within." if prove else "no credible evidence that it is exceeded."
     return check(
         UNCLEAR,
         f"the intervals reach both sides of the limit (allowed {_fmt(lo_allowed, unit)} to "
         f"{_fmt(hi_allowed, unit)} over A's interval): {sides}; {tail}",
     )
+
+
+def _coarse_reason(
+    lab: str, a: QuantileInterval, b: QuantileInterval, region: tuple[float, float], unit: str
+) -> str:
+    """Why the buckets, not the sample, leave a limit open (empty when they do not).
+
+    B's side: its interval is one bucket and the undecided stretch lies inside it. A's
+    side: its interval is one bucket, so the limit itself is only known that well.
+    """
+    lo, hi = region
+    if b.bucket is not None and b.bucket_limited and b.bucket[0] <= lo and hi <= b.bucket[1]:
+        return (
+            f"the buckets are too coarse to decide: B's {lab} lies in the bucket {span(*b.bucket, unit)}, "
+            "and the limit falls inside it"
+        )
+    if a.bucket is not None and a.bucket_limited:
+        return (
+            f"the buckets are too coarse to decide: A's {lab} is only known to lie in the bucket "
+            f"{span(*a.bucket, unit)}, so the limit is only known that well"
+        )
+    return ""
 
 
 def values_needed(q: float, confidence: float) -> int:
@@ -275,8 +307,8 @@ def values_needed(q: float, confidence: float) -> int:
 
 
 def gate(
-    a: Sketch,
-    b: Sketch,
+    a: Distribution,
+    b: Distribution,
     limits: list[Limit],
     *,
     confidence: float = 0.95,

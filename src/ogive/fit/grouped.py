@@ -19,6 +19,11 @@ Three situations change what an observation *is*, and each is decided here, once
   the zeros count as one group "at or below 0" for every family, so a likelihood holds
   them as a probability whichever family is fitted and the AIC of all of them compare
   (positive families give the group a point mass of its own, ``models.py``).
+* **Buckets.** A binned distribution (telemetry histograms) *is* grouped data: each
+  bucket is an interval holding its count, the exact minimum and maximum (where the
+  export gave them) are single observations, and an exact zero bucket is the zero group
+  (``grouped_from_binned``). Nothing is re-binned: the likelihood is the one scipy
+  maximises from ``CensoredData.interval_censored`` of the same intervals.
 * **Spacings** for a location floor: ``spacings`` turns the exact values into the
   intervals between neighbours, the maximum-product-of-spacings objective of Cheng &
   Amin (1983), which stays bounded where the likelihood of a floor at the minimum
@@ -32,7 +37,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from ..sketch import Sketch
+from ..sketch import Binned, Distribution, Sketch, is_binned
 from .family import DataSummary, FloatArray
 
 DEFAULT_BINS = 240
@@ -93,7 +98,7 @@ class GroupedData:
         )
 
 
-def exact_values(sketch: Sketch) -> FloatArray:
+def exact_values(sketch: Distribution) -> FloatArray:
     """All the values of an exact sketch (n <= 2 * tail_size), sorted."""
     n, k = sketch.count, sketch.low.size
     if n <= k:
@@ -115,17 +120,17 @@ def tail_grid(p_lo: float, p_hi: float, bins: int) -> FloatArray:
 
 
 # ---------------------------------------------------------------- lattice
-def lattice_evidence(sketch: Sketch) -> FloatArray:
+def lattice_evidence(sketch: Distribution) -> FloatArray:
     """Values the sketch is sure were in the data: exact tails and centroid ends."""
     parts = [sketch.low, sketch.high]
-    if not sketch.exact and sketch.count:
+    if isinstance(sketch, Sketch) and not sketch.exact and sketch.count:
         lo, hi = sketch.digest.ranges()
         parts += [lo, hi]
     v = np.concatenate(parts)
     return np.unique(v[np.isfinite(v)])
 
 
-def detect_lattice(sketch: Sketch) -> float | None:
+def detect_lattice(sketch: Distribution) -> float | None:
     """The step h of the lattice every value lies on (1 for integer ms), or None.
 
     Checked on every value the sketch holds for certain (``lattice_evidence``), so one
@@ -134,6 +139,8 @@ def detect_lattice(sketch: Sketch) -> float | None:
     ``MIN_LATTICE_SHARE`` of the spread is ignored, and at least five distinct values
     are needed to call anything a lattice.
     """
+    if is_binned(sketch):
+        return None  # its values are read as bucket intervals already
     v = lattice_evidence(sketch)
     if v.size < 5:
         return None
@@ -173,8 +180,32 @@ def _lattice_grouped(sketch: Sketch, h: float, bins: int) -> GroupedData:
 
 
 # ---------------------------------------------------------------- building
+def grouped_from_binned(b: Binned, *, zero_atom: bool = False) -> GroupedData:
+    """The buckets as intervals (narrowed to the exact min and max where given), those two
+    values as points, and buckets of no width (an exact zero bucket, min == max) as
+    repeated points — or, for the zeros with ``zero_atom``, as the group (-inf, 0]."""
+    bk = b.buckets()
+    counts = bk.counts.copy()
+    points = np.concatenate((b.low, b.high)) if b.count > 1 else b.low.copy()
+    for v in points:  # each exact extreme is one of the bucket's values: take it out
+        holds = np.flatnonzero((bk.lows <= v) & (v <= bk.highs) & (counts >= 1))
+        if holds.size:
+            counts[holds[0] if v == points[0] else holds[-1]] -= 1
+    atom = (bk.lows == bk.highs) & (counts > 0)
+    zeros = atom & (bk.lows == 0.0) & zero_atom
+    reps = atom & ~zeros
+    points = np.concatenate((points, np.repeat(bk.lows[reps], counts[reps].astype(np.int64))))
+    keep = ~atom & (counts > 0)
+    lows, highs, kept = bk.lows[keep], bk.highs[keep], counts[keep]
+    z = float(counts[zeros].sum())
+    if z:
+        lows, highs = np.concatenate(([-np.inf], lows)), np.concatenate(([0.0], highs))
+        kept = np.concatenate(([z], kept))
+    return GroupedData(np.sort(points), lows, highs, kept, b.count, None, z)
+
+
 def grouped_from_sketch(
-    sketch: Sketch, *, bins: int = DEFAULT_BINS, lattice: float | None = None, zero_atom: bool = False
+    sketch: Distribution, *, bins: int = DEFAULT_BINS, lattice: float | None = None, zero_atom: bool = False
 ) -> GroupedData:
     """The sketch as exact tail values plus bins between them (counts from its ranks).
 
@@ -185,6 +216,9 @@ def grouped_from_sketch(
     n = sketch.count
     if n == 0:
         raise ValueError("the sketch is empty; there is nothing to fit.")
+    if is_binned(sketch):
+        return grouped_from_binned(sketch, zero_atom=zero_atom)
+    assert isinstance(sketch, Sketch)
     if lattice:
         return _lattice_grouped(sketch, lattice, bins)
     if sketch.exact:

@@ -25,6 +25,16 @@ interval (the interval is widened to it in the rare layout where it is not).
 When the needed rank lies beyond the data (p99.99 from 5,000 values), that side of the
 interval is unbounded (``-inf`` / ``inf``): the data cannot bound it, and callers say so
 rather than invent a bound.
+
+A binned distribution (telemetry histograms) answers the same two questions from its
+buckets: the order statistics X_(l) and X_(u) are mapped through the bucket bounds (the
+lower end of the bucket holding rank l, the upper end of the one holding rank u). That
+is conservative — the interval is at least as wide as the exact one would be on the raw
+values, and never narrower than the bucket the quantile lies in — so its coverage is
+at least the stated confidence. Each interval then also carries that bucket
+(``QuantileInterval.bucket``): where the overlap of two intervals lies inside one
+bucket that a finer layout could split, the verdict is ``buckets too coarse`` and names
+the bucket, instead of blaming the sample size.
 """
 
 from __future__ import annotations
@@ -35,7 +45,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch, quantile_label
+from ..sketch import Distribution, is_binned, quantile_label
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -67,7 +77,16 @@ class QuantileInterval:
     sketch_margin: float
     """How far (in the value's unit) the sketch widened the larger side beyond its own
     estimate of the bounding order statistic: what not holding the values costs here
-    (0 where the exact buffers answer)."""
+    (0 where the exact buffers answer; the bucket widths for a binned distribution)."""
+    bucket: tuple[float, float] | None = None
+    """Binned distributions: the bucket (or, across layouts, the bound) sure to hold the
+    quantile itself — the resolution limit; None for a sketch."""
+    bucket_limited: bool = False
+    """Both ends of the interval come from that one bucket: the bucket, not the number
+    of values, sets its width."""
+    low_open: bool = False
+    """The quantile lies strictly above ``low`` (an open bucket edge): an interval of the
+    other side ending exactly at ``low`` is still below it."""
 
     def __post_init__(self) -> None:
         # The interval is built to contain its own estimate (quantile_intervals widens it
@@ -98,6 +117,8 @@ class QuantileInterval:
             "rank_low": self.rank_low,
             "rank_high": self.rank_high,
             "sketch_margin": self.sketch_margin,
+            "bucket": None if self.bucket is None else [_num(self.bucket[0]), _num(self.bucket[1])],
+            "bucket_limited": self.bucket_limited,
         }
 
 
@@ -122,7 +143,7 @@ def order_statistic_ranks(n: int, q: FloatArray, confidence: float) -> tuple[Int
 
 
 def quantile_intervals(
-    sketch: Sketch, qs: FloatArray | tuple[float, ...], confidence: float
+    sketch: Distribution, qs: FloatArray | tuple[float, ...], confidence: float
 ) -> list[QuantileInterval]:
     """Point estimate and interval for each q, from the sketch alone (vectorised)."""
     qa = np.asarray(qs, dtype=np.float64)
@@ -138,6 +159,14 @@ def quantile_intervals(
     guess = sketch.value_at(ranks)
     lo_val, hi_val = np.minimum(below[: qa.size], est), np.maximum(above[qa.size :], est)
     margin = np.maximum(guess[: qa.size] - below[: qa.size], above[qa.size :] - guess[qa.size :])
+    buckets: list[tuple[float, float] | None] = [None] * qa.size
+    limited = np.zeros(qa.size, dtype=bool)
+    low_open = np.zeros(qa.size, dtype=bool)
+    if is_binned(sketch):
+        low_open = sketch.low_is_open(np.clip(lo_i, 0, n - 1).astype(np.float64))
+        b_lo, b_hi = sketch.quantile_bounds(qa)
+        buckets = [(float(x), float(y)) for x, y in zip(b_lo, b_hi, strict=True)]
+        limited = (below[: qa.size] >= b_lo) & (above[qa.size :] <= b_hi)
     out = []
     for k, q in enumerate(qa):
         out.append(
@@ -151,6 +180,9 @@ def quantile_intervals(
                 rank_low=int(lo_i[k]) if lo_ok[k] else None,
                 rank_high=int(hi_i[k]) if hi_ok[k] else None,
                 sketch_margin=float(max(margin[k], 0.0)),
+                bucket=buckets[k],
+                bucket_limited=bool(limited[k] and lo_ok[k] and hi_ok[k]),
+                low_open=bool(low_open[k] and lo_ok[k]),
             )
         )
     return out
@@ -179,6 +211,8 @@ class LadderRow:
     """Lower end of the interval for B - A (B's low minus A's high); may be -inf."""
     change_high: float
     verdict: str
+    bucket: tuple[float, float] | None = None
+    """With ``buckets too coarse``: the bucket that holds the overlap (see ``coarse_bucket``)."""
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -191,6 +225,7 @@ class LadderRow:
             "change_low": _num(self.change_low),
             "change_high": _num(self.change_high),
             "verdict": self.verdict,
+            "bucket": None if self.bucket is None else [_num(self.bucket[0]), _num(self.bucket[1])],
         }
 
 
@@ -198,17 +233,51 @@ def _relative(a: float, b: float) -> float:
     return (b - a) / abs(a) if a != 0 and np.isfinite(a) else float("nan")
 
 
+HIGHER, LOWER, NO_CHANGE, TOO_FEW, COARSE = (
+    "higher", "lower", "no clear change", "too few values", "buckets too coarse",
+)  # fmt: skip
+
+
+def coarse_bucket(a: QuantileInterval, b: QuantileInterval) -> tuple[float, float] | None:
+    """The bucket that keeps two overlapping intervals from separating, or None.
+
+    It is a bucket of a binned side holding the whole overlap, which the other side
+    does not cover from end to end (or covers only with one bucket of its own): splitting
+    it finer could separate the intervals, so the buckets — not the sample size — leave
+    the question open.
+    """
+    lo, hi = max(a.low, b.low), min(a.high, b.high)
+    for x, y in ((b, a), (a, b)):
+        if x.bucket is None:
+            continue
+        blo, bhi = x.bucket
+        if blo <= lo and hi <= bhi and (not (y.low <= blo and bhi <= y.high) or y.bucket_limited):
+            return x.bucket
+    return None
+
+
+def above(x: QuantileInterval, limit: float) -> bool:
+    """``x``'s quantile is surely above ``limit`` (strictly, an open bucket edge included)."""
+    return bool(x.low > limit or (x.low == limit and x.low_open))
+
+
 def verdict_of(a: QuantileInterval, b: QuantileInterval) -> str:
-    if b.low > a.high:
-        return "higher"
-    if b.high < a.low:
-        return "lower"
+    if above(b, a.high):
+        return HIGHER
+    if above(a, b.high):
+        return LOWER
+    if a.rank_low is not None and a.rank_high is not None and b.rank_low is not None and (
+        b.rank_high is not None
+    ) and coarse_bucket(a, b) is not None:
+        return COARSE
     if not (a.bounded and b.bounded):
-        return "too few values"
-    return "no clear change"
+        return TOO_FEW
+    return NO_CHANGE
 
 
-def ladder(a: Sketch, b: Sketch, confidence: float, qs: tuple[float, ...] = LADDER_QS) -> list[LadderRow]:
+def ladder(
+    a: Distribution, b: Distribution, confidence: float, qs: tuple[float, ...] = LADDER_QS
+) -> list[LadderRow]:
     ia = quantile_intervals(a, qs, confidence)
     ib = quantile_intervals(b, qs, confidence)
     rows = []
@@ -225,7 +294,8 @@ def ladder(a: Sketch, b: Sketch, confidence: float, qs: tuple[float, ...] = LADD
                 relative_change=_relative(x.estimate, y.estimate),
                 change_low=y.low - x.high,
                 change_high=y.high - x.low,
-                verdict=verdict_of(x, y),
+                verdict=(v := verdict_of(x, y)),
+                bucket=coarse_bucket(x, y) if v == COARSE else None,
             )
         )
     mx_a, mx_b = a.max, b.max

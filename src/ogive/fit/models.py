@@ -13,7 +13,7 @@ import dataclasses
 
 import numpy as np
 
-from ..sketch import Sketch
+from ..sketch import Distribution, is_binned
 from . import families as fam
 from .bootstrap import bootstrap_p_values
 from .family import FloatArray
@@ -33,7 +33,7 @@ such sizes, so only the distances are informative."""
 
 # ---------------------------------------------------------------- public API
 def fit_sketch(
-    sketch: Sketch,
+    sketch: Distribution,
     families: list[str] | tuple[str, ...] | None = None,
     *,
     rank_by: str = "auto",
@@ -158,7 +158,17 @@ def _notes(
             f"with n = {n:,} values every goodness-of-fit test rejects every model, so no p-values are "
             "given: rank by distance and judge the tail errors."
         )
-    if not sketch.exact:
+    if is_binned(sketch):
+        b = sketch.buckets()
+        notes.append(
+            f"fitted from the buckets themselves: grouped maximum likelihood on {int((b.counts > 0).sum())} "
+            "non-empty buckets, each an interval holding its count"
+            + (", with the exact min and max as single values" if sketch.low.size or sketch.high.size else "")
+            + f" (the likelihood scipy.stats.fit maximises on CensoredData.interval_censored); KS, AD and "
+            f"CvM compare the model with a {sketch.interpolation} reading inside the buckets, which can be "
+            f"off by up to {sketch.rank_error_bound():.2g} of n between bucket edges."
+        )
+    elif not sketch.exact:
         notes.append(
             f"fitted and scored from the sketch: exact smallest/largest {sketch.low.size} values, the middle "
             f"from the t-digest (counts within {sketch.rank_error_bound():.2g} of n; statistics over "

@@ -16,7 +16,8 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch, quantile_label, timekeys
+from ..sketch import Binned, Sketch, merge_binned, quantile_label, timekeys
+from ..sketch.distribution import Dist
 from .ladder import LADDER_QS
 from .spans import Change, locate
 from .splits import MIN_TAIL_COUNT
@@ -142,20 +143,24 @@ class Counts:
 class Stretch:
     """The windows of one stream as the reports need them."""
 
-    windows: Sequence[Sketch | None]
-    whole: Sketch
+    windows: Sequence[Dist | None]
+    whole: Dist
     unit: str
     start: Callable[[float], float]
     """Epoch microseconds where window position ``i`` (fractional) begins."""
 
 
-def period_sketch(st: Stretch, a: int, b: int, near_end: bool) -> Sketch:
+def period_sketch(st: Stretch, a: int, b: int, near_end: bool) -> Dist:
     """The windows ``a:b`` merged (at most the LADDER_WINDOWS nearest the change), into a
     sketch with the windows' own tail size: its exact tails then hold the true extremes
-    of all of them (a larger buffer would be filled from each window's few)."""
+    of all of them (a larger buffer would be filled from each window's few). Binned
+    windows (telemetry histograms) add their bucket counts instead."""
     idx = list(range(a, b))
     idx = idx[-LADDER_WINDOWS:] if near_end else idx[:LADDER_WINDOWS]
-    parts = [s for s in (st.windows[i] for i in idx) if s is not None and s.count]
+    chosen = [s for s in (st.windows[i] for i in idx) if s is not None and s.count]
+    if isinstance(st.whole, Binned):
+        return merge_binned([s for s in chosen if isinstance(s, Binned)]) if chosen else Binned(st.unit)
+    parts = [s for s in chosen if isinstance(s, Sketch)]
     tail = min((s.tail_size for s in parts), default=st.whole.tail_size)
     out = Sketch(st.unit, compression=st.whole.compression, tail_size=tail)
     for s in parts:
@@ -253,7 +258,7 @@ def _size_of_move(m: QuantileMove) -> float:
     return -abs(m.relative) if np.isfinite(m.relative) else 0.0
 
 
-def _gaps(whole: Sketch, cm: Counts, before: tuple[int, int], after: tuple[int, int]) -> list[float | None]:
+def _gaps(whole: Dist, cm: Counts, before: tuple[int, int], after: tuple[int, int]) -> list[float | None]:
     """The standardised CDF gap between the periods at the whole's p50 … p99.9 (None
     where the grid lacks the point or too few values lie beyond it)."""
     nb, na = float(cm.sizes[before[0] : before[1]].sum()), float(cm.sizes[after[0] : after[1]].sum())

@@ -14,7 +14,7 @@ from typing import Any, Protocol
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch
+from ..sketch import Binned, Distribution, Sketch, is_binned, is_distribution
 
 FloatArray = NDArray[np.float64]
 
@@ -69,8 +69,8 @@ def probability_grid(n: int, points: int = 200) -> FloatArray:
 
 
 def pairs_from_sketches(
-    subject: Sketch,
-    reference: Sketch,
+    subject: Distribution,
+    reference: Distribution,
     *,
     subject_label: str = "subject",
     reference_label: str = "reference",
@@ -88,7 +88,7 @@ def pairs_from_sketches(
 
 
 def pairs_from_model(
-    subject: Sketch,
+    subject: Distribution,
     model: QuantileModel,
     *,
     subject_label: str = "subject",
@@ -103,4 +103,79 @@ def pairs_from_model(
         unit=subject.unit,
         reference_label=reference_label,
         subject_label=subject_label,
+    )
+
+
+# ---------------------------------------------------------------- bucket boxes
+@dataclass(frozen=True)
+class BucketBox:
+    """Where the Q-Q curve must pass for probabilities from ``p_low`` to ``p_high``.
+
+    A binned side's quantiles there are only known to lie in one bucket (or, across
+    layouts, one bound): the box spans that range on its axis, and the other side's
+    quantiles over the same probabilities on the other axis. The true curve runs
+    through every box; a box wholly outside the band is a difference the buckets
+    resolve, a box that straddles it one they cannot.
+    """
+
+    p_low: float
+    p_high: float
+    x_low: float
+    x_high: float
+    y_low: float
+    y_high: float
+
+    def to_dict(self) -> dict[str, Any]:
+        def num(v: float) -> float | None:
+            return float(v) if np.isfinite(v) else None
+
+        return {
+            "p_low": self.p_low,
+            "p_high": self.p_high,
+            "x_low": num(self.x_low),
+            "x_high": num(self.x_high),
+            "y_low": num(self.y_low),
+            "y_high": num(self.y_high),
+        }
+
+
+def _side(
+    d: Sketch | Binned | QuantileModel, p: FloatArray, mid: FloatArray
+) -> tuple[FloatArray, FloatArray]:
+    """A side's range over each probability segment: bucket bounds (binned), else its quantiles
+    at the segment's ends."""
+    if is_binned(d):
+        return d.quantile_bounds(mid)
+    if is_distribution(d):
+        q = d.quantile(p)
+    else:
+        with np.errstate(all="ignore"):
+            q = np.asarray(d.ppf(p), dtype=np.float64)
+    return q[:-1], q[1:]
+
+
+def bucket_boxes(
+    subject: Sketch | Binned, reference: Sketch | Binned | QuantileModel, probs: FloatArray
+) -> tuple[BucketBox, ...]:
+    """One box per run of probabilities over which the binned side(s) hold one bucket.
+
+    Within ``probs``' range; the runs are cut at every cumulative share where a bucket of
+    either binned side begins or ends (``Binned.levels``), so each box is a bucket.
+    """
+    if probs.size == 0:
+        return ()
+    cuts = [probs[:1], probs[-1:]]
+    for d in (subject, reference):
+        if is_binned(d):
+            cuts.append(d.levels())
+    p = np.unique(np.clip(np.concatenate(cuts), probs[0], probs[-1]))
+    if p.size < 2:
+        return ()
+    mid = 0.5 * (p[:-1] + p[1:])
+    y_lo, y_hi = _side(subject, p, mid)
+    x_lo, x_hi = _side(reference, p, mid)
+    return tuple(
+        BucketBox(float(a), float(b), float(xl), float(xh), float(yl), float(yh))
+        for a, b, xl, xh, yl, yh in zip(p[:-1], p[1:], x_lo, x_hi, y_lo, y_hi, strict=True)
+        if b > a
     )

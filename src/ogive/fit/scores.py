@@ -28,7 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..sketch import Sketch, quantile_label
+from ..sketch import Distribution, quantile_label
 from .family import FloatArray, log1mexp
 from .grouped import exact_values
 
@@ -44,7 +44,7 @@ class WeightedSample:
     n: float
 
 
-def sample_from_sketch(sketch: Sketch, *, slices: int = SLICES) -> WeightedSample:
+def sample_from_sketch(sketch: Distribution, *, slices: int = SLICES) -> WeightedSample:
     """Exact tails as single values, the middle as equal-weight slices at their medians."""
     if sketch.exact:
         v = exact_values(sketch)
@@ -117,7 +117,7 @@ def distances(
 
 
 def quantile_errors(
-    ppf: Callable[[FloatArray], FloatArray], sketch: Sketch, probs: tuple[float, ...]
+    ppf: Callable[[FloatArray], FloatArray], sketch: Distribution, probs: tuple[float, ...]
 ) -> dict[str, float]:
     """(model - sketch) / |sketch| at each probability, by label; inf where undefined."""
     if not probs:

@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch, quantile_label
+from ..sketch import Distribution, quantile_label
 from .ladder import quantile_intervals
 
 FloatArray = NDArray[np.float64]
@@ -82,8 +82,8 @@ class ShiftFunction:
 
 
 def shift_function(
-    a: Sketch,
-    b: Sketch,
+    a: Distribution,
+    b: Distribution,
     *,
     confidence: float = 0.95,
     probs: tuple[float, ...] = SHIFT_QS,

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..sketch import Sketch
+from ..sketch import Distribution, is_binned
 from . import families as fam
 from .atoms import WithZeros
 from .estimate import Estimate, fit_family, log_likelihood, maximise, out_of_support
@@ -35,7 +35,7 @@ TABLE_PROBS = (0.5, 0.9, 0.99, 0.999, 0.9999)
 class Context:
     """What every family's fit to one sketch shares: the data as a likelihood sees them."""
 
-    sketch: Sketch
+    sketch: Distribution
     data: GroupedData
     sample: WeightedSample
     lattice: float | None
@@ -57,7 +57,7 @@ class Context:
         )
 
 
-def context_of(sketch: Sketch, *, bins: int = DEFAULT_BINS, slices: int = SLICES) -> Context:
+def context_of(sketch: Distribution, *, bins: int = DEFAULT_BINS, slices: int = SLICES) -> Context:
     lattice = detect_lattice(sketch)
     zero_atom = lattice is None and sketch.zero_count > 0 and sketch.negative_count == 0
     data = grouped_from_sketch(sketch, bins=bins, lattice=lattice, zero_atom=zero_atom)
@@ -86,8 +86,10 @@ def fit_one(
     bad = ctx.out_of_support
     if family.positive and bad:
         return NotFitted(name, family.title, _support_refusal(sketch), bad)
-    if family.positive and ctx.floor <= 0 and not (ctx.lattice or ctx.zero_atom):
+    if family.positive and ctx.floor <= 0 and not (ctx.lattice or ctx.zero_atom or is_binned(sketch)):
         return NotFitted(name, family.title, "the smallest value is not above zero.", bad)
+    if family.shifted and not math.isfinite(ctx.floor):
+        return NotFitted(name, family.title, "no bucket edge bounds the smallest value from below.", bad)
     with_zeros = family.positive and ctx.zero_atom
     data = ctx.data.without_zero_atom() if with_zeros else ctx.data
     try:
@@ -156,7 +158,7 @@ def _edge_note(family: Family, params: dict[str, float]) -> str | None:
     return None
 
 
-def _support_refusal(sketch: Sketch) -> str:
+def _support_refusal(sketch: Distribution) -> str:
     return (
         f"{sketch.negative_count} values below zero"
         + (f" and {sketch.zero_count} zero" if sketch.zero_count else "")
@@ -196,7 +198,7 @@ def _score(model: FittedModel, family: Family, theta: FloatArray, ctx: Context, 
     return Scores(d.ks, d.ad, d.cvm, aic, bic, max(abs(v) for v in errs.values()), errs, float(n))
 
 
-def with_table(c: Candidate, sketch: Sketch) -> Candidate:
+def with_table(c: Candidate, sketch: Distribution) -> Candidate:
     """The candidate with its model quantiles at p50 ... p99.99 for the table."""
     with np.errstate(all="ignore"):
         mq = c.model.ppf(np.array(TABLE_PROBS))

@@ -15,7 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch
+from ..sketch import Binned
+from ..sketch.distribution import Dist
 
 FloatArray = NDArray[np.float64]
 
@@ -48,7 +49,7 @@ STRIP_COLUMNS = 240
 """Columns the strip is computed at: more than a screen shows, so a view can pick."""
 
 
-def strip_range(whole: Sketch) -> tuple[float, float] | None:
+def strip_range(whole: Dist) -> tuple[float, float] | None:
     """The strip's value range: the whole's p0.1 to its maximum (p5 up when p0.1 is not
     positive: a log axis); None when there is nothing positive to show."""
     if not whole.count:
@@ -60,7 +61,7 @@ def strip_range(whole: Sketch) -> tuple[float, float] | None:
 
 
 def density_strip(
-    windows: Sequence[Sketch | None], *, rows: int, columns: int, low: float, high: float
+    windows: Sequence[Dist | None], *, rows: int, columns: int, low: float, high: float
 ) -> Strip:
     """The strip of one stream's windows on ``rows`` value rows between ``low`` and
     ``high`` (> 0), windows grouped into at most ``columns`` columns."""
@@ -81,7 +82,7 @@ def density_strip(
     return Strip(edges, spans, levels)
 
 
-def cell_mass(s: Sketch, edges: FloatArray) -> FloatArray:
+def cell_mass(s: Dist, edges: FloatArray) -> FloatArray:
     """Values of ``s`` in each cell between ``edges``: each centroid's weight at its mean.
 
     Why not differences of the CDF: between two centroids far apart (the gap between a
@@ -89,7 +90,11 @@ def cell_mass(s: Sketch, edges: FloatArray) -> FloatArray:
     over the gap, and a cell there would be shaded as if requests took that long. A
     centroid's values lie around its mean, so counting it there leaves a gap empty.
     Exact tail values are within the centroids already (the digest holds every value).
+    A binned window (a telemetry histogram) has no centroids: its values are spread
+    over each bucket as its own CDF interpolates them, which is all a bucket says.
     """
+    if isinstance(s, Binned):
+        return np.clip(np.diff(s.rank(edges)), 0.0, None)
     means, weights, _ = s.digest.centroids()
     cell = np.searchsorted(edges, means, side="right") - 1
     inside = (cell >= 0) & (cell < edges.size - 1)

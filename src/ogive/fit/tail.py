@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
-from ..sketch import Sketch, quantile_label
+from ..sketch import Distribution, quantile_label
 from .estimate import fit_family
 from .family import NEG_INF, DataSummary, Family, FloatArray, from_logsf
 from .grouped import GroupedData
@@ -85,7 +85,7 @@ GPD = Family(
 class SplicedTail:
     """The sketch below the threshold, the GPD above it (scaled to the tail share)."""
 
-    def __init__(self, sketch: Sketch, threshold: float, tail_prob: float, gpd: Any) -> None:
+    def __init__(self, sketch: Distribution, threshold: float, tail_prob: float, gpd: Any) -> None:
         self.sketch = sketch
         self.threshold = threshold
         self.tail_prob = tail_prob
@@ -109,7 +109,11 @@ class SplicedTail:
 
 
 def fit_tail(
-    sketch: Sketch, data: GroupedData, sample: WeightedSample, tail_prob: float, probs: tuple[float, ...]
+    sketch: Distribution,
+    data: GroupedData,
+    sample: WeightedSample,
+    tail_prob: float,
+    probs: tuple[float, ...],
 ) -> Candidate | NotFitted:
     """The GPD above the sketch's ``tail_prob`` quantile, scored on the tail alone.
 

@@ -22,7 +22,8 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch, SketchSet, timekeys
+from ..sketch import Binned, Sketch, SketchSet, merge_binned, timekeys
+from ..sketch.distribution import Dist
 from .changes import ALPHA, GRID_QS, Change, ChangeSearch, find_changes
 from .ladder import QuantileInterval, quantile_intervals
 from .moves import ChangeReport, Counts, Stretch, describe_changes
@@ -44,8 +45,8 @@ class Stream:
     """The windows of one stream (the whole, or one group), aligned to the timeline."""
 
     name: str
-    whole: Sketch
-    windows: list[Sketch | None]
+    whole: Dist
+    windows: list[Dist | None]
     """One per timeline window; None where the stream had no value."""
 
 
@@ -69,8 +70,8 @@ class Windows:
 
 def read_windows(sset: SketchSet) -> Windows:
     """The windows of a sketch set; ValueError (a sentence) when it holds none."""
-    keyed: dict[str | None, list[tuple[float, Sketch]]] = {}
-    wholes: dict[str, Sketch] = {}
+    keyed: dict[str | None, list[tuple[float, Dist]]] = {}
+    wholes: dict[str, Dist] = {}
     widths: set[float] = set()
     notes: list[str] = []
     for name, s in sset.sketches.items():
@@ -107,7 +108,7 @@ def read_windows(sset: SketchSet) -> Windows:
     streams: dict[str, Stream] = {}
     for group in sorted(keyed, key=lambda g: (g is not None, list(keyed).index(g))):
         name = group or timekeys.WHOLE
-        slots: list[Sketch | None] = [None] * count
+        slots: list[Dist | None] = [None] * count
         for t, s in keyed[group]:
             slots[round((t - first) / width)] = s
         whole = wholes.get(name) or _merged([s for s in slots if s is not None], unit)
@@ -115,7 +116,7 @@ def read_windows(sset: SketchSet) -> Windows:
     return Windows(width, first, count, unit, streams, tuple(notes))
 
 
-def _plain_windows(sset: SketchSet) -> tuple[dict[str | None, list[tuple[float, Sketch]]], set[float], str]:
+def _plain_windows(sset: SketchSet) -> tuple[dict[str | None, list[tuple[float, Dist]]], set[float], str]:
     """Windows named by their start alone (``scan``/``compare --window``): the width is
     the closest spacing of two starts, which is right unless no two windows are adjacent."""
     pairs = []
@@ -135,10 +136,16 @@ def _plain_windows(sset: SketchSet) -> tuple[dict[str | None, list[tuple[float, 
     return {None: pairs}, {width}, note
 
 
-def _merged(sketches: list[Sketch], unit: str) -> Sketch:
+def _merged(windows: list[Dist], unit: str) -> Dist:
     """The whole of a set saved without one: its windows merged, into a sketch with their
     own tail size (a larger buffer filled from each window's few would not hold the true
-    extremes of all of them)."""
+    extremes of all of them); binned windows (telemetry histograms) add their buckets."""
+    binned = [w for w in windows if isinstance(w, Binned)]
+    if binned and len(binned) == len(windows):
+        return merge_binned(binned)
+    if binned:
+        raise ValueError("the windows mix histogram buckets with sketches of raw values; time them apart.")
+    sketches = [w for w in windows if isinstance(w, Sketch)]
     out = Sketch(unit, tail_size=min((s.tail_size for s in sketches), default=1))
     for s in sketches:
         out.merge(s)
@@ -146,7 +153,7 @@ def _merged(sketches: list[Sketch], unit: str) -> Sketch:
 
 
 # ---------------------------------------------------------------- counts for the search
-def count_matrix(windows: list[Sketch | None], grid: FloatArray) -> tuple[FloatArray, FloatArray]:
+def count_matrix(windows: list[Dist | None], grid: FloatArray) -> tuple[FloatArray, FloatArray]:
     """(counts at or below each grid value, n) per window; zeros for empty windows."""
     counts = np.zeros((len(windows), grid.size))
     sizes = np.zeros(len(windows))
@@ -157,7 +164,7 @@ def count_matrix(windows: list[Sketch | None], grid: FloatArray) -> tuple[FloatA
     return counts, sizes
 
 
-def grid_of(whole: Sketch) -> FloatArray:
+def grid_of(whole: Dist) -> FloatArray:
     """Distinct values of the whole at :data:`GRID_QS` (repeated values give fewer)."""
     return np.unique(whole.quantile(np.array(GRID_QS))) if whole.count else np.empty(0)
 

@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from ..sketch import Sketch, SketchSet, SkipTally, timekeys
+from ..sketch import Binned, Sketch, SketchSet, SkipTally, timekeys
 from . import times
 from .decode import Batch
 from .options import ScanOptions
@@ -148,7 +148,9 @@ class Builder:
             span = self._spans.get(name)
             if span:
                 s.provenance.time_first, s.provenance.time_last = times.iso(span[0]), times.iso(span[1])
-        ordered = dict(sorted(self.sketches.items(), key=lambda kv: _sort_key(kv[0])))
+        ordered: dict[str, Sketch | Binned] = dict(
+            sorted(self.sketches.items(), key=lambda kv: _sort_key(kv[0]))
+        )
         return SketchSet(ordered, unassigned=self._unassigned())
 
     def _unassigned(self) -> dict[str, SkipTally]:

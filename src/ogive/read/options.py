@@ -31,8 +31,8 @@ class ScanOptions:
     """
 
     format: str | None = None
-    """'csv', 'tsv', 'ndjson', 'text', 'access', 'syslog', 'otlp', 'parquet', or None to
-    detect from the content (``sniff.detect``)."""
+    """'csv', 'tsv', 'ndjson', 'text', 'access', 'syslog', 'otlp', 'parquet', 'otlp-metrics',
+    'openmetrics', or None to detect from the content (``sniff.detect``, ``metrics.detect``)."""
     field: str | None = None
     """NDJSON: path of the value (``timing.total_ms``, ``labels.k\\.dot``; see ``ndjson``);
     text, syslog, access logs: the KEY of ``KEY=VALUE`` pairs or a field of the format;
@@ -48,7 +48,11 @@ class ScanOptions:
     input_unit: str | None = None
     """Unit of numbers that carry no suffix."""
     by: str | None = None
-    """Field/column whose distinct values each get a sketch."""
+    """Field/column whose distinct values each get a sketch (metrics: a point, resource or
+    scope attribute, or an OpenMetrics label)."""
+    metric: str | None = None
+    """OTLP metrics and OpenMetrics: the histogram metric to read (None: each one found
+    becomes a distribution of its own)."""
     max_groups: int = 1000
     time_field: str | None = None
     """Where each record's time is; None: the time the format carries, if any."""

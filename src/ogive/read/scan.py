@@ -24,7 +24,7 @@ import polars as pl
 
 from ..errors import OgiveError
 from ..sketch import SketchSet, SkipTally
-from . import direct, sources
+from . import direct, metrics, sources
 from .build import Builder, TimeOrder
 from .decode import Batch, Decoder
 from .feed import FIXED_TEXT, Feed, prefetch
@@ -53,6 +53,9 @@ def scan(
     """
     if not sources_:
         raise OgiveError("no source given; name a file, or '-' for standard input.")
+    fmt = metrics.detect(sources_, options)
+    if fmt is not None:  # histograms already aggregated: read into binned distributions
+        return metrics.scan_metrics(sources_, options, fmt, progress=progress, cancel=cancel)
     run = Pipeline(list(sources_), options)
     start = time.monotonic()
     sizes = [_file_size(name) for name in sources_]

@@ -17,7 +17,9 @@ from .delimited import MOST
 from .options import ScanOptions
 from .text import sample_lines
 
-FORMATS = ("csv", "tsv", "ndjson", "text", "access", "syslog", "otlp", "parquet")
+FORMATS = (
+    "csv", "tsv", "ndjson", "text", "access", "syslog", "otlp", "parquet", "otlp-metrics", "openmetrics",
+)  # fmt: skip
 """What ``--format`` accepts (``csv;`` and ``csv|`` name other CSV separators)."""
 
 
@@ -41,10 +43,15 @@ def detect(data: bytes, options: ScanOptions) -> tuple[str, str]:
         signal = otlp.looks_like(lines)
         if signal == "traces":
             return "otlp", ","
+        if signal == "metrics":  # reached only when the metrics reader was not asked (--format)
+            raise OgiveError(
+                "the records are OTLP metrics; they are read as histograms with --format otlp-metrics "
+                "(or without --format)."
+            )
         if signal is not None:
             raise OgiveError(
-                f"the records are OTLP {signal}; ogive reads OTLP trace exports (resourceSpans), "
-                f"not {signal}."
+                f"the records are OTLP {signal}; ogive reads OTLP traces (resourceSpans) and metrics "
+                f"(resourceMetrics), not {signal}."
             )
         return "ndjson", ","
     if (lines and lines[0].strip() in ("{", "[")) or (lines and lines[0].lstrip().startswith("[{")):

@@ -107,8 +107,9 @@ def qq_figure(
     marks: bool = True,
 ) -> Figure:
     pairs = data.pairs
+    corners = _box_values(data)
     kind = _axis_kind(log, pairs.reference, pairs.subject)
-    scale = make_scale(kind, np.concatenate((pairs.reference, pairs.subject)))
+    scale = make_scale(kind, np.concatenate((pairs.reference, pairs.subject, corners)))
     ref, sub = _on_axis(scale, pairs.reference), _on_axis(scale, pairs.subject)
     fmt = _fmt(pairs.unit, ascii_only)
     fig = Figure(
@@ -128,6 +129,8 @@ def qq_figure(
         fig.line(band, ref, _on_axis(scale, pairs.band_low))
         fig.line(band, ref, _on_axis(scale, pairs.band_high))
         fig.legend.append(_band_legend(pairs.band_label, fig))
+    if data.boxes:
+        _draw_boxes(fig, scale, data)
     # Same scale on both axes: the y = x line runs corner to corner.
     fig.line_dots(_braille("reference", "."), np.array([0.0, W - 1.0]), np.array([H - 1.0, 0.0]))
     fig.line(_marker("subject", SUBJECT), ref, sub)
@@ -141,6 +144,31 @@ def qq_figure(
             mx, my = _on_axis(scale, np.array([m.reference, m.subject]))
             fig.mark(m.label, float(mx), float(my), fig.glyph(*MARK), label=m.label)
     return fig.finish()
+
+
+BOX = ("▫", "#")
+"""Bucket boxes are braille outlines (Unicode) or ``#`` (ASCII); the legend glyph names them."""
+
+
+def _box_values(data: QQData) -> FloatArray:
+    """The finite box corners, so the axes hold every box the buckets give."""
+    v = np.array([[b.x_low, b.x_high, b.y_low, b.y_high] for b in data.boxes]).ravel()
+    return v[np.isfinite(v) & (v > 0)] if v.size else np.empty(0)  # a 0 end sits at a log axis's floor
+
+
+def _draw_boxes(fig: Figure, scale: Scale, data: QQData) -> None:
+    """Each bucket box as a closed outline; an open side runs to the edge of the plot."""
+    lo, hi = scale.lo, scale.hi
+    xs: list[float] = []
+    ys: list[float] = []
+    for b in data.boxes:
+        x0, x1, y0, y1 = (float(np.clip(v, lo, hi)) for v in (b.x_low, b.x_high, b.y_low, b.y_high))
+        if scale.kind == "log":
+            x0, y0 = max(x0, lo), max(y0, lo)
+        xs += [x0, x1, x1, x0, x0, np.nan]
+        ys += [y0, y0, y1, y1, y0, np.nan]
+    fig.line(_braille("bucket", BOX[1]), np.array(xs), np.array(ys))
+    fig.legend.append(LegendItem(fig.glyph(*BOX), data.boxes_label or "buckets", "bucket"))
 
 
 def qq_plot(

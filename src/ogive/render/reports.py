@@ -200,7 +200,13 @@ def _sides(
     ]
 
 
-STATUS_WORD = {"exceeded": "EXCEEDED", "holds": "HOLDS", "unclear": "UNCLEAR", "too few values": "TOO FEW"}
+STATUS_WORD = {
+    "exceeded": "EXCEEDED",
+    "holds": "HOLDS",
+    "unclear": "UNCLEAR",
+    "too few values": "TOO FEW",
+    "buckets too coarse": "COARSE",
+}
 """How each limit's status is written at the start of its line."""
 
 

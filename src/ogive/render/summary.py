@@ -15,7 +15,7 @@ from typing import Any
 import numpy as np
 
 from ..numbers import quantity
-from ..sketch import Sketch, SketchSet, quantile_label
+from ..sketch import Binned, Sketch, SketchSet, is_binned, quantile_label
 from .tables import table, text_lines
 
 LADDER = (0.5, 0.9, 0.99, 0.999, 0.9999)
@@ -53,6 +53,13 @@ class SketchSummary:
     time_last: str | None
     partial: str | None
     compression: float
+    bounds: tuple[tuple[float, float], ...] = ()
+    """Binned distributions: per quantile (same order), the range sure to hold it; () for a sketch."""
+    extreme_bounds: tuple[tuple[float, float], tuple[float, float]] | None = None
+    """Binned: the ranges sure to hold the min and the max (one value each when the export gave it)."""
+    interpolation: str = ""
+    """Binned: how estimates are read inside a bucket (linear, log-linear)."""
+    layouts: int = 0
 
     @property
     def skipped_total(self) -> int:
@@ -87,6 +94,19 @@ class SketchSummary:
                 "compression": self.compression,
             }
         )
+        if self.extreme_bounds is not None:
+            (mn_lo, mn_hi), (mx_lo, mx_hi) = self.extreme_bounds
+            out["kind"] = "binned"
+            out["interpolation"] = self.interpolation
+            out["layouts"] = self.layouts
+            out["bounds"] = {
+                "min": [_json_number(mn_lo), _json_number(mn_hi)],
+                **{
+                    quantile_label(q): [_json_number(lo), _json_number(hi)]
+                    for (q, _), (lo, hi) in zip(self.quantiles, self.bounds, strict=True)
+                },
+                "max": [_json_number(mx_lo), _json_number(mx_hi)],
+            }
         return out
 
 
@@ -105,9 +125,23 @@ class SetSummary:
         }
 
 
-def summarise_sketch(name: str, s: Sketch, qs: Sequence[float] = LADDER) -> SketchSummary:
+def _binned_fields(b: Binned, qs: Sequence[float]) -> dict[str, Any]:
+    if not b.count:
+        return {}
+    lo, hi = b.quantile_bounds(np.asarray(qs, dtype=np.float64))
+    ends_lo, ends_hi = b.order_statistic_bounds(np.array([0.0, b.count - 1.0]))
+    return {
+        "bounds": tuple((float(x), float(y)) for x, y in zip(lo, hi, strict=True)),
+        "extreme_bounds": ((float(ends_lo[0]), float(ends_hi[0])), (float(ends_lo[1]), float(ends_hi[1]))),
+        "interpolation": b.interpolation,
+        "layouts": len(b.parts),
+    }
+
+
+def summarise_sketch(name: str, s: Sketch | Binned, qs: Sequence[float] = LADDER) -> SketchSummary:
     p = s.provenance
     values = s.quantile(np.asarray(qs, dtype=np.float64)) if s.count else np.full(len(qs), np.nan)
+    extra = _binned_fields(s, qs) if is_binned(s) else {}
     return SketchSummary(
         name=name,
         unit=s.unit,
@@ -131,7 +165,8 @@ def summarise_sketch(name: str, s: Sketch, qs: Sequence[float] = LADDER) -> Sket
         time_first=p.time_first,
         time_last=p.time_last,
         partial=p.partial,
-        compression=s.compression,
+        compression=s.compression if isinstance(s, Sketch) else 0.0,
+        **extra,
     )
 
 
@@ -206,14 +241,15 @@ def summary_lines(summary: SetSummary) -> list[str]:
     header = ["sketch", "n", "skipped", "min", *(quantile_label(q) for q, _ in _first_ladder(summary)), "max"]
     rows = []
     for s in summary.sketches:
+        ends = s.extreme_bounds or ((math.nan, math.nan), (math.nan, math.nan))
         rows.append(
             [
                 _short(s.name),
                 f"{s.n:,}",
                 f"{s.skipped_total:,}",
-                quantity(s.minimum, s.unit),
-                *(quantity(v, s.unit) for _, v in s.quantiles),
-                quantity(s.maximum, s.unit),
+                bounded(s.minimum, ends[0], s.unit),
+                *(bounded(v, b, s.unit) for (_, v), b in zip(s.quantiles, _bounds_of(s), strict=True)),
+                bounded(s.maximum, ends[1], s.unit),
             ]
         )
     if out:
@@ -224,6 +260,24 @@ def summary_lines(summary: SetSummary) -> list[str]:
     for w in summary.warnings:
         out.append(f"warning: {w}")
     return out
+
+
+def _bounds_of(s: SketchSummary) -> tuple[tuple[float, float], ...]:
+    return s.bounds or tuple((math.nan, math.nan) for _ in s.quantiles)
+
+
+def bounded(value: float, bound: tuple[float, float], unit: str) -> str:
+    """A value, and for a binned distribution the range sure to hold it: ``38.2 ms [25ms, 50ms]``
+    (one value when the range is one point: an exact min or max)."""
+    lo, hi = bound
+    if math.isnan(lo) and math.isnan(hi):
+        return quantity(value, unit)
+    if lo == hi:
+        return quantity(lo, unit)
+    ends = (
+        quantity(x, unit, compact=True) if math.isfinite(x) else ("-∞" if x < 0 else "∞") for x in (lo, hi)
+    )
+    return f"{quantity(value, unit)} [{', '.join(ends)}]"
 
 
 def _first_ladder(summary: SetSummary) -> tuple[tuple[float, float], ...]:
@@ -282,6 +336,15 @@ def _notes(summary: SetSummary) -> list[str]:
             notes.append(f"{tag}no usable values at all")
     if any(s.n for s in summary.sketches) and all(s.exact for s in summary.sketches if s.n):
         notes.append("every value is held exactly: these quantiles are exact, not estimated")
+    binned = [s for s in summary.sketches if s.extreme_bounds is not None]
+    if binned:
+        how = sorted({s.interpolation for s in binned})
+        notes.append(
+            "binned (telemetry histograms): each value is an estimate read "
+            f"{' or '.join(how)}ly inside its bucket, and [low, high] is the range the true quantile "
+            "of the raw values is sure to lie in (numpy.quantile's definition); a single value is exact."
+        )
+    return ["", *notes] if notes else []
     return ["", *notes] if notes else []
 
 
@@ -302,7 +365,8 @@ def quantile_lines(summary: SetSummary, columns: Sequence[float | str] | None = 
     def cell(s: SketchSummary, col: float | str) -> str:
         if col == MEAN:
             return quantity(s.mean, s.unit)
-        return quantity(dict(s.quantiles)[float(col)], s.unit)
+        i = [q for q, _ in s.quantiles].index(float(col))
+        return bounded(s.quantiles[i][1], _bounds_of(s)[i], s.unit)
 
     header = ["sketch", "n", *(MEAN if c == MEAN else _qlabel(float(c)) for c in cols)]
     rows = [[_short(s.name), f"{s.n:,}", *(cell(s, c) for c in cols)] for s in summary.sketches]

@@ -16,7 +16,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from ..numbers import MISSING, count, number, percent, quantity, signed
-from ..sketch import Sketch, quantile_label
+from ..sketch import Binned, Sketch, is_binned, quantile_label
 
 if TYPE_CHECKING:
     from rich.table import Table as RichTable
@@ -87,7 +87,7 @@ def interval(low: float, high: float, digits: int = 4) -> str:
 
 # ---------------------------------------------------------------- sketches
 def distribution_table(
-    rows: Sequence[tuple[str, str, Sketch]], *, first: str = "", compact: bool = False
+    rows: Sequence[tuple[str, str, Sketch | Binned]], *, first: str = "", compact: bool = False
 ) -> Table:
     """One row per sketch: a mark (role or state), name, n, p50, p99 and the rows it skipped.
 
@@ -95,13 +95,19 @@ def distribution_table(
     """
     out = []
     for mark, name, s in rows:
+        qs = np.array([0.5, 0.99])
         if s.count:
-            p50, p99 = (float(v) for v in s.quantile(np.array([0.5, 0.99])))
+            p50, p99 = (float(v) for v in s.quantile(qs))
         else:
             p50 = p99 = float("nan")
         unit = s.unit if s.count else ""  # no "– ms" for an empty row
-        cells = [mark, name, count(s.count) if compact else f"{s.count:,}", quantity(p50, unit, digits=4)]
-        cells.append(quantity(p99, unit, digits=4))
+        cells = [mark, name, count(s.count) if compact else f"{s.count:,}"]
+        if is_binned(s) and s.count:  # every quantile of a binned distribution shows its bucket
+            lo, hi = s.quantile_bounds(qs)
+            pairs = zip((p50, p99), lo, hi, strict=True)
+            cells += [bucketed(v, a, b, unit, compact=compact) for v, a, b in pairs]
+        else:
+            cells += [quantity(p50, unit, digits=4), quantity(p99, unit, digits=4)]
         if not compact:
             cells.append(quantity(s.max, unit, digits=4))
         skipped = s.provenance.skipped_total
@@ -117,6 +123,12 @@ def distribution_table(
         "bad" if compact else "bad rows",
     ]
     return table(header, out, range(2, len(header)))
+
+
+def bucketed(value: float, low: float, high: float, unit: str, *, compact: bool = False) -> str:
+    """A binned distribution's quantile with the range sure to hold it: ``233 ms [100ms, 250ms]``."""
+    ends = ", ".join(quantity(x, unit, compact=True) if math.isfinite(x) else number(x) for x in (low, high))
+    return f"{quantity(value, unit, digits=3 if compact else 4)} [{ends}]"
 
 
 # ---------------------------------------------------------------- comparison
@@ -140,13 +152,21 @@ def ladder_table(c: Comparison, *, narrow: bool = False) -> Table:
         return table(
             ("q", "R", "S", "change", f"S−R, {c.confidence:.0%} interval", "verdict"), rows, (1, 2, 3, 4)
         )
+    binned = [any(getattr(r, side) and getattr(r, side).bucket for r in c.ladder) for side in ("a", "b")]
+
+    def side(r: LadderRow, which: str) -> tuple[str, ...]:
+        iv = getattr(r, which)
+        value = number(getattr(r, f"{which}_value"))
+        cells: tuple[str, ...] = (value, interval(iv.low, iv.high) if iv else "")
+        if binned[which == "b"]:
+            cells += (interval(*iv.bucket) if iv and iv.bucket else "",)
+        return cells
+
     wide = [
         (
             r.label,
-            number(r.a_value),
-            interval(r.a.low, r.a.high) if r.a else "",
-            number(r.b_value),
-            interval(r.b.low, r.b.high) if r.b else "",
+            *side(r, "a"),
+            *side(r, "b"),
             signed(r.change),
             percent(r.relative_change, signed=True),
             r.verdict,
@@ -154,8 +174,12 @@ def ladder_table(c: Comparison, *, narrow: bool = False) -> Table:
         for r in c.ladder
     ]
     unit = f" ({c.unit})" if c.unit else ""
-    header = ("", a_lab + unit, "interval", b_lab + unit, "interval", "change", "relative", "verdict")
-    return table(header, wide, (1, 3, 5, 6))
+    cols_a = (a_lab + unit, "interval", *(("bucket",) if binned[0] else ()))
+    cols_b = (b_lab + unit, "interval", *(("bucket",) if binned[1] else ()))
+    header = ("", *cols_a, *cols_b, "change", "relative", "verdict")
+    nb = len(cols_b)
+    right = (1, len(cols_a) + 1, len(cols_a) + nb + 1, len(cols_a) + nb + 2)
+    return table(header, wide, right)
 
 
 def shift_table(sh: ShiftFunction) -> Table:

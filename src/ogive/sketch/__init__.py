@@ -1,16 +1,21 @@
-"""Quantile sketches: a vectorised merging t-digest with exact tails (numpy only, no I/O)."""
+"""Quantile sketches (a vectorised merging t-digest with exact tails) and binned
+distributions from telemetry histograms; numpy only, no I/O."""
 
 from __future__ import annotations
 
 from collections.abc import Sequence
 
+from .binned import Binned
 from .codec import SketchFormatError, dumps, from_tdigest_dict, loads
 from .digest import DEFAULT_COMPRESSION, TDigest
+from .distribution import Distribution, is_binned, is_distribution
 from .sketch import DEFAULT_TAIL, Provenance, Sketch, SketchSet, SkipTally, quantile_label
 
 __all__ = [
     "DEFAULT_COMPRESSION",
     "DEFAULT_TAIL",
+    "Binned",
+    "Distribution",
     "Provenance",
     "Sketch",
     "SketchFormatError",
@@ -19,6 +24,8 @@ __all__ = [
     "TDigest",
     "dumps",
     "from_tdigest_dict",
+    "is_binned",
+    "is_distribution",
     "loads",
     "quantile_label",
 ]
@@ -55,3 +62,16 @@ def merge_all(sketches: Sequence[Sketch]) -> Sketch:
 
 
 __all__ += ["merge", "merge_all"]
+
+
+def merge_binned(items: Sequence[Binned]) -> Binned:
+    """A new binned distribution holding all of them (same unit, checked by the caller): counts of
+    one bucket layout add; different layouts are kept as parts, never re-binned."""
+    if not items:
+        raise ValueError("nothing to merge: no distribution given.")
+    out = Binned(items[0].unit)
+    out.merge_many(items)
+    return out
+
+
+__all__ += ["merge_binned"]

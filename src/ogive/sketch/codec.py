@@ -3,11 +3,11 @@
 Bytes in, bytes out: the caller does the (atomic) file I/O. Loading parses JSON and
 checks every field's type and shape; it never evaluates or unpickles anything.
 
-Format 1, top level::
+Format 2 (the current one), top level::
 
     {
       "format": "ogive-sketch-set",
-      "version": 1,
+      "version": 2,
       "writer": "ogive 0.1.0",
       "sketches": {NAME: SKETCH, ...},
       "unassigned": {REASON: {"count": N, "examples": [...]}, ...},   (optional)
@@ -29,6 +29,13 @@ timestamp, partial).
 Older files of the same version have ``pure`` (0/1) instead of ``min``/``max`` and may
 have ``merge_slack``; they load, with each mixed centroid's range taken to reach its
 neighbours' means (``digest.neighbour_ranges``) and the slack no longer needed.
+Version 2 adds binned distributions (telemetry histograms, ``binned.py``): a SKETCH
+entry with ``"kind": "binned"`` holds ``unit``, ``count``, ``provenance`` as above and
+``parts``, each one bucket layout as its spec writes it (``binned_codec.py`` lists the
+fields). An entry without ``kind`` is a t-digest sketch exactly as in version 1, so a
+version-1 file loads unchanged; version 2 is always written (an older ogive refuses
+the file with "written by a newer ogive" instead of misreading a binned entry).
+
 The canonical JSON for the checksum is ``json.dumps(obj, sort_keys=True,
 separators=(",", ":"))`` of the document without its ``checksum`` key.
 """
@@ -43,11 +50,15 @@ from typing import Any
 import numpy as np
 
 from .. import __version__
+from .binned import KIND, Binned
+from .binned_codec import binned_from_dict, binned_to_dict
 from .digest import DEFAULT_COMPRESSION
-from .sketch import Provenance, Sketch, SketchSet, SkipTally
+from .fields import array_field, int_field, provenance_from_dict, provenance_to_dict, tallies_to_dict
+from .sketch import Sketch, SketchSet, SkipTally
 
 FORMAT = "ogive-sketch-set"
-VERSION = 1
+VERSION = 2
+"""Written in every file; files of versions 1 and 2 are read."""
 
 
 class SketchFormatError(ValueError):
@@ -55,6 +66,13 @@ class SketchFormatError(ValueError):
 
 
 # ---------------------------------------------------------------------- writing
+def entry_to_dict(s: Sketch | Binned) -> dict[str, Any]:
+    """One sketch set entry: a t-digest sketch, or a binned distribution (version 2)."""
+    if isinstance(s, Binned):
+        return binned_to_dict(s)
+    return sketch_to_dict(s)
+
+
 def sketch_to_dict(s: Sketch) -> dict[str, Any]:
     # The digest keeps its numbers rounded as the file holds them (rounding.py), so
     # they are written as they are and read back identical.
@@ -80,21 +98,8 @@ def sketch_to_dict(s: Sketch) -> dict[str, Any]:
         },
         "low": _floats(s.low),
         "high": _floats(s.high),
-        "provenance": {
-            "sources": list(p.sources),
-            "field": p.field,
-            "lines_read": p.lines_read,
-            "rows_read": p.rows_read,
-            "skipped": _tallies(p.skipped),
-            "time_first": p.time_first,
-            "time_last": p.time_last,
-            "partial": p.partial,
-        },
+        "provenance": provenance_to_dict(p),
     }
-
-
-def _tallies(tallies: dict[str, SkipTally]) -> dict[str, Any]:
-    return {r: {"count": t.count, "examples": list(t.examples)} for r, t in tallies.items()}
 
 
 def _floats(a: np.ndarray) -> list[float | int]:
@@ -107,10 +112,10 @@ def dumps(sketches: SketchSet) -> bytes:
         "format": FORMAT,
         "version": VERSION,
         "writer": f"ogive {__version__}",
-        "sketches": {name: sketch_to_dict(s) for name, s in sketches.sketches.items()},
+        "sketches": {name: entry_to_dict(s) for name, s in sketches.sketches.items()},
     }
     if sketches.unassigned:
-        doc["unassigned"] = _tallies(sketches.unassigned)
+        doc["unassigned"] = tallies_to_dict(sketches.unassigned)
     doc["checksum"] = "sha256:" + hashlib.sha256(_canonical(doc)).hexdigest()
     return (_pretty(doc, 0) + "\n").encode()
 
@@ -162,7 +167,7 @@ def loads(data: bytes) -> SketchSet:
     out = SketchSet()
     for name, body in raw.items():
         try:
-            out.sketches[name] = sketch_from_dict(body)
+            out.sketches[name] = entry_from_dict(body, version)
         except KeyError as exc:
             raise SketchFormatError(
                 f"sketch {name!r} in the file is malformed: it lacks the field {exc}."
@@ -182,30 +187,16 @@ def _read_tallies(body: Any) -> dict[str, SkipTally]:
     }
 
 
-def _array(body: Any, name: str) -> np.ndarray:
-    value = body[name]
-    if not isinstance(value, list):
-        raise ValueError(f"'{name}' must be an array of numbers")
-    # One numpy pass instead of a Python isinstance per element (files hold ~10^4
-    # numbers per sketch, sets hold hundreds of sketches): a list of JSON numbers
-    # becomes an int or float array; strings, booleans, nulls or nesting do not.
-    try:
-        raw = np.array(value)
-    except ValueError:
-        raise ValueError(f"'{name}' must be a flat array of numbers") from None
-    if raw.ndim != 1 or (raw.size and raw.dtype.kind not in "iuf"):
-        raise ValueError(f"'{name}' must be an array of numbers")
-    arr = raw.astype(np.float64)
-    if not np.isfinite(arr).all():
-        raise ValueError(f"'{name}' holds a non-finite number")
-    return arr
-
-
-def _int(body: dict[str, Any], name: str) -> int:
-    value = body[name]
-    if not isinstance(value, int) or isinstance(value, bool) or value < 0:
-        raise ValueError(f"'{name}' must be a non-negative integer")
-    return value
+def entry_from_dict(body: Any, version: int = VERSION) -> Sketch | Binned:
+    """One entry of the ``sketches`` object: a binned distribution (version 2) or a sketch."""
+    kind = body.get("kind", "tdigest") if isinstance(body, dict) else None
+    if kind == KIND:
+        if version < 2:
+            raise ValueError("a binned distribution in a version-1 file (version 1 has none)")
+        return binned_from_dict(body)
+    if kind != "tdigest":
+        raise ValueError(f"unknown kind {kind!r} (this ogive reads 'tdigest' and 'binned')")
+    return sketch_from_dict(body)
 
 
 def sketch_from_dict(body: Any) -> Sketch:
@@ -214,7 +205,7 @@ def sketch_from_dict(body: Any) -> Sketch:
     s = Sketch(
         str(body["unit"]),
         compression=float(body["compression"]),
-        tail_size=_int(body, "tail_size"),
+        tail_size=int_field(body, "tail_size"),
         scale=str(body["scale"]),
     )
     cents = body["centroids"]
@@ -222,9 +213,9 @@ def sketch_from_dict(body: Any) -> Sketch:
         raise ValueError("'centroids' must be an object of arrays")
     if not isinstance(body["provenance"], dict):
         raise ValueError("'provenance' must be an object")
-    means, weights = _array(cents, "mean"), _array(cents, "weight")
+    means, weights = array_field(cents, "mean"), array_field(cents, "weight")
     if "min" in cents or "pure" not in cents:
-        lows, highs = _array(cents, "min"), _array(cents, "max")
+        lows, highs = array_field(cents, "min"), array_field(cents, "max")
         if not (means.size == weights.size == lows.size == highs.size):
             raise ValueError("centroid arrays differ in length")
         if np.any(lows > highs):
@@ -234,39 +225,26 @@ def sketch_from_dict(body: Any) -> Sketch:
         # range to it keeps the range a bound.
         ranges: tuple[np.ndarray, np.ndarray] | None = (np.minimum(lows, means), np.maximum(highs, means))
     else:  # files written before centroids kept their ranges
-        pure = _array(cents, "pure").astype(bool)
+        pure = array_field(cents, "pure").astype(bool)
         if not (means.size == weights.size == pure.size):
             raise ValueError("centroid arrays differ in length")
         ranges = None
     if np.any(np.diff(means) < 0) or np.any(weights <= 0):
         raise ValueError("centroids must be sorted with positive weights")
-    s.count = _int(body, "count")
+    s.count = int_field(body, "count")
     if not math.isclose(weights.sum(), s.count, rel_tol=1e-9, abs_tol=0.5):
         raise ValueError("centroid weights do not add up to 'count'")
     s.digest.add_centroids(means, weights, pure, ranges)
-    s.low, s.high = _array(body, "low"), _array(body, "high")
+    s.low, s.high = array_field(body, "low"), array_field(body, "high")
     if s.low.size > s.tail_size or s.high.size > s.tail_size or s.low.size > s.count:
         raise ValueError("the exact tails are longer than the sketch allows")
     s.total = float(body["sum"])
     for name in ("nan_count", "inf_count", "negative_count", "zero_count"):
-        setattr(s, name, _int(body, name))
+        setattr(s, name, int_field(body, name))
     slack = body.get("merge_slack", 0.0)  # older files: a merge allowance the ranges replace
     if not isinstance(slack, (int, float)) or isinstance(slack, bool) or not 0 <= slack < math.inf:
         raise ValueError("'merge_slack' must be a non-negative number")
-    p = body["provenance"]
-    s.provenance = Provenance(
-        sources=[str(x) for x in p["sources"]],
-        field=str(p["field"]),
-        lines_read=_int(p, "lines_read"),
-        rows_read=_int(p, "rows_read"),
-        skipped={
-            str(r): SkipTally(_int(t, "count"), [str(x) for x in t["examples"]])
-            for r, t in p["skipped"].items()
-        },
-        time_first=None if p["time_first"] is None else str(p["time_first"]),
-        time_last=None if p["time_last"] is None else str(p["time_last"]),
-        partial=None if p["partial"] is None else str(p["partial"]),
-    )
+    s.provenance = provenance_from_dict(body["provenance"])
     return s
 
 

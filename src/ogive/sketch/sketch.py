@@ -14,12 +14,18 @@ import dataclasses
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .digest import DEFAULT_COMPRESSION, TDigest
+from .provenance import EXAMPLES_KEPT as EXAMPLES_KEPT
+from .provenance import Provenance, SkipTally, quantile_label
+from .rank_error import quantile_rank_error
+
+if TYPE_CHECKING:
+    from .binned import Binned
 
 FloatArray = NDArray[np.float64]
 
@@ -28,47 +34,6 @@ DEFAULT_SCALE = "k1-ladder"
 
 DEFAULT_TAIL = 512
 MAX_TAIL = 1 << 20
-EXAMPLES_KEPT = 5
-"""How many example locations a skip reason keeps (the first ones seen)."""
-
-
-@dataclass
-class SkipTally:
-    """Rows passed over for one reason: how many, and where the first ones were."""
-
-    count: int = 0
-    examples: list[str] = dataclasses.field(default_factory=list)
-
-    def add(self, count: int, examples: list[str]) -> None:
-        self.count += count
-        room = EXAMPLES_KEPT - len(self.examples)
-        if room > 0:
-            self.examples.extend(examples[:room])
-
-
-@dataclass
-class Provenance:
-    """Where the values came from; merged sketches keep every source they saw."""
-
-    sources: list[str] = dataclasses.field(default_factory=list)
-    field: str = ""
-    lines_read: int = 0
-    rows_read: int = 0
-    skipped: dict[str, SkipTally] = dataclasses.field(default_factory=dict)
-    time_first: str | None = None
-    time_last: str | None = None
-    partial: str | None = None
-    """Why the scan stopped early (interrupted, corrupt input), or None when complete."""
-
-    def skip(self, reason: str, count: int, examples: list[str]) -> None:
-        if count:
-            self.skipped.setdefault(reason, SkipTally()).add(count, examples)
-
-    @property
-    def skipped_total(self) -> int:
-        return sum(t.count for t in self.skipped.values())
-
-
 class Sketch:
     """A mergeable summary of one numeric field in one unit.
 
@@ -191,18 +156,7 @@ class Sketch:
         self.zero_count += other.zero_count
         self.tail_size = max(self.tail_size, other.tail_size)
         self._fold_tails(other.low, other.high)
-        a, b = self.provenance, other.provenance
-        a.sources.extend(s for s in b.sources if s not in a.sources)
-        a.field = a.field or b.field
-        a.lines_read += b.lines_read
-        a.rows_read += b.rows_read
-        for reason, tally in b.skipped.items():
-            a.skip(reason, tally.count, tally.examples)
-        firsts = [t for t in (a.time_first, b.time_first) if t]
-        lasts = [t for t in (a.time_last, b.time_last) if t]
-        a.time_first = min(firsts) if firsts else None
-        a.time_last = max(lasts) if lasts else None
-        a.partial = "; ".join(p for p in (a.partial, b.partial) if p) or None
+        self.provenance.absorb(other.provenance)
 
     # ------------------------------------------------------------------ queries
     @property
@@ -376,16 +330,7 @@ class Sketch:
         rank interval [#(x < v) - 1, #(x <= v)]; ``count_bounds`` bounds both ends, so
         the bound holds for any centroid layout (``tests/test_sketch_bound.py``).
         """
-        qa = np.asarray(q, dtype=np.float64)
-        n = self.count
-        if self.exact or n == 0:
-            return np.zeros(qa.shape)
-        pos = qa * (n - 1)
-        v = self.value_at(pos)
-        _, below_most = self.count_bounds(np.nextafter(v, -np.inf))
-        at_least, _ = self.count_bounds(v)
-        err = np.maximum(0.0, np.maximum(below_most - 1.0 - pos, pos - at_least))
-        return np.asarray(err / n, dtype=np.float64)
+        return quantile_rank_error(self, q)
 
     def rank_error_bound(self) -> float:
         """Largest possible |error| / n of a count read from ``rank`` (or ``cdf``).
@@ -407,38 +352,44 @@ class Sketch:
         r = self.rank(x)
         return float(np.max(np.maximum(r - at_least, at_most - r)) / self.count)
 
+    def cdf_knots(self) -> FloatArray:
+        """Every x where the sketch's CDF can bend: digest knots and the exact buffers."""
+        if self.count == 0:
+            return np.empty(0)
+        _, knot_vals = self.digest.knots()
+        return np.concatenate((knot_vals, self.low, self.high))
+
+    def bound_steps(self) -> FloatArray:
+        """Every x where ``count_bounds`` can step: centroid ends, buffered values and their neighbours."""
+        if self.count == 0:
+            return np.empty(0)
+        lo, hi = self.digest.ranges()
+        return np.concatenate(
+            (self.cdf_knots(), lo, hi, np.nextafter(hi, -np.inf), np.nextafter(self.low, -np.inf))
+        )
+
     def summary(self) -> dict[str, Any]:
         """The fields every view shows, as plain numbers."""
         qs = (0.5, 0.9, 0.99, 0.999, 0.9999)
         vals = self.quantile(np.array(qs)) if self.count else [float("nan")] * len(qs)
         out: dict[str, Any] = {"n": self.count, "unit": self.unit, "min": self.min}
-        out.update({_label(q): float(v) for q, v in zip(qs, vals, strict=True)})
+        out.update({quantile_label(q): float(v) for q, v in zip(qs, vals, strict=True)})
         out.update({"max": self.max, "mean": self.mean})
         return out
 
 
-def _label(q: float) -> str:
-    """0.999 -> 'p99.9'."""
-    s = f"{q * 100:.6f}".rstrip("0").rstrip(".")
-    return f"p{s}"
-
-
-def quantile_label(q: float) -> str:
-    """The trade's name for a quantile: 0.5 -> 'p50', 0.9999 -> 'p99.99'."""
-    return _label(q)
-
-
 @dataclass
 class SketchSet:
-    """Named sketches that belong together (groups of ``--by``, before/after)."""
+    """Named sketches that belong together (groups of ``--by``, before/after); an entry may
+    also be a binned distribution read from telemetry histograms (``binned.py``)."""
 
-    sketches: dict[str, Sketch] = dataclasses.field(default_factory=dict)
+    sketches: dict[str, Sketch | Binned] = dataclasses.field(default_factory=dict)
     unassigned: dict[str, SkipTally] = dataclasses.field(default_factory=dict)
     """Rows read but given to no sketch, by reason: a missing or unreadable time when the
     sketches are cut by time (``before``/``after``, windows), a line too long to read a
     group from. Counted here so that every row read is in a sketch or counted."""
 
-    def __getitem__(self, name: str) -> Sketch:
+    def __getitem__(self, name: str) -> Sketch | Binned:
         return self.sketches[name]
 
     def names(self) -> list[str]:

@@ -8,6 +8,7 @@ import copy
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
+    from .binned import Binned
     from .sketch import Sketch
 
 import re
@@ -51,7 +52,7 @@ def duration_factor(from_unit: str, to_unit: str) -> float | None:
     return None
 
 
-def in_unit(sketch: Sketch, unit: str) -> Sketch:
+def in_unit(sketch: Sketch | Binned, unit: str) -> Sketch | Binned:
     """The sketch with every value expressed in ``unit`` (a duration unit, as the sketch's is).
 
     Multiplying by a positive factor keeps every value's rank, so the centroids keep
@@ -68,6 +69,10 @@ def in_unit(sketch: Sketch, unit: str) -> Sketch:
         )
     if factor == 1.0:
         return sketch
+    from .binned import Binned
+
+    if isinstance(sketch, Binned):  # edges, extremes and sum scale; counts do not move
+        return sketch.scaled(factor, unit)
     out = copy.deepcopy(sketch)
     out.unit = unit
     out.total = sketch.total * factor

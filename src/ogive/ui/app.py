@@ -26,7 +26,7 @@ from textual.widgets import Footer, Static
 from ..errors import OgiveError
 from ..read.follow import FollowProgress, recent_name
 from ..read.options import ScanOptions, ScanProgress
-from ..sketch import Sketch, SketchSet
+from ..sketch import Binned, Sketch, SketchSet
 from ..store import save_sketches
 from . import report, workers
 from .ask_path import AskPath
@@ -54,7 +54,7 @@ PANES = ("picture", "models", "ladder", "timeline")
 
 
 class ScanTick(Message):
-    def __init__(self, job: ScanJob, progress: ScanProgress, sketches: dict[str, Sketch]) -> None:
+    def __init__(self, job: ScanJob, progress: ScanProgress, sketches: dict[str, Sketch | Binned]) -> None:
         super().__init__()
         self.job, self.progress, self.sketches = job, progress, sketches
 
@@ -202,7 +202,7 @@ class OgiveApp(App[int]):
         def cancelled() -> bool:
             return job.cancel.is_set() or worker.is_cancelled
 
-        def tick(p: ScanProgress, sketches: dict[str, Sketch]) -> None:
+        def tick(p: ScanProgress, sketches: dict[str, Sketch | Binned]) -> None:
             self.post_message(ScanTick(job, p, sketches))
 
         end = workers.run_scan(job, tick=tick, cancelled=cancelled, clock=self.clock)
@@ -244,7 +244,7 @@ class OgiveApp(App[int]):
         self.request_analysis()
         self.refresh_all()
 
-    def _take(self, job: ScanJob, sketches: dict[str, Sketch], *, state: str, note: str) -> None:
+    def _take(self, job: ScanJob, sketches: dict[str, Sketch | Binned], *, state: str, note: str) -> None:
         window = recent_name(job.recent) if job.recent is not None else None
         rows = len(self.ws.dists)
         kept = without_windows(sketches)
@@ -293,7 +293,7 @@ class OgiveApp(App[int]):
         self.fit_worker(subj.sketch, self.ws.generation, subj.name)
 
     @work(thread=True, exclusive=True, group="fit")
-    def fit_worker(self, sketch: Sketch, generation: int, name: str) -> None:
+    def fit_worker(self, sketch: Sketch | Binned, generation: int, name: str) -> None:
         """``fit_sketch`` off the screen's thread (scipy takes seconds to load)."""
         result, note = workers.run_fit(sketch, self.families, name)
         self.call_from_thread(self._fit_done, result, note, generation)
@@ -313,7 +313,9 @@ class OgiveApp(App[int]):
         self.compare_worker(ref.sketch, subj.sketch, key)
 
     @work(thread=True, exclusive=True, group="compare")
-    def compare_worker(self, reference: Sketch, subject: Sketch, key: tuple[str, str]) -> None:
+    def compare_worker(
+        self, reference: Sketch | Binned, subject: Sketch | Binned, key: tuple[str, str]
+    ) -> None:
         result, note = workers.run_compare(reference, subject, (key[1], key[0]))
         self.call_from_thread(self._compare_done, result, note, key)
 

@@ -15,7 +15,8 @@ from pathlib import Path
 
 from ..errors import OgiveError
 from ..read.options import ScanOptions
-from ..sketch import Sketch, timekeys
+from ..sketch import timekeys
+from ..sketch.distribution import Dist
 from ..store import load_ref, sketch_ref, source_stem
 from .state import Distribution, ScanJob
 
@@ -27,11 +28,11 @@ class Opened:
     rows: list[Distribution] = field(default_factory=list)
     job: ScanJob | None = None
     message: str = ""
-    windows: dict[str, Sketch] = field(default_factory=dict)
+    windows: dict[str, Dist] = field(default_factory=dict)
     """A saved timeline's sketches, windows and wholes, for the Timeline pane (else empty)."""
 
 
-def without_windows(sketches: dict[str, Sketch]) -> dict[str, Sketch]:
+def without_windows(sketches: dict[str, Dist]) -> dict[str, Dist]:
     """The sketches that are not a timeline's windows (those become rows)."""
     return {n: s for n, s in sketches.items() if timekeys.parse_key(n) is None}
 

@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Literal
 
 from ..read.options import ScanOptions
-from ..sketch import Sketch
+from ..sketch import Binned, Sketch
 
 if TYPE_CHECKING:
     from ..fit.models import Candidate
@@ -27,7 +27,7 @@ class Distribution:
     """One row of the distributions list: a sketch and where it came from."""
 
     name: str
-    sketch: Sketch
+    sketch: Sketch | Binned
     origin: str
     """The file the sketch was read or scanned from."""
     state: str = "ready"

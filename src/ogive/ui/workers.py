@@ -16,7 +16,7 @@ from typing import TYPE_CHECKING
 
 from ..errors import OgiveError
 from ..read.options import ScanProgress
-from ..sketch import Sketch
+from ..sketch import Binned, Sketch
 from .state import ScanJob
 
 if TYPE_CHECKING:
@@ -35,8 +35,12 @@ WINDOWS_TICK_S = 5.0
 runs (a copy costs about 0.3 ms a window: a day of minutes, 0.4 s of the scan's thread)."""
 
 
-def snapshot(sketch: Sketch) -> Sketch:
+def snapshot(sketch: Sketch | Binned) -> Sketch | Binned:
     """An independent copy, so the screen and the fit never read a sketch a scan is still filling."""
+    if isinstance(sketch, Binned):
+        copy = Binned(sketch.unit, list(sketch.parts))  # parts are frozen: sharing them is safe
+        copy.provenance = sketch.provenance
+        return copy
     out = Sketch(
         sketch.unit, compression=sketch.compression, tail_size=sketch.tail_size, scale=sketch.digest.scale
     )
@@ -48,7 +52,7 @@ def snapshot(sketch: Sketch) -> Sketch:
 class ScanEnd:
     """How a scan or follow ended: its sketches, what to tell the user, and its last figures."""
 
-    sketches: dict[str, Sketch]
+    sketches: dict[str, Sketch | Binned]
     note: str
     failed: bool
     bytes_read: int = 0
@@ -56,7 +60,7 @@ class ScanEnd:
     rotations: int = 0
 
 
-Tick = Callable[[ScanProgress, dict[str, Sketch]], None]
+Tick = Callable[[ScanProgress, dict[str, Sketch | Binned]], None]
 
 
 def run_scan(
@@ -129,7 +133,9 @@ def run_scan(
     )
 
 
-def run_fit(sketch: Sketch, families: Sequence[str] | None, name: str) -> tuple[FitReport | None, str]:
+def run_fit(
+    sketch: Sketch | Binned, families: Sequence[str] | None, name: str
+) -> tuple[FitReport | None, str]:
     """``ogive fit``'s ``fit_sketch`` on a copy of the subject; a failure becomes a note."""
     from ..fit.models import fit_sketch
 
@@ -139,7 +145,9 @@ def run_fit(sketch: Sketch, families: Sequence[str] | None, name: str) -> tuple[
         return None, f"fitting {name} failed: {exc}"
 
 
-def run_compare(reference: Sketch, subject: Sketch, labels: tuple[str, str]) -> tuple[Comparison | None, str]:
+def run_compare(
+    reference: Sketch | Binned, subject: Sketch | Binned, labels: tuple[str, str]
+) -> tuple[Comparison | None, str]:
     """``ogive compare``'s ``compare_sketches``: the subject read against the reference (in the
     reference's unit when both are durations, as the CLI reads B in A's unit)."""
     from ..fit.compare import compare_sketches

@@ -23,7 +23,7 @@ import re
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
-from ..sketch import Sketch
+from ..sketch import Binned, Sketch
 from ..store import source_stem
 from .state import Distribution, ReferenceChoice, ScanJob
 
@@ -86,7 +86,7 @@ class Workspace:
     """Sources opened so far (orders the rows)."""
     timeline_source: str | None = None
     """The log (or saved timeline) the Timeline pane shows: the first one opened with windows."""
-    timeline_input: dict[str, Sketch] = field(default_factory=dict)
+    timeline_input: dict[str, Sketch | Binned] = field(default_factory=dict)
     """Its window sketches and wholes as they stand (copies, never the scan's own)."""
     timeline_live: bool = False
     """The source is being followed: the timeline is rebuilt as windows arrive."""
@@ -128,7 +128,7 @@ class Workspace:
             return None
         return subj.name, ref.name
 
-    def finished(self) -> tuple[dict[str, Sketch], list[str]]:
+    def finished(self) -> tuple[dict[str, Sketch | Binned], list[str]]:
         """Sketches that may be written now (followed ones as they stand), and the rows still scanning."""
         ready = {n: d.sketch for n, d in self.dists.items() if d.state != "scanning"}
         return ready, [n for n, d in self.dists.items() if d.state == "scanning"]
@@ -150,7 +150,7 @@ class Workspace:
         self.auto_roles()
 
     # ------------------------------------------------------------------ the timeline
-    def take_timeline_input(self, source: str, sketches: dict[str, Sketch], *, live: bool) -> bool:
+    def take_timeline_input(self, source: str, sketches: dict[str, Sketch | Binned], *, live: bool) -> bool:
         """Window sketches (and wholes) of a source; False when the pane shows another one."""
         if self.timeline_source not in (None, source):
             return False
@@ -168,7 +168,7 @@ class Workspace:
         self.add_rows([])
 
     def take_scan(
-        self, job: ScanJob, sketches: dict[str, Sketch], *, state: str, note: str, window: str | None
+        self, job: ScanJob, sketches: dict[str, Sketch | Binned], *, state: str, note: str, window: str | None
     ) -> None:
         """The sketches a scan or follow delivered, each in the row it has had since its first tick.
 
