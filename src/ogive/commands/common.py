@@ -44,7 +44,7 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         metavar="PATH",
         default=None,
         help="NDJSON: dotted path to the number, e.g. timing.total_ms (a dot inside a key: "
-        "labels.k\\.dot or labels[\"k.dot\"]); text and syslog: the KEY of KEY=VALUE pairs; "
+        'labels.k\\.dot or labels["k.dot"]); text and syslog: the KEY of KEY=VALUE pairs; '
         "access logs: latency, bytes, status; OTLP: duration or a span attribute",
     )
     g.add_argument(
