@@ -272,15 +272,9 @@ def _kind(kind: str | None, one_axis: bool, families: list[str]) -> str:
             raise OgiveError(f"--one-axis draws the detrended view; it cannot be --kind {kind}.")
         return "detrended"
     kind = kind or "qq"
-    if families and kind == "shift":
+    if families and kind == "shift":  # every other kind reads A against a model
         raise OgiveError("the shift function compares two distributions; give B instead of --model.")
-    if len(families) > 1 and kind not in LINEUP_KINDS:
-        raise OgiveError(f"a line-up of models draws {', '.join(LINEUP_KINDS)}; not --kind {kind}.")
     return kind
-
-
-LINEUP_KINDS = ("qq", "detrended", "pp", "cdf")
-"""Kinds a line-up draws (``fit.lineup.LINEUP_KINDS``; repeated here so --help needs no fit import)."""
 
 
 @dataclass(frozen=True)

@@ -7,9 +7,9 @@ each row of panels, the axis names and legend once at the top, and each panel ke
 only its title (rank, model, tail error, parameters) and its own tick marks.
 
 Layout: panels in one row when each gets at least :data:`PANEL_MIN_COLS` ×
-:data:`PANEL_MIN_ROWS` canvas cells, else the grid with the most columns that does;
-when not even one column of every panel fits, the lowest-ranked panels are left out
-and a last line names them. Like every plot here: exactly ``height`` lines of at most
+:data:`PANEL_MIN_ROWS` canvas cells, else the grid with the fewest rows that does (4
+panels: 2 × 2); when no grid gives every panel that room, the lowest-ranked panels are
+left out and a last line names them. Like every plot here: exactly ``height`` lines of at most
 ``width`` cells, and no statistics — the panels are drawn from
 :class:`ogive.fit.lineup.ModelLineup`, each by the same painter as its single plot.
 """
@@ -108,6 +108,8 @@ class LineupFigure:
         if left_out:
             names = ", ".join(f"{p.rank}. {p.label}" for p in left_out)
             text = f"+{len(left_out)} more, no room at {W}x{self.height}: {names}"
+            if len(text) > W:
+                text = text[: W - 1] + ("~" if a else "…")
             rows.append([(ch, "legend") for ch in text])
         out = plot_lines(rows, W)
         assert len(out) == self.height
@@ -118,8 +120,8 @@ class LineupFigure:
         lay, W = self.layout, self.width
         v_axis, v_tick, corner = ("|", "+", "+") if self.ascii_only else ("│", "┤", "└")
         out: list[list[Cell]] = []
-        titles = {i: _title(self.lineup.panels[i], lay.canvas_cols + 1, lay.title_rows, self.ascii_only,
-                            i == self.marked) for i in row}  # fmt: skip
+        room, a = lay.canvas_cols + 1, self.ascii_only
+        titles = {i: _title(self.lineup.panels[i], room, lay.title_rows, a, i == self.marked) for i in row}
         for t in range(lay.title_rows):
             out.append(_join(W, {lay.panel_left(i): titles[i][t] for i in row}))
         cells = {i: self.figures[i].plot_cells() for i in row}
@@ -273,16 +275,20 @@ def _layout(
     header_rows: int,
     ascii_only: bool,
 ) -> Layout | None:
-    """The grid with the most columns (a single row first) that gives every panel room."""
+    """The grid with the fewest rows (a single row first) that gives every panel room."""
     n = len(panels)
     footer = 1 if n < total else 0
-    for columns in range(n, 0, -1):
-        rows = math.ceil(n / columns)
+    # One row first; then, for each number of rows, the fewest columns that hold every
+    # panel (4 panels: 2 × 2, not 3 + 1), so panels are as wide as the rows allow.
+    for rows in range(1, n + 1):
+        columns = math.ceil(n / rows)
+        if rows > 1 and math.ceil(n / (rows - 1)) == columns:
+            continue  # the same grid as one row fewer
         per_row = (height - header_rows - footer) // rows
         title_rows = 3 if per_row - 5 >= 16 else 2
         canvas_rows = per_row - title_rows - 2
         if canvas_rows < PANEL_MIN_ROWS:
-            return None  # fewer columns only means more rows, each lower still
+            return None  # more rows are lower still
         ticks = [t for t in choose_ticks(axes.yscale, canvas_rows, axes.yfmt, horizontal=False) if t.major]
         ylabel_width = max([len(t.label) for t in ticks] + [1])
         canvas_cols = (width - ylabel_width - columns - (columns - 1) * GAP) // columns
