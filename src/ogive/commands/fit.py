@@ -92,7 +92,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--one-axis",
         action="store_true",
-        help="with --plot: the best K models' detrended deviations on one axis, told apart by glyph",
+        help="draw the best K models' detrended deviations on one axis, told apart by glyph "
+        "(implies --plot detrended)",
     )
     add_source_options(parser)
 
@@ -112,7 +113,7 @@ def run(args: argparse.Namespace) -> int:
         raise OgiveError(f"--bootstrap must be 0 or more, got {args.bootstrap}.")
     if args.top < 1:
         raise OgiveError(f"--top must be 1 or more, got {args.top}.")
-    if args.one_axis and args.plot not in (None, "detrended"):
+    if args.one_axis and args.plot in ("pp", "cdf"):  # bare --plot (qq) or none: the view is implied
         raise OgiveError(f"--one-axis draws the detrended view; it cannot be --plot {args.plot}.")
     plot = "detrended" if args.one_axis else args.plot
     try:
