@@ -73,6 +73,8 @@ class Figure:
     x_title: str = ""
     y_title: str = ""
     legend: list[LegendItem] = field(default_factory=list)
+    legend_in_order: bool = False
+    """Legend items keep their order across header lines (see :func:`header_cells`)."""
     header_rows: int = 0
     """Lines above the plot for axis names and legend; 0 picks 1 below 13 rows, else 2."""
     ylabel_width: int = 0
@@ -294,7 +296,9 @@ class Figure:
         x_label_cells, x_title_placed = self.x_label_cells(self.ylabel_width + 1, W, self.x_title)
         y_name = (("^ " if a else "↑ ") + self.y_title) if self.y_title else ""
         x_name = (("-> " if a else "→ ") + self.x_title) if self.x_title and not x_title_placed else ""
-        rows.extend(header_cells(y_name, x_name, self.legend, self.header_rows, W, a))
+        rows.extend(
+            header_cells(y_name, x_name, self.legend, self.header_rows, W, a, in_order=self.legend_in_order)
+        )
 
         ytick_rows = self.ytick_rows()
         for r in range(self.canvas.rows):
@@ -337,10 +341,18 @@ class Figure:
 
 
 def header_cells(
-    y_name: str, x_name: str, legend: list[LegendItem], rows: int, width: int, ascii_only: bool
+    y_name: str,
+    x_name: str,
+    legend: list[LegendItem],
+    rows: int,
+    width: int,
+    ascii_only: bool,
+    *,
+    in_order: bool = False,
 ) -> list[list[tuple[str, str]]]:
     """``rows`` header lines: the axis names first, then legend items, each on the first
-    line with room (a legend item with none is left out; an axis name never is)."""
+    line with room (a legend item with none is left out; an axis name never is).
+    ``in_order``: never on a line above the item before it (a legend read as a ranking)."""
     W, a = width, ascii_only
     if rows == 1 and y_name and x_name and len(y_name) + 2 + len(x_name) > W and W >= 42:
         # One header line and two long axis names: both shortened in the middle, so
@@ -357,15 +369,17 @@ def header_cells(
     for item in legend:
         tokens.append([(item.glyph, item.role), (" " + item.text, "legend")])
     head: list[list[tuple[str, str]]] = [[] for _ in range(rows)]
+    first = 0
     for n, tok in enumerate(tokens):
         tok_len = sum(len(t) for t, _ in tok)
-        for line in head:
+        for k, line in enumerate(head[first:], start=first):
             used = sum(len(t) for t, _ in line)
             gap = 2 if line else 0
             if used + gap + tok_len <= W:
                 if line:
                     line.append(("  ", ""))
                 line.extend(tok)
+                first = k if in_order else 0
                 break
             if not line and n < 2:
                 # An axis name longer than the whole width: shortened, never dropped.

@@ -188,7 +188,13 @@ def lineup_figure(
         need = len(
             [h for h in header_cells(*_axis_names(axes, ascii_only), legend, 3, width, ascii_only) if h]
         )
-        if need <= header_rows or header_rows == 2 or height < 20:
+        if need <= header_rows or header_rows == 2:
+            break
+        try:  # a second line, if every panel drawn keeps its room
+            wider = _fit(lineup, width, height, 2, log, x_axis, ascii_only)
+        except ValueError:
+            break
+        if wider[0].shown < layout.shown:
             break
         header_rows = 2
     mark = marked if marked is not None and 0 <= marked < layout.shown else None
@@ -294,10 +300,12 @@ def _layout(
         canvas_cols = (width - ylabel_width - columns - (columns - 1) * GAP) // columns
         if canvas_cols < PANEL_MIN_COLS:
             continue
+        # Titles that need fewer lines leave them to the plots (the y ticks were chosen
+        # for the smaller canvas; more rows only spread them).
         need = max(len(_wrap(p, canvas_cols + 1, 3, ascii_only, False)) for p in panels)
-        return Layout(
-            columns, rows, n, canvas_cols, canvas_rows, min(title_rows, need), ylabel_width, header_rows
-        )
+        titles = min(title_rows, need)
+        canvas_rows += title_rows - titles
+        return Layout(columns, rows, n, canvas_cols, canvas_rows, titles, ylabel_width, header_rows)
     return None
 
 
@@ -315,7 +323,9 @@ def _wrap(p: ModelPanel, width: int, rows: int, ascii_only: bool, marked: bool) 
             continue
         if len(lines) == rows:
             last = lines[-1]
-            lines[-1] = (last if len(last) + 2 <= width else last[: width - 2]) + " " + more
+            while len(last) + 2 > width and " " in last:  # whole parameters only, never "17."
+                last = last.rsplit(" ", 1)[0].rstrip()
+            lines[-1] = last[: width - 2] + " " + more
             break
         lines.append(tok if len(tok) <= width else tok[: width - 1] + more)
     return lines
@@ -393,7 +403,13 @@ def one_axis_figure(
     )
     fig = _one_axis(lineup, dets, axes, width, height, 0, ascii_only, marked)
     need = len(
-        [h for h in header_cells(*_axis_names(axes, ascii_only), fig.legend, 4, width, ascii_only) if h]
+        [
+            h
+            for h in header_cells(
+                *_axis_names(axes, ascii_only), fig.legend, 4, width, ascii_only, in_order=True
+            )
+            if h
+        ]
     )
     if need > fig.header_rows and height >= 20:  # every model named, rather than a taller plot
         fig = _one_axis(lineup, dets, axes, width, height, min(need, 3), ascii_only, marked)
@@ -421,6 +437,7 @@ def _one_axis(
         x_title=axes.x_title,
         y_title=axes.y_title,
         header_rows=header_rows,
+        legend_in_order=True,
     )
     first = dets[0]
     if first.band_low is not None and first.band_high is not None:

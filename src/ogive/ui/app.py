@@ -41,13 +41,18 @@ from .shelf import DistributionShelf
 from .sources import open_source
 from .state import ScanJob
 from .status_line import FeedStatus, headline
-from .workspace import AXES, KIND_NAMES, KINDS, Workspace
+from .workspace import AXES, KIND_NAMES, KINDS, LINEUPS, Workspace
 
 if TYPE_CHECKING:
     from ..fit.compare import Comparison
     from ..fit.models import FitReport
 
 PANES = ("picture", "models", "ladder")
+LINEUP_WORDS = {
+    "": "the subject against its reference",
+    "panels": "the best models side by side",
+    "one-axis": "the best models on one axis",
+}
 
 
 class ScanTick(Message):
@@ -74,6 +79,7 @@ class OgiveApp(App[int]):
     | v | Next picture: Q-Q → detrended → P-P → CDF → shift. |
     | V | Previous picture. |
     | l | Value axes: auto → log → linear. |
+    | m | Picture: the best models side by side → on one axis → back (highlighted model marked). |
     | 1 | (Distributions) make the highlighted row the subject. |
     | 2 | (Distributions) make it the reference; (Models) make the highlighted model the reference. |
     | tab | Move between the lists. |
@@ -99,6 +105,7 @@ class OgiveApp(App[int]):
         Binding("v", "cycle_kind(1)", "View"),
         Binding("V", "cycle_kind(-1)", "Prev view", show=False),
         Binding("l", "cycle_axes", "Axes", show=False),  # in the key overlay; the footer must fit 80 columns
+        Binding("m", "cycle_lineup", "Line-up", show=False),
         Binding("w", "save", "Write", show=False),
         Binding("e", "export", "Export", show=False),
         Binding("x", "stop_scans", "Stop", show=False),
@@ -265,6 +272,13 @@ class OgiveApp(App[int]):
         if self.ws.set_reference_model(msg.index):
             self.refresh_all()
 
+    @on(ModelRanking.RowHighlighted, "#models")
+    def _highlighted_model(self, msg: ModelRanking.RowHighlighted) -> None:
+        if self.ws.model_row != msg.cursor_row:
+            self.ws.model_row = msg.cursor_row
+            if self.ws.lineup:
+                self.workspace_screen.query_one(PlotPanel).redraw()  # the marked panel follows
+
     # ------------------------------------------------------------------ analysis
     def request_analysis(self, *, force_fit: bool = False) -> None:
         plan = self.schedule.plan(self.ws, time.monotonic(), force_fit=force_fit)
@@ -361,6 +375,14 @@ class OgiveApp(App[int]):
             self.action_pane("picture")
         self.workspace_screen.query_one(PlotPanel).redraw()
         self.say(f"picture: {KIND_NAMES[self.ws.kind]}")
+
+    def action_cycle_lineup(self) -> None:
+        self.ws.lineup = LINEUPS[(LINEUPS.index(self.ws.lineup) + 1) % len(LINEUPS)]
+        panel = self.workspace_screen.query_one(PlotPanel)
+        if self.ws.lineup and not panel.region.area:
+            self.action_pane("picture")  # only one pane below the rows: show the line-up
+        panel.redraw()
+        self.say(f"picture: {LINEUP_WORDS[self.ws.lineup]}")
 
     def action_cycle_axes(self) -> None:
         self.ws.axes = AXES[(AXES.index(self.ws.axes) + 1) % len(AXES)]

@@ -29,7 +29,7 @@ from .state import Distribution, ReferenceChoice, ScanJob
 
 if TYPE_CHECKING:
     from ..fit.compare import Comparison
-    from ..fit.models import FitReport
+    from ..fit.models import Candidate, FitReport
 
 KINDS: tuple[str, ...] = ("qq", "detrended", "pp", "cdf", "shift")
 """The pictures, in the order ``v`` steps through them (the kinds of ``ogive plot``)."""
@@ -40,6 +40,11 @@ KIND_NAMES: dict[str, str] = {
     "cdf": "CDF overlay",
     "shift": "shift function",
 }
+LINEUPS: tuple[str, ...] = ("", "panels", "one-axis")
+"""What ``m`` steps through: the subject against its reference (''), against the best
+models side by side ('panels', a line-up), their deviations on one axis ('one-axis')."""
+LINEUP_TOP = 3
+"""Models in the workspace's line-up, as ``ogive fit --plot`` draws by default."""
 AXES: tuple[str, ...] = ("auto", "log", "linear")
 """Value axes: 'auto' lets the renderer choose (log unless a value is negative, as for latencies;
 zeros are drawn at the floor and counted)."""
@@ -79,6 +84,10 @@ class Workspace:
     """The picture: one of :data:`KINDS`."""
     axes: str = "auto"
     """The value axes: one of :data:`AXES`."""
+    lineup: str = ""
+    """One of :data:`LINEUPS`: the picture is a line-up of the subject's models, or not."""
+    model_row: int | None = None
+    """The Models pane's highlighted row (the ranked models come first): its panel is marked."""
     auto_model: bool = False
     """The reference is the best model only because the subject was alone."""
     opened: int = 0
@@ -107,6 +116,18 @@ class Workspace:
     def log_axes(self) -> bool | None:
         """What the renderer is asked for: None lets it choose."""
         return {"auto": None, "log": True, "linear": False}[self.axes]
+
+    def lineup_models(self) -> tuple[list[Candidate], int | None]:
+        """The best :data:`LINEUP_TOP` models — the last of them giving its place to the
+        highlighted model when that one ranks lower, so the line-up keeps its size (and
+        its layout) — and the index of the highlighted model's panel (None: none)."""
+        ranked = list(self.fit.ranked) if self.fit is not None else []
+        row = self.model_row
+        if row is None or not 0 <= row < len(ranked):
+            return ranked[:LINEUP_TOP], None
+        if row >= LINEUP_TOP:
+            return [*ranked[: LINEUP_TOP - 1], ranked[row]], LINEUP_TOP - 1
+        return ranked[:LINEUP_TOP], row
 
     def compare_key(self) -> tuple[str, str] | None:
         """(subject, reference) when a comparison of two sketches with values is wanted."""
