@@ -102,9 +102,7 @@ def lineup_inputs(
     full sentence) for a kind a model cannot be read against, or no models.
     """
     if kind not in LINEUP_KINDS:
-        raise ValueError(
-            f"a line-up of models draws one of {', '.join(LINEUP_KINDS)}; got {kind!r}."
-        )
+        raise ValueError(f"a line-up of models draws one of {', '.join(LINEUP_KINDS)}; got {kind!r}.")
     if not models:
         raise ValueError("a line-up needs at least one fitted model; none was given.")
     panels = tuple(
