@@ -33,6 +33,7 @@ from .plots import (
     BAND,
     band_legend,
     beyond_legend,
+    figure_on,
     mark_beyond,
     paint_cdf,
     paint_detrended,
@@ -239,15 +240,8 @@ def _paint(
     paint = _painter(lineup.kind, x_axis)
     figures = []
     for p in lineup.panels[: layout.shown]:
-        fig = Figure(
-            layout.canvas_cols,
-            layout.canvas_rows,
-            xscale=axes.xscale,
-            yscale=axes.yscale,
-            xfmt=axes.xfmt,
-            yfmt=axes.yfmt,
-            ascii_only=ascii_only,
-            bare=True,
+        fig = figure_on(
+            axes, width=layout.canvas_cols, height=layout.canvas_rows, ascii_only=ascii_only, bare=True
         )
         paint(fig, p.data)
         figures.append(fig.finish())
@@ -426,18 +420,8 @@ def _one_axis(
     ascii_only: bool,
     marked: int | None,
 ) -> Figure:
-    fig = Figure(
-        width,
-        height,
-        xscale=axes.xscale,
-        yscale=axes.yscale,
-        xfmt=axes.xfmt,
-        yfmt=axes.yfmt,
-        ascii_only=ascii_only,
-        x_title=axes.x_title,
-        y_title=axes.y_title,
-        header_rows=header_rows,
-        legend_in_order=True,
+    fig = figure_on(
+        axes, width=width, height=height, ascii_only=ascii_only, header_rows=header_rows, legend_in_order=True
     )
     first = dets[0]
     if first.band_low is not None and first.band_high is not None:

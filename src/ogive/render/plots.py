@@ -94,8 +94,18 @@ def beyond_legend(fig: Figure, *, across: bool = False) -> LegendItem:
 
 
 # ---------------------------------------------------------------- one figure on given axes
-def figure_on(axes: PlotAxes, *, width: int, height: int, ascii_only: bool = False) -> Figure:
-    """An empty framed figure with ``axes`` (from :func:`ogive.render.axes.plot_axes`)."""
+def figure_on(
+    axes: PlotAxes,
+    *,
+    width: int,
+    height: int,
+    ascii_only: bool = False,
+    header_rows: int = 0,
+    legend_in_order: bool = False,
+    bare: bool = False,
+) -> Figure:
+    """An empty figure with ``axes`` (from :func:`ogive.render.axes.plot_axes`); the
+    other options are :class:`Figure`'s (``bare``: a line-up's panel, canvas only)."""
     return Figure(
         width,
         height,
@@ -106,6 +116,9 @@ def figure_on(axes: PlotAxes, *, width: int, height: int, ascii_only: bool = Fal
         ascii_only=ascii_only,
         x_title=axes.x_title,
         y_title=axes.y_title,
+        header_rows=header_rows,
+        legend_in_order=legend_in_order,
+        bare=bare,
     )
 
 
