@@ -30,6 +30,7 @@ from ogive.fit.models import fit_sketch
 from ogive.fit.qq import QuantilePairs, probability_grid
 from ogive.render.frame import Figure
 from ogive.render.lineup import (
+    GAP,
     PANEL_MIN_COLS,
     PANEL_MIN_ROWS,
     SERIES,
@@ -366,3 +367,37 @@ def test_fit_refuses_a_top_below_one(capsys: pytest.CaptureFixture[str]) -> None
     src = str(DEMO / "checkout-day.csv")
     assert main(["fit", src, "--column", "latency_ms", "--plot", "--top", "0", "--quiet"]) == 3
     assert "--top must be 1 or more" in capsys.readouterr().err
+
+
+def test_a_model_without_a_relative_scale_makes_every_panel_absolute(gamma_fit: tuple[Sketch, Any]) -> None:
+    """A normal's lower quantiles are negative (no relative deviation there): one y axis
+    for all panels means differences in ms everywhere, subject − model, checked against
+    scipy.stats.norm's quantiles at the fitted parameters."""
+    sk, _ = gamma_fit
+    report = fit_sketch(sk, ["normal", "lognormal"], bootstrap=0)
+    lineup = lineup_inputs("detrended", sk, report.ranked, subject_label="data")
+    assert all(not p.data.relative for p in lineup.panels)  # type: ignore[union-attr]
+    normal = next(p for p in lineup.panels if p.family == "normal")
+    d = normal.data
+    ref = st.norm(normal.params["mean"], normal.params["sd"]).ppf(d.probs)  # type: ignore[union-attr]
+    np.testing.assert_allclose(d.reference, ref, rtol=1e-9)  # type: ignore[union-attr]
+    np.testing.assert_allclose(d.deviation, sk.quantile(d.probs) - ref, rtol=1e-9, atol=1e-9)  # type: ignore[union-attr]
+    lines = lineup_plot(lineup, width=80, height=20)
+    assert "relative" not in lines[0] and "(ms)" in lines[0]
+
+
+def test_every_panel_shows_the_same_tick_labels_even_at_the_right_edge(gamma_fit: tuple[Sketch, Any]) -> None:
+    """The last panel's tick labels are moved left whole at the edge, never cut ("p99.9" for "p99.99")."""
+    sk, _ = gamma_fit
+    report = fit_sketch(sk, ["normal", "lognormal"], bootstrap=0)
+    lineups = [_closed_form("detrended"), lineup_inputs("detrended", sk, report.ranked, subject_label="d")]
+    for lineup in lineups:
+        for width in range(78, 100):
+            fig = lineup_figure(lineup, width=width, height=20)
+            lines, lay = fig.lines(), fig.layout
+            labels = lines[lay.header_rows + lay.title_rows + lay.canvas_rows + 1]
+            per_panel = [
+                labels[lay.panel_left(i) : lay.panel_left(i) + lay.canvas_cols + GAP].split()
+                for i in range(lay.shown)
+            ]
+            assert all(p == per_panel[0] for p in per_panel), (width, per_panel)

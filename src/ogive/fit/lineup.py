@@ -12,13 +12,19 @@ a panel's title names: rank, model, parameters, tail error. The renderer
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any, Protocol
 
+import numpy as np
+from numpy.typing import NDArray
+
 from ..sketch import Sketch
-from .curves import PlotData, QuantileCDFModel, plot_inputs
+from .curves import Detrended, PlotData, QuantileCDFModel, plot_inputs
+
+FloatArray = NDArray[np.float64]
 
 LINEUP_KINDS: tuple[str, ...] = ("qq", "detrended", "pp", "cdf")
 """Plots a line-up can hold: every kind that reads one distribution against a model."""
@@ -124,4 +130,27 @@ def lineup_inputs(
         )
         for m in models
     )
+    if kind == "detrended" and len({p.data.relative for p in panels if isinstance(p.data, Detrended)}) > 1:
+        # One y axis for all: a model whose quantiles reach zero or below (a normal's lower
+        # tail) has no relative scale, so every panel shows absolute differences.
+        panels = tuple(dataclasses.replace(p, data=as_absolute(p.data)) for p in panels)
     return ModelLineup(kind, subject_label, subject.unit, rank_key, panels)
+
+
+def as_absolute(d: PlotData) -> PlotData:
+    """A relative detrended view as differences in the unit (subject − reference)."""
+    if not isinstance(d, Detrended) or not d.relative:
+        return d
+    ref = d.reference
+
+    def scaled(v: FloatArray | None) -> FloatArray | None:
+        return None if v is None else np.asarray(v * ref, dtype=np.float64)
+
+    return dataclasses.replace(
+        d,
+        relative=False,
+        deviation=np.asarray(d.deviation * ref, dtype=np.float64),
+        band_low=scaled(d.band_low),
+        band_high=scaled(d.band_high),
+        marks=tuple(dataclasses.replace(m, subject=m.subject * m.reference) for m in d.marks),
+    )

@@ -135,8 +135,13 @@ class LineupFigure:
         out.append(
             _join(W, {lay.panel_left(i): [(corner, "axis"), *self.figures[i].x_axis_cells()] for i in row})
         )
-        room = lay.canvas_cols + GAP  # a label may reach into the gap, never into the next panel
-        out.append(_join(W, {lay.panel_left(i): self.figures[i].x_label_cells(1, room)[0] for i in row}))
+        # A label may reach into the gap, never into the next panel nor past the edge
+        # (where it is moved left whole, never cut: "p99.99" must not read "p99.9").
+        labels = {}
+        for i in row:
+            room = min(lay.canvas_cols + GAP, W - lay.panel_left(i))
+            labels[lay.panel_left(i)] = self.figures[i].x_label_cells(1, room)[0]
+        out.append(_join(W, labels))
         return out
 
 
