@@ -296,7 +296,9 @@ def _layout(
             return None  # more rows are lower still
         ticks = [t for t in choose_ticks(axes.yscale, canvas_rows, axes.yfmt, horizontal=False) if t.major]
         ylabel_width = max([len(t.label) for t in ticks] + [1])
-        canvas_cols = (width - ylabel_width - columns - (columns - 1) * GAP) // columns
+        # A gap after the last panel too: its tick labels get the room every other
+        # panel's get, so each panel shows the same labels.
+        canvas_cols = (width - ylabel_width - columns * (1 + GAP)) // columns
         if canvas_cols < PANEL_MIN_COLS:
             continue
         # Titles that need fewer lines leave them to the plots (the y ticks were chosen
