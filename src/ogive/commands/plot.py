@@ -209,7 +209,9 @@ def run(args: argparse.Namespace) -> int:
         )
     if not 0 < args.confidence < 1:
         raise OgiveError(f"--confidence must lie strictly between 0 and 1, got {args.confidence}.")
-    families = [f.strip() for f in args.model.split(",") if f.strip()] if args.model else []
+    # The same family twice is one model (a line-up is ordered by rank, not as given).
+    named = [f.strip() for f in args.model.split(",") if f.strip()] if args.model else []
+    families = list(dict.fromkeys(named))
     if args.model is not None and not families:
         raise OgiveError("--model names no family; give one or more, comma-separated.")
     kind = _kind(args.kind, args.one_axis, families)
