@@ -31,7 +31,10 @@ def test_fit_plot_draws_sketch_against_the_best_model(
     monkeypatch.setenv("COLUMNS", "72")
     monkeypatch.setenv("LINES", "21")
     src = str(DEMO / "checkout-before.log")
-    assert main(["fit", src, *PATTERN, "--families", "lognormal,gamma", "--plot", "qq", "--ascii"]) == 0
+    assert (
+        main(["fit", src, *PATTERN, "--families", "lognormal,gamma", "--plot", "qq", "--top", "1", "--ascii"])
+        == 0
+    )
     out = capsys.readouterr().out
     head = out.splitlines()[-20]
     assert "lognormal" in head or "gamma" in head

@@ -18,6 +18,7 @@ outputs that way, and nothing else may differ.
 
 from __future__ import annotations
 
+import os
 import re
 import shlex
 import shutil
@@ -183,7 +184,25 @@ async def test_readme_screenshots_are_the_workspace(shot: Screen, monkeypatch: p
             await pilot.pause(0.3)
         text = screen_text(app).split("\n")
     got = "\n".join(INDENT + line for line in text)
+    if os.environ.get("OGIVE_UPDATE_README") and not matches(shot.expected, text):
+        _rewrite_screen(shot.line, text)  # then review the README's diff
+        return
     assert matches(shot.expected, text), f"README.md:{shot.line} shows another screen; now:\n{got}"
+
+
+def _rewrite_screen(marker_line: int, text: list[str]) -> None:
+    """Put ``text`` in place of the screenshot under the marker at ``marker_line`` (1-based)."""
+    lines = README.read_text(encoding="utf-8").split("\n")
+    j = marker_line
+    while j < len(lines) and not lines[j].startswith(INDENT):
+        j += 1
+    end = j
+    while end < len(lines) and (lines[end].startswith(INDENT) or not lines[end].strip()):
+        end += 1
+    while end > j and not lines[end - 1].strip():
+        end -= 1
+    lines[j:end] = [(INDENT + line).rstrip() for line in text]
+    README.write_text("\n".join(lines), encoding="utf-8")
 
 
 def test_the_readme_has_screenshots() -> None:

@@ -98,7 +98,9 @@ def run(args: argparse.Namespace) -> int:
         raise OgiveError(str(exc)) from None
     _emit(args, comp.to_dict(), lambda: comparison_text(comp, sources))
     if args.plot and not args.json:
-        print_plot(args.plot, b, a, labels[1], labels[0], ascii_only=args.ascii)
+        print_plot(
+            args.plot, b, a, labels[1], labels[0], ascii_only=args.ascii, size=(args.width, args.height)
+        )
     return 0
 
 

@@ -7,7 +7,7 @@ import json
 import sys
 
 from ..errors import OgiveError
-from .plot import add_plot_option, print_plot
+from .plot import LineupStyle, add_plot_option, draw_lineup, emit, make_lineup, plot_size, print_plot
 
 DESCRIPTION = """\
 Fit candidate probability models to one distribution and rank them, best first.
@@ -81,11 +81,26 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument("--json", action="store_true", help="print the report as JSON")
     add_plot_option(parser, ("qq", "detrended", "pp", "cdf"))
+    parser.add_argument(
+        "--top",
+        metavar="K",
+        type=int,
+        default=3,
+        help="with --plot: draw the best K models side by side, one panel each on the same axes "
+        "(default 3; 1 draws the best alone)",
+    )
+    parser.add_argument(
+        "--one-axis",
+        action="store_true",
+        help="draw the best K models' detrended deviations on one axis, told apart by glyph "
+        "(implies --plot detrended)",
+    )
     add_source_options(parser)
 
 
 def run(args: argparse.Namespace) -> int:
     from ..fit.models import RANK_KEYS, fit_sketch
+    from ..render.jsonsafe import json_safe
     from ..render.reports import fit_text
     from .common import load_one
 
@@ -96,17 +111,36 @@ def run(args: argparse.Namespace) -> int:
     families = [f for f in args.families.split(",") if f.strip()] if args.families else None
     if args.bootstrap < 0:
         raise OgiveError(f"--bootstrap must be 0 or more, got {args.bootstrap}.")
+    if args.top < 1:
+        raise OgiveError(f"--top must be 1 or more, got {args.top}.")
+    if args.one_axis and args.plot in ("pp", "cdf"):  # bare --plot (qq) or none: the view is implied
+        raise OgiveError(f"--one-axis draws the detrended view; it cannot be --plot {args.plot}.")
+    plot = "detrended" if args.one_axis else args.plot
     try:
         report = fit_sketch(sketch, families, rank_by=args.rank_by, bootstrap=args.bootstrap)
     except ValueError as exc:
         raise OgiveError(str(exc)) from None
+    label = name or args.source
+    style = LineupStyle(plot or "qq", args.one_axis, args.ascii)
     if args.json:
         doc = {"source": args.source, "sketch": name, **report.to_dict()}
+        if plot and report.ranked:
+            # The numbers behind the line-up the same options draw.
+            lineup = make_lineup(sketch, label, list(report.ranked[: args.top]), report.rank_key, style)
+            doc["lineup"] = json_safe({"one_axis": args.one_axis, **lineup.to_dict()})
         json.dump(doc, sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
-    else:
-        sys.stdout.write(fit_text(report, f"{args.source} ({name})" if name else args.source))
-        if args.plot and report.ranked:
-            best = report.ranked[0]
-            print_plot(args.plot, sketch, best, name or args.source, best.label, ascii_only=args.ascii)
+        return 0
+    sys.stdout.write(fit_text(report, f"{args.source} ({name})" if name else args.source))
+    if not plot or not report.ranked:
+        return 0
+    size = (args.width, args.height)
+    if args.top == 1 and not args.one_axis:
+        best = report.ranked[0]
+        print_plot(plot, sketch, best, label, best.label, ascii_only=args.ascii, size=size)
+        return 0
+    width, height = plot_size(*size)
+    lineup = make_lineup(sketch, label, list(report.ranked[: args.top]), report.rank_key, style)
+    sys.stdout.write("\n")
+    emit(draw_lineup(lineup, style, width=width, height=height))
     return 0

@@ -133,6 +133,10 @@ class Candidate:
     def params(self) -> dict[str, float]:
         return self.model.params
 
+    @property
+    def tail_error(self) -> float:
+        return self.scores.tail_error
+
     def ppf(self, q: Any) -> FloatArray:
         return self.model.ppf(q)
 

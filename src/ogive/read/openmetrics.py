@@ -30,6 +30,7 @@ import numpy as np
 from ..sketch.buckets import ExplicitPart, Extremes
 from . import layout as L
 from .otlp_metrics import BAD_BOUNDS, BAD_COUNTS, COUNT_MISMATCH, NAN_BOUND, Point
+from .times import MAX_US
 
 NO_INF = "no_inf_bucket"
 NOT_CUMULATIVE = "buckets_not_cumulative"
@@ -84,7 +85,10 @@ def _time_ns(text: str | None) -> int:
     v = float(text)
     if not math.isfinite(v) or v <= 0:
         raise ValueError
-    return round(v * (1e6 if v > 1e11 else 1e9))
+    ns = round(v * (1e6 if v > 1e11 else 1e9))
+    if ns >= (MAX_US - 1e6) * 1000:  # past year 9999 (a second short: float rounding) no date
+        raise ValueError
+    return ns
 
 
 @dataclass
@@ -182,7 +186,7 @@ class Exposition:
                         h.count = v
                     elif suffix == "_sum":
                         h.total = v
-                    elif math.isfinite(v) and v > 0:
+                    elif math.isfinite(v) and 0 < v < MAX_US / 1e6 - 1:
                         h.created_ns = round(v * 1e9)
             unit = UNITS.get(sc.units.get(family, ""), "") or next(
                 (u for word, u in UNITS.items() if family.endswith("_" + word)), ""

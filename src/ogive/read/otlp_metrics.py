@@ -34,6 +34,7 @@ import numpy as np
 from ..sketch.buckets import ExplicitPart, ExponentialPart, Extremes, Part, inconsistency
 from . import layout as L
 from .skips import BAD_TIMESTAMP
+from .times import MAX_US
 
 DELTA, CUMULATIVE = 1, 2
 TEMPORALITY = {"1": DELTA, "2": CUMULATIVE, "AGGREGATION_TEMPORALITY_DELTA": DELTA,
@@ -226,7 +227,9 @@ def _point(
         raise Skip(BAD_TIMESTAMP) from None
     except ValueError:
         raise Skip(BAD_TIMESTAMP) from None
-    if time_ns <= 0 or start_ns < 0:
+    # A start after the point's own time is no interval; past the last second of year
+    # 9999 no date can be written (a second short, so float rounding cannot reach it).
+    if not 0 < time_ns < (MAX_US - 1e6) * 1000 or not 0 <= start_ns <= time_ns:
         raise Skip(BAD_TIMESTAMP)
     try:
         part: Part = exponential_part(dp) if exponential else explicit_part(dp, floor)

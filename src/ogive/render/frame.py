@@ -73,7 +73,10 @@ class Figure:
     x_title: str = ""
     y_title: str = ""
     legend: list[LegendItem] = field(default_factory=list)
+    legend_in_order: bool = False
+    """Legend items keep their order across header lines (see :func:`header_cells`)."""
     header_rows: int = 0
+    """Lines above the plot for axis names and legend; 0 picks 1 below 13 rows, else 2."""
     ylabel_width: int = 0
     canvas: Canvas = field(init=False)
     xticks: list[Tick] = field(init=False)
@@ -83,17 +86,24 @@ class Figure:
     marks: dict[str, tuple[int, int]] = field(default_factory=dict)
     """Mark name -> (row, col) inside the canvas."""
     _pending: list[tuple[str, int, int, tuple[float, float]]] = field(default_factory=list)
+    bare: bool = False
+    """A panel of a line-up: ``width`` × ``height`` is the canvas alone, with no header
+    and no frame of its own (the line-up draws those around it, shared)."""
 
     def __post_init__(self) -> None:
-        if self.width < MIN_WIDTH or self.height < MIN_HEIGHT:
-            raise ValueError(
-                f"a plot needs at least {MIN_WIDTH}×{MIN_HEIGHT} cells; got {self.width}×{self.height}."
-            )
-        self.header_rows = 1 if self.height < 13 else 2  # from 13 rows a legend may take a second line
-        rows = self.height - self.header_rows - 2
+        if self.bare:
+            rows, self.header_rows = self.height, 0
+        else:
+            if self.width < MIN_WIDTH or self.height < MIN_HEIGHT:
+                raise ValueError(
+                    f"a plot needs at least {MIN_WIDTH}×{MIN_HEIGHT} cells; got {self.width}×{self.height}."
+                )
+            if not self.header_rows:  # from 13 rows a legend may take a second line
+                self.header_rows = 1 if self.height < 13 else 2
+            rows = self.height - self.header_rows - 2
         self.yticks = [t for t in choose_ticks(self.yscale, rows, self.yfmt, horizontal=False) if t.major]
         self.ylabel_width = max([len(t.label) for t in self.yticks] + [1])
-        cols = self.width - self.ylabel_width - 1
+        cols = self.width if self.bare else self.width - self.ylabel_width - 1
         self.xticks = choose_ticks(self.xscale, cols, self.xfmt, horizontal=True, min_gap=2)
         self.canvas = Canvas(cols, rows, ascii_only=self.ascii_only)
 
@@ -244,71 +254,26 @@ class Figure:
         return all(dist(m) > mine for m in self.marks.values() if m != own)
 
     # ------------------------------------------------------------ output
-    def lines(self) -> PlotLines:
+    def plot_cells(self) -> tuple[list[list[str]], list[list[str]]]:
+        """(glyphs, roles) of the canvas with marks and labels on top (fresh lists)."""
         self.finish()
-        W = self.width
         glyphs, roles = self.canvas.cells()
         for (r, c), (ch, role) in self.overlay.items():
             glyphs[r][c] = ch
             roles[r][c] = role
-        a = self.ascii_only
-        v_axis, v_tick = ("|", "+") if a else ("│", "┤")
-        corner, h_axis, h_tick, h_minor = ("+", "-", "+", "-") if a else ("└", "─", "┬", "┴")
-        rows: list[list[tuple[str, str]]] = []
+        return glyphs, roles
 
-        # Header: axis names first (a plot without them cannot be read), then legend
-        # items; each goes on the first header line with room, or is left out.
-        x_label_cells, x_title_placed = self._x_label_line()
-        tokens: list[list[tuple[str, str]]] = []
-        y_name = (("^ " if a else "↑ ") + self.y_title) if self.y_title else ""
-        x_name = (("-> " if a else "→ ") + self.x_title) if self.x_title and not x_title_placed else ""
-        if self.header_rows == 1 and y_name and x_name and len(y_name) + 2 + len(x_name) > W and W >= 42:
-            # One header line and two long axis names: both shortened in the middle, so
-            # neither is lost (a plot without its axis names cannot be read); below ~20
-            # cells a name is no longer readable, and the y name alone is kept.
-            room = W - 2
-            y_room = max(room - len(x_name), room // 2) if len(y_name) > room // 2 else len(y_name)
-            y_name, x_name = _middle(y_name, y_room, a), _middle(x_name, room - min(y_room, len(y_name)), a)
-        if y_name:
-            tokens.append([(y_name, "title")])
-        if x_name:
-            tokens.append([(x_name, "title")])
-        for item in self.legend:
-            tokens.append([(item.glyph, item.role), (" " + item.text, "legend")])
-        head: list[list[tuple[str, str]]] = [[] for _ in range(self.header_rows)]
-        for n, tok in enumerate(tokens):
-            tok_len = sum(len(t) for t, _ in tok)
-            for line in head:
-                used = sum(len(t) for t, _ in line)
-                gap = 2 if line else 0
-                if used + gap + tok_len <= W:
-                    if line:
-                        line.append(("  ", ""))
-                    line.extend(tok)
-                    break
-                if not line and n < 2:
-                    # An axis name longer than the whole width: shortened, never dropped.
-                    text = "".join(t for t, _ in tok)
-                    line.append((text[: W - 1] + ("~" if a else "…"), tok[0][1]))
-                    break
-        for h in head[: self.header_rows]:
-            cells: list[tuple[str, str]] = []
-            for text, role in h:
-                cells.extend((ch, role) for ch in text)
-            rows.append(cells[:W])
-
-        ytick_rows: dict[int, str] = {}
+    def ytick_rows(self) -> dict[int, str]:
+        """Canvas row -> y tick label (the first tick to land on a row keeps it)."""
+        out: dict[int, str] = {}
         for t in self.yticks:
-            rr = int(np.rint((1 - t.position) * (self.canvas.dot_height - 1))) // 4
-            ytick_rows.setdefault(rr, t.label)
-        for r in range(self.canvas.rows):
-            label = ytick_rows.get(r)
-            cells = [(ch, "axis") for ch in (label or "").rjust(self.ylabel_width)]
-            cells.append((v_tick if label is not None else v_axis, "axis"))
-            cells.extend((glyphs[r][c], roles[r][c]) for c in range(self.canvas.cols))
-            rows.append(cells)
+            out.setdefault(int(np.rint((1 - t.position) * (self.canvas.dot_height - 1))) // 4, t.label)
+        return out
 
-        axis = [(" ", "")] * self.ylabel_width + [(corner, "axis")]
+    def x_axis_cells(self) -> list[tuple[str, str]]:
+        """The horizontal axis under the canvas, tick marks included (canvas columns only)."""
+        a = self.ascii_only
+        h_axis, h_tick, h_minor = ("-", "+", "-") if a else ("─", "┬", "┴")
         marks = [h_axis] * self.canvas.cols
         for t in self.xticks:
             c = int(np.rint(t.position * (self.canvas.dot_width - 1))) // 2
@@ -317,33 +282,43 @@ class Figure:
                     marks[c] = h_tick
                 elif not a and marks[c] == h_axis:
                     marks[c] = h_minor
-        axis.extend((m, "axis") for m in marks)
-        rows.append(axis)
-        rows.append(x_label_cells)
+        return [(m, "axis") for m in marks]
 
-        out = PlotLines()
-        out.spans = []
-        for cells in rows:
-            cells = cells[:W]
-            text = "".join(ch for ch, _ in cells).rstrip()
-            out.append(text)
-            spans: list[Span] = []
-            for i, (_, role) in enumerate(cells[: len(text)]):
-                if not role:
-                    continue
-                if spans and spans[-1][2] == role and spans[-1][1] == i:
-                    spans[-1] = (spans[-1][0], i + 1, role)
-                else:
-                    spans.append((i, i + 1, role))
-            out.spans.append(spans)
+    def lines(self) -> PlotLines:
+        W = self.width
+        glyphs, roles = self.plot_cells()
+        a = self.ascii_only
+        v_axis, v_tick = ("|", "+") if a else ("│", "┤")
+        rows: list[list[tuple[str, str]]] = []
+
+        # Header: axis names first (a plot without them cannot be read), then legend
+        # items; each goes on the first header line with room, or is left out.
+        x_label_cells, x_title_placed = self.x_label_cells(self.ylabel_width + 1, W, self.x_title)
+        y_name = (("^ " if a else "↑ ") + self.y_title) if self.y_title else ""
+        x_name = (("-> " if a else "→ ") + self.x_title) if self.x_title and not x_title_placed else ""
+        rows.extend(
+            header_cells(y_name, x_name, self.legend, self.header_rows, W, a, in_order=self.legend_in_order)
+        )
+
+        ytick_rows = self.ytick_rows()
+        for r in range(self.canvas.rows):
+            label = ytick_rows.get(r)
+            cells = [(ch, "axis") for ch in (label or "").rjust(self.ylabel_width)]
+            cells.append((v_tick if label is not None else v_axis, "axis"))
+            cells.extend((glyphs[r][c], roles[r][c]) for c in range(self.canvas.cols))
+            rows.append(cells)
+        rows.append([(" ", "")] * self.ylabel_width + [("+" if a else "└", "axis")] + self.x_axis_cells())
+        rows.append(x_label_cells)
+        out = plot_lines(rows, W)
         assert len(out) == self.height
         return out
 
-    def _x_label_line(self) -> tuple[list[tuple[str, str]], bool]:
-        W = self.width
+    def x_label_cells(self, left: int, width: int, title: str = "") -> tuple[list[tuple[str, str]], bool]:
+        """A ``width``-cell line with the x tick labels under a canvas starting at column
+        ``left``, and ``title`` at its right end when it fits (True if it was placed)."""
+        W = width
         cells: list[tuple[str, str]] = [(" ", "")] * W
         last_end = -1
-        left = self.ylabel_width + 1
         for t in self.xticks:
             if not t.major:
                 continue
@@ -355,14 +330,89 @@ class Figure:
                 cells[start + i] = (ch, "axis")
             last_end = start + len(t.label) - 1
         placed = False
-        if self.x_title:
-            title = self.x_title + (" ->" if self.ascii_only else " →")
+        if title:
+            title = title + (" ->" if self.ascii_only else " →")
             start = W - len(title)
             if start > last_end + 2:
                 for i, ch in enumerate(title):
                     cells[start + i] = (ch, "title")
                 placed = True
         return cells, placed
+
+
+def header_cells(
+    y_name: str,
+    x_name: str,
+    legend: list[LegendItem],
+    rows: int,
+    width: int,
+    ascii_only: bool,
+    *,
+    in_order: bool = False,
+) -> list[list[tuple[str, str]]]:
+    """``rows`` header lines: the axis names first, then legend items, each on the first
+    line with room (a legend item with none is left out; an axis name never is).
+    ``in_order``: never on a line above the item before it (a legend read as a ranking)."""
+    W, a = width, ascii_only
+    if rows == 1 and y_name and x_name and len(y_name) + 2 + len(x_name) > W and W >= 42:
+        # One header line and two long axis names: both shortened in the middle, so
+        # neither is lost (a plot without its axis names cannot be read); below ~20
+        # cells a name is no longer readable, and the y name alone is kept.
+        room = W - 2
+        y_room = max(room - len(x_name), room // 2) if len(y_name) > room // 2 else len(y_name)
+        y_name, x_name = _middle(y_name, y_room, a), _middle(x_name, room - min(y_room, len(y_name)), a)
+    tokens: list[list[tuple[str, str]]] = []
+    if y_name:
+        tokens.append([(y_name, "title")])
+    if x_name:
+        tokens.append([(x_name, "title")])
+    for item in legend:
+        tokens.append([(item.glyph, item.role), (" " + item.text, "legend")])
+    head: list[list[tuple[str, str]]] = [[] for _ in range(rows)]
+    first = 0
+    for n, tok in enumerate(tokens):
+        tok_len = sum(len(t) for t, _ in tok)
+        for k, line in enumerate(head[first:], start=first):
+            used = sum(len(t) for t, _ in line)
+            gap = 2 if line else 0
+            if used + gap + tok_len <= W:
+                if line:
+                    line.append(("  ", ""))
+                line.extend(tok)
+                first = k if in_order else 0
+                break
+            if not line and n < 2:
+                # An axis name longer than the whole width: shortened, never dropped.
+                text = "".join(t for t, _ in tok)
+                line.append((text[: W - 1] + ("~" if a else "…"), tok[0][1]))
+                break
+    out = []
+    for h in head:
+        cells: list[tuple[str, str]] = []
+        for text, role in h:
+            cells.extend((ch, role) for ch in text)
+        out.append(cells[:W])
+    return out
+
+
+def plot_lines(rows: list[list[tuple[str, str]]], width: int) -> PlotLines:
+    """Lines of (glyph, role) cells as text, trailing blanks cut, with their colour spans."""
+    out = PlotLines()
+    out.spans = []
+    for cells in rows:
+        cells = cells[:width]
+        text = "".join(ch for ch, _ in cells).rstrip()
+        out.append(text)
+        spans: list[Span] = []
+        for i, (_, role) in enumerate(cells[: len(text)]):
+            if not role:
+                continue
+            if spans and spans[-1][2] == role and spans[-1][1] == i:
+                spans[-1] = (spans[-1][0], i + 1, role)
+            else:
+                spans.append((i, i + 1, role))
+        out.spans.append(spans)
+    return out
 
 
 def _middle(text: str, room: int, ascii_only: bool) -> str:

@@ -19,7 +19,8 @@ from numpy.typing import NDArray
 
 from ..fit.curves import CDFOverlay, Detrended, PlotData, PPPoints, QQData
 from ..fit.shift import ShiftFunction
-from ..numbers import count, percent, quantity
+from ..numbers import count
+from .axes import PlotAxes, on_axis, plot_axes, prob_format, robust_range, value_format, with_unit
 from .canvas import Layer
 from .frame import Figure, LegendItem, PlotLines
 from .ticks import Scale, make_scale
@@ -33,42 +34,7 @@ BAND = ("·", ":")
 SECOND = ("∘", "o")
 MARK = ("◆", "O")
 UP, DOWN = ("↑", "^"), ("↓", "v")
-
-
-def _fmt(unit: str, ascii_only: bool) -> Callable[[float, int], str]:
-    return lambda v, d: quantity(v, unit, digits=d, compact=True, ascii_only=ascii_only)
-
-
-def _pct(v: float, _d: int) -> str:
-    return percent(v, signed=True, compact=True)
-
-
-def _prob(v: float, d: int) -> str:
-    text = f"{v:.{max(d - 1, 1)}f}".rstrip("0").rstrip(".")
-    return text if text not in ("", "-0") else "0"
-
-
-def _axis_kind(log: bool | None, *arrays: FloatArray) -> str:
-    """'log' when asked, or when not said and no value is negative; 'linear' otherwise.
-
-    Zeros do not make an axis linear: a latency field full of ``0.000`` (an answer from
-    cache) on a linear axis squeezes p50 to p99 into one corner. They are drawn at the
-    log axis's floor instead (:func:`_on_axis`) and the legend says how many there are.
-    A log axis needs at least one positive value.
-    """
-    finite = np.concatenate([a[np.isfinite(a)] for a in arrays]) if arrays else np.empty(0)
-    if not bool(np.any(finite > 0)):
-        return "linear"
-    if log is None:
-        return "linear" if bool(np.any(finite < 0)) else "log"
-    return "log" if log else "linear"
-
-
-def _on_axis(scale: Scale, values: FloatArray) -> FloatArray:
-    """On a log axis, values at or below zero (which it cannot place) at its floor."""
-    if scale.kind != "log":
-        return values
-    return np.where(np.isfinite(values) & (values <= 0), scale.lo, values)
+LEFT, RIGHT = ("←", "<"), ("→", ">")
 
 
 def _floor_legend(fig: Figure, scale: Scale, counts: tuple[tuple[str, int], ...]) -> None:
@@ -76,10 +42,6 @@ def _floor_legend(fig: Figure, scale: Scale, counts: tuple[tuple[str, int], ...]
     if scale.kind == "log" and counts:
         where = ", ".join(f"{label} {count(n)}" for label, n in counts)
         fig.legend.append(LegendItem(fig.glyph("≤0", "<=0"), f"at floor: {where}", "axis"))
-
-
-def _with_unit(text: str, unit: str) -> str:
-    return f"{text} ({unit})" if unit and unit not in text else text
 
 
 def _braille(role: str, ascii_glyph: str, priority: int = 0) -> Layer:
@@ -90,45 +52,88 @@ def _marker(role: str, glyphs: tuple[str, str], priority: int = 1) -> Layer:
     return Layer(role, glyphs[0], glyphs[1], priority)
 
 
-def _band_legend(label: str, fig: Figure) -> LegendItem:
+def band_legend(label: str, fig: Figure) -> LegendItem:
     # "95% band": the long name and method stay in the data (band_label) and --help.
     short = label.split(" (")[0].replace(" simultaneous", "") if label else "band"
     return LegendItem(fig.glyph(*BAND), short, "band")
 
 
-# ---------------------------------------------------------------- Q-Q
-def qq_figure(
-    data: QQData,
+def mark_beyond(fig: Figure, x: FloatArray, y: FloatArray, *, across: bool = False) -> bool:
+    """Arrows at the frame where points lie beyond an axis; True if any.
+
+    Up (down) arrows on the top (bottom) row above (below) points beyond the y axis;
+    with ``across``, left (right) arrows on the first (last) column, at the point's row,
+    for points beyond the x axis. For axes that follow only part of the data (a
+    line-up's): the curve leaves through the frame, and the arrows say where it went.
+    """
+    x, y = np.asarray(x, dtype=np.float64), np.asarray(y, dtype=np.float64)
+    scale, other = (fig.xscale, y) if across else (fig.yscale, x)
+    v = x if across else y
+    lo, hi = sorted((scale.lo, scale.hi))
+    high, low = np.isfinite(v) & (v > hi), np.isfinite(v) & (v < lo)
+    if not (high.any() or low.any()):
+        return False
+    if across:
+        _, pos = fig.to_dots(np.zeros(v.shape), other)
+        at = np.rint(pos).astype(np.int64) // 4
+        ends = ((high, fig.canvas.cols - 1, RIGHT), (low, 0, LEFT))
+    else:
+        pos, _ = fig.to_dots(other, np.zeros(v.shape))
+        at = np.rint(pos).astype(np.int64) // 2
+        ends = ((high, 0, UP), (low, fig.canvas.rows - 1, DOWN))
+    for flags, edge, glyph in ends:
+        for k in sorted(set(at[flags & np.isfinite(pos)].tolist())):
+            fig.put(k, edge, fig.glyph(*glyph), "band") if across else fig.put(
+                edge, k, fig.glyph(*glyph), "band"
+            )
+    return True
+
+
+def beyond_legend(fig: Figure, *, across: bool = False) -> LegendItem:
+    return LegendItem(fig.glyph(*(("←→", "<>") if across else ("↑↓", "^v"))), "beyond the axis", "band")
+
+
+# ---------------------------------------------------------------- one figure on given axes
+def figure_on(
+    axes: PlotAxes,
     *,
     width: int,
     height: int,
-    log: bool | None = None,
     ascii_only: bool = False,
-    marks: bool = True,
+    header_rows: int = 0,
+    legend_in_order: bool = False,
+    bare: bool = False,
 ) -> Figure:
-    pairs = data.pairs
-    corners = _box_values(data)
-    kind = _axis_kind(log, pairs.reference, pairs.subject)
-    scale = make_scale(kind, np.concatenate((pairs.reference, pairs.subject, corners)))
-    ref, sub = _on_axis(scale, pairs.reference), _on_axis(scale, pairs.subject)
-    fmt = _fmt(pairs.unit, ascii_only)
-    fig = Figure(
+    """An empty figure with ``axes`` (from :func:`ogive.render.axes.plot_axes`); the
+    other options are :class:`Figure`'s (``bare``: a line-up's panel, canvas only)."""
+    return Figure(
         width,
         height,
-        xscale=scale,
-        yscale=scale,
-        xfmt=fmt,
-        yfmt=fmt,
+        xscale=axes.xscale,
+        yscale=axes.yscale,
+        xfmt=axes.xfmt,
+        yfmt=axes.yfmt,
         ascii_only=ascii_only,
-        x_title=pairs.reference_label,
-        y_title=_with_unit(pairs.subject_label, pairs.unit),
+        x_title=axes.x_title,
+        y_title=axes.y_title,
+        header_rows=header_rows,
+        legend_in_order=legend_in_order,
+        bare=bare,
     )
+
+
+# ---------------------------------------------------------------- Q-Q
+def paint_qq(fig: Figure, data: QQData, *, marks: bool = True) -> None:
+    """The Q-Q layers, legend and named points on ``fig`` (x and y share one scale)."""
+    pairs = data.pairs
+    scale = fig.xscale
+    ref, sub = on_axis(scale, pairs.reference), on_axis(scale, pairs.subject)
     W, H = fig.canvas.dot_width, fig.canvas.dot_height
     if pairs.band_low is not None and pairs.band_high is not None:
         band = Layer("band", BAND[0], BAND[1], 0, every=2)
-        fig.line(band, ref, _on_axis(scale, pairs.band_low))
-        fig.line(band, ref, _on_axis(scale, pairs.band_high))
-        fig.legend.append(_band_legend(pairs.band_label, fig))
+        fig.line(band, ref, on_axis(scale, pairs.band_low))
+        fig.line(band, ref, on_axis(scale, pairs.band_high))
+        fig.legend.append(band_legend(pairs.band_label, fig))
     if data.boxes:
         _draw_boxes(fig, scale, data)
     # Same scale on both axes: the y = x line runs corner to corner.
@@ -138,22 +143,32 @@ def qq_figure(
         LegendItem(fig.glyph(*SUBJECT), "quantiles", "subject"),
         LegendItem(fig.glyph("⠤", "."), "y = x", "reference"),
     ]
+    if mark_beyond(fig, ref, sub, across=True):  # a line-up's axes may leave a model's far tail out
+        fig.legend.append(beyond_legend(fig, across=True))
     _floor_legend(fig, scale, data.at_or_below_zero)
     if marks:
         for m in data.marks:
-            mx, my = _on_axis(scale, np.array([m.reference, m.subject]))
+            mx, my = on_axis(scale, np.array([m.reference, m.subject]))
             fig.mark(m.label, float(mx), float(my), fig.glyph(*MARK), label=m.label)
+
+
+def qq_figure(
+    data: QQData,
+    *,
+    width: int,
+    height: int,
+    log: bool | None = None,
+    ascii_only: bool = False,
+    marks: bool = True,
+) -> Figure:
+    axes = plot_axes("qq", [data], log=log, ascii_only=ascii_only)
+    fig = figure_on(axes, width=width, height=height, ascii_only=ascii_only)
+    paint_qq(fig, data, marks=marks)
     return fig.finish()
 
 
 BOX = ("▫", "#")
 """Bucket boxes are braille outlines (Unicode) or ``#`` (ASCII); the legend glyph names them."""
-
-
-def _box_values(data: QQData) -> FloatArray:
-    """The finite box corners, so the axes hold every box the buckets give."""
-    v = np.array([[b.x_low, b.x_high, b.y_low, b.y_high] for b in data.boxes]).ravel()
-    return v[np.isfinite(v) & (v > 0)] if v.size else np.empty(0)  # a 0 end sits at a log axis's floor
 
 
 def _draw_boxes(fig: Figure, scale: Scale, data: QQData) -> None:
@@ -190,12 +205,30 @@ def qq_plot(
 
 
 # ---------------------------------------------------------------- detrended
-def _robust_range(values: list[FloatArray], cap_from: FloatArray, factor: float = 4.0) -> FloatArray:
-    """Band values within ``factor`` × the data's own size (a runaway band edge would flatten the data)."""
-    data = cap_from[np.isfinite(cap_from)]
-    limit = factor * max(float(np.abs(data).max()) if data.size else 0.0, 0.01)
-    keep = [v[np.isfinite(v) & (np.abs(v) <= limit)] for v in values]
-    return np.concatenate([data, *keep, np.array([0.0])])
+def paint_detrended(fig: Figure, d: Detrended, *, x_axis: str = "prob", marks: bool = True) -> None:
+    """The detrended layers, legend and named points on ``fig``."""
+    xscale = fig.xscale
+    x = d.probs if x_axis == "prob" else on_axis(xscale, d.reference)
+    if d.band_low is not None and d.band_high is not None:
+        band = Layer("band", BAND[0], BAND[1], 0, every=2)
+        fig.line(band, x, d.band_low)
+        fig.line(band, x, d.band_high)
+        fig.legend.append(band_legend(d.band_label, fig))
+    xs = np.array([xscale.lo, xscale.hi])
+    fig.line(_braille("reference", "."), xs, np.zeros(2))
+    fig.line(_marker("subject", SUBJECT), x, d.deviation)
+    fig.legend[:0] = [
+        LegendItem(fig.glyph(*SUBJECT), "deviation", "subject"),
+        LegendItem(fig.glyph("⠤", "."), "same", "reference"),
+    ]
+    if mark_beyond(fig, x, d.deviation):
+        fig.legend.append(beyond_legend(fig))
+    if x_axis == "value":
+        _floor_legend(fig, xscale, d.at_or_below_zero)
+    if marks:
+        for m in d.marks:
+            mx = m.q if x_axis == "prob" else float(on_axis(xscale, np.array([m.reference]))[0])
+            fig.mark(m.label, mx, m.subject, fig.glyph(*MARK), label=m.label)
 
 
 def detrended_figure(
@@ -207,50 +240,9 @@ def detrended_figure(
     log: bool | None = None,
     ascii_only: bool = False,
 ) -> Figure:
-    if x_axis not in ("prob", "value"):
-        raise ValueError(f"x_axis must be 'prob' or 'value', got {x_axis!r}.")
-    if x_axis == "prob":
-        x = d.probs
-        xscale = make_scale("logit", x, pad=0.02)
-        xfmt: Callable[[float, int], str] = _prob
-        x_title = f"probability ({d.reference_label})"
-    else:
-        xscale = make_scale(_axis_kind(log, d.reference), d.reference)
-        x = _on_axis(xscale, d.reference)
-        xfmt = _fmt(d.unit, ascii_only)
-        x_title = d.reference_label
-    bands = [b for b in (d.band_low, d.band_high) if b is not None]
-    yscale = make_scale("linear", _robust_range(bands, d.deviation), pad=0.05)
-    fig = Figure(
-        width,
-        height,
-        xscale=xscale,
-        yscale=yscale,
-        xfmt=xfmt,
-        yfmt=_pct if d.relative else _fmt(d.unit, ascii_only),
-        ascii_only=ascii_only,
-        x_title=x_title,
-        y_title=(
-            f"{d.subject_label} vs {d.reference_label}" + (", relative" if d.relative else f" ({d.unit})")
-        ),
-    )
-    if d.band_low is not None and d.band_high is not None:
-        band = Layer("band", BAND[0], BAND[1], 0, every=2)
-        fig.line(band, x, d.band_low)
-        fig.line(band, x, d.band_high)
-        fig.legend.append(_band_legend(d.band_label, fig))
-    xs = np.array([xscale.lo, xscale.hi])
-    fig.line(_braille("reference", "."), xs, np.zeros(2))
-    fig.line(_marker("subject", SUBJECT), x, d.deviation)
-    fig.legend[:0] = [
-        LegendItem(fig.glyph(*SUBJECT), "deviation", "subject"),
-        LegendItem(fig.glyph("⠤", "."), "same", "reference"),
-    ]
-    if x_axis == "value":
-        _floor_legend(fig, xscale, d.at_or_below_zero)
-    for m in d.marks:
-        mx = m.q if x_axis == "prob" else float(_on_axis(xscale, np.array([m.reference]))[0])
-        fig.mark(m.label, mx, m.subject, fig.glyph(*MARK), label=m.label)
+    axes = plot_axes("detrended", [d], log=log, x_axis=x_axis, ascii_only=ascii_only)
+    fig = figure_on(axes, width=width, height=height, ascii_only=ascii_only)
+    paint_detrended(fig, d, x_axis=x_axis)
     return fig.finish()
 
 
@@ -275,6 +267,26 @@ def detrended_plot(
 
 
 # ---------------------------------------------------------------- P-P
+def paint_pp(fig: Figure, pp: PPPoints, *, marks: bool = True) -> None:
+    """The P-P layers, legend and named points on ``fig`` (both axes [0, 1])."""
+    W, H = fig.canvas.dot_width, fig.canvas.dot_height
+    if pp.epsilon is not None and pp.epsilon > 0:
+        band = Layer("band", BAND[0], BAND[1], 0, every=2)
+        e = pp.epsilon
+        fig.line(band, np.array([0.0, 1.0 - e]), np.array([e, 1.0]))
+        fig.line(band, np.array([e, 1.0]), np.array([0.0, 1.0 - e]))
+        fig.legend.append(band_legend(pp.band_label, fig))
+    fig.line_dots(_braille("reference", "."), np.array([0.0, W - 1.0]), np.array([H - 1.0, 0.0]))
+    fig.line(_marker("subject", SUBJECT), pp.reference_p, pp.subject_p)
+    fig.legend[:0] = [
+        LegendItem(fig.glyph(*SUBJECT), "P-P", "subject"),
+        LegendItem(fig.glyph("⠤", "."), "y = x", "reference"),
+    ]
+    if marks:
+        for m in pp.marks:
+            fig.mark(m.label, m.reference, m.subject, fig.glyph(*MARK), label=m.label)
+
+
 def pp_figure(
     pp: PPPoints,
     *,
@@ -284,33 +296,9 @@ def pp_figure(
     ascii_only: bool = False,
 ) -> Figure:
     del log  # probabilities: a log axis means nothing here
-    unit = Scale("linear", 0.0, 1.0)
-    fig = Figure(
-        width,
-        height,
-        xscale=unit,
-        yscale=unit,
-        xfmt=_prob,
-        yfmt=_prob,
-        ascii_only=ascii_only,
-        x_title=f"F {pp.reference_label}",
-        y_title=f"F {pp.subject_label}",
-    )
-    W, H = fig.canvas.dot_width, fig.canvas.dot_height
-    if pp.epsilon is not None and pp.epsilon > 0:
-        band = Layer("band", BAND[0], BAND[1], 0, every=2)
-        e = pp.epsilon
-        fig.line(band, np.array([0.0, 1.0 - e]), np.array([e, 1.0]))
-        fig.line(band, np.array([e, 1.0]), np.array([0.0, 1.0 - e]))
-        fig.legend.append(_band_legend(pp.band_label, fig))
-    fig.line_dots(_braille("reference", "."), np.array([0.0, W - 1.0]), np.array([H - 1.0, 0.0]))
-    fig.line(_marker("subject", SUBJECT), pp.reference_p, pp.subject_p)
-    fig.legend[:0] = [
-        LegendItem(fig.glyph(*SUBJECT), "P-P", "subject"),
-        LegendItem(fig.glyph("⠤", "."), "y = x", "reference"),
-    ]
-    for m in pp.marks:
-        fig.mark(m.label, m.reference, m.subject, fig.glyph(*MARK), label=m.label)
+    axes = plot_axes("pp", [pp], ascii_only=ascii_only)
+    fig = figure_on(axes, width=width, height=height, ascii_only=ascii_only)
+    paint_pp(fig, pp)
     return fig.finish()
 
 
@@ -331,6 +319,19 @@ def pp_plot(
 
 
 # ---------------------------------------------------------------- CDF overlay
+def paint_cdf(fig: Figure, ov: CDFOverlay) -> None:
+    """The CDF series (first as a braille line, the others as markers) and legend on ``fig``."""
+    styles = [
+        (_braille("reference", "."), fig.glyph("⠤", ".")),
+        (_marker("subject", SUBJECT), fig.glyph(*SUBJECT)),
+        (_marker("second", SECOND, priority=2), fig.glyph(*SECOND)),
+    ]
+    for s, (layer, glyph) in zip(ov.series, styles, strict=False):
+        fig.line(layer, on_axis(fig.xscale, s.values), s.probs)
+        fig.legend.append(LegendItem(glyph, s.label, layer.role))
+    _floor_legend(fig, fig.xscale, ov.at_or_below_zero)
+
+
 def cdf_figure(
     ov: CDFOverlay,
     *,
@@ -340,35 +341,9 @@ def cdf_figure(
     prob_axis: str = "linear",
     ascii_only: bool = False,
 ) -> Figure:
-    if prob_axis not in ("linear", "logit"):
-        raise ValueError(f"prob_axis must be 'linear' or 'logit', got {prob_axis!r}.")
-    values = [s.values for s in ov.series]
-    xscale = make_scale(_axis_kind(log, *values), np.concatenate(values))
-    if prob_axis == "logit":
-        probs = np.concatenate([s.probs for s in ov.series])
-        yscale = make_scale("logit", probs, pad=0.02)
-    else:
-        yscale = Scale("linear", 0.0, 1.0)
-    fig = Figure(
-        width,
-        height,
-        xscale=xscale,
-        yscale=yscale,
-        xfmt=_fmt(ov.unit, ascii_only),
-        yfmt=_prob,
-        ascii_only=ascii_only,
-        x_title="",  # the tick labels carry the unit; the legend needs the room
-        y_title="P(X <= x)" if ascii_only else "P(X ≤ x)",
-    )
-    styles = [
-        (_braille("reference", "."), fig.glyph("⠤", ".")),
-        (_marker("subject", SUBJECT), fig.glyph(*SUBJECT)),
-        (_marker("second", SECOND, priority=2), fig.glyph(*SECOND)),
-    ]
-    for s, (layer, glyph) in zip(ov.series, styles, strict=False):
-        fig.line(layer, _on_axis(xscale, s.values), s.probs)
-        fig.legend.append(LegendItem(glyph, s.label, layer.role))
-    _floor_legend(fig, xscale, ov.at_or_below_zero)
+    axes = plot_axes("cdf", [ov], log=log, prob_axis=prob_axis, ascii_only=ascii_only)
+    fig = figure_on(axes, width=width, height=height, ascii_only=ascii_only)
+    paint_cdf(fig, ov)
     return fig.finish()
 
 
@@ -413,7 +388,7 @@ def shift_figure(
     # The range follows the estimates: an interval far wider than every shift (the far
     # tail of a small sample) would flatten them all onto zero, so it is cut at the edge
     # of the plot and marked with an arrow, as an unbounded end is.
-    yscale = make_scale("linear", _robust_range([low, high], delta, factor=1.25), pad=0.06)
+    yscale = make_scale("linear", robust_range([low, high], delta, factor=1.25), pad=0.06)
     off_top = ~np.isfinite(high) | (high > yscale.hi)
     off_bottom = ~np.isfinite(low) | (low < yscale.lo)
     a, b = sf.labels
@@ -422,11 +397,11 @@ def shift_figure(
         height,
         xscale=xscale,
         yscale=yscale,
-        xfmt=_prob,
-        yfmt=_fmt(sf.unit, ascii_only),
+        xfmt=prob_format,
+        yfmt=value_format(sf.unit, ascii_only),
         ascii_only=ascii_only,
         x_title=f"quantile of {a}",
-        y_title=_with_unit(f"{b} − {a}" if not ascii_only else f"{b} - {a}", sf.unit),
+        y_title=with_unit(f"{b} − {a}" if not ascii_only else f"{b} - {a}", sf.unit),
     )
     fig.line(_braille("reference", "."), np.array([xscale.lo, xscale.hi]), np.zeros(2))
     interval = _braille("band", "|")
@@ -454,7 +429,7 @@ def shift_figure(
         ]
     )
     if off_top.any() or off_bottom.any():
-        fig.legend.append(LegendItem(fig.glyph("↑↓", "^v"), "beyond the axis", "band"))
+        fig.legend.append(beyond_legend(fig))
     return fig.finish()
 
 

@@ -19,7 +19,6 @@ from textual import on, work
 from textual.app import App, ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Container, VerticalScroll
-from textual.message import Message
 from textual.screen import Screen
 from textual.widgets import Footer, Static
 
@@ -34,6 +33,7 @@ from .fit_panel import ModelRanking
 from .help_overlay import KeyHelp
 from .keys import key_groups
 from .ladder_panel import LadderPanel
+from .messages import ScanEnded, ScanTick
 from .open_prompt import OpenPrompt, OpenRequest
 from .plot_panel import PlotPanel
 from .schedule import Scheduler
@@ -43,7 +43,7 @@ from .state import ScanJob
 from .status_line import FeedStatus, headline
 from .timeline_panel import TimelinePanel
 from .timeline_study import study_change
-from .workspace import AXES, KIND_NAMES, KINDS, Workspace
+from .workspace import AXES, KIND_NAMES, KINDS, LINEUP_WORDS, LINEUPS, Workspace
 
 if TYPE_CHECKING:
     from ..fit.compare import Comparison
@@ -51,18 +51,6 @@ if TYPE_CHECKING:
     from ..fit.timeline import Timeline
 
 PANES = ("picture", "models", "ladder", "timeline")
-
-
-class ScanTick(Message):
-    def __init__(self, job: ScanJob, progress: ScanProgress, sketches: dict[str, Sketch | Binned]) -> None:
-        super().__init__()
-        self.job, self.progress, self.sketches = job, progress, sketches
-
-
-class ScanEnded(Message):
-    def __init__(self, job: ScanJob, end: workers.ScanEnd) -> None:
-        super().__init__()
-        self.job, self.end = job, end
 
 
 class OgiveApp(App[int]):
@@ -78,6 +66,7 @@ class OgiveApp(App[int]):
     | v | Next picture: Q-Q → detrended → P-P → CDF → shift. |
     | V | Previous picture. |
     | l | Value axes: auto → log → linear. |
+    | m | Picture: the best models side by side → on one axis → back (highlighted model marked). |
     | 1 | (Distributions) make the highlighted row the subject. |
     | 2 | (Distributions) make it the reference; (Models) make the highlighted model the reference. |
     | tab | Move between the lists. |
@@ -104,6 +93,7 @@ class OgiveApp(App[int]):
         Binding("v", "cycle_kind(1)", "View"),
         Binding("V", "cycle_kind(-1)", "Prev view", show=False),
         Binding("l", "cycle_axes", "Axes", show=False),  # in the key overlay; the footer must fit 80 columns
+        Binding("m", "cycle_lineup", "Line-up", show=False),
         Binding("w", "save", "Write", show=False),
         Binding("e", "export", "Export", show=False),
         Binding("x", "stop_scans", "Stop", show=False),
@@ -276,6 +266,13 @@ class OgiveApp(App[int]):
         if self.ws.set_reference_model(msg.index):
             self.refresh_all()
 
+    @on(ModelRanking.RowHighlighted, "#models")
+    def _highlighted_model(self, msg: ModelRanking.RowHighlighted) -> None:
+        if self.ws.model_row != msg.cursor_row:
+            self.ws.model_row = msg.cursor_row
+            if self.ws.lineup:
+                self.workspace_screen.query_one(PlotPanel).redraw()  # the marked panel follows
+
     # ------------------------------------------------------------------ analysis
     def request_analysis(self, *, force_fit: bool = False) -> None:
         plan = self.schedule.plan(self.ws, time.monotonic(), force_fit=force_fit)
@@ -410,6 +407,14 @@ class OgiveApp(App[int]):
             self.action_pane("picture")
         self.workspace_screen.query_one(PlotPanel).redraw()
         self.say(f"picture: {KIND_NAMES[self.ws.kind]}")
+
+    def action_cycle_lineup(self) -> None:
+        self.ws.lineup = LINEUPS[(LINEUPS.index(self.ws.lineup) + 1) % len(LINEUPS)]
+        panel = self.workspace_screen.query_one(PlotPanel)
+        if self.ws.lineup and not panel.region.area:
+            self.action_pane("picture")  # only one pane below the rows: show the line-up
+        panel.redraw()
+        self.say(f"picture: {LINEUP_WORDS[self.ws.lineup]}")
 
     def action_cycle_axes(self) -> None:
         self.ws.axes = AXES[(AXES.index(self.ws.axes) + 1) % len(AXES)]

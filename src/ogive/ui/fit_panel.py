@@ -55,6 +55,8 @@ class ModelRanking(DataTable[str | Text]):
             self.add_row(
                 *(Text(c, justify="right") if k in t.right else c for k, c in enumerate(cells)), key=str(i)
             )
+        if ws.model_row is not None and 0 < ws.model_row < self.row_count:
+            self.move_cursor(row=ws.model_row)  # a refresh keeps the highlight where it was
         subj = ws.subject_dist
         when = f" at n={count(ws.fit_n)}" if subj is not None and subj.state == "following" else ""
         self.border_subtitle = f"fitted to {ws.subject}{when}, ranked by {ws.fit.rank_key}"

@@ -8,7 +8,9 @@ exactly as ``ogive plot`` does; a test holds the two pictures equal for every ki
 from __future__ import annotations
 
 from ..fit.curves import plot_inputs
+from ..fit.lineup import lineup_inputs
 from ..render import PlotLines, draw
+from ..render.lineup import lineup_plot, one_axis_plot
 from .workspace import Workspace
 
 
@@ -22,6 +24,8 @@ def draw_picture(ws: Workspace, *, width: int, height: int) -> PlotLines:
     Raises :class:`NoPicture` when something is missing, and ValueError (the
     renderer's own sentence) when the picture cannot be drawn at this size.
     """
+    if ws.lineup:
+        return _lineup(ws, width=width, height=height)
     subj, ref = ws.subject_dist, ws.reference
     if subj is None or ref is None:
         raise NoPicture("Pick a reference: highlight a distribution and press 2, or a model in Models.")
@@ -44,3 +48,23 @@ def draw_picture(ws: Workspace, *, width: int, height: int) -> PlotLines:
         assert ref.model is not None
         data = plot_inputs(ws.kind, subj.sketch, ref.model, subject_label=subj.name, reference_label=ref.name)
     return draw(ws.kind, data, width=width, height=height, log=ws.log_axes)
+
+
+def _lineup(ws: Workspace, *, width: int, height: int) -> PlotLines:
+    """The subject against its best models side by side (or on one axis), as
+    ``ogive fit --plot --top 3`` (``--one-axis``) draws them, the highlighted model marked."""
+    subj = ws.subject_dist
+    if subj is None or subj.sketch.count == 0:
+        raise NoPicture("The subject has no values yet.")
+    if ws.fit is None or not ws.fit.ranked:
+        raise NoPicture(ws.fit_note or "The models are being fitted; the line-up appears when they are.")
+    models, marked = ws.lineup_models()
+    if ws.lineup == "one-axis":
+        lineup = lineup_inputs(
+            "detrended", subj.sketch, models, subject_label=subj.name, rank_key=ws.fit.rank_key
+        )
+        return one_axis_plot(lineup, width=width, height=height, marked=marked)
+    if ws.kind == "shift":
+        raise NoPicture("A line-up reads the subject against models; the shift function needs two sketches.")
+    lineup = lineup_inputs(ws.kind, subj.sketch, models, subject_label=subj.name, rank_key=ws.fit.rank_key)
+    return lineup_plot(lineup, width=width, height=height, log=ws.log_axes, marked=marked)

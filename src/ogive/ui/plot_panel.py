@@ -28,11 +28,18 @@ class PlotPanel(Static):
     def on_resize(self) -> None:
         self.redraw()
 
+    def on_show(self) -> None:
+        self.redraw()  # what changed while the pane was hidden (a highlight in Models)
+
     def redraw(self) -> None:
         ws = self.ws
         if not self.is_mounted or ws is None:
             return
         name = KIND_NAMES[ws.kind]
+        if ws.lineup == "one-axis":
+            name = "models on one axis (detrended)"
+        elif ws.lineup:
+            name = f"{name}, models side by side"
         self.border_title = f"Picture: {name} ({ws.axes} axes)"
         width, height = self.content_size.width, self.content_size.height
         if width < 10 or height < 4:

@@ -29,7 +29,7 @@ from .state import Distribution, ReferenceChoice, ScanJob
 
 if TYPE_CHECKING:
     from ..fit.compare import Comparison
-    from ..fit.models import FitReport
+    from ..fit.models import Candidate, FitReport
     from ..fit.timeline import Timeline
 
 KINDS: tuple[str, ...] = ("qq", "detrended", "pp", "cdf", "shift")
@@ -41,9 +41,20 @@ KIND_NAMES: dict[str, str] = {
     "cdf": "CDF overlay",
     "shift": "shift function",
 }
+LINEUPS: tuple[str, ...] = ("", "panels", "one-axis")
+"""What ``m`` steps through: the subject against its reference (''), against the best
+models side by side ('panels', a line-up), their deviations on one axis ('one-axis')."""
+LINEUP_TOP = 3
+"""Models in the workspace's line-up, as ``ogive fit --plot`` draws by default."""
 AXES: tuple[str, ...] = ("auto", "log", "linear")
 """Value axes: 'auto' lets the renderer choose (log unless a value is negative, as for latencies;
 zeros are drawn at the floor and counted)."""
+LINEUP_WORDS = {
+    "": "the subject against its reference",
+    "panels": "the best models side by side",
+    "one-axis": "the best models on one axis",
+}
+"""What the picture pane shows at each step of ``m``, in the status line's words."""
 
 _AFTER = re.compile(r"(^|[:/])after(?=$|[:/])")
 
@@ -80,6 +91,10 @@ class Workspace:
     """The picture: one of :data:`KINDS`."""
     axes: str = "auto"
     """The value axes: one of :data:`AXES`."""
+    lineup: str = ""
+    """One of :data:`LINEUPS`: the picture is a line-up of the subject's models, or not."""
+    model_row: int | None = None
+    """The Models pane's highlighted row (the ranked models come first): its panel is marked."""
     auto_model: bool = False
     """The reference is the best model only because the subject was alone."""
     opened: int = 0
@@ -120,6 +135,18 @@ class Workspace:
     def log_axes(self) -> bool | None:
         """What the renderer is asked for: None lets it choose."""
         return {"auto": None, "log": True, "linear": False}[self.axes]
+
+    def lineup_models(self) -> tuple[list[Candidate], int | None]:
+        """The best :data:`LINEUP_TOP` models — the last of them giving its place to the
+        highlighted model when that one ranks lower, so the line-up keeps its size (and
+        its layout) — and the index of the highlighted model's panel (None: none)."""
+        ranked = list(self.fit.ranked) if self.fit is not None else []
+        row = self.model_row
+        if row is None or not 0 <= row < len(ranked):
+            return ranked[:LINEUP_TOP], None
+        if row >= LINEUP_TOP:
+            return [*ranked[: LINEUP_TOP - 1], ranked[row]], LINEUP_TOP - 1
+        return ranked[:LINEUP_TOP], row
 
     def compare_key(self) -> tuple[str, str] | None:
         """(subject, reference) when a comparison of two sketches with values is wanted."""
