@@ -25,7 +25,7 @@ MAY_IMPORT: dict[str, set[str]] = {
     "cluster": {"read", "sketch", "store", "errors", "numbers"},
     "render": {"sketch", "fit", "errors", "numbers"},
     "demo": {"errors"},
-    "ui": {"read", "fit", "store", "render", "sketch", "errors", "numbers"},
+    "ui": {"cluster", "read", "fit", "store", "render", "sketch", "errors", "numbers"},
     "commands": {
         "ui",
         "demo",

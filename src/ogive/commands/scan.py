@@ -93,6 +93,8 @@ def run(args: argparse.Namespace) -> int:
         if not os.access(folder, os.W_OK):
             raise OgiveError(f"cannot write {args.output}: the folder {folder} is not writable.")
 
+    if args.follow and args.cluster:
+        raise OgiveError("--follow reads a growing file on this machine; it does not run on a cluster.")
     if args.recent is not None and not args.follow:
         raise OgiveError("--recent keeps the last minutes of a followed log; use it with --follow.")
     result = _follow(args) if args.follow else scan_sources(list(args.sources), args, keep_partial=True)

@@ -20,6 +20,11 @@ _GLOB = re.compile(r"[*?[]")
 EXTRA = "pip install 'ogive[cluster]'"
 
 
+def has_glob(name: str) -> bool:
+    """Whether ``name`` holds a glob character (``*``, ``?``, ``[``)."""
+    return bool(_GLOB.search(name))
+
+
 def is_url(name: str) -> bool:
     """``s3://bucket/key``, ``https://...``, ``memory://...``: a path fsspec opens."""
     return bool(_URL.match(name))
@@ -62,27 +67,33 @@ def open_url(name: str) -> tuple[BinaryIO, int | None]:
 
 
 def expand(names: list[str]) -> list[str]:
-    """``names`` with globs replaced by the files they match, in name order.
+    """``names`` with globs replaced by the files they match, in name order (:func:`listing`)."""
+    return [name for name, _ in listing(names)]
+
+
+def listing(names: list[str]) -> list[tuple[str, int | None]]:
+    """Each source with globs expanded, and its size where a URL listing told it.
 
     A URL glob (``s3://logs/2026-03-*/app.log.gz``) is listed through fsspec; a local one
     only when no file has that very name (the shell expands unquoted local globs first).
     A glob matching nothing is an error: a typo must not read as an empty log.
     """
-    out: list[str] = []
+    out: list[tuple[str, int | None]] = []
     for name in names:
         if not _GLOB.search(name) or (not is_url(name) and os.path.exists(name)):
-            out.append(name)
+            out.append((name, None))
             continue
+        found: list[tuple[str, int | None]]
         if is_url(name):
             fs, path = url_fs(name)
             try:
                 listed = fs.glob(path, detail=True)  # sizes and kinds in the listing: no request per file
-                files = [p for p in sorted(listed) if listed[p].get("type") != "directory"]
-                found = [fs.unstrip_protocol(p) for p in files]
             except Exception as exc:  # the store's own errors (auth, network), as one line
                 raise OgiveError(f"cannot list {name}: {str(exc) or type(exc).__name__}.") from None
+            files = [p for p in sorted(listed) if listed[p].get("type") != "directory"]
+            found = [(fs.unstrip_protocol(p), listed[p].get("size")) for p in files]
         else:
-            found = sorted(p for p in glob.glob(name) if os.path.isfile(p))
+            found = [(p, None) for p in sorted(glob.glob(name)) if os.path.isfile(p)]
         if not found:
             raise OgiveError(f"no file matches {name}.")
         out += found

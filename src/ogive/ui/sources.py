@@ -13,6 +13,7 @@ from pathlib import Path
 
 from ..errors import OgiveError
 from ..read.options import ScanOptions
+from ..read.urls import has_glob, is_url
 from ..store import load_ref, sketch_ref, source_stem
 from .state import Distribution, ScanJob
 
@@ -27,11 +28,18 @@ class Opened:
 
 
 def open_source(
-    spec: str, options: ScanOptions, *, order: int, follow: bool = False, recent: str | None = None
+    spec: str,
+    options: ScanOptions,
+    *,
+    order: int,
+    follow: bool = False,
+    recent: str | None = None,
+    cluster: str | None = None,
 ) -> Opened:
     """Rows for a saved sketch (``PATH`` or ``PATH:GROUP``), or a scan (a follow) for a log.
 
     A followed log may not exist yet: following waits for it, as ``scan --follow`` does.
+    A URL or a glob is left for the scan to open (and to say what is wrong with it).
     """
     ref = sketch_ref(spec)
     if ref is not None:
@@ -49,6 +57,6 @@ def open_source(
         return Opened(rows=rows, message=f"loaded {ref.path}")
     if follow:
         return Opened(job=ScanJob(spec, options, seq=order, follow=True, recent=recent))
-    if spec != "-" and not Path(spec).exists():
+    if spec != "-" and not Path(spec).exists() and not is_url(spec) and not has_glob(spec):
         return Opened(message=f"cannot open {spec}: no such file.")
-    return Opened(job=ScanJob(spec, options, seq=order))
+    return Opened(job=ScanJob(spec, options, seq=order, cluster=cluster))
