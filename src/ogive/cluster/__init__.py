@@ -73,7 +73,8 @@ def scan(
                     outcome=outcome)  # fmt: skip
     if result.error is not None and (options.strict or not options.keep_partial):
         problems = [*(root.tally.errors if root else []), *outcome.failures]
-        raise OgiveError(problems[0] if len(problems) == 1 else result.error)
+        # --strict: the first bad row in source order, as a single-process scan stops at it
+        raise OgiveError(problems[0] if options.strict or len(problems) == 1 else result.error)
     return result
 
 

@@ -35,10 +35,10 @@ def first_lines(slots: list[Slot], present: set[int]) -> dict[int, tuple[PartSpe
         if slot.state == EMPTY:
             continue
         at = line.get(spec.path, 1)
-        if spec.leaf in present and slot.lines is not None:
-            start = slot.reach["reach"][0] if slot.reach else 0
-            out[spec.leaf] = (spec, spec.first_line or at, start)
-            line[spec.path] = None if at is None else at + slot.lines
+        if spec.leaf in present and slot.lines is not None and slot.reach is not None:
+            out[spec.leaf] = (spec, spec.first_line or at, slot.reach["reach"][0])
+            # a part that stopped early (damage, --strict) leaves the lines after it uncounted
+            line[spec.path] = None if at is None or slot.reach["errors"] else at + slot.lines
         else:
             line[spec.path] = None
     return out
@@ -102,6 +102,10 @@ def finish(
     run.builder.sketches = part.sketches.sketches
     run.builder.unit = d.unit or ""
     result = run.finish(elapsed, partial=partial, error=error)
+    stepped = run.order.warning()
+    if stepped in result.warnings:
+        at = result.warnings.index(stepped)
+        result.warnings[at] += " Each row is held against the earlier rows of its own part: a lower bound."
     for sketch in result.sketches.sketches.values():
         sketch.provenance.sources = list(names)
     if t.overflow and options.by:

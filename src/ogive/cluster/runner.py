@@ -89,8 +89,6 @@ class Runner:
         self.files: dict[str, list[int]] = {}
         for i, s in enumerate(specs):
             self.files.setdefault(s.path, []).append(i)
-        self.checked = {path: 0 for path in self.files}
-        """Per file, how many of its slots are accepted (in order)."""
         self.specs_by_leaf = {s.leaf: s for s in specs}
         self.next_leaf = len(specs)
         self.levels: list[list[Any]] = [[PENDING] * len(specs)]
@@ -187,10 +185,13 @@ class Runner:
         self.settle(0, i, slot.leaf)
 
     def check(self, path: str, *, final: bool = False) -> None:
-        """Accept the parts of ``path`` whose first record is where the part before stopped.
+        """Accept the parts of ``path`` once each is known to begin where the one before stopped.
 
-        ``final`` (the scan was stopped): accept what can be checked now, in order, and
-        read nothing again.
+        A CSV file's parts are checked together, in order, once all have reported: the
+        first that began elsewhere (inside a quoted field) is read again from where the
+        part before it stopped, and the check waits for it; a part whose quotes did not
+        balance sends the whole file to one task. ``final`` (the scan was stopped):
+        accept the parts that check out so far, and read nothing again.
         """
         ids = self.files[path]
         if not self.decisions.csv:
@@ -199,44 +200,36 @@ class Runner:
                     self.accept(i)
             return
         if not final and any(self.slots[i].state == PENDING and self.slots[i].reach is None for i in ids):
-            return  # a CSV file is checked once every part of it has reported
-        k = self.checked[path]
-        if not final and k == 0 and any(self.trouble(i) for i in ids):
-            self.whole(path)
             return
-        file_end = self.slots[ids[-1]].spec.end
-        while k < len(ids):
-            slot = self.slots[ids[k]]
+        good: list[int] = []
+        expected = 0
+        for i in ids:
+            slot = self.slots[i]
             if slot.state != PENDING:
-                k += 1
-                continue
+                continue  # accepted before (a final check), or read by another part
             if slot.reach is None:
                 break
-            first, _, _ = slot.reach["reach"]
-            expected = self.slots[ids[k - 1]].reach["reach"][1] if k else 0  # type: ignore[index]
-            if first != expected or (final and self.trouble(ids[k])):
+            first, stop, _ = slot.reach["reach"]
+            if first != expected:
                 if not final:
-                    self.again(ids[k], start=expected, exact=True)
+                    self.again(i, start=expected, exact=True)
+                    return
                 break
-            if self.trouble(ids[k]) and slot.spec.end < file_end:
-                # quotes that never close, found only after the parts before were merged:
-                # the rest of the file is read from here in one piece
-                for later in ids[k + 1 :]:
-                    self.slots[later].state = EMPTY
-                    self.settle(0, later, EMPTY)
-                end = self.slots[ids[-1]].spec.end
-                self.out.notes.append(f"{slot.spec.display}: quotes that do not balance; read from byte "
-                                      f"{expected:,} on in one piece.")  # fmt: skip
-                self.again(ids[k], start=expected, end=end, exact=True)
+            if self.trouble(i):
+                if not final:
+                    self.whole(path)
+                    return
                 break
-            self.accept(ids[k])
-            k += 1
-        self.checked[path] = k
+            good.append(i)
+            expected = stop
+        for i in good:
+            self.accept(i)
 
     def trouble(self, i: int) -> bool:
         """A part of a cut CSV file whose quotes did not balance (see :mod:`.ranges`)."""
-        r = self.slots[i].reach
-        return self.slots[i].spec.kind == RANGE and r is not None and bool(r["reach"][2] or r["quote_chunks"])
+        slot = self.slots[i]
+        r = slot.reach
+        return slot.spec.kind == RANGE and r is not None and bool(r["reach"][2] or r["quote_chunks"])
 
     def whole(self, path: str) -> None:
         """Read ``path`` again as one task, as a single-process scan reads it."""

@@ -98,8 +98,8 @@ def scan_part(spec: PartSpec, options: ScanOptions, decisions: Decisions) -> Blo
     try:
         keep = dataclasses.replace(options, keep_partial=True)
         result = scan([spec.path], keep, run=run, open_source=opener)
-    except OgiveError as exc:
-        tally.errors.append(str(exc))
+    except OgiveError as exc:  # --strict names its place; anything else gets the part's bytes or rows
+        tally.errors.append(str(exc) if options.strict or spec.kind == WHOLE else f"{spec.where()}: {exc}")
         tally.reach = [spec.start, spec.start, 0]
         return Part(SketchSet(), tally).dump()
     d, sketches = run.decoder, result.sketches
