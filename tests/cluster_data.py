@@ -9,6 +9,7 @@ scans against the data itself, not only against each other.
 from __future__ import annotations
 
 import gzip
+import itertools
 import re
 import threading
 from collections.abc import Iterator
@@ -61,7 +62,8 @@ def tricky_csv(path: Path, rows: int, seed: int) -> Truth:
         elif i % 29 == 4:
             note = '"three\nlines ""quoted""\nhere"'
             newlines = 2
-        out.append(f"2026-03-04T{10 + i // 3600 % 10:02d}:{i // 60 % 60:02d}:{i % 60:02d}Z,h{i % 7},{note},{text}\r\n")
+        stamp = f"2026-03-04T{10 + i // 3600 % 10:02d}:{i // 60 % 60:02d}:{i % 60:02d}Z"
+        out.append(f"{stamp},h{i % 7},{note},{text}\r\n")
         line += 1 + newlines
     path.write_bytes("".join(out).rstrip("\r\n").encode())
     truth.lines = line - 1
@@ -80,7 +82,9 @@ def text_log(rows: int, seed: int, name: str, first_line: int = 1) -> tuple[byte
             continue
         value = round(float(rng.exponential(20)), 2)
         truth.values.append(value)
-        lines.append(f"2026-03-04T10:00:{i % 60:02d}Z req={i} dur={value}ms\n")
+        lines.append(
+            f"2026-03-04T{10 + i // 3600:02d}:{i // 60 % 60:02d}:{i % 60:02d}Z req={i} dur={value}ms\n"
+        )
     truth.lines = rows
     return "".join(lines).encode(), truth
 
@@ -89,7 +93,7 @@ def gzip_members(path: Path, rows: int, seed: int, members: int = 3) -> Truth:
     """One text log written as several gzip members (as ``cat a.gz b.gz`` makes)."""
     data, truth = text_log(rows, seed, path.name)
     cuts = np.linspace(0, len(data), members + 1).astype(int)
-    pieces = [data[a:b] for a, b in zip(cuts[:-1], cuts[1:], strict=True)]
+    pieces = [data[a:b] for a, b in itertools.pairwise(cuts)]
     # members may split a line: gzip joins them back into one stream
     path.write_bytes(b"".join(gzip.compress(p) for p in pieces))
     return truth
@@ -144,7 +148,12 @@ def assert_same(single: ScanResult, split: ScanResult, *, exact_sum: bool = Fals
         # The sum is added in another order: equal to a few ulps (1e-12 relative).
         assert b.total == a.total if exact_sum else abs(b.total - a.total) <= 1e-12 * max(1.0, abs(a.total))
         pa, pb = a.provenance, b.provenance
-        assert (pb.sources, pb.field, pb.lines_read, pb.rows_read) == (pa.sources, pa.field, pa.lines_read, pa.rows_read)
+        assert (pb.sources, pb.field, pb.lines_read, pb.rows_read) == (
+            pa.sources,
+            pa.field,
+            pa.lines_read,
+            pa.rows_read,
+        )
         assert tallies(pb.skipped) == tallies(pa.skipped), name
         assert (pb.time_first, pb.time_last) == (pa.time_first, pa.time_last)
 
@@ -200,7 +209,7 @@ class _RangeHandler(BaseHTTPRequestHandler):
         if body:
             self.wfile.write(data)
 
-    def log_message(self, format: str, *args: object) -> None:  # noqa: A002 (the base class's name)
+    def log_message(self, format: str, *args: object) -> None:
         pass
 
 

@@ -39,7 +39,9 @@ from ogive.errors import OgiveError
 from ogive.read import ScanOptions, scan
 from rank_check import rank_error
 
-distributed = pytest.importorskip("distributed", reason="the cluster extra (pip install 'ogive[cluster]') is absent")
+distributed = pytest.importorskip(
+    "distributed", reason="the cluster extra (pip install 'ogive[cluster]') is absent"
+)
 
 
 @pytest.fixture(scope="module")
@@ -92,7 +94,9 @@ def test_groups_and_halves_equal_single_process(files, address) -> None:  # type
     for options in (
         ScanOptions(column="latency_ms", by="host"),
         ScanOptions(column="latency_ms", time_field="ts", split_at="2026-03-04T10:20:00Z"),
-        ScanOptions(column="latency_ms", by="host", max_groups=20, time_field="ts", split_at="2026-03-04T10:20:00Z"),
+        ScanOptions(
+            column="latency_ms", by="host", max_groups=20, time_field="ts", split_at="2026-03-04T10:20:00Z"
+        ),
     ):
         single, split = both([str(d / "a.csv")], options, address, 3000)
         assert_same(single, split)
@@ -104,7 +108,9 @@ def test_group_cap_folds_late_groups_as_single_process(files, address) -> None: 
     path = d / "hosts.csv"
     rng = np.random.default_rng(9)
     hosts = [f"web-{i // 40}" for i in range(4000)]  # host k appears only in rows 40k..40k+39
-    path.write_text("host,ms\n" + "".join(f"{h},{v:.2f}\n" for h, v in zip(hosts, rng.exponential(5, 4000))))
+    path.write_text(
+        "host,ms\n" + "".join(f"{h},{v:.2f}\n" for h, v in zip(hosts, rng.exponential(5, 4000), strict=False))
+    )
     single, split = both([str(path)], ScanOptions(column="ms", by="host", max_groups=30), address, 900)
     assert_same(single, split)
     assert "host=(other)" in split.sketches.names()
@@ -206,7 +212,9 @@ def test_a_part_that_cannot_be_read_is_named_and_the_rest_kept(tmp_path, address
     alone = scan([str(tmp_path / "ok.log")], dataclasses.replace(options, keep_partial=False))
     assert got.sketches["all"].count == alone.sketches["all"].count
     with pytest.raises(OgiveError, match="no such file"):
-        cluster.scan(sources, dataclasses.replace(options, keep_partial=False), cluster=address, part_bytes=4096)
+        cluster.scan(
+            sources, dataclasses.replace(options, keep_partial=False), cluster=address, part_bytes=4096
+        )
 
 
 def test_https_path_read_in_ranges(files, address) -> None:  # type: ignore[no-untyped-def]

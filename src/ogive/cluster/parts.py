@@ -6,11 +6,14 @@ lines whose bytes were cleaned, notes, the unit-suffix and epoch counts, the gro
 ``--by`` in the order they were met. Both travel as bytes (JSON), never as pickled
 objects, so a worker can only hand the client data.
 
-Merging is in source order (``a`` before ``b``): counts add, the first places of a
-reason stay the first, and the first ``max_groups`` groups met keep a sketch of their
-own while later ones are folded into ``FIELD=(other)``, as the single-process router
-does. That is exact when no part met more than ``max_groups`` groups by itself
-(``crowded``); otherwise which groups got a sketch may differ, and the scan says so.
+Merging is in source order (``a`` before ``b``): counts add, and the first places of a
+reason stay the first. Groups of ``--by``: the single-process router gives the first
+``max_groups`` values met a sketch each and folds later ones into ``FIELD=(other)``.
+A part cannot know which values came before it, so parts and merges keep up to
+``WIDE`` times as many groups (in the order met), and only the root is cut to
+``max_groups`` (:func:`cap_groups`): exact whenever no part or merge met more than
+that many values by itself. One that did folds its latest ones early and is marked
+``crowded``; the scan then says which groups got a sketch may differ.
 
 Places inside a part are written ``<token>:LINE``, the line counted from the part's
 first line; the client rewrites them once the lines of the parts before are known
@@ -110,13 +113,19 @@ def _once(into: list[str], more: list[str]) -> None:
     into.extend(x for x in more if x not in into)
 
 
+WIDE = 2
+"""Parts and merges keep up to WIDE x ``max_groups`` groups (see the module notes)."""
+
+
 def merge(parts: list[Part], *, by: str | None, max_groups: int) -> Part:
-    """``parts`` (in source order) as one part; the inputs are consumed."""
+    """``parts`` (in source order) as one part, keeping up to ``WIDE * max_groups`` groups;
+    the inputs are consumed."""
     out = parts[0]
     for part in parts[1:]:
         _merge_two(out, part)
-    if by:
-        _cap_groups(out, by, max_groups)
+    if by and len(out.tally.groups) > WIDE * max_groups:
+        cap_groups(out, by, WIDE * max_groups)
+        out.tally.crowded = True
     return out
 
 
@@ -149,7 +158,7 @@ def _merge_two(a: Part, b: Part) -> None:
     ta.errors += tb.errors
 
 
-def _cap_groups(part: Part, by: str, max_groups: int) -> None:
+def cap_groups(part: Part, by: str, max_groups: int) -> None:
     """Fold the groups met after the first ``max_groups`` into ``BY=(other)``."""
     t = part.tally
     if len(t.groups) <= max_groups:

@@ -15,7 +15,7 @@ from ..read.route import OTHER, OVERFLOW_KEPT
 from ..read.scan import Pipeline
 from ..sketch import SketchSet
 from .head import Decisions
-from .parts import Part, Tally, relocate
+from .parts import WIDE, Part, Tally, cap_groups, relocate
 from .runner import EMPTY, Outcome, Slot
 from .tasks import PartSpec
 
@@ -61,6 +61,8 @@ def finish(
     result and every sketch are flagged ``partial``.
     """
     part = root if root is not None else Part(SketchSet(), Tally())
+    if options.by:
+        cap_groups(part, options.by, options.max_groups)
     places = first_lines(slots, set(part.tally.leaves))
     by_byte = False
 
@@ -117,8 +119,8 @@ def finish(
         )
     if t.crowded:
         result.warnings.append(
-            f"--by {options.by}: a part of the scan met more than {options.max_groups} distinct values by "
-            f"itself, so which values got a sketch of their own may differ from a single-process scan "
+            f"--by {options.by}: a part of the scan met over {WIDE * options.max_groups} distinct values "
+            "by itself, so which values got a sketch of their own may differ from a single-process scan "
             "(every row is still counted once; raise --max-groups to keep them apart)."
         )
     if by_byte:

@@ -22,7 +22,7 @@ from ..read.route import OTHER
 from ..read.scan import Pipeline, scan
 from ..sketch import SketchSet
 from .head import Decisions
-from .parts import Blob, Part, Tally, merge, token
+from .parts import WIDE, Blob, Part, Tally, merge, token
 from .ranges import RangeReader
 
 RANGE, WHOLE, ROWS = "range", "whole", "rows"
@@ -77,6 +77,8 @@ def scan_part(spec: PartSpec, options: ScanOptions, decisions: Decisions) -> Blo
     come back in the tally's ``errors``, with what was read before them; anything else
     raised is a failed task, and the client names the part.
     """
+    if options.by:  # a part keeps more groups than the scan (see parts.WIDE); the root cuts them
+        options = dataclasses.replace(options, max_groups=WIDE * options.max_groups)
     run = Pipeline([spec.display], options)
     decisions.apply(run)
     reader: RangeReader | None = None
