@@ -2,7 +2,7 @@
 
 Run:  python benchmarks/sketch_accuracy.py [--n 1e7] [--tdigest-n 1e5]
 
-For each scale function (k1, k2, k3 of Dunning & Ertl 2019) and compression it builds
+For each scale function (k1, k2, k3 of Dunning & Ertl 2019; our k1-ladder) and compression it builds
 a sketch of ``--n`` generated values per distribution, in 64 Ki-value batches as the
 reader sends them, and prints:
 
@@ -31,7 +31,7 @@ from collections.abc import Callable
 import numpy as np
 from numpy.typing import NDArray
 
-from ogive.sketch import DEFAULT_COMPRESSION, Sketch, SketchSet, dumps
+from ogive.sketch import DEFAULT_COMPRESSION, DEFAULT_TAIL, Sketch, SketchSet, dumps
 from ogive.sketch.digest import TDigest, _merge_sorted
 
 QS = np.array([0.5, 0.9, 0.99, 0.999, 0.9999])
@@ -71,7 +71,8 @@ class _GeneralPath(TDigest):
         x.sort()
         self._buf, self._buf_n = [], 0
         ones = np.ones(x.size)
-        self._regroup(*_merge_sorted(self._means, self._weights, self._pure, x, ones, ones.astype(bool)))
+        mine = (self._means, self._weights, self._pure, self._lo, self._hi)
+        self._regroup(*_merge_sorted(mine, (x, ones, ones.astype(bool), x, x)))
 
 
 def build(x: FloatArray, compression: float, scale: str, general: bool = False) -> tuple[Sketch, float]:
@@ -92,7 +93,7 @@ def fmt_err(e: FloatArray) -> str:
 def study(n: int, scales: list[str], compressions: list[float], seed: int) -> None:
     rng = np.random.default_rng(seed)
     data = distributions(rng, n)
-    print(f"\n## Our sketch, n = {n:.0e} per distribution, tail_size 1024, batches of {BATCH}")
+    print(f"\n## Our sketch, n = {n:.0e} per distribution, tail_size {DEFAULT_TAIL}, batches of {BATCH}")
     head = "  ".join(f"{'p' + format(q * 100, 'g'):>8s}" for q in QS)
     print(f"{'distribution':14s} {'scale':5s} {'comp':>5s}  {head}  {'cents':>5s} {'KB':>6s} {'Mval/s':>7s}")
     for name, x in data.items():
@@ -109,7 +110,8 @@ def study(n: int, scales: list[str], compressions: list[float], seed: int) -> No
                 )
     print("\n## Ingest speed, this code vs the general flush path, same data, same run")
     x = data["continuous"]
-    for scale, c in (("k1", DEFAULT_COMPRESSION), ("k2", DEFAULT_COMPRESSION)):
+    for scale in ("k1-ladder", "k1", "k2"):
+        c = DEFAULT_COMPRESSION
         _, fast = build(x, c, scale)
         _, slow = build(x, c, scale, general=True)
         print(
@@ -152,8 +154,8 @@ def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     ap.add_argument("--n", type=float, default=1e6, help="values per distribution (default 1e6)")
     ap.add_argument("--tdigest-n", type=float, default=1e5, help="subset for the tdigest package (1e5)")
-    ap.add_argument("--scales", default="k1,k2,k3")
-    ap.add_argument("--compressions", default="200,500,1000,2000")
+    ap.add_argument("--scales", default="k1-ladder,k1,k2,k3")
+    ap.add_argument("--compressions", default="400,800,1600")
     ap.add_argument("--seed", type=int, default=20261201)
     ap.add_argument("--skip-tdigest", action="store_true")
     args = ap.parse_args()

@@ -76,7 +76,7 @@ def test_json_is_one_document_with_the_numbers(capsys: pytest.CaptureFixture[str
         ]
     )
     assert row["n"] == raw.size
-    # The top 1024 of 24k values are kept exactly, so p99 and above match numpy.quantile.
+    # The top 512 of 24k values are kept exactly, so p99 and above match numpy.quantile.
     np.testing.assert_allclose(
         [row["p99"], row["p99.9"], row["p99.99"], row["max"]],
         np.quantile(raw, [0.99, 0.999, 0.9999, 1.0]),
@@ -128,8 +128,9 @@ def test_merge_of_halves_matches_whole_and_numpy(capsys: pytest.CaptureFixture[s
         est = s.quantile(qs)
         ranks = np.searchsorted(raw, est, side="right") / raw.size
         assert np.all(np.abs(ranks - qs) < 2e-3), (ranks, qs)
-    # The extreme tail is held exactly in both, so it matches numpy exactly.
-    tail = np.array([0.99, 0.999, 0.9999, 1.0])
+    # The extreme tail (the top 512 of 60k: p99.2 and up) is held exactly in both, so it
+    # matches numpy exactly.
+    tail = np.array([0.992, 0.999, 0.9999, 1.0])
     np.testing.assert_allclose(merged.quantile(tail), np.quantile(raw, tail), rtol=1e-12)
     np.testing.assert_allclose(scanned.quantile(tail), np.quantile(raw, tail), rtol=1e-12)
 

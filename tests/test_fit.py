@@ -19,14 +19,8 @@ from scipy import stats
 from ogive.cli import main
 from ogive.fit import families as F
 from ogive.fit import fit_sketch
-from ogive.fit.estimate import (
-    GroupedData,
-    grouped_from_sketch,
-    log_likelihood,
-    maximise,
-    quantile_matching,
-    summarise,
-)
+from ogive.fit.estimate import log_likelihood, maximise, quantile_matching
+from ogive.fit.grouped import GroupedData, grouped_from_sketch, summarise
 from ogive.fit.qq import pairs_from_model
 from ogive.fit.scores import distances, exact_sample
 from ogive.sketch import Sketch
@@ -69,7 +63,7 @@ def test_closed_forms_match_scipy(name: str) -> None:
     dist, _ = CASES[name]
     rng = np.random.default_rng(7)
     x = np.sort(dist.rvs(500, random_state=rng))
-    s = summarise(GroupedData(x, np.empty(0), np.empty(0), x.size))
+    s = summarise(GroupedData.from_edges(x, np.empty(0), np.empty(0), x.size))
     fam = F.get(name, float(x[0]))
     theta = quantile_matching(fam, s)[0]
     frozen = fam.freeze(theta)
@@ -143,9 +137,9 @@ def test_grouped_mle_matches_scipy_interval_censored_fit(name: str) -> None:
     x = dist.rvs(20_000, random_state=rng)
     g = grouped_from_sketch(sketch_of(x), bins=60)
     counts = np.round(g.counts).astype(int)  # scipy takes one row per value
-    data = GroupedData(g.points, g.edges, counts.astype(float), int(g.points.size + counts.sum()))
-    lo = np.repeat(g.edges[:-1], counts)
-    hi = np.repeat(g.edges[1:], counts)
+    data = GroupedData(g.points, g.lows, g.highs, counts.astype(float), int(g.points.size + counts.sum()))
+    lo = np.repeat(g.lows, counts)
+    hi = np.repeat(g.highs, counts)
     cd = stats.CensoredData(uncensored=g.points, interval=np.column_stack((lo, hi)))
     ref = SCIPY[name](*SCIPY[name].fit(cd, **kw))
     fam = F.get(name, float(g.points.min()))
@@ -227,7 +221,10 @@ def test_ranking_prefers_the_true_family_and_positive_beats_normal() -> None:
     report = fit_sketch(sketch_of(x), ["normal", "lognormal", "gamma", "weibull"])
     assert report.models[0].family == "lognormal"
     assert report.models[-1].family == "normal"
-    assert report.rank_key == "tail"
+    assert report.rank_key == "bic" and "BIC" in report.rank_reason  # chosen by auto, and says so
+    by_tail = fit_sketch(sketch_of(x), ["normal", "lognormal", "gamma", "weibull"], rank_by="tail")
+    assert by_tail.rank_key == "tail" and by_tail.rank_reason == ""
+    assert by_tail.models[0].family == "lognormal"
 
 
 def test_mixture_ranks_first_on_fast_and_slow_paths() -> None:
@@ -244,18 +241,23 @@ def test_mixture_ranks_first_on_fast_and_slow_paths() -> None:
     assert p["median_slow"] == pytest.approx(60.0, rel=0.02)
 
 
-def test_zeros_make_positive_families_not_applicable_and_shifted_ones_fit() -> None:
+def test_zeros_get_a_point_mass_and_shifted_families_a_floor_below_them() -> None:
+    # Exact zeros among continuous values: positive families fit the positive values
+    # (as scipy's fit on them does) plus a point mass at 0; nothing is out of support.
+    # More cases (lattice zeros, negatives) in test_fit_data.py.
     rng = np.random.default_rng(6)
-    x = np.concatenate((np.zeros(300), stats.gamma(2.0, scale=10).rvs(50_000, random_state=rng)))
+    pos = stats.gamma(2.0, scale=10).rvs(50_000, random_state=rng)
+    x = np.concatenate((np.zeros(300), pos))
     report = fit_sketch(sketch_of(x), ["gamma", "lognormal", "gamma3", "normal"])
-    refused = {r.family: r for r in report.not_fitted}
-    assert set(refused) == {"gamma", "lognormal"}
-    assert refused["gamma"].out_of_support == 300
-    assert "not applicable" in refused["gamma"].reason
+    assert not report.not_fitted and report.out_of_support == 0 and report.zero_count == 300
+    gamma = next(c for c in report.models if c.family == "gamma")
+    shape, _, scale = stats.gamma.fit(pos, floc=0)
+    assert gamma.params["shape"] == pytest.approx(shape, rel=0.01)
+    assert gamma.params["scale"] == pytest.approx(scale, rel=0.01)
+    assert gamma.model.zero_share == pytest.approx(300 / x.size)
     shifted = next(c for c in report.models if c.family == "gamma3")
     assert shifted.params["location"] < 0
     assert "location shift" in shifted.model.support
-    assert report.out_of_support == 300
 
 
 def test_gpd_tail_of_a_lomax_matches_the_textbook_excess_law() -> None:
@@ -304,7 +306,7 @@ def test_command_on_a_saved_sketch(tmp_path, capsys) -> None:  # type: ignore[no
     assert doc["tail_models"][0]["tail_only"] is True
     assert main(["fit", str(path), "--families", "gamma"]) == 0
     text = capsys.readouterr().out
-    assert "ranked by tail" in text and "p99.99" in text
+    assert "ranked by bic (chosen by auto)" in text and "p99.99" in text
     assert main(["fit", str(path), "--families", "nope"]) == 3
     assert "unknown family 'nope'" in capsys.readouterr().err
 

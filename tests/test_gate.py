@@ -76,14 +76,54 @@ def test_exit_2_when_too_few_values(files: dict[str, str], capsys: pytest.Captur
     assert "too few values" in out
 
 
-def test_prove_turns_a_straddle_into_undecided(
+def test_a_straddle_is_unclear_and_prove_withholds_the_pass(
     files: dict[str, str], capsys: pytest.CaptureFixture[str]
 ) -> None:
-    # Same distribution, limit 0 %: the interval reaches both sides, so only --prove withholds the pass.
+    # Same distribution, limit 0 %: the intervals reach both sides. That is its own
+    # status (never "holds", which means shown within), passed only without --prove.
     args = ["gate", files["base"], files["same"], "--limit", "p90=+0%"]
     assert main(args) == 0
     assert main([*args, "--prove"]) == 2
-    capsys.readouterr()
+    out = capsys.readouterr().out
+    assert "UNCLEAR" in out and "HOLDS" not in out
+
+
+def test_holds_only_when_shown_and_every_line_shows_both_sides() -> None:
+    rng = np.random.default_rng(33)
+    a, b = Sketch("ms"), Sketch("ms")
+    a.add(rng.lognormal(3.0, 0.5, 50_000))
+    b.add(rng.lognormal(3.0, 0.5, 50_000))
+    result = gate(a, b, [parse_limit("p50=+10%", "ms"), parse_limit("p90=+0%", "ms")])
+    shown, unclear = result.checks
+    assert shown.status == "holds" and shown.b.high <= shown.allowed_low
+    assert unclear.status == "unclear" and unclear.b.high > unclear.allowed_low
+    for c in result.checks:
+        assert "B " in c.reason and "against A " in c.reason
+        assert c.allowed_low <= c.allowed <= c.allowed_high
+
+
+@pytest.mark.parametrize("q", ["p1", "p10", "p50", "p90", "p99", "p99.9"])
+@pytest.mark.parametrize("limit", ["+0%", "+10%", "+250%", "+0", "+1"])
+def test_a_sketch_against_itself_never_fails(q: str, limit: str) -> None:
+    # Issue: a relative limit on a negative p10 multiplied A by 1.1, lowering the allowance,
+    # and a file failed against itself. Data on both sides of zero, and all below it.
+    rng = np.random.default_rng(34)
+    for x in (rng.normal(0.0, 10.0, 20_000), -rng.lognormal(2.0, 0.5, 20_000)):
+        s = Sketch("ms")
+        s.add(x)
+        result = gate(s, s, [parse_limit(f"{q}={limit}", "ms")])
+        assert result.exit_code != 1, (q, limit, result.checks[0].reason)
+
+
+def test_relative_limit_on_a_negative_quantile_is_taken_of_its_magnitude() -> None:
+    rng = np.random.default_rng(35)
+    a, b = Sketch("ms"), Sketch("ms")
+    a.add(rng.normal(0.0, 10.0, 50_000))  # p10 about -12.8
+    b.add(rng.normal(0.0, 10.0, 50_000) - 5.0)  # B better (lower) by 5 ms
+    (check,) = gate(a, b, [parse_limit("p10=+10%", "ms")]).checks
+    assert check.status == "holds"
+    assert check.allowed == pytest.approx(check.a.estimate + 0.1 * abs(check.a.estimate))
+    assert "|A|" in check.note and "absolute limit" in check.note
 
 
 def test_usage_errors_exit_3(files: dict[str, str], capsys: pytest.CaptureFixture[str]) -> None:

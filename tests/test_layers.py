@@ -51,13 +51,9 @@ MAX_LINES = 500
 # after the reader's restructuring (a type-only cycle: read/skips.py names
 # decode.Batch under TYPE_CHECKING). Each entry must still be true, so the list cannot
 # outlive the fix unnoticed.
-KNOWN_LONG = {"fit/families.py", "fit/models.py"}
+KNOWN_LONG: set[str] = set()
 KNOWN_CYCLES = [["ogive.read.decode", "ogive.read.skips"]]
-KNOWN_PRIVATE = {
-    ("ogive.fit.estimate", "ogive.fit.families", "_log1mexp"),
-    ("ogive.fit.scores", "ogive.fit.families", "_log1mexp"),
-    ("ogive.fit.tail", "ogive.fit.families", "_from_logsf"),
-}
+KNOWN_PRIVATE: set[tuple[str, str, str]] = set()
 
 
 def _modules() -> dict[str, Path]:

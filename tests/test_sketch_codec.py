@@ -59,18 +59,27 @@ def test_round_trip() -> None:
         s, t = original[name], back[name]
         for attr in ("unit", "count", "total", "nan_count", "inf_count", "negative_count", "zero_count"):
             assert getattr(s, attr) == getattr(t, attr), (name, attr)
-        assert (s.compression, s.tail_size, s.digest.scale, s.merge_slack) == (
-            t.compression,
-            t.tail_size,
-            t.digest.scale,
-            t.merge_slack,
-        )
+        assert (s.compression, s.tail_size, s.digest.scale) == (t.compression, t.tail_size, t.digest.scale)
         np.testing.assert_array_equal(s.low, t.low)  # exact values: bit for bit
         np.testing.assert_array_equal(s.high, t.high)
-        # Mixed-centroid means are written with 12 significant digits (codec.MEAN_DIGITS):
-        # answers agree to 5e-12 relative, pure values and tails exactly.
-        np.testing.assert_allclose(t.quantile(QS), s.quantile(QS), rtol=5e-12)
-        assert t.rank_error_bound() == pytest.approx(s.rank_error_bound(), rel=1e-12)
+        # A mixed centroid's mean is written to within 1/1024 of its width and its ends
+        # outwards by 1/64 per rounding, repeated until it settles (codec.
+        # written_centroids; measured at most 2.1 rounds' worth, 4 allowed): answers
+        # move by about 1e-3 of one centroid, the bounds only outwards, single values
+        # and tails not at all.
+        sm, sw, sp = s.digest.centroids()
+        tm, tw, tp = t.digest.centroids()
+        slo, shi = s.digest.ranges()
+        tlo, thi = t.digest.ranges()
+        np.testing.assert_array_equal(sw, tw)
+        np.testing.assert_array_equal(sp, tp)
+        assert np.all(np.abs(tm - sm) <= (shi - slo) * 4 / 1024)
+        assert np.all(tlo <= slo) and np.all(thi >= shi)
+        assert np.all(tlo >= slo - (shi - slo) * 4 / 64)
+        np.testing.assert_array_equal(tm[sp], sm[sp])
+        if s.count:
+            np.testing.assert_allclose(t.quantile(QS), s.quantile(QS), rtol=1e-5)
+        assert t.rank_error_bound() >= s.rank_error_bound() - 1e-12
         assert t.provenance == s.provenance
     assert dumps(back) == data  # writing what was read gives the same bytes
 
@@ -245,7 +254,7 @@ def test_accuracy_against_the_tdigest_package_on_the_same_data() -> None:
         ours = rank_error(x, s.quantile(qs), qs)
         if x is ints:
             assert ours.max() == 0.0 and theirs.max() > 1e-3
-        # p99.9 and p99.99 fall in our exact tail buffer.
+        # p99.9 and p99.99 fall in our exact tail buffer (512 a side).
         assert ours[3:].max() == 0.0
         assert ours.max() <= max(theirs.max(), 1e-4)
 

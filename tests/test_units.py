@@ -40,7 +40,11 @@ def test_in_unit_answers_as_the_source_times_the_factor(raw: tuple[np.ndarray, n
     assert s.unit == "s" and s.count == ms.count
     # Multiplying by 1/1000 keeps every rank: the same answers, scaled, to float rounding.
     np.testing.assert_allclose(s.quantile(QS), ms.quantile(QS) / 1000, rtol=1e-12)
-    assert s.rank_error_bound() == ms.rank_error_bound()
+    # The bound comes from the centroids' ranges, which are kept rounded outwards as the
+    # file holds them (sketch/rounding.py): scaled, they round again, by at most 1/64 of
+    # a centroid's width, so the bound is the same to a few per cent (measured 1.5 %).
+    assert s.rank_error_bound() == pytest.approx(ms.rank_error_bound(), rel=0.05)
+    assert s.rank_error_bound() >= ms.rank_error_bound()
     assert s.min == pytest.approx(a.min() / 1000) and s.max == pytest.approx(a.max() / 1000)
     # Against numpy on the raw values in seconds; 1 % is far above t-digest error at n=30k.
     np.testing.assert_allclose(s.quantile(QS), np.quantile(a / 1000, QS), rtol=0.01)

@@ -23,8 +23,9 @@ row, the groups whose p99 moved most surely first. With --window 10m, one source
 cut into consecutive time windows, each compared with the first.
 
 Shown: the quantile ladder p50 ... p99.99 and max with distribution-free intervals
-(order statistics, widened by the sketch's own error), the change and a verdict that
-is called only when the intervals separate; the Kolmogorov-Smirnov and Wasserstein-1
+(order statistics, read through the sketch so that they contain the intervals the raw
+values would give), the change and a verdict that is called only when the intervals
+separate; the Kolmogorov-Smirnov and Wasserstein-1
 distances; the shift function B - A across deciles and tail quantiles with a
 simultaneous band; the share of B above A's p99 and p99.9 with a G test; and one
 plain-language summary line.

@@ -26,12 +26,18 @@ With --by FIELD every group on both sides is gated and the worst group decides. 
   --limit p50=+2ms     B's p50 at most 2 ms above A's (converted to the sketches' unit)
   --limit p99.9=0      B's p99.9 no higher than A's
 
+Each limit ends as one of:
+  EXCEEDED  B's lowest plausible value is above the most the limit allows at any
+            plausible value of A's
+  HOLDS     shown within: B's highest plausible value is within the least it allows
+  UNCLEAR   the intervals reach both sides of the limit (no credible evidence either way)
+  TOO FEW   too few values to bound that quantile
+A relative limit is a share of |A|, so it never tightens on a quantile below zero.
+
 Exit status:
-  0  every limit holds: the data give no credible evidence that any is exceeded
-  1  at least one limit is credibly exceeded (B's lowest plausible value is above what
-     the limit allows at A's highest plausible value)
-  2  the data cannot decide a limit: too few values to bound that quantile (or, with
-     --prove, the interval reaches both sides of the limit)
+  0  no limit is credibly exceeded (HOLDS, and UNCLEAR without --prove)
+  1  at least one limit is EXCEEDED
+  2  the data cannot decide a limit: TOO FEW, or UNCLEAR with --prove
   3  bad input or usage
 """
 
@@ -48,7 +54,8 @@ Confidence: with L limits, each of the 2L quantile intervals is taken at
 1 - (1 - confidence)/(2L), so every "exceeded" holds together with at least the stated
 confidence (Bonferroni). With --by and G groups each group's gate runs at
 1 - (1 - confidence)/G, so the claims of all groups hold together too. Intervals are
-distribution-free (order statistics) and widened by the sketches' own rank error.
+distribution-free (order statistics), read through each sketch so that they always
+contain the intervals the raw values would give.
 
 examples:
   ogive gate base.ogive cand.ogive --limit p99=+5% --limit p50=+2ms

@@ -34,7 +34,7 @@ examples:
   ssh web-1 ogive scan /var/log/app.log --pattern 'dur=(\\S+)' -o - > web-1.ogive
 
 With -o - the sketch goes to standard output and the summary to standard error.
-The quantiles come from a t-digest with the 1024 smallest and largest values kept
+The quantiles come from a t-digest with the 512 smallest and largest values kept
 exactly: min, max and the extreme tail are exact; the middle is estimated."""
 
 

@@ -10,12 +10,12 @@ from typing import Any
 
 _LAZY = {
     "fit_sketch": "models",
-    "FitReport": "models",
-    "FittedModel": "models",
-    "Candidate": "models",
-    "Scores": "models",
-    "NotFitted": "models",
-    "RANK_KEYS": "models",
+    "FitReport": "results",
+    "FittedModel": "results",
+    "Candidate": "results",
+    "Scores": "results",
+    "NotFitted": "results",
+    "RANK_KEYS": "ranking",
 }
 
 __all__ = sorted(_LAZY)

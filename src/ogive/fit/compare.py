@@ -3,9 +3,12 @@
 Pieces (each cites its method where it lives):
 
 * the quantile ladder with order-statistic intervals (:mod:`ogive.fit.ladder`);
-* the two-sample Kolmogorov–Smirnov distance and the Wasserstein-1 distance (here);
+* the two-sample Kolmogorov–Smirnov distance and the Wasserstein-1 distance
+  (:mod:`ogive.fit.distances`);
 * the shift function (:mod:`ogive.fit.shift`);
-* the tail budget: the share of B above A's p99 and p99.9, with a G test (here).
+* the tail budget: the share of B above A's p99 and p99.9, with a G test
+  (:mod:`ogive.fit.budget`);
+* the groups of ``--by``, one p50/p99 row each (here).
 
 What a ladder verdict means. Each interval covers its true quantile with probability
 at least ``confidence`` (per quantile, per sample). A row says ``higher`` only when B's
@@ -26,237 +29,12 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from numpy.typing import NDArray
 
 from ..sketch import Sketch, SketchSet
-from .ladder import LADDER_QS, LadderRow, ladder, local_rank_error
+from .budget import TailBudget, tail_budget
+from .distances import KSResult, WassersteinResult, ks_distance, wasserstein
+from .ladder import LADDER_QS, LadderRow, ladder
 from .shift import ShiftFunction, shift_function
-
-FloatArray = NDArray[np.float64]
-
-
-def _num(x: float) -> float | None:
-    return float(x) if np.isfinite(x) else None
-
-
-def _support(s: Sketch) -> FloatArray:
-    """Every x where the sketch's CDF can bend: digest knots and the exact buffers."""
-    if s.count == 0:
-        return np.empty(0)
-    _, knot_vals = s.digest.knots()
-    return np.concatenate((knot_vals, s.low, s.high))
-
-
-# ---------------------------------------------------------------- distances
-@dataclass(frozen=True)
-class KSResult:
-    """Two-sample Kolmogorov–Smirnov distance between the sketches' CDFs.
-
-    Method: N. Smirnov (1948), "Table for estimating the goodness of fit of empirical
-    distributions", *Ann. Math. Statist.* 19, 279–281: under no difference,
-    sqrt(nm/(n+m))·D has the Kolmogorov limit distribution. Each sketch's CDF may be
-    off by its rank error, so the true distance lies within ``slack`` (both sketches'
-    whole-digest bounds) of ``distance``. For the call only a lower bound is needed, and
-    at the point ``at`` where the gap was seen the true gap is at least ``distance -
-    slack_at`` (the local errors there, which are far smaller in the tails); the
-    difference is called only when that passes the critical value, and the p-value is
-    computed at it.
-    """
-
-    distance: float
-    at: float
-    """The value where the CDFs are furthest apart."""
-    slack: float
-    """Sum of the two sketches' whole-digest rank errors (fraction of n)."""
-    slack_at: float
-    """Sum of the two sketches' local rank errors at ``at`` (fraction of n)."""
-    critical: float
-    """Asymptotic critical value at 1 - confidence, before the slack."""
-    threshold: float
-    """``critical + slack_at``: what ``distance`` must exceed to be called a difference."""
-    p_value: float
-    """Asymptotic, at ``max(distance - slack_at, 0)`` (conservative)."""
-    differs: bool
-    confidence: float
-
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "distance": self.distance,
-            "at": _num(self.at),
-            "slack": self.slack,
-            "slack_at": self.slack_at,
-            "critical": self.critical,
-            "threshold": self.threshold,
-            "p_value": self.p_value,
-            "differs": self.differs,
-            "confidence": self.confidence,
-            "method": "two-sample Kolmogorov-Smirnov (Smirnov asymptotic), widened by sketch rank error",
-        }
-
-
-def ks_distance(a: Sketch, b: Sketch, *, confidence: float = 0.95) -> KSResult:
-    from scipy import stats
-
-    x = np.unique(np.concatenate((_support(a), _support(b))))
-    if x.size == 0:
-        raise ValueError("both sketches are empty; there is nothing to compare.")
-    gap = np.abs(a.cdf(x) - b.cdf(x))
-    i = int(np.argmax(gap))
-    d = float(gap[i])
-    slack = a.rank_error_bound() + b.rank_error_bound()
-    slack_at = min(_count_error(a, float(x[i])) / a.count + _count_error(b, float(x[i])) / b.count, slack)
-    n, m = a.count, b.count
-    scale = np.sqrt(n * m / (n + m))
-    crit = float(stats.kstwobign.isf(1.0 - confidence) / scale)
-    p = float(stats.kstwobign.sf(max(d - slack_at, 0.0) * scale))
-    return KSResult(
-        distance=d,
-        at=float(x[i]),
-        slack=slack,
-        slack_at=slack_at,
-        critical=crit,
-        threshold=crit + slack_at,
-        p_value=min(p, 1.0),
-        differs=d > crit + slack_at,
-        confidence=confidence,
-    )
-
-
-@dataclass(frozen=True)
-class WassersteinResult:
-    """Wasserstein-1 (earth mover's) distance: the mean absolute gap between quantile functions.
-
-    W1 = ∫₀¹ |Q_A(p) − Q_B(p)| dp = ∫ |F_A(x) − F_B(x)| dx (S. S. Vallender, "Calculation
-    of the Wasserstein distance between probability distributions on the line", *Theory
-    Probab. Appl.* 18, 1974). In the value's unit: "on average a request moved this far".
-    """
-
-    distance: float
-    unit: str
-    relative: float
-    """W1 divided by A's mean absolute value: a unit-free size of the move."""
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"distance": self.distance, "unit": self.unit, "relative": _num(self.relative)}
-
-
-def wasserstein(a: Sketch, b: Sketch) -> WassersteinResult:
-    x = np.unique(np.concatenate((_support(a), _support(b))))
-    if x.size < 2:
-        return WassersteinResult(0.0, a.unit, 0.0)
-    # The CDFs are steps (exact buffers) or linear pieces (digest) between these points;
-    # the midpoint rule is exact for both (bar a sign change inside one linear piece).
-    mid = (x[:-1] + x[1:]) / 2.0
-    w1 = float(np.sum(np.abs(a.cdf(mid) - b.cdf(mid)) * np.diff(x)))
-    scale = abs(a.mean) if a.count else float("nan")
-    return WassersteinResult(w1, a.unit, w1 / scale if scale else float("nan"))
-
-
-# ---------------------------------------------------------------- tail budget
-@dataclass(frozen=True)
-class TailBudget:
-    """How much of B lies above a cut taken from A (A's p99, A's p99.9).
-
-    Test: the likelihood-ratio (G) test of equal proportions in a 2×2 table, G = 2 Σ O
-    ln(O/E), referred to χ² with 1 degree of freedom (R. R. Sokal and F. J. Rohlf,
-    *Biometry*, 3rd ed., 1995, section 17.4; A. Agresti, *Categorical Data Analysis*,
-    2002, section 3.2). The cut is A's own estimate and is treated as fixed, the usual
-    reading of a budget ("1 % may exceed this"). Counts read from a sketch carry its
-    rank error; G and the p-value are computed at the end of that range nearest to no
-    change, so sketch error never manufactures significance.
-    """
-
-    label: str
-    q: float
-    cut: float
-    a_share: float
-    """Share of A above the cut (about 1 - q)."""
-    b_share: float
-    b_count: float
-    b_count_low: float
-    b_count_high: float
-    ratio: float
-    """``b_share / a_share``: 2.0 means B spends the tail budget twice as fast."""
-    g: float
-    p_value: float
-    verdict: str
-    """'more above the cut', 'less above the cut' or 'no clear change' (B against A)."""
-
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "label": self.label,
-            "q": self.q,
-            "cut": _num(self.cut),
-            "a_share": self.a_share,
-            "b_share": self.b_share,
-            "b_count": self.b_count,
-            "b_count_low": self.b_count_low,
-            "b_count_high": self.b_count_high,
-            "ratio": _num(self.ratio),
-            "g": self.g,
-            "p_value": self.p_value,
-            "verdict": self.verdict,
-            "method": "G test (likelihood ratio) of equal proportions above A's cut",
-        }
-
-
-def g_test_2x2(k1: float, n1: float, k2: float, n2: float) -> tuple[float, float]:
-    """G statistic and χ²(1) p-value for k1/n1 against k2/n2 (no continuity correction)."""
-    from scipy import stats
-
-    obs = np.array([[k1, n1 - k1], [k2, n2 - k2]], dtype=np.float64)
-    exp = obs.sum(axis=1, keepdims=True) * obs.sum(axis=0, keepdims=True) / obs.sum()
-    with np.errstate(divide="ignore", invalid="ignore"):
-        terms = np.where(obs > 0, obs * np.log(obs / exp), 0.0)
-    g = float(max(2.0 * terms.sum(), 0.0))
-    return g, float(stats.chi2.sf(g, 1))
-
-
-def _count_error(s: Sketch, x: float) -> float:
-    """How far the sketch's count of values <= x may be off (0 where the buffers are exact)."""
-    if s.exact or (s.high.size and x >= s.high[0]) or (s.low.size and x < s.low[-1]):
-        return 0.0
-    pos = np.array(float(s.rank(np.array(x))) - 1.0)
-    return float(local_rank_error(s, pos))
-
-
-def tail_budget(a: Sketch, b: Sketch, q: float, *, confidence: float = 0.95) -> TailBudget:
-    from ..sketch import quantile_label
-
-    na, nb = a.count, b.count
-    cut = float(a.quantile(np.array(q)))
-    ka = float(na - a.rank(np.array(cut)))
-    kb = float(nb - b.rank(np.array(cut)))
-    ea = _count_error(a, cut)
-    eb = _count_error(b, cut)
-    kb_lo, kb_hi = max(kb - eb, 0.0), min(kb + eb, float(nb))
-    ka_lo, ka_hi = max(ka - ea, 0.0), min(ka + ea, float(na))
-    pa, pb = ka / na, kb / nb
-    # Move both counts, within their error, towards each other before testing.
-    if kb_lo / nb > ka_hi / na:
-        g, p = g_test_2x2(ka_hi, na, kb_lo, nb)
-    elif kb_hi / nb < ka_lo / na:
-        g, p = g_test_2x2(ka_lo, na, kb_hi, nb)
-    else:
-        g, p = 0.0, 1.0
-    alpha = 1.0 - confidence
-    verdict = "no clear change"
-    if p < alpha:
-        verdict = "more above the cut" if pb > pa else "less above the cut"
-    return TailBudget(
-        label=f"above A {quantile_label(q)}",
-        q=q,
-        cut=cut,
-        a_share=pa,
-        b_share=pb,
-        b_count=kb,
-        b_count_low=kb_lo,
-        b_count_high=kb_hi,
-        ratio=pb / pa if pa > 0 else float("inf"),
-        g=g,
-        p_value=p,
-        verdict=verdict,
-    )
 
 
 # ---------------------------------------------------------------- the whole comparison
@@ -334,6 +112,22 @@ def _summary(
     return "; ".join(parts) + "."
 
 
+def _ladder_vs_shift(rows: tuple[LadderRow, ...], shift: ShiftFunction) -> list[str]:
+    """Why a ladder row and the shift function can disagree, where they do."""
+    direction = dict(zip(np.round(shift.probs, 6).tolist(), shift.direction, strict=True))
+    called = [r for r in rows if r.q is not None and r.verdict in ("higher", "lower")]
+    split = [r.label for r in called if direction.get(round(r.q or 0.0, 6)) == "no clear change"]
+    if not split:
+        return []
+    k = shift.probs.size
+    return [
+        f"{', '.join(split)}: the ladder calls a change and the shift function does not. Each ladder row is "
+        f"its own {shift.confidence:.0%} comparison; the shift band holds for all {k} quantiles at once "
+        f"(each interval at {shift.per_interval_confidence:.2%}), so it is wider: a change this close to "
+        "the noise may be one of several rows that separate by chance."
+    ]
+
+
 def compare_sketches(
     a: Sketch,
     b: Sketch,
@@ -351,7 +145,8 @@ def compare_sketches(
     rows = tuple(ladder(a, b, confidence, LADDER_QS))
     ks = ks_distance(a, b, confidence=confidence)
     tail = tuple(tail_budget(a, b, q, confidence=confidence) for q in (0.99, 0.999))
-    notes = []
+    shift = shift_function(a, b, confidence=confidence, labels=labels)
+    notes = list(_ladder_vs_shift(rows, shift))
     for s, name in ((a, labels[0]), (b, labels[1])):
         if s.provenance.partial:
             notes.append(f"{name} is partial: {s.provenance.partial}")
@@ -365,7 +160,7 @@ def compare_sketches(
         ladder=rows,
         ks=ks,
         wasserstein=wasserstein(a, b),
-        shift=shift_function(a, b, confidence=confidence, labels=labels),
+        shift=shift,
         tail=tail,
         summary=_summary(labels, rows, ks, tail),
         notes=tuple(notes),

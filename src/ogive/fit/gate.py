@@ -1,15 +1,19 @@
 """The regression gate: limits on named quantiles of a candidate B against a baseline A.
 
 A limit ``p99=+5%`` says "B's p99 may be at most 5 % above A's p99"; ``p50=+2ms`` says
-"at most 2 ms above". Each limit ends in one of three states:
+"at most 2 ms above". A relative limit is taken of |A|, so it allows more, never less,
+when A's quantile is below zero (``p10=+10%`` of -5 ms allows -4.5 ms). Each limit
+ends in one of four states:
 
-* ``exceeded`` — B's lowest plausible quantile is above what the limit allows even at
-  A's highest plausible quantile. This is the claim a failing gate makes.
-* ``holds`` — no credible evidence that the limit is exceeded. With ``prove`` the
-  data must also *show* the limit is met (B's highest plausible quantile within what
-  A's lowest allows); otherwise the limit is ``undecided``.
-* ``undecided`` — the data cannot decide: too few values to bound that quantile (p99.99
-  needs well over 10,000 values), or, with ``prove``, the interval straddles the limit.
+* ``exceeded`` — B's lowest plausible quantile is above the most the limit allows at
+  any plausible value of A's. This is the claim a failing gate makes.
+* ``holds`` — shown within the limit: B's highest plausible quantile is within the
+  least the limit allows at any plausible value of A's.
+* ``unclear`` — neither: the intervals reach both sides of the limit. No credible
+  evidence that it is exceeded, so the gate passes it, unless ``prove`` asks for it to
+  be shown within.
+* ``too few values`` — a side the check needs cannot be bounded (p99.99 needs well
+  over 10,000 values).
 
 Confidence. Intervals come from :mod:`ogive.fit.ladder` (order statistics, Conover
 1999 section 3.2). With L limits each interval is taken at 1 − (1 − confidence)/(2L)
@@ -27,6 +31,8 @@ import re
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
+
 from ..numbers import quantity
 from ..sketch import Sketch, quantile_label
 from ..sketch.units import SECONDS_PER_UNIT
@@ -39,7 +45,8 @@ _LIMIT = re.compile(
     r"^\s*(?P<q>p[0-9.]+|median)\s*=\s*(?P<amount>[+-]?[0-9.]+(?:[eE][+-]?[0-9]+)?)\s*(?P<unit>%|[A-Za-zµ]+)?\s*$"
 )
 
-EXCEEDED, HOLDS, UNDECIDED = "exceeded", "holds", "undecided"
+EXCEEDED, HOLDS, UNCLEAR, TOO_FEW = "exceeded", "holds", "unclear", "too few values"
+STATUSES = (EXCEEDED, HOLDS, UNCLEAR, TOO_FEW)
 
 
 @dataclass(frozen=True)
@@ -56,8 +63,23 @@ class Limit:
         return quantile_label(self.q)
 
     def allowed(self, a_value: float) -> float:
-        """The largest B value this limit allows for a given A value."""
-        return a_value * (1.0 + self.amount) if self.relative else a_value + self.amount
+        """The largest B value this limit allows for a given A value.
+
+        A relative limit is a share of |A|: multiplying a negative A by 1.1 would move
+        the allowance down, so that a file failed against itself.
+        """
+        return a_value + self.amount * abs(a_value) if self.relative else a_value + self.amount
+
+    def allowed_range(self, a_low: float, a_high: float) -> tuple[float, float]:
+        """Least and most this limit allows over A's plausible values [a_low, a_high].
+
+        ``allowed`` is piecewise linear with its only bend at 0, so the extremes lie at
+        the ends or at 0; infinite ends give infinite allowances.
+        """
+        points = [a_low, a_high] + ([0.0] if a_low < 0.0 < a_high else [])
+        with np.errstate(invalid="ignore"):
+            values = [self.allowed(v) if math.isfinite(v) else v for v in points]
+        return min(values), max(values)
 
     def describe(self, unit: str) -> str:
         if self.relative:
@@ -112,11 +134,18 @@ def parse_limit(text: str, unit: str) -> Limit:
 class LimitCheck:
     limit: Limit
     status: str
+    """One of ``STATUSES``."""
     a: QuantileInterval
     b: QuantileInterval
     allowed: float
     """What the limit allows at A's point estimate."""
     reason: str
+    allowed_low: float = math.nan
+    """The least the limit allows over A's interval (-inf when A is unbounded below)."""
+    allowed_high: float = math.nan
+    """The most the limit allows over A's interval (inf when A is unbounded above)."""
+    note: str = ""
+    """How the limit was read, where it matters (a relative limit on a quantile <= 0)."""
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -124,9 +153,16 @@ class LimitCheck:
             "status": self.status,
             "a": self.a.to_dict(),
             "b": self.b.to_dict(),
-            "allowed": self.allowed if math.isfinite(self.allowed) else None,
+            "allowed": _num(self.allowed),
+            "allowed_low": _num(self.allowed_low),
+            "allowed_high": _num(self.allowed_high),
             "reason": self.reason,
+            "note": self.note,
         }
+
+
+def _num(x: float) -> float | None:
+    return x if math.isfinite(x) else None
 
 
 @dataclass(frozen=True)
@@ -140,11 +176,12 @@ class GateResult:
 
     @property
     def exit_code(self) -> int:
-        """0 every limit holds, 1 a limit is credibly exceeded, 2 the data cannot decide."""
+        """0 no limit credibly exceeded, 1 a limit is, 2 the data cannot decide one (too few
+        values, or with ``prove`` a limit not shown within)."""
         statuses = {c.status for c in self.checks}
         if EXCEEDED in statuses:
             return 1
-        if UNDECIDED in statuses:
+        if TOO_FEW in statuses or (self.prove and UNCLEAR in statuses):
             return 2
         return 0
 
@@ -173,41 +210,58 @@ MEANING = (
 )
 
 
-def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, prove: bool) -> LimitCheck:
-    def q(x: float) -> str:  # the one number formatter of ogive.numbers, to four figures
-        return quantity(x, unit, digits=4)
+def _fmt(x: float, unit: str) -> str:
+    """The one number formatter (ogive.numbers), four figures; 'unbounded' for an end
+    the data cannot bound."""
+    return quantity(x, unit, digits=4) if math.isfinite(x) else "unbounded"
 
+
+def _iv(iv: QuantileInterval, unit: str) -> str:
+    """'3.642 ms [3.578 ms, 3.71 ms]': an estimate with its interval."""
+    return f"{_fmt(iv.estimate, unit)} [{_fmt(iv.low, unit)}, {_fmt(iv.high, unit)}]"
+
+
+def _check(limit: Limit, a: QuantileInterval, b: QuantileInterval, unit: str, prove: bool) -> LimitCheck:
     lab = limit.label
-    allowed_hi = limit.allowed(a.high)
-    allowed_lo = limit.allowed(a.low)
+    lo_allowed, hi_allowed = limit.allowed_range(a.low, a.high)
     allowed_pt = limit.allowed(a.estimate)
-    if math.isfinite(b.low) and math.isfinite(allowed_hi) and b.low > allowed_hi:
-        return LimitCheck(
-            limit, EXCEEDED, a, b, allowed_pt,
-            f"B's {lab} is at least {q(b.low)}, above the {q(allowed_hi)} the limit "
-            f"allows even at A's highest plausible {lab} ({q(a.high)}).",
-        )  # fmt: skip
-    if not (math.isfinite(b.high) and math.isfinite(allowed_lo)):
+    note = ""
+    if limit.relative and a.low <= 0:
+        note = (
+            f"A's {lab} can be at or below zero, so {limit.amount * 100:+.4g}% is taken of |A|; an absolute "
+            f"limit such as {lab}=+2{unit} says the same without depending on A's sign"
+        )
+    sides = f"B {_iv(b, unit)} against A {_iv(a, unit)}"
+
+    def check(status: str, reason: str) -> LimitCheck:
+        return LimitCheck(limit, status, a, b, allowed_pt, reason, lo_allowed, hi_allowed, note)
+
+    if math.isfinite(b.low) and math.isfinite(hi_allowed) and b.low > hi_allowed:
+        return check(
+            EXCEEDED,
+            f"B's {lab} is at least {_fmt(b.low, unit)}, above the most the limit allows at any plausible "
+            f"A ({_fmt(hi_allowed, unit)}); {sides}.",
+        )
+    if not (math.isfinite(b.high) and math.isfinite(lo_allowed)):
         short = [name for name, iv in (("A", a), ("B", b)) if not iv.bounded]
         needed = values_needed(limit.q, a.confidence)
-        return LimitCheck(
-            limit, UNDECIDED, a, b, allowed_pt,
+        return check(
+            TOO_FEW,
             f"too few values to bound {lab} on side {' and '.join(short) or 'A'} "
             f"(n = {a.n:,} and {b.n:,}; about {needed:,} or more are needed at this confidence).",
-        )  # fmt: skip
-    if b.high <= allowed_lo:
-        return LimitCheck(
-            limit, HOLDS, a, b, allowed_pt,
-            f"shown within the limit: B's {lab} is at most {q(b.high)}, within the "
-            f"{q(allowed_lo)} allowed even at A's lowest plausible {lab}.",
-        )  # fmt: skip
-    straddle = (
-        f"B's {lab} ({q(b.estimate)}, plausibly {q(b.low)} to {q(b.high)}) "
-        f"against {q(allowed_pt)} allowed: the interval reaches both sides of the limit"
+        )
+    if b.high <= lo_allowed:
+        return check(
+            HOLDS,
+            f"shown within the limit: B's {lab} is at most {_fmt(b.high, unit)}, within the least the "
+            f"limit allows at any plausible A ({_fmt(lo_allowed, unit)}); {sides}.",
+        )
+    tail = "--prove needs it shown within." if prove else "no credible evidence that it is exceeded."
+    return check(
+        UNCLEAR,
+        f"the intervals reach both sides of the limit (allowed {_fmt(lo_allowed, unit)} to "
+        f"{_fmt(hi_allowed, unit)} over A's interval): {sides}; {tail}",
     )
-    if prove:
-        return LimitCheck(limit, UNDECIDED, a, b, allowed_pt, straddle + "; --prove needs it shown within.")
-    return LimitCheck(limit, HOLDS, a, b, allowed_pt, straddle + ", so no credible evidence it is exceeded.")
 
 
 def values_needed(q: float, confidence: float) -> int:

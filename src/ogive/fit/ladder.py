@@ -10,16 +10,17 @@ are taken equal-tailed, exactly as ``scipy.stats.quantile_test(...).confidence_i
 does (0-based low index ``binom.ppf(a/2) - 1``, high index ``binom.isf(a/2)``), so a
 sketch that holds every value gives the same interval as scipy on the raw data.
 
-A sketch does not hold the order statistics themselves. The rank found above is mapped
-through the sketch's quantile function ``value_at(position)``, and the position is pushed
-outwards by the sketch's own rank error (``Sketch.rank_error_bound()``) so the interval
-also covers what the digest's interpolation may have moved. The widening is the
-sketch's own bound for the centroid pair that answers that position
-(``Sketch.rank_error_at``: the worst case between two adjacent centroids, plus the slack
-inherited from merges), not one figure for the whole digest: centroids near the tails
-are far smaller than at the median, so tail intervals stay tight. Where the position
-falls in the exact tail buffers (the extreme tail, small sketches) the bound is zero:
-those order statistics are known exactly.
+A sketch does not hold the order statistics themselves, but it can bracket them:
+``Sketch.order_statistic_bounds`` gives values sure to lie at or below X_(l) and at or
+above X_(u), from the exact tail buffers where they reach and otherwise from the
+smallest and largest value of the centroids around those ranks. That holds for any
+centroid layout, arrival order or merge history, so the interval read from a sketch
+always contains the one scipy would compute from the raw values, and its coverage is
+at least the exact interval's. What the sketch costs is only width: the centroids
+around a rank, which the sketch's default scale (``k1-ladder``) keeps to a small share
+of the interval's own spread around the ladder's quantiles (``sketch/scale.py``).
+The point estimate is the sketch's interpolated quantile; it is always inside its
+interval (the interval is widened to it in the rare layout where it is not).
 
 When the needed rank lies beyond the data (p99.99 from 5,000 values), that side of the
 interval is unbounded (``-inf`` / ``inf``): the data cannot bound it, and callers say so
@@ -63,8 +64,17 @@ class QuantileInterval:
     rank_low: int | None
     """0-based order statistic of the lower bound before widening; None when unbounded."""
     rank_high: int | None
-    widened_by: float
-    """Positions added on each side for the sketch's rank error (0 where exact)."""
+    sketch_margin: float
+    """How far (in the value's unit) the sketch widened the larger side beyond its own
+    estimate of the bounding order statistic: what not holding the values costs here
+    (0 where the exact buffers answer)."""
+
+    def __post_init__(self) -> None:
+        # The interval is built to contain its own estimate (quantile_intervals widens it
+        # where a layout would not); a result that did not would read as a contradiction.
+        if np.isfinite(self.estimate) and not self.low <= self.estimate <= self.high:
+            bounds = f"[{self.low!r}, {self.high!r}]"
+            raise AssertionError(f"{self.label}: estimate {self.estimate!r} outside {bounds}")
 
     @property
     def label(self) -> str:
@@ -81,11 +91,13 @@ class QuantileInterval:
             "estimate": _num(self.estimate),
             "low": _num(self.low),
             "high": _num(self.high),
+            "low_unbounded": bool(not np.isfinite(self.low)),
+            "high_unbounded": bool(not np.isfinite(self.high)),
             "confidence": self.confidence,
             "n": self.n,
             "rank_low": self.rank_low,
             "rank_high": self.rank_high,
-            "widened_by_positions": self.widened_by,
+            "sketch_margin": self.sketch_margin,
         }
 
 
@@ -109,34 +121,6 @@ def order_statistic_ranks(n: int, q: FloatArray, confidence: float) -> tuple[Int
     return low.astype(np.int64), high.astype(np.int64)
 
 
-def _exact_position(sketch: Sketch, pos: FloatArray) -> NDArray[np.bool_]:
-    """True where ``value_at(pos)`` is read from the exact buffers (no digest error)."""
-    if sketch.exact:
-        return np.ones(pos.shape, dtype=bool)
-    n, nl, nh = sketch.count, sketch.low.size, sketch.high.size
-    return (np.ceil(pos) <= nl - 1) | (np.floor(pos) >= n - nh)
-
-
-def local_rank_error(sketch: Sketch, position: FloatArray) -> FloatArray:
-    """Rank error, in positions, of ``value_at`` at each position (0 where exact).
-
-    The sketch's per-pair bound (``rank_error_at``), never more than its whole-digest
-    bound; sketches without the per-pair bound fall back to the whole-digest one.
-    """
-    pos = np.asarray(position, dtype=np.float64)
-    n = sketch.count
-    if sketch.exact or n == 0:
-        return np.zeros(pos.shape)
-    glob = sketch.rank_error_bound() * n
-    at = getattr(sketch, "rank_error_at", None)
-    if at is None:
-        err = np.full(pos.shape, glob)
-    else:
-        q = np.clip(pos / (n - 1), 0.0, 1.0) if n > 1 else np.zeros(pos.shape)
-        err = np.minimum(np.asarray(at(q), dtype=np.float64) * n, glob)
-    return np.where(_exact_position(sketch, pos), 0.0, err)
-
-
 def quantile_intervals(
     sketch: Sketch, qs: FloatArray | tuple[float, ...], confidence: float
 ) -> list[QuantileInterval]:
@@ -148,11 +132,12 @@ def quantile_intervals(
         return [QuantileInterval(float(q), nan, -np.inf, np.inf, confidence, 0, None, None, 0.0) for q in qa]
     est = sketch.quantile(qa)
     lo_i, hi_i = order_statistic_ranks(n, qa, confidence)
-    lo_pos, hi_pos = lo_i.astype(np.float64), hi_i.astype(np.float64)
-    lo_w, hi_w = np.split(local_rank_error(sketch, np.concatenate((lo_pos, hi_pos))), 2)
-    both = sketch.value_at(np.clip(np.concatenate((lo_pos - lo_w, hi_pos + hi_w)), 0, n - 1))
-    lo_val, hi_val = np.split(both, 2)
     lo_ok, hi_ok = lo_i >= 0, hi_i < n
+    ranks = np.concatenate((np.clip(lo_i, 0, n - 1), np.clip(hi_i, 0, n - 1))).astype(np.float64)
+    below, above = sketch.order_statistic_bounds(ranks)
+    guess = sketch.value_at(ranks)
+    lo_val, hi_val = np.minimum(below[: qa.size], est), np.maximum(above[qa.size :], est)
+    margin = np.maximum(guess[: qa.size] - below[: qa.size], above[qa.size :] - guess[qa.size :])
     out = []
     for k, q in enumerate(qa):
         out.append(
@@ -165,7 +150,7 @@ def quantile_intervals(
                 n=n,
                 rank_low=int(lo_i[k]) if lo_ok[k] else None,
                 rank_high=int(hi_i[k]) if hi_ok[k] else None,
-                widened_by=float(max(lo_w[k], hi_w[k])),
+                sketch_margin=float(max(margin[k], 0.0)),
             )
         )
     return out

@@ -23,13 +23,14 @@ tests check; for a large sketch the slices add an error below n / (12 M²) to W�
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..sketch import Sketch
-from .estimate import exact_values
-from .families import FloatArray, _log1mexp
+from ..sketch import Sketch, quantile_label
+from .family import FloatArray, log1mexp
+from .grouped import exact_values
 
 SLICES = 20000
 """Middle slices of a large sketch; W² error below n / (12 * SLICES²)."""
@@ -71,27 +72,62 @@ class Distances:
     cvm: float
 
 
-def distances(logcdf: FloatArray, logsf: FloatArray, sample: WeightedSample) -> Distances:
-    """KS, A² and W² from the model's log CDF and log survival at the sorted sample."""
+def distances(
+    logcdf: FloatArray, logsf: FloatArray, sample: WeightedSample, *, atom: float = 0.0
+) -> Distances:
+    """KS, A² and W² from the model's log CDF and log survival at the sorted sample.
+
+    ``atom``: a share of the values the sample leaves out because the model matches
+    them exactly at one point below all of them (the zeros of a zero-inflated model,
+    at probability ``atom`` in both): F_n = F there, so the integrals start at
+    u = ``atom`` with S = ``atom`` instead of at 0 (a Stieltjes integral over a jump
+    where the two CDFs agree adds nothing).
+    """
     n = sample.n
     u = np.clip(np.exp(logcdf), 0.0, 1.0)
-    s_after = np.cumsum(sample.weights) / n
+    s_after = atom + (1.0 - atom) * np.cumsum(sample.weights) / n
     s_after[-1] = 1.0
-    s_before = np.concatenate(([0.0], s_after[:-1]))
+    s_before = np.concatenate(([atom], s_after[:-1]))
     ks = float(max(np.max(s_after - u), np.max(u - s_before), 0.0))
+    n = n / (1.0 - atom)  # the statistics are of all the values, the atom's included
 
-    # Segments: [0, u_1] at S = 0, [u_i, u_{i+1}] at S_i, [u_N, 1] at S = 1.
+    # Segments: [atom, u_1] at S = atom, [u_i, u_{i+1}] at S_i, [u_N, 1] at S = 1.
     u_lo, u_hi, s_mid = u[:-1], u[1:], s_after[:-1]
     cvm = float(((u_hi - s_mid) ** 3 - (u_lo - s_mid) ** 3).sum() / 3)
-    cvm += float(u[0] ** 3 / 3 + (1 - u[-1]) ** 3 / 3)
+    cvm += float((u[0] - atom) ** 3 / 3 + (1 - u[-1]) ** 3 / 3)
 
     with np.errstate(invalid="ignore", divide="ignore"):
         lc = np.minimum(logcdf, 0.0)
-        ls = np.where(np.isfinite(logsf), np.minimum(logsf, 0.0), _log1mexp(lc))
+        ls = np.where(np.isfinite(logsf), np.minimum(logsf, 0.0), log1mexp(lc))
         lc_lo, lc_hi, ls_lo, ls_hi = lc[:-1], lc[1:], ls[:-1], ls[1:]
         seg = s_mid**2 * (lc_hi - lc_lo) - (1 - s_mid) ** 2 * (ls_hi - ls_lo) - (u_hi - u_lo)
         seg = np.where(u_hi > u_lo, seg, 0.0)
-        first = -ls[0] - u[0]
+        if atom > 0:
+            # [S^2 ln u - (1 - S)^2 ln(1 - u) - u] from u = atom to u_1, at S = atom.
+            first = (
+                atom**2 * (lc[0] - math.log(atom))
+                - (1 - atom) ** 2 * (ls[0] - math.log1p(-atom))
+                - (u[0] - atom)
+            )
+        else:
+            first = -ls[0] - u[0]
         last = -1.0 - lc[-1] + u[-1]
         ad = float(np.nansum(seg) + first + last)
     return Distances(ks=ks, ad=n * ad if math.isfinite(ad) else math.inf, cvm=n * cvm)
+
+
+def quantile_errors(
+    ppf: Callable[[FloatArray], FloatArray], sketch: Sketch, probs: tuple[float, ...]
+) -> dict[str, float]:
+    """(model - sketch) / |sketch| at each probability, by label; inf where undefined."""
+    if not probs:
+        return {}
+    p = np.array(probs)
+    with np.errstate(all="ignore"):
+        mq, sq = ppf(p), sketch.quantile(p)
+        rel = (mq - sq) / np.abs(sq)
+    return by_label(probs, np.where(np.isfinite(rel), rel, np.inf))
+
+
+def by_label(probs: tuple[float, ...], values: FloatArray) -> dict[str, float]:
+    return {quantile_label(p): float(v) for p, v in zip(probs, values, strict=True)}

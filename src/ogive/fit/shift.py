@@ -102,8 +102,10 @@ def shift_function(
         a_values=av,
         b_values=bv,
         delta=bv - av,
-        delta_low=np.nan_to_num(lo, nan=-np.inf),
-        delta_high=np.nan_to_num(hi, nan=np.inf),
+        # inf - inf is NaN: an end no data bound. (nan_to_num would also turn the
+        # infinities into +-1.798e308, which then printed as numbers.)
+        delta_low=np.where(np.isnan(lo), -np.inf, lo),
+        delta_high=np.where(np.isnan(hi), np.inf, hi),
         confidence=confidence,
         per_interval_confidence=each,
         unit=a.unit,

@@ -17,8 +17,12 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
-from ..sketch import Sketch
-from .families import NEG_INF, DataSummary, Family, FloatArray, _from_logsf
+from ..sketch import Sketch, quantile_label
+from .estimate import fit_family
+from .family import NEG_INF, DataSummary, Family, FloatArray, from_logsf
+from .grouped import GroupedData
+from .results import Candidate, FittedModel, NotFitted, Scores
+from .scores import WeightedSample, distances, quantile_errors
 
 DEFAULT_TAIL_PROB = 0.95
 """Threshold at the sketch's p95: common practice for latency tails with many values."""
@@ -54,7 +58,7 @@ def _gpd_cdfs(y: FloatArray, t: FloatArray) -> tuple[FloatArray, FloatArray]:
         # Beyond the upper end point (xi < 0) the survival is zero.
         with np.errstate(divide="ignore"):
             logsf = np.where(z > 0, -np.log(np.where(z > 0, z, 1.0)) / xi, NEG_INF)
-    return _from_logsf(logsf, pos)
+    return from_logsf(logsf, pos)
 
 
 def _gpd_start(s: DataSummary) -> list[FloatArray]:
@@ -102,3 +106,60 @@ class SplicedTail:
         above = self.threshold + self.gpd.ppf(inner)
         below = self.sketch.quantile(np.clip(qa, 0.0, 1.0))
         return np.asarray(np.where(qa > self.tail_prob, above, below), dtype=np.float64)
+
+
+def fit_tail(
+    sketch: Sketch, data: GroupedData, sample: WeightedSample, tail_prob: float, probs: tuple[float, ...]
+) -> Candidate | NotFitted:
+    """The GPD above the sketch's ``tail_prob`` quantile, scored on the tail alone.
+
+    ``probs``: where the relative quantile errors are measured (those above the
+    threshold are used). The GPD is fitted to the excesses by the grouped likelihood.
+    """
+    threshold = float(sketch.quantile(np.array(tail_prob)))
+    share = float(sketch.cdf(np.array(threshold)))
+    excess = data.above(threshold)
+    if excess.n < MIN_EXCESSES:
+        return NotFitted(
+            GPD.name, GPD.title,
+            f"only {excess.n} values lie above the {quantile_label(tail_prob)} threshold; "
+            f"at least {MIN_EXCESSES} are needed.",
+        )  # fmt: skip
+    try:
+        est = fit_family(GPD, excess)
+    except (ArithmeticError, ValueError) as exc:
+        return NotFitted(GPD.name, GPD.title, f"the fit broke down numerically ({exc}).")
+    if not math.isfinite(est.loglik):
+        return NotFitted(GPD.name, GPD.title, f"no finite likelihood was found ({est.message}).")
+    gpd = GPD.freeze(est.theta)
+    params = {"threshold": threshold, **GPD.natural(est.theta)}
+    model = FittedModel(
+        family=GPD.name,
+        label=f"GPD tail > {quantile_label(tail_prob)}",
+        params=params,
+        unit=sketch.unit,
+        n_params=2,
+        loglik=est.loglik,
+        success=est.success,
+        message=est.message,
+        support=(
+            f"tail only: values above {threshold:.6g} {sketch.unit} ({quantile_label(tail_prob)}); "
+            "below it the model is the sketch itself"
+        ),
+        tail_only=True,
+        threshold=threshold,
+        dist=SplicedTail(sketch, threshold, share, gpd),
+    )
+    keep = sample.values > threshold
+    tail_sample = WeightedSample(sample.values[keep], sample.weights[keep], float(sample.weights[keep].sum()))
+    with np.errstate(all="ignore"):
+        lc, ls = GPD.logcdf_pair(tail_sample.values - threshold, est.theta)
+    d = distances(lc, ls, tail_sample) if tail_sample.values.size else None
+    errs = quantile_errors(model.ppf, sketch, tuple(p for p in probs if p > tail_prob))
+    aic = 4 - 2 * est.loglik
+    bic = 2 * math.log(max(excess.n, 1)) - 2 * est.loglik
+    scores = Scores(
+        d.ks if d else math.nan, d.ad if d else math.nan, d.cvm if d else math.nan, aic, bic,
+        max((abs(v) for v in errs.values()), default=math.nan), errs, tail_sample.n,
+    )  # fmt: skip
+    return Candidate(0, model, scores, {})

@@ -23,7 +23,7 @@ from .tables import (
 
 if TYPE_CHECKING:
     from ..fit.compare import Comparison, GroupComparison
-    from ..fit.gate import GateResult
+    from ..fit.gate import GateResult, LimitCheck
     from ..fit.group_gate import GroupGate
     from ..fit.models import Candidate, FitReport
     from ..fit.windows import WindowSeries
@@ -31,29 +31,42 @@ if TYPE_CHECKING:
 
 # ---------------------------------------------------------------- comparison
 def distance_lines(c: Comparison) -> list[str]:
-    """The two distances, each with what it was held against."""
+    """The two distances, each with what it was held against.
+
+    A p-value is written only when both sketches hold every value; otherwise the
+    interval it is known to lie in (a single number there would be a bound).
+    """
     a_lab = c.labels[0]
     ks, w = c.ks, c.wasserstein
     called = "differs" if ks.differs else "no clear difference"
     w_rel = f" ({percent(w.relative)} of {a_lab}'s mean)" if math.isfinite(w.relative) else ""
+    if ks.exact:
+        d_text, p_text = number(ks.distance), f"p = {number(ks.p_value, 3)}"
+    else:
+        raw = f"{number(ks.distance_low)} to {number(ks.distance_high)}"
+        d_text = f"{number(ks.distance)} (raw values: {raw})"
+        p_text = f"p between {number(ks.p_low, 3)} and {number(ks.p_high, 3)}"
     return [
-        f"Kolmogorov-Smirnov D = {number(ks.distance)} at {quantity(ks.at, c.unit)}; called above "
-        f"{number(ks.threshold)} (critical {number(ks.critical)} + sketch error {number(ks.slack_at, 2)}); "
-        f"p = {number(ks.p_value, 3)}: {called}",
+        f"Kolmogorov-Smirnov D = {d_text} at {quantity(ks.at, c.unit)}; critical {number(ks.critical)}; "
+        f"{p_text}: {called}",
         f"Wasserstein-1 = {quantity(w.distance, c.unit, digits=4)}{w_rel}",
     ]
 
 
 def tail_lines(c: Comparison) -> list[str]:
-    """The share of B above A's p99 and p99.9, with the G test."""
+    """The share of B above A's p99 and p99.9, with the G test where it applies."""
     a_lab, b_lab = c.labels
     out = []
     for t in c.tail:
         cut = t.label.split()[-1]
+        test = (
+            "too few values for the G test (under 5 expected in a cell)"
+            if t.verdict == "too few values"
+            else f"G = {number(t.g, 3)}, p = {number(t.p_value, 3)}: {t.verdict}"
+        )
         out.append(
             f"above {a_lab}'s {cut} = {quantity(t.cut, c.unit, digits=4)}: {a_lab} {percent(t.a_share)}, "
-            f"{b_lab} {percent(t.b_share)} (×{number(t.ratio, 3)}); G = {number(t.g, 3)}, "
-            f"p = {number(t.p_value, 3)}: {t.verdict}"
+            f"{b_lab} {percent(t.b_share)} (×{number(t.ratio, 3)}); {test}"
         )
     return out
 
@@ -147,6 +160,8 @@ def _block(c: Candidate, report: FitReport, unit: str) -> list[str]:
     lines.append(
         f"    support: {c.model.support}" + ("" if c.model.success else f"; optimiser: {c.model.message}")
     )
+    if c.model.boundary:
+        lines.append(f"    {c.model.boundary}; ranked after the ordinary fits")
     return lines
 
 
@@ -155,7 +170,7 @@ def fit_text(report: FitReport, source: str) -> str:
     unit = f" [{report.unit}]" if report.unit else ""
     out = [
         f"fit of {source}: n = {report.n:,}{unit}",
-        f"ranked by {report.rank_key} (best first)",
+        f"ranked by {report.rank_key}" + (" (chosen by auto)" if report.rank_reason else "") + ", best first",
         "sketch" + unit + ": " + "  ".join(f"{k} {number(v)}" for k, v in report.sketch_quantiles.items()),
         "",
     ]
@@ -185,6 +200,17 @@ def _sides(
     ]
 
 
+STATUS_WORD = {"exceeded": "EXCEEDED", "holds": "HOLDS", "unclear": "UNCLEAR", "too few values": "TOO FEW"}
+"""How each limit's status is written at the start of its line."""
+
+
+def _check_lines(c: LimitCheck, *, pad: bool = True) -> list[str]:
+    """A limit's line (its word padded to line the limits up, or not), and its note."""
+    word = STATUS_WORD.get(c.status, c.status.upper())
+    head = f"{word:9s}" if pad else word
+    return [f"{head} {c.limit.text}: {c.reason}"] + ([f"          note: {c.note}."] if c.note else [])
+
+
 def gate_text(r: GateResult, names: tuple[str, str], sources: tuple[str, str], meaning: str) -> str:
     """Everything ``ogive gate A B`` prints: each limit's state and why, then the outcome."""
     n = (r.checks[0].a.n, r.checks[0].b.n)
@@ -192,7 +218,7 @@ def gate_text(r: GateResult, names: tuple[str, str], sources: tuple[str, str], m
     lines = [
         *_sides(names, sources, n, r.unit),
         f"joint confidence {r.confidence:.0%} (each interval at {each})",
-        *(f"{c.status.upper():9s} {c.limit.text}: {c.reason}" for c in r.checks),
+        *(line for c in r.checks for line in _check_lines(c)),
         f"gate: {r.outcome} (exit {r.exit_code})",
         meaning,
     ]
@@ -210,9 +236,9 @@ def group_gate_text(g: GroupGate, sources: tuple[str, str], by: str, meaning: st
         *text_lines(group_gate_table(g), indent=2),
     ]
     for name, r in g.groups:
-        lines.extend(
-            f"{name}: {c.status.upper()} {c.limit.text}: {c.reason}" for c in r.checks if c.status != "holds"
-        )
+        for c in r.checks:
+            if c.status != "holds":
+                lines.extend(f"{name}: {line}" for line in _check_lines(c, pad=False))
     for what, groups in (
         (f"only in {g.labels[0]}", g.only_a),
         (f"only in {g.labels[1]}", g.only_b),

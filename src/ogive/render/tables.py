@@ -132,7 +132,7 @@ def ladder_table(c: Comparison, *, narrow: bool = False) -> Table:
                 number(r.a_value),
                 number(r.b_value),
                 percent(r.relative_change, signed=True),
-                interval(r.change_low, r.change_high, 3),
+                interval(r.change_low, r.change_high, 3) if r.q is not None else "",  # max: no interval
                 r.verdict,
             )
             for r in c.ladder

@@ -19,11 +19,16 @@ sketches are cut by time); it is written only when there are such rows, so files
 without it are the same as before it existed.
 
 SKETCH holds ``unit``, ``compression``, ``scale``, ``tail_size``, the counts (``count``,
-``sum``, ``nan_count``, ``inf_count``, ``negative_count``, ``zero_count``), the rank
-error inherited from merges (``merge_slack``, positions, optional: 0 when absent), the digest
-(``centroids``: parallel arrays ``mean``, ``weight``, ``pure``), the exact tails
-(``low``, ``high``: sorted arrays) and ``provenance`` (sources, field, lines and rows
-read, rows skipped by reason with example locations, first/last timestamp, partial).
+``sum``, ``nan_count``, ``inf_count``, ``negative_count``, ``zero_count``), the digest
+(``centroids``: parallel arrays ``mean``, ``weight``, ``min``, ``max`` - the smallest and
+largest value each centroid holds; a centroid with ``min == max`` holds one repeated
+value), the exact tails (``low``, ``high``: sorted arrays) and ``provenance`` (sources,
+field, lines and rows read, rows skipped by reason with example locations, first/last
+timestamp, partial).
+
+Older files of the same version have ``pure`` (0/1) instead of ``min``/``max`` and may
+have ``merge_slack``; they load, with each mixed centroid's range taken to reach its
+neighbours' means (``digest.neighbour_ranges``) and the slack no longer needed.
 The canonical JSON for the checksum is ``json.dumps(obj, sort_keys=True,
 separators=(",", ":"))`` of the document without its ``checksum`` key.
 """
@@ -51,7 +56,10 @@ class SketchFormatError(ValueError):
 
 # ---------------------------------------------------------------------- writing
 def sketch_to_dict(s: Sketch) -> dict[str, Any]:
-    means, weights, pure = s.digest.centroids()
+    # The digest keeps its numbers rounded as the file holds them (rounding.py), so
+    # they are written as they are and read back identical.
+    means, weights, _ = s.digest.centroids()
+    lows, highs = s.digest.ranges()
     p = s.provenance
     return {
         "unit": s.unit,
@@ -64,11 +72,11 @@ def sketch_to_dict(s: Sketch) -> dict[str, Any]:
         "inf_count": s.inf_count,
         "negative_count": s.negative_count,
         "zero_count": s.zero_count,
-        "merge_slack": s.merge_slack,
         "centroids": {
-            "mean": _means(means, pure),
+            "mean": _floats(means),
             "weight": _floats(weights),
-            "pure": [int(x) for x in pure],
+            "min": _floats(lows),
+            "max": _floats(highs),
         },
         "low": _floats(s.low),
         "high": _floats(s.high),
@@ -87,24 +95,6 @@ def sketch_to_dict(s: Sketch) -> dict[str, Any]:
 
 def _tallies(tallies: dict[str, SkipTally]) -> dict[str, Any]:
     return {r: {"count": t.count, "examples": list(t.examples)} for r, t in tallies.items()}
-
-
-MEAN_DIGITS = 12
-"""Significant digits kept for the mean of a mixed centroid.
-
-Why not all 17: such a mean is an average that the quantile function interpolates
-between, and 12 digits (relative change below 5e-12) is far below the sketch's own error,
-while the five digits saved per centroid pay for about 10% more centroids in the same
-file. Exact data (pure centroids, the tail buffers, min/max) keep every digit. The
-rounding is idempotent, so a loaded sketch writes back byte for byte.
-"""
-
-
-def _means(means: np.ndarray, pure: np.ndarray) -> list[float | int]:
-    out = _floats(means)
-    for i in np.flatnonzero(~pure).tolist():
-        out[i] = float(f"{means[i]:.{MEAN_DIGITS}g}")
-    return out
 
 
 def _floats(a: np.ndarray) -> list[float | int]:
@@ -233,25 +223,36 @@ def sketch_from_dict(body: Any) -> Sketch:
     if not isinstance(body["provenance"], dict):
         raise ValueError("'provenance' must be an object")
     means, weights = _array(cents, "mean"), _array(cents, "weight")
-    pure = _array(cents, "pure")
-    if not (means.size == weights.size == pure.size):
-        raise ValueError("centroid arrays differ in length")
+    if "min" in cents or "pure" not in cents:
+        lows, highs = _array(cents, "min"), _array(cents, "max")
+        if not (means.size == weights.size == lows.size == highs.size):
+            raise ValueError("centroid arrays differ in length")
+        if np.any(lows > highs):
+            raise ValueError("a centroid's 'min' is above its 'max'")
+        pure = lows == highs
+        # A file edited by hand may put a mean outside its range; widening the
+        # range to it keeps the range a bound.
+        ranges: tuple[np.ndarray, np.ndarray] | None = (np.minimum(lows, means), np.maximum(highs, means))
+    else:  # files written before centroids kept their ranges
+        pure = _array(cents, "pure").astype(bool)
+        if not (means.size == weights.size == pure.size):
+            raise ValueError("centroid arrays differ in length")
+        ranges = None
     if np.any(np.diff(means) < 0) or np.any(weights <= 0):
         raise ValueError("centroids must be sorted with positive weights")
     s.count = _int(body, "count")
     if not math.isclose(weights.sum(), s.count, rel_tol=1e-9, abs_tol=0.5):
         raise ValueError("centroid weights do not add up to 'count'")
-    s.digest.add_centroids(means, weights, pure.astype(bool))
+    s.digest.add_centroids(means, weights, pure, ranges)
     s.low, s.high = _array(body, "low"), _array(body, "high")
     if s.low.size > s.tail_size or s.high.size > s.tail_size or s.low.size > s.count:
         raise ValueError("the exact tails are longer than the sketch allows")
     s.total = float(body["sum"])
     for name in ("nan_count", "inf_count", "negative_count", "zero_count"):
         setattr(s, name, _int(body, name))
-    slack = body.get("merge_slack", 0.0)  # absent in files written before it existed
+    slack = body.get("merge_slack", 0.0)  # older files: a merge allowance the ranges replace
     if not isinstance(slack, (int, float)) or isinstance(slack, bool) or not 0 <= slack < math.inf:
         raise ValueError("'merge_slack' must be a non-negative number")
-    s.merge_slack = float(slack)
     p = body["provenance"]
     s.provenance = Provenance(
         sources=[str(x) for x in p["sources"]],
@@ -274,8 +275,9 @@ def from_tdigest_dict(doc: Any, unit: str = "") -> Sketch:
 
     That format keeps centroids only, so the imported sketch has no exact tails: its
     minimum, maximum and extreme quantiles are the digest's approximations. Its
-    centroids may overlap in value (that package clusters in arrival order), which
-    ``Sketch.rank_error_bound`` does not account for.
+    centroids may overlap in value (that package clusters in arrival order) and carry
+    no ranges; each is taken to reach its neighbours' means, so interval bounds read
+    from such a sketch assume that they do not overlap.
     """
     if not isinstance(doc, dict) or not isinstance(doc.get("centroids"), list):
         raise SketchFormatError("not a tdigest export (no 'centroids' list).")

@@ -16,6 +16,14 @@ Where this implementation departs from the paper's sequential loop, and why:
   interpolating between two pure centroids would invent values that never occur; a
   pure centroid answers its whole rank range with its single value instead, so ties
   give exact quantiles and a right-continuous CDF.
+* Each centroid also carries the smallest and largest value it holds (``ranges``),
+  folded by min/max like the weights are by sum (and, like the means, kept rounded as
+  the file holds them: ``rounding.py``). They cost two numbers per centroid and
+  buy a rank bound that needs no assumption about how centroids lie: every value of a
+  centroid is inside its range whatever the arrival order, the flush sizes or the
+  merges, so counts of values below x are bounded by whole centroids
+  (``Sketch.rank_bounds``). Centroids from different flushes or merged digests may
+  overlap in value; the ranges say by how much.
 * A flush (``_absorb_sorted``) never builds the merged run: the ~10^3 centroids stay a
   side array whose places among the ~10^6 sorted values are computed, so the values
   are touched by the sort, one equality pass and one ``reduceat``. Folding in other
@@ -25,18 +33,24 @@ Where this implementation departs from the paper's sequential loop, and why:
 
 from __future__ import annotations
 
+from typing import TypeVar
+
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from .rounding import settle
 from .scale import INVERSES, SCALES
 
 FloatArray = NDArray[np.float64]
 BoolArray = NDArray[np.bool_]
+T = TypeVar("T", bound=np.generic)
 
-DEFAULT_COMPRESSION = 2000.0
-"""Chosen by measurement (``benchmarks/sketch_accuracy.py``, figures in the README): with
-the k1 scale it keeps about 1000 centroids, the most that fit beside the 2 x 1024 exact
-tail values in a 64 KB file; recorded in every sketch file."""
+DEFAULT_COMPRESSION = 1600.0
+"""Chosen by measurement (``benchmarks/sketch_accuracy.py``, ``benchmarks/interval_bench.py``,
+figures in the README): with the default ``k1-ladder`` scale it keeps about 1200
+centroids (800 from k1, the rest around the ladder's quantiles), the most that fit with
+their ranges beside the 2 x 512 exact tail values in a 64 KB file (56-59 KB measured for
+17-digit values); recorded in every sketch file."""
 
 MAX_COMPRESSION = 1e5
 """Beyond this a digest is no longer small (and a file asking for 1e11, found by fuzzing,
@@ -56,7 +70,18 @@ class TDigest:
     removes NaN and infinities so that nothing is dropped silently.
     """
 
-    __slots__ = ("_buf", "_buf_n", "_limit", "_means", "_pure", "_weights", "compression", "scale")
+    __slots__ = (
+        "_buf",
+        "_buf_n",
+        "_hi",
+        "_limit",
+        "_lo",
+        "_means",
+        "_pure",
+        "_weights",
+        "compression",
+        "scale",
+    )
 
     def __init__(self, compression: float = DEFAULT_COMPRESSION, scale: str = "k1") -> None:
         if not 10 <= compression <= MAX_COMPRESSION:
@@ -68,6 +93,8 @@ class TDigest:
         self._means: FloatArray = np.empty(0)
         self._weights: FloatArray = np.empty(0)
         self._pure: BoolArray = np.empty(0, dtype=bool)
+        self._lo: FloatArray = np.empty(0)
+        self._hi: FloatArray = np.empty(0)
         self._buf: list[FloatArray] = []
         self._buf_n = 0
         # A large buffer amortises the sort/merge; memory stays bounded by it.
@@ -92,8 +119,20 @@ class TDigest:
         """Values added but not yet merged into the centroids."""
         return self._buf_n
 
-    def add_centroids(self, means: ArrayLike, weights: ArrayLike, pure: ArrayLike | None = None) -> None:
-        """Fold in weighted points (another digest's centroids, an imported digest)."""
+    def add_centroids(
+        self,
+        means: ArrayLike,
+        weights: ArrayLike,
+        pure: ArrayLike | None = None,
+        ranges: tuple[ArrayLike, ArrayLike] | None = None,
+    ) -> None:
+        """Fold in weighted points (another digest's centroids, pre-binned values, an import).
+
+        ``ranges`` = (smallest, largest) value behind each point. Without it a point of
+        weight one or marked pure is its own range, and any other point is taken to
+        reach to its neighbours' means (the best guess for an import that kept no
+        ranges; a bound built on it assumes that digest's centroids did not overlap).
+        """
         m = np.asarray(means, dtype=np.float64).ravel()
         w = np.asarray(weights, dtype=np.float64).ravel()
         if m.shape != w.shape:
@@ -102,9 +141,20 @@ class TDigest:
             return
         p = np.zeros(m.size, dtype=bool) if pure is None else np.asarray(pure, dtype=bool).ravel()
         p = p | (w <= 1.0)
-        self.flush()
         order = np.argsort(m, kind="stable")
-        self._regroup(*_merge_sorted(self._means, self._weights, self._pure, m[order], w[order], p[order]))
+        m, w, p = m[order], w[order], p[order]
+        if ranges is None:
+            lo, hi = neighbour_ranges(m, p)
+        else:
+            lo = np.asarray(ranges[0], dtype=np.float64).ravel()[order]
+            hi = np.asarray(ranges[1], dtype=np.float64).ravel()[order]
+            if lo.shape != m.shape or hi.shape != m.shape:
+                raise ValueError("ranges must have one (low, high) pair per point.")
+            if np.any(lo > m) or np.any(hi < m):
+                raise ValueError("every point's mean must lie inside its range.")
+        self.flush()
+        mine = (self._means, self._weights, self._pure, self._lo, self._hi)
+        self._regroup(*_merge_sorted(mine, (m, w, p, lo, hi)))
 
     def flush(self) -> None:
         """Merge the buffer into the centroids."""
@@ -128,6 +178,7 @@ class TDigest:
         ``tests/test_sketch_digest.py`` checks both paths give the same centroids.
         """
         m, w, p = self._means, self._weights, self._pure
+        c_lo, c_hi = self._lo, self._hi
         k_n, n = m.size, x.size
         big_n = n + k_n
         at = np.searchsorted(x, m, side="left")  # values placed before centroid i
@@ -161,13 +212,17 @@ class TDigest:
         cnt_x, cnt_c = jb - ja, cb - ca
         sums = np.zeros(starts.size)
         has = cnt_x > 0
+        r_lo, r_hi = np.full(starts.size, np.inf), np.full(starts.size, -np.inf)
         if n:
             sums[has] = np.add.reduceat(x, ja[has])
+            r_lo[has], r_hi[has] = x[ja[has]], x[jb[has] - 1]  # x is sorted
         wts = cnt_x.astype(np.float64)
         if k_n:
             hc = cnt_c > 0
             sums[hc] += np.add.reduceat(w * m, ca[hc])
             wts[hc] += np.add.reduceat(w, ca[hc])
+            r_lo[hc] = np.minimum(r_lo[hc], np.minimum.reduceat(c_lo, ca[hc]))
+            r_hi[hc] = np.maximum(r_hi[hc], np.maximum.reduceat(c_hi, ca[hc]))
             impure = np.concatenate(([0], np.cumsum(~p)))
             all_pure = impure[cb] == impure[ca]
             lo_is_c = (ca < k_n) & (pos_c[np.minimum(ca, k_n - 1)] == starts)
@@ -179,7 +234,8 @@ class TDigest:
             lo, hi = x[ja], x[jb - 1]
         pure = all_pure & (lo == hi)
         mean = np.where(pure, lo, np.clip(sums / wts, lo, hi))
-        self._means, self._weights, self._pure = mean, wts, pure
+        self._means, self._lo, self._hi = settle(mean, r_lo, r_hi, pure)
+        self._weights, self._pure = wts, pure
 
     def _heavy_runs(
         self, x: FloatArray, m: FloatArray, w: FloatArray, p: BoolArray, at: NDArray[np.intp], total: float
@@ -238,7 +294,9 @@ class TDigest:
         end = start + items[keep]
         return np.concatenate((start, end)).astype(np.int64)
 
-    def _regroup(self, means: FloatArray, weights: FloatArray, pure: BoolArray) -> None:
+    def _regroup(
+        self, means: FloatArray, weights: FloatArray, pure: BoolArray, lows: FloatArray, highs: FloatArray
+    ) -> None:
         """Cut the sorted run into clusters and reduce each to one centroid.
 
         The cuts are where ``floor(k(q_mid))`` steps, found from the ~compression
@@ -278,7 +336,21 @@ class TDigest:
         p = np.logical_and.reduceat(pure, starts) & (lo == hi)
         # Rounding in the weighted sum must not move a cluster outside its members.
         m = np.where(p, lo, np.clip(m, lo, hi))
-        self._means, self._weights, self._pure = m, w, p
+        r_lo, r_hi = np.minimum.reduceat(lows, starts), np.maximum.reduceat(highs, starts)
+        self._means, self._lo, self._hi = settle(m, r_lo, r_hi, p)
+        self._weights, self._pure = w, p
+
+    def scale_values(self, factor: float) -> None:
+        """Multiply every value by ``factor`` > 0 (a change of unit): order, weights and
+        ranges carry over, so every answer scales and every bound still holds."""
+        if not factor > 0:
+            raise ValueError(f"factor must be positive, got {factor!r}.")
+        self.flush()
+        m, lo, hi = self._means * factor, self._lo * factor, self._hi * factor
+        # Rounding may put a product a hair inside the true scaled end: widen by an ulp.
+        lo, hi = np.nextafter(lo, -np.inf), np.nextafter(hi, np.inf)
+        lo, hi = np.where(self._pure, m, lo), np.where(self._pure, m, hi)
+        self._means, self._lo, self._hi = settle(m, lo, hi, self._pure)
 
     # ------------------------------------------------------------------ reading
     @property
@@ -289,6 +361,11 @@ class TDigest:
         """Sorted (means, weights, pure) after a flush; arrays are copies."""
         self.flush()
         return self._means.copy(), self._weights.copy(), self._pure.copy()
+
+    def ranges(self) -> tuple[FloatArray, FloatArray]:
+        """(smallest, largest) value held by each centroid, in centroid order; copies."""
+        self.flush()
+        return self._lo.copy(), self._hi.copy()
 
     def knots(self) -> tuple[FloatArray, FloatArray]:
         """The piecewise-linear quantile function as (position, value) knots.
@@ -367,19 +444,40 @@ def _heaviest(runs: NDArray[np.intp], span: FloatArray, compression: float) -> N
     return runs[np.argpartition(span[runs], runs.size - cap)[runs.size - cap :]]
 
 
-def _merge_sorted(
-    m1: FloatArray, w1: FloatArray, p1: BoolArray, m2: FloatArray, w2: FloatArray, p2: BoolArray
-) -> tuple[FloatArray, FloatArray, BoolArray]:
+Columns = tuple[FloatArray, FloatArray, BoolArray, FloatArray, FloatArray]
+"""(means, weights, pure, lows, highs) of centroids sorted by mean."""
+
+
+def _merge_sorted(first: Columns, second: Columns) -> Columns:
     """Merge two runs sorted by mean without a full argsort (O(n) placement)."""
+    m1, m2 = first[0], second[0]
     if m1.size == 0:
-        return m2, w2, p2
+        return second
     at = np.searchsorted(m2, m1, side="left") + np.arange(m1.size)
     n = m1.size + m2.size
     slot = np.ones(n, dtype=bool)
     slot[at] = False
-    m = np.empty(n)
-    w = np.empty(n)
-    p = np.empty(n, dtype=bool)
-    m[at], w[at], p[at] = m1, w1, p1
-    m[slot], w[slot], p[slot] = m2, w2, p2
-    return m, w, p
+    def place(a: NDArray[T], b: NDArray[T]) -> NDArray[T]:
+        c = np.empty(n, dtype=a.dtype)
+        c[at], c[slot] = a, b
+        return c
+
+    return (
+        place(first[0], second[0]),
+        place(first[1], second[1]),
+        place(first[2], second[2]),
+        place(first[3], second[3]),
+        place(first[4], second[4]),
+    )
+
+
+def neighbour_ranges(means: FloatArray, pure: BoolArray) -> tuple[FloatArray, FloatArray]:
+    """Ranges for centroids that came without them: from the neighbouring means.
+
+    Exact for pure centroids; for a mixed one, the span from the mean before it to the
+    mean after it (unbounded at the ends), which holds its values when centroids do
+    not overlap - the assumption a digest without ranges leaves no way around.
+    """
+    lo = np.concatenate(([-np.inf], means[:-1]))
+    hi = np.concatenate((means[1:], [np.inf]))
+    return np.where(pure, means, lo), np.where(pure, means, hi)

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -22,7 +23,10 @@ from .digest import DEFAULT_COMPRESSION, TDigest
 
 FloatArray = NDArray[np.float64]
 
-DEFAULT_TAIL = 1024
+DEFAULT_SCALE = "k1-ladder"
+"""k1 with fine centroids around the ladder's quantiles (``scale.py`` says why)."""
+
+DEFAULT_TAIL = 512
 MAX_TAIL = 1 << 20
 EXAMPLES_KEPT = 5
 """How many example locations a skip reason keeps (the first ones seen)."""
@@ -78,7 +82,7 @@ class Sketch:
         *,
         compression: float = DEFAULT_COMPRESSION,
         tail_size: int = DEFAULT_TAIL,
-        scale: str = "k1",
+        scale: str = DEFAULT_SCALE,
     ) -> None:
         if not 1 <= tail_size <= MAX_TAIL:
             # The exact tails are kept in memory whole: a bound keeps a sketch small.
@@ -97,8 +101,6 @@ class Sketch:
         self.high: FloatArray = np.empty(0)
         """The ``tail_size`` largest values, sorted."""
         self.provenance = Provenance()
-        self.merge_slack = 0.0
-        """Rank error (in positions) inherited from merged inputs; see rank_error_bound."""
 
     @property
     def compression(self) -> float:
@@ -157,16 +159,30 @@ class Sketch:
 
     def merge(self, other: Sketch) -> None:
         """Fold ``other`` into this sketch (same unit checked by the caller)."""
-        # Centroids of different inputs interleave and may overlap in value once
-        # regrouped, so the error each single-stream input had is carried forward
-        # (ranks add). Only the leaves' own errors are summed: counting every
-        # intermediate merge's bound again would grow the slack quadratically in a
-        # left fold (10 merged copies: 2.3% of n) while the measured error stays at
-        # single-digest size; the tree test in tests/test_sketch_bound.py checks that
-        # this still covers the error on data built to break it.
-        slack = self._leaf_slack() + other._leaf_slack()
-        means, weights, pure = other.digest.centroids()
-        self.digest.add_centroids(means, weights, pure)
+        self.merge_many([other])
+
+    def merge_many(self, others: Sequence[Sketch]) -> None:
+        """Fold several sketches in with one regroup of all their centroids.
+
+        Centroids keep their value ranges through the merge, so the bounds of
+        ``count_bounds`` and ``order_statistic_bounds`` stay valid however the inputs'
+        centroids interleave; nothing is carried as slack.
+        """
+        parts = [o.digest for o in others if o.count]
+        if parts:
+            cols = [d.centroids() for d in parts]
+            spans = [d.ranges() for d in parts]
+            self.digest.add_centroids(
+                np.concatenate([c[0] for c in cols]),
+                np.concatenate([c[1] for c in cols]),
+                np.concatenate([c[2] for c in cols]),
+                (np.concatenate([r[0] for r in spans]), np.concatenate([r[1] for r in spans])),
+            )
+        for other in others:
+            self._absorb_counts(other)
+
+    def _absorb_counts(self, other: Sketch) -> None:
+        """Everything of ``other`` but its centroids: counts, tails, provenance."""
         self.count += other.count
         self.total += other.total
         self.nan_count += other.nan_count
@@ -175,7 +191,6 @@ class Sketch:
         self.zero_count += other.zero_count
         self.tail_size = max(self.tail_size, other.tail_size)
         self._fold_tails(other.low, other.high)
-        self.merge_slack = slack if not self.exact else 0.0
         a, b = self.provenance, other.provenance
         a.sources.extend(s for s in b.sources if s not in a.sources)
         a.field = a.field or b.field
@@ -275,75 +290,122 @@ class Sketch:
             return np.full(np.shape(x), np.nan)
         return self.rank(x) / self.count
 
-    def _leaf_slack(self) -> float:
-        """Positions of error inherited from single-stream inputs (see ``merge``)."""
-        if self.exact:
-            return 0.0
-        if self.merge_slack > 0:
-            return self.merge_slack
-        per = self._pair_bounds()
-        return float(per.max()) if per.size else 0.0
+    # ------------------------------------------------------------------ bounds
+    def _layout(self) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray]:
+        """Centroid lows and highs, each sorted, with the weights in the same orders.
 
-    def rank_error_bound(self) -> float:
-        """Largest possible |rank error| / n of an interpolated quantile or CDF answer.
-
-        Why this form: between the knots of two adjacent centroids a and b the answer
-        v lies between their means, so at least the values before a (and all of a when
-        a is pure) are <= v and none after b (nor b itself when pure) are < v. The
-        target position can therefore be off by at most ``w_a + (w_b - 1) / 2`` or
-        ``(w_a - 1) / 2 + w_b``; the bound is the largest such figure over the pairs
-        that answer queries outside the exact tails, over n. It is reached only when
-        a centroid straddles a gap in the data (two modes with nothing between them,
-        measured at 1.3 x the heaviest centroid); on smooth data the error is far
-        smaller, about 3 sqrt(w) / (2 n) (``benchmarks/sketch_accuracy.py``,
-        ``tests/test_sketch_bound.py``). The pair argument needs centroids that do not
-        overlap in value, true within one stream; a merge can break that, so a merged
-        sketch adds the bounds its inputs had (``merge_slack``, kept in the file).
-        Zero when the sketch is exact. The comparison code widens intervals by it.
+        Ranges are clipped to [min, max]: every value lies there, and a centroid whose
+        range was guessed from its neighbours (an import, an old file) may reach past.
         """
-        per = self._pair_bounds()
-        if per.size == 0:
-            return 0.0
-        return float((per.max() + self.merge_slack) / self.count)
+        _, w, _ = self.digest.centroids()
+        lo, hi = self.digest.ranges()
+        lo, hi = np.clip(lo, self.min, self.max), np.clip(hi, self.min, self.max)
+        i, j = np.argsort(lo, kind="stable"), np.argsort(hi, kind="stable")
+        return lo[i], w[i], hi[j], w[j]
+
+    def count_bounds(self, x: ArrayLike) -> tuple[FloatArray, FloatArray]:
+        """Smallest and largest possible number of values <= x (vectorised).
+
+        Valid for any centroid layout: a centroid whose largest value is <= x counts
+        whole in the lower bound, one whose smallest value is <= x counts whole in the
+        upper bound, and the exact buffers settle every x below the largest buffered
+        low value or at or above the smallest buffered high one. Equal where exact.
+        """
+        xa = np.asarray(x, dtype=np.float64)
+        n, nl, nh = self.count, self.low.size, self.high.size
+        if n == 0:
+            return np.zeros(xa.shape), np.zeros(xa.shape)
+        if self.exact:
+            c = np.searchsorted(self._exact_values(), xa, side="right").astype(np.float64)
+            return c, c.copy()
+        lo_s, lo_w, hi_s, hi_w = self._layout()
+        at_most = np.concatenate(([0.0], np.cumsum(lo_w)))[np.searchsorted(lo_s, xa, side="right")]
+        at_least = np.concatenate(([0.0], np.cumsum(hi_w)))[np.searchsorted(hi_s, xa, side="right")]
+        in_low = np.searchsorted(self.low, xa, side="right").astype(np.float64)
+        above = nh - np.searchsorted(self.high, xa, side="right")
+        at_least = np.maximum(at_least, in_low)
+        at_most = np.minimum(at_most, n - above)
+        if nl:
+            sure = xa < self.low[-1]
+            at_least, at_most = np.where(sure, in_low, at_least), np.where(sure, in_low, at_most)
+        if nh:
+            sure = xa >= self.high[0]
+            at_least, at_most = np.where(sure, n - above, at_least), np.where(sure, n - above, at_most)
+        return np.asarray(at_least, dtype=np.float64), np.asarray(at_most, dtype=np.float64)
+
+    def order_statistic_bounds(self, rank: ArrayLike) -> tuple[FloatArray, FloatArray]:
+        """Values sure to bracket the order statistics X_(rank) (0-based ranks, vectorised).
+
+        From the buffers where they hold the rank, otherwise from the centroids' ranges:
+        at most ``rank`` values lie below the low end (only centroids that start below it
+        can hold them) and at least ``rank + 1`` lie at or below the high end. Valid for
+        any centroid layout, arrival order or merge history; the width is that of the
+        centroids around the rank, which the ``k1-ladder`` scale keeps small around the
+        ladder's quantiles.
+        """
+        r = np.clip(np.asarray(rank, dtype=np.float64), 0, max(self.count - 1, 0))
+        n, nl, nh = self.count, self.low.size, self.high.size
+        if n == 0:
+            return np.full(r.shape, np.nan), np.full(r.shape, np.nan)
+        if self.exact:
+            v = self._exact_values()[r.astype(np.int64)]
+            return v, v.copy()
+        lo_s, lo_w, hi_s, hi_w = self._layout()
+        before = np.cumsum(lo_w) - lo_w  # weight of centroids earlier in low order
+        through = np.cumsum(hi_w)
+        j = np.clip(np.searchsorted(before, r, side="right") - 1, 0, lo_s.size - 1)
+        k = np.clip(np.searchsorted(through, r + 1, side="left"), 0, hi_s.size - 1)
+        low, high = lo_s[j], hi_s[k]
+        if nl:
+            low = np.maximum(low, self.low[-1])
+            in_low = r <= nl - 1
+            exact_low = self.low[np.minimum(r, nl - 1).astype(np.int64)]
+            low, high = np.where(in_low, exact_low, low), np.where(in_low, exact_low, high)
+        if nh:
+            start = n - nh
+            high = np.minimum(high, self.high[0])
+            in_high = r >= start
+            exact_high = self.high[np.clip(r - start, 0, nh - 1).astype(np.int64)]
+            low, high = np.where(in_high, exact_high, low), np.where(in_high, exact_high, high)
+        return np.asarray(low, dtype=np.float64), np.asarray(high, dtype=np.float64)
 
     def rank_error_at(self, q: ArrayLike) -> FloatArray:
-        """The same bound, for the pair of centroids that answers each q (0 where exact)."""
-        qa = np.asarray(q, dtype=np.float64)
-        per = self._pair_bounds()
-        if per.size == 0:
-            return np.zeros(qa.shape)
-        pos = qa * (self.count - 1)
-        knot_pos, _ = self.digest.knots()
-        j = np.clip(np.searchsorted(knot_pos, pos, side="right") - 1, 0, knot_pos.size - 2)
-        # Knots come in (first, last) pairs per centroid: even j is inside a centroid.
-        pair = np.clip((j - 1) // 2, 0, per.size - 1)
-        inside = j % 2 == 0
-        _, w, pure = self.digest.centroids()
-        own = np.where(pure, 0.0, w)[j // 2]
-        err = np.where(inside & (own == 0), 0.0, per[pair]) + self.merge_slack
-        nl, nh, n = self.low.size, self.high.size, self.count
-        exact = (np.ceil(pos) <= nl - 1) | (np.floor(pos) >= n - nh)
-        return np.where(exact, 0.0, err) / n
+        """Largest possible rank error / n of the quantile answer at each q (0 where exact).
 
-    def _pair_bounds(self) -> FloatArray:
-        """Per adjacent centroid pair: the worst position error between their knots."""
+        The answer v at position ``q (n - 1)`` is right when that position lies in v's
+        rank interval [#(x < v) - 1, #(x <= v)]; ``count_bounds`` bounds both ends, so
+        the bound holds for any centroid layout (``tests/test_sketch_bound.py``).
+        """
+        qa = np.asarray(q, dtype=np.float64)
+        n = self.count
+        if self.exact or n == 0:
+            return np.zeros(qa.shape)
+        pos = qa * (n - 1)
+        v = self.value_at(pos)
+        _, below_most = self.count_bounds(np.nextafter(v, -np.inf))
+        at_least, _ = self.count_bounds(v)
+        err = np.maximum(0.0, np.maximum(below_most - 1.0 - pos, pos - at_least))
+        return np.asarray(err / n, dtype=np.float64)
+
+    def rank_error_bound(self) -> float:
+        """Largest possible |error| / n of a count read from ``rank`` (or ``cdf``).
+
+        Between two breakpoints of ``count_bounds`` the bounds are flat while ``rank``
+        rises, so the largest gap sits at the smallest value of a centroid (the upper
+        bound steps up there) or just below its largest (the lower bound steps up at
+        it); those are the points checked. The same figure bounds the rank error of a
+        quantile answer up to one position of interpolation (see ``rank_error_at``).
+        Zero when the sketch is exact; a worst case, reached only where a centroid
+        straddles a gap in the data.
+        """
         if self.exact or self.count == 0:
-            return np.empty(0)
-        _, w, p = self.digest.centroids()
-        if w.size < 2:
-            return np.zeros(1) if w.size == 0 or p[0] else np.array([float(w[0])])
-        wa, wb, pa, pb = w[:-1], w[1:], p[:-1], p[1:]
-        # From a's last knot to b's first knot, against the rank interval v can have.
-        reach_up = np.where(pa, 0.0, (wa - 1.0) / 2.0) + np.where(pb, 0.0, wb)
-        reach_down = np.where(pa, 0.0, wa) + np.where(pb, 0.0, (wb - 1.0) / 2.0)
-        per = np.maximum(reach_up, reach_down)
-        # Pairs wholly inside the exact tails never answer a query.
-        before = np.cumsum(w) - w
-        first_knot = np.where(p, before, before + (w - 1.0) / 2.0)
-        last_knot = np.where(p, before + w - 1.0, first_knot)
-        lo_edge, hi_edge = self.low.size - 1, self.count - self.high.size
-        used = (first_knot[1:] > lo_edge) & (last_knot[:-1] < hi_edge)
-        return np.where(used, per, 0.0)
+            return 0.0
+        lo, hi = self.digest.ranges()
+        _, knot_vals = self.digest.knots()
+        x = np.unique(np.concatenate((lo, hi, np.nextafter(hi, -np.inf), knot_vals)))
+        at_least, at_most = self.count_bounds(x)
+        r = self.rank(x)
+        return float(np.max(np.maximum(r - at_least, at_most - r)) / self.count)
 
     def summary(self) -> dict[str, Any]:
         """The fields every view shows, as plain numbers."""

@@ -60,8 +60,6 @@ def in_unit(sketch: Sketch, unit: str) -> Sketch:
     the factor. Raises ValueError, in one sentence, when the units are not both
     durations (ms and bytes measure different things).
     """
-    from .digest import TDigest
-
     factor = duration_factor(sketch.unit, unit)
     if factor is None:
         raise ValueError(
@@ -74,7 +72,5 @@ def in_unit(sketch: Sketch, unit: str) -> Sketch:
     out.unit = unit
     out.total = sketch.total * factor
     out.low, out.high = sketch.low * factor, sketch.high * factor
-    means, weights, pure = sketch.digest.centroids()
-    out.digest = TDigest(sketch.compression, sketch.digest.scale)
-    out.digest.add_centroids(means * factor, weights, pure)
+    out.digest.scale_values(factor)  # keeps each centroid's range, so the bounds carry over
     return out
