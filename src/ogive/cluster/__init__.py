@@ -18,6 +18,8 @@ from __future__ import annotations
 import contextlib
 import logging
 import os
+import signal
+import threading
 import time
 from collections.abc import Callable, Iterator, Sequence
 from typing import Any
@@ -99,13 +101,14 @@ def connect(address: str) -> Iterator[Any]:
     n = local_workers(address)
     with contextlib.ExitStack() as stack:
         if n is not None:
-            local = LocalCluster(
-                n_workers=n,
-                threads_per_worker=1,
-                processes=True,
-                dashboard_address=None,
-                silence_logs=logging.ERROR,
-            )
+            with _workers_ignore_ctrl_c():
+                local = LocalCluster(
+                    n_workers=n,
+                    threads_per_worker=1,
+                    processes=True,
+                    dashboard_address=None,
+                    silence_logs=logging.ERROR,
+                )
             cluster = stack.enter_context(local)
             client = stack.enter_context(Client(cluster))
         else:
@@ -115,6 +118,21 @@ def connect(address: str) -> Iterator[Any]:
                 raise OgiveError(f"cannot reach the Dask scheduler at {address}: {exc}.") from None
         check_workers(client, address)
         yield client
+
+
+@contextlib.contextmanager
+def _workers_ignore_ctrl_c() -> Iterator[None]:
+    """Worker processes started now ignore SIGINT: a Ctrl-C at the terminal reaches the
+    whole process group, and the client, not the workers, decides what it means (stop
+    and keep what was read). A fresh interpreter keeps an ignored SIGINT ignored."""
+    if threading.current_thread() is not threading.main_thread():
+        yield  # a background scan (the workspace): no terminal signal to guard against
+        return
+    previous = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, previous)
 
 
 def check_workers(client: Any, address: str) -> None:

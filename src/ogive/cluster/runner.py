@@ -35,6 +35,8 @@ SPLIT_EVERY = 8
 """Parts merged by one reduce task: a tree of depth log8(parts), each merge holding at
 most 8 sketch sets (benchmarks/cluster_bench.py times 10^4 of them)."""
 POLL_S = 0.05
+FINAL_WAIT_S = 120
+"""How long a stopped scan waits for the parts already read to be merged and sent back."""
 
 PENDING, EMPTY, HOLE = "pending", "empty", "hole"
 """A slot waiting for its part; a slot with nothing to merge (its bytes were read by
@@ -311,7 +313,14 @@ class Runner:
                 )
                 for g in range(0, len(pieces), every)
             ]
-        return (pieces[0].result() if pieces else None), self.out
+        if not pieces:
+            return None, self.out
+        try:
+            return pieces[0].result(timeout=FINAL_WAIT_S), self.out
+        except Exception as exc:  # the workers holding them are gone (a timeout, a lost worker)
+            raise RuntimeError(
+                f"the parts read before the stop could not be gathered ({type(exc).__name__})"
+            ) from None
 
     def frontier(self, level: int, j: int) -> list[Any]:
         """Finished nodes under node ``j`` of ``level`` that cover the most, in order."""
