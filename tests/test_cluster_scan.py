@@ -48,7 +48,7 @@ distributed = pytest.importorskip(
 def address() -> Iterator[str]:
     """One cluster of two worker processes for the whole module (starting one takes seconds)."""
     with distributed.LocalCluster(
-        n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None, silence_logs=40
+        n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0", silence_logs=40
     ) as lc:
         yield lc.scheduler_address
 
@@ -268,3 +268,20 @@ def test_missing_extra_is_one_sentence(monkeypatch, files) -> None:  # type: ign
     monkeypatch.setitem(sys.modules, "fsspec", None)
     with pytest.raises(OgiveError, match=r"reading URLs needs fsspec.*ogive\[cluster\]"):
         scan(["s3://bucket/app.log"], ScanOptions())
+
+
+async def test_workspace_scans_on_the_cluster(files, address) -> None:  # type: ignore[no-untyped-def]
+    """``ogive view --cluster``: the workspace's background scan runs on the cluster."""
+    from ogive.ui import OgiveApp
+
+    d, truth = files
+    options = ScanOptions(column="latency_ms")
+    app = OgiveApp([str(d / "a.csv")], options, families=["lognormal"], cluster=address)
+    async with app.run_test(size=(80, 24)) as pilot:
+        for _ in range(600):
+            if app.ws.jobs and all(j.done for j in app.ws.jobs):
+                break
+            await pilot.pause(0.1)
+        rows = [r for r in app.ws.dists.values() if r.origin == str(d / "a.csv")]
+        assert [r.sketch.count for r in rows] == [len(truth["a.csv"].values)]
+        assert rows[0].state == "ready"

@@ -106,7 +106,7 @@ def connect(address: str) -> Iterator[Any]:
                     n_workers=n,
                     threads_per_worker=1,
                     processes=True,
-                    dashboard_address=None,
+                    dashboard_address=":0",
                     silence_logs=logging.ERROR,
                 )
             cluster = stack.enter_context(local)
