@@ -29,7 +29,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from ..read.route import OTHER, OVERFLOW_KEPT
-from ..sketch import SketchSet, SkipTally, dumps, loads
+from ..sketch import Sketch, SketchSet, SkipTally, dumps, loads
 
 Blob = tuple[bytes, bytes]
 """A part on the wire: (the codec's bytes of its sketch set, its tally as JSON)."""
@@ -121,8 +121,17 @@ def merge(parts: list[Part], *, by: str | None, max_groups: int) -> Part:
     """``parts`` (in source order) as one part, keeping up to ``WIDE * max_groups`` groups;
     the inputs are consumed."""
     out = parts[0]
+    more: dict[str, list[Sketch]] = {}
     for part in parts[1:]:
+        for name, sketch in part.sketches.sketches.items():
+            if name in out.sketches.sketches:
+                more.setdefault(name, []).append(sketch)
+            else:
+                out.sketches.sketches[name] = sketch
         _merge_two(out, part)
+    for name, sketches in more.items():
+        # one regroup of all the inputs' centroids, not a fold (see ``ogive.sketch.merge_all``)
+        out.sketches.sketches[name].merge_many(sketches)
     if by and len(out.tally.groups) > WIDE * max_groups:
         cap_groups(out, by, WIDE * max_groups)
         out.tally.crowded = True
@@ -133,12 +142,6 @@ def _merge_two(a: Part, b: Part) -> None:
     ta, tb = a.tally, b.tally
     if ta.unit is not None and tb.unit is not None and ta.unit != tb.unit and b.sketches.sketches:
         raise ValueError(f"parts read in different units ({ta.unit!r} and {tb.unit!r})")
-    for name, sketch in b.sketches.sketches.items():
-        mine = a.sketches.sketches.get(name)
-        if mine is None:
-            a.sketches.sketches[name] = sketch
-        else:
-            mine.merge(sketch)
     _add_tallies(a.sketches.unassigned, b.sketches.unassigned)
     ta.leaves += tb.leaves
     for key in ("lines", "rows", "nbytes", "values", "suffixed", "unsuffixed", "other_epoch", "quote_chunks"):
@@ -166,15 +169,16 @@ def cap_groups(part: Part, by: str, max_groups: int) -> None:
     late = set(t.groups[max_groups:])
     other = f"{by}={OTHER}"
     sketches = part.sketches.sketches
+    folded: dict[str, list[Sketch]] = {}
     for name in list(sketches):
         half = next((h for h in ("before/", "after/") if name.startswith(h + by + "=")), "")
         if name[len(half) :] in late:
-            target = half + other
-            sketch = sketches.pop(name)
-            if target in sketches:
-                sketches[target].merge(sketch)
-            else:
-                sketches[target] = sketch
+            folded.setdefault(half + other, []).append(sketches.pop(name))
+    for target, group in folded.items():
+        if target not in sketches:
+            sketches[target] = group.pop(0)
+        if group:
+            sketches[target].merge_many(group)
     room = max(0, OVERFLOW_KEPT - len(t.overflow))
     _once(t.overflow, [g[len(by) + 1 :] for g in t.groups[max_groups:]][:room])
     t.groups = t.groups[:max_groups]
