@@ -22,11 +22,11 @@ MAY_IMPORT: dict[str, set[str]] = {
     "store": {"sketch", "errors"},
     "read": {"sketch", "errors", "numbers"},
     "fit": {"sketch", "errors", "numbers"},
-    "cluster": {"read", "sketch", "store", "errors", "numbers"},
+    "cluster": {"read", "sketch", "store", "errors", "numbers", "ogive"},
     "render": {"sketch", "fit", "errors", "numbers"},
     "demo": {"errors"},
     "demo_metrics": {"demo", "errors"},
-    "ui": {"read", "fit", "store", "render", "sketch", "errors", "numbers"},
+    "ui": {"cluster", "read", "fit", "store", "render", "sketch", "errors", "numbers"},
     "commands": {
         "ui",
         "demo",

@@ -20,6 +20,7 @@ from collections.abc import Iterator
 from typing import TYPE_CHECKING
 
 from ..errors import OgiveError
+from .generate import parse_size
 
 if TYPE_CHECKING:
     from ..read.options import ScanOptions, ScanResult
@@ -145,6 +146,23 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         "--quiet",
         action="store_true",
         help="no progress line and no warnings on stderr",
+    )
+    c = parser.add_argument_group("reading on a Dask cluster (pip install 'ogive[cluster]')")
+    c.add_argument(
+        "--cluster",
+        metavar="ADDRESS",
+        default=None,
+        help="read the sources on a Dask cluster: a scheduler address (tcp://10.0.0.5:8786), or local[:N] "
+        "for N worker processes on this machine; every worker must reach the sources by the same name "
+        "(s3://, gs://, https:// URLs, or a shared file system). Same result as without it",
+    )
+    c.add_argument(
+        "--part-size",
+        metavar="SIZE",
+        type=parse_size,
+        default=None,
+        help="with --cluster: bytes of a plain file one task reads (MB by default, or 16M, 1G; default 64M); "
+        "a compressed file is one task",
     )
 
 
@@ -343,9 +361,24 @@ def scan_sources(
     options = dataclasses.replace(options or options_from_args(args), keep_partial=keep_partial)
     quiet = bool(getattr(args, "quiet", False))
     line = ProgressLine(sys.stderr) if not quiet and sys.stderr.isatty() else None
+    address = getattr(args, "cluster", None)
+    if address is None and getattr(args, "part_size", None) is not None:
+        raise OgiveError("--part-size sets the size of a task on a cluster; use it with --cluster.")
     with first_ctrl_c_stops() as stopped:
         try:
-            result = scan(sources, options, progress=line.update if line else None, cancel=stopped.is_set)
+            if address is not None:
+                from ..cluster import scan as cluster_scan
+
+                result = cluster_scan(
+                    sources,
+                    options,
+                    cluster=address,
+                    part_bytes=args.part_size,
+                    progress=line.update if line else None,
+                    cancel=stopped.is_set,
+                )
+            else:
+                result = scan(sources, options, progress=line.update if line else None, cancel=stopped.is_set)
         finally:
             if line is not None:
                 line.clear()

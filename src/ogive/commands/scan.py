@@ -32,6 +32,8 @@ examples:
       --time-field timestamp --split-at 2026-03-04T13:00:00Z -o day.ogive
   ogive scan demo_logs/checkout-after.ndjson.gz --field timing.total_ms --json
   ssh web-1 ogive scan /var/log/app.log --pattern 'dur=(\\S+)' -o - > web-1.ogive
+  ogive scan 's3://logs/2026-03-04/*.log.gz' --pattern 'dur=(\\S+)' \\
+      --cluster tcp://10.0.0.5:8786 -o day.ogive
 
 With -o - the sketch goes to standard output and the summary to standard error.
 The quantiles come from a t-digest with the 512 smallest and largest values kept
@@ -93,6 +95,8 @@ def run(args: argparse.Namespace) -> int:
         if not os.access(folder, os.W_OK):
             raise OgiveError(f"cannot write {args.output}: the folder {folder} is not writable.")
 
+    if args.follow and args.cluster:
+        raise OgiveError("--follow reads a growing file on this machine; it does not run on a cluster.")
     if args.recent is not None and not args.follow:
         raise OgiveError("--recent keeps the last minutes of a followed log; use it with --follow.")
     result = _follow(args) if args.follow else scan_sources(list(args.sources), args, keep_partial=True)

@@ -74,6 +74,7 @@ def run(args: argparse.Namespace) -> int:
     import os
 
     from ..errors import OgiveError
+    from ..read.urls import has_glob, is_url
     from ..store import sketch_ref, split_group
     from ..ui import OgiveApp
 
@@ -89,9 +90,11 @@ def run(args: argparse.Namespace) -> int:
         from ..read.follow import recent_window
 
         recent_window(args.recent, _options(args))  # a bad width fails here, in one line
+    if args.follow and args.cluster:
+        raise OgiveError("--follow reads a growing file on this machine; it does not run on a cluster.")
     for spec in args.sources:
-        if spec in followed:
-            continue  # following waits for a file that does not exist yet, as scan --follow does
+        if spec in followed or is_url(spec) or has_glob(spec):
+            continue  # following waits for a file that does not exist yet; URLs and globs: the scan says
         if spec != "-" and not os.path.exists(spec) and not os.path.exists(split_group(spec)[0]):
             raise OgiveError(f"cannot open {spec}: no such file.")
     families = [f.strip() for f in args.families.split(",") if f.strip()] if args.families else None
@@ -111,6 +114,7 @@ def run(args: argparse.Namespace) -> int:
         families=families,
         follow=args.follow,
         recent=args.recent,
+        cluster=args.cluster,
     )
     return app.run() or 0
 

@@ -13,7 +13,7 @@ from collections.abc import Iterator
 import polars as pl
 
 from ..errors import OgiveError
-from . import records, sources
+from . import records, sources, urls
 from .decode import Decoder
 from .feed import Feed, prefetch
 from .options import ScanOptions
@@ -21,6 +21,8 @@ from .options import ScanOptions
 LAZY_HEAD = 1 << 20
 """Bytes of a plain file read to decide its layout before polars' reader takes over."""
 PARQUET_BATCH_ROWS = 1 << 20
+POLARS_STORES = ("s3", "s3a", "gs", "gcs", "az", "abfs", "abfss")
+"""URL schemes polars' Parquet reader opens itself (credentials from the environment)."""
 
 
 class LazyFile:
@@ -89,7 +91,12 @@ def parquet_frames(
     if not want:
         raise OgiveError(f"{src.display} is Parquet; name the value column with --column (or --field).")
     try:
-        lf = pl.scan_parquet(src.name)
+        # polars reads object stores itself, fetching only the row groups a part needs;
+        # other URLs (memory://, https://) through the file fsspec opened.
+        native = not urls.is_url(src.name) or src.name.split("://")[0] in POLARS_STORES
+        lf = pl.scan_parquet(src.name if native else src.raw)
+        if src.rows is not None:
+            lf = lf.slice(*src.rows)
         schema = lf.collect_schema()
     except pl.exceptions.PolarsError as exc:
         raise OgiveError(f"{src.display}: cannot read Parquet: {str(exc).splitlines()[0]}") from None

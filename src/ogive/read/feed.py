@@ -116,12 +116,16 @@ class Feed:
         return head.rstrip(b"\r") == layout.header_line.rstrip(b"\r")
 
     # ----------------------------------------------------------------- pieces
-    def start_source(self, name: str = "") -> None:
+    def start_source(self, name: str = "", *, at_start: bool = True) -> None:
         """A new source (or a followed file reopened): fresh cutting, header expected,
-        its text encoding decided afresh from its first bytes."""
+        its text encoding decided afresh from its first bytes. Not ``at_start`` (a byte
+        range of a source, in a scan split into parts): no header, and UTF-8 as it is
+        (a source in another encoding is never split)."""
         self._cutter = sources.Cutter(self.options.max_line_bytes)
-        self._header_pending = True
+        self._header_pending = at_start
         self._recode = encoding.Transcoder()
+        if not at_start:
+            self._recode.encoding = encoding.UTF8
         self._source = name
 
     def push(self, data: bytes) -> Piece | None:

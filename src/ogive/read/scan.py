@@ -24,7 +24,7 @@ import polars as pl
 
 from ..errors import OgiveError
 from ..sketch import SketchSet, SkipTally
-from . import direct, metrics, sources
+from . import direct, metrics, sources, urls
 from .build import Builder, TimeOrder
 from .decode import Batch, Decoder
 from .feed import FIXED_TEXT, Feed, prefetch
@@ -43,20 +43,30 @@ def scan(
     *,
     progress: Callable[[ScanProgress], None] | None = None,
     cancel: Callable[[], bool] | None = None,
+    run: Pipeline | None = None,
+    open_source: Callable[[str], sources.Opened] | None = None,
 ) -> ScanResult:
     """Read every source once, as one stream, into the sketches the options ask for.
 
     Raises OgiveError for unusable input (unreadable file, corrupt compression, a
     ``strict`` scan meeting a bad row); everything else that is wrong with single rows
     is counted by reason in the sketches' provenance and in the result. The options
-    were checked when they were built (:class:`ScanOptions`).
+    were checked when they were built (:class:`ScanOptions`). Globs are expanded
+    (:func:`urls.expand`).
+
+    ``run`` and ``open_source`` let ``ogive.cluster`` scan one part of a bigger scan: a
+    pipeline holding the decisions made from the whole scan's head, and the part's
+    bytes opened as a source.
     """
     if not sources_:
         raise OgiveError("no source given; name a file, or '-' for standard input.")
-    fmt = metrics.detect(sources_, options)
-    if fmt is not None:  # histograms already aggregated: read into binned distributions
-        return metrics.scan_metrics(sources_, options, fmt, progress=progress, cancel=cancel)
-    run = Pipeline(list(sources_), options)
+    if open_source is None:  # a part of a cluster scan comes with its own opener and decisions
+        sources_ = urls.expand(list(sources_))
+        fmt = metrics.detect(sources_, options)
+        if fmt is not None:  # histograms already aggregated: read into binned distributions
+            return metrics.scan_metrics(sources_, options, fmt, progress=progress, cancel=cancel)
+    run = run if run is not None else Pipeline(list(sources_), options)
+    opener = open_source or sources.Opened
     start = time.monotonic()
     sizes = [_file_size(name) for name in sources_]
     total = sum(s for s in sizes if s is not None) if all(s is not None for s in sizes) else None
@@ -76,8 +86,8 @@ def scan(
 
     try:
         for name in sources_:
-            src = sources.Opened(name)
-            run.start_source(src.display)
+            src = opener(name)
+            run.start_source(src.display, at_start=src.at_start)
             jobs = run.jobs(src, pool)
             try:
                 try:
@@ -193,8 +203,8 @@ class Pipeline:
         """How the value is found (``column latency_ms``), once the layout is known."""
         return self.feed.layout.description if self.feed.layout is not None else ""
 
-    def start_source(self, name: str = "") -> None:
-        self.feed.start_source(name)
+    def start_source(self, name: str = "", *, at_start: bool = True) -> None:
+        self.feed.start_source(name, at_start=at_start)
         self.lines.start_source()
 
     # ----------------------------------------------------------------- pieces to batches

@@ -1,7 +1,8 @@
 """Opening sources and cutting their bytes into whole-line chunks.
 
-Compression is recognised by magic bytes, never by file name (rotated logs are often
-renamed, and stdin has no name). A chunk always ends at a newline; the unfinished line
+A source is a local path, ``-`` (standard input), or a URL that fsspec opens
+(:mod:`.urls`). Compression is recognised by magic bytes, never by file name (rotated
+logs are often renamed, and stdin has no name). A chunk always ends at a newline; the unfinished line
 is carried into the next read, and the carry grows when a single line is longer than
 the chunk, up to ``max_line_bytes``; beyond that the line is reported as too long and
 skipped, so a file without newlines cannot exhaust memory.
@@ -11,6 +12,7 @@ from __future__ import annotations
 
 import bz2
 import gzip
+import io
 import lzma
 import os
 import sys
@@ -19,6 +21,7 @@ from dataclasses import dataclass
 from typing import BinaryIO, cast
 
 from ..errors import OgiveError
+from .urls import is_url, open_url
 
 MAGIC = {
     b"\x1f\x8b": "gzip",
@@ -47,19 +50,33 @@ _LOOK = 1 << 16
 
 
 class Opened:
-    """A source opened for reading decompressed bytes; ``raw_pos`` tracks the file offset."""
+    """A source opened for reading decompressed bytes; ``raw_pos`` tracks the file offset.
 
-    def __init__(self, name: str) -> None:
+    ``fileobj`` and ``at_start`` serve a part of a bigger scan (``ogive.cluster``): the
+    bytes come from ``fileobj`` (a byte range of ``name``), and unless the range begins
+    at the source's first byte there is no header to take off and no encoding to decide.
+    """
+
+    def __init__(self, name: str, *, fileobj: BinaryIO | None = None, at_start: bool = True) -> None:
         self.name = name
         self.display = "<stdin>" if name == "-" else name
-        try:
-            self.raw: BinaryIO = sys.stdin.buffer if name == "-" else open(name, "rb")  # noqa: SIM115
-        except OSError as exc:
-            raise OgiveError(f"cannot open {name}: {exc.strerror or exc}.") from None
+        self.at_start = at_start
+        self.rows: tuple[int, int] | None = None
+        """Parquet: read only these rows (offset, count), a row group of a bigger scan."""
         self.size: int | None = None
         self._inode: int | None = None
         self._damage: CorruptSource | None = None
-        if name != "-":
+        self._remote = fileobj is None and is_url(name)
+        if fileobj is not None:
+            self.raw: BinaryIO = fileobj
+        elif self._remote:
+            self.raw, self.size = open_url(name)
+        else:
+            try:
+                self.raw = sys.stdin.buffer if name == "-" else open(name, "rb")  # noqa: SIM115
+            except OSError as exc:
+                raise OgiveError(f"cannot open {name}: {exc.strerror or exc}.") from None
+        if name != "-" and fileobj is None and self.size is None:
             try:
                 st = os.fstat(self.raw.fileno())
                 if os.path.isfile(name):
@@ -77,6 +94,13 @@ class Opened:
         peek = getattr(self.raw, "peek", None)
         if peek is not None:
             return bytes(peek(8)[:8])
+        if self._remote:  # an fsspec file: read the magic, then go back
+            if not self.raw.seekable():
+                self.raw = io.BufferedReader(self.raw)  # type: ignore[arg-type,type-var]
+                return bytes(self.raw.peek(8)[:8])
+            head = self.raw.read(8)
+            self.raw.seek(0)
+            return head
         return b""
 
     def _wrap(self) -> BinaryIO:

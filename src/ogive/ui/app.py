@@ -116,6 +116,7 @@ class OgiveApp(App[int]):
         follow: bool = False,
         recent: str | None = None,
         clock: Callable[[], float] = time.time,
+        cluster: str | None = None,
     ) -> None:
         super().__init__()
         self.ws = Workspace(wanted_subject=subject, wanted_reference=reference)
@@ -132,6 +133,8 @@ class OgiveApp(App[int]):
         """``--recent`` span for followed logs: a window sketch of its own beside the all-time one."""
         self.clock = clock
         """Wall clock of the recent window's arrival times (a test moves it by hand)."""
+        self.cluster = cluster
+        """``--cluster``: logs are read on this Dask cluster (as ``ogive scan --cluster``)."""
         self.save_dir = Path(save_dir)
         self.pane = "picture"
         self.schedule = Scheduler()
@@ -169,7 +172,8 @@ class OgiveApp(App[int]):
     # ------------------------------------------------------------------ opening and scanning
     def open(self, source: str, options: ScanOptions, *, follow: bool = False) -> None:
         """A .ogive file loads at once; a log is scanned (or followed) in the background."""
-        got = open_source(source, options, order=self.ws.next_order(), follow=follow, recent=self.recent)
+        order, recent = self.ws.next_order(), self.recent
+        got = open_source(source, options, order=order, follow=follow, recent=recent, cluster=self.cluster)
         if got.rows:
             self.ws.add_rows(got.rows)
             self.request_analysis()

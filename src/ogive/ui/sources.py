@@ -15,6 +15,7 @@ from pathlib import Path
 
 from ..errors import OgiveError
 from ..read.options import ScanOptions
+from ..read.urls import has_glob, is_url
 from ..sketch import timekeys
 from ..sketch.distribution import Dist
 from ..store import load_ref, sketch_ref, source_stem
@@ -38,11 +39,18 @@ def without_windows(sketches: dict[str, Dist]) -> dict[str, Dist]:
 
 
 def open_source(
-    spec: str, options: ScanOptions, *, order: int, follow: bool = False, recent: str | None = None
+    spec: str,
+    options: ScanOptions,
+    *,
+    order: int,
+    follow: bool = False,
+    recent: str | None = None,
+    cluster: str | None = None,
 ) -> Opened:
     """Rows for a saved sketch (``PATH`` or ``PATH:GROUP``), or a scan (a follow) for a log.
 
     A followed log may not exist yet: following waits for it, as ``scan --follow`` does.
+    A URL or a glob is left for the scan to open (and to say what is wrong with it).
     """
     ref = sketch_ref(spec)
     if ref is not None:
@@ -63,6 +71,6 @@ def open_source(
         return Opened(rows=rows, message=f"loaded {ref.path}{hint}", windows=windows)
     if follow:
         return Opened(job=ScanJob(spec, options, seq=order, follow=True, recent=recent))
-    if spec != "-" and not Path(spec).exists():
+    if spec != "-" and not Path(spec).exists() and not is_url(spec) and not has_glob(spec):
         return Opened(message=f"cannot open {spec}: no such file.")
-    return Opened(job=ScanJob(spec, options, seq=order))
+    return Opened(job=ScanJob(spec, options, seq=order, cluster=cluster))

@@ -58,6 +58,8 @@ class ScanJob:
     """Distribution name given to each group of this scan, so every tick updates the same row."""
     follow: bool = False
     """The job follows a growing file until stopped, instead of reading it once."""
+    cluster: str | None = None
+    """The Dask cluster the scan runs on (``--cluster``), or None: here."""
     recent: str | None = None
     """``--recent`` span of a follow (``5m``): its window sketch gets a row of its own."""
     rotations: int = 0

@@ -114,6 +114,13 @@ def run_scan(
                 update_s=REFRESH_S,
                 recent=window,
             )
+        elif job.cluster is not None:
+            from ..cluster import scan as cluster_scan
+
+            result = cluster_scan(
+                [job.source], job.options, cluster=job.cluster, progress=progress, cancel=cancelled
+            )
+            rotations = 0
         else:
             result, rotations = scan([job.source], job.options, progress=progress, cancel=cancelled), 0
     except (OgiveError, ValueError) as exc:
