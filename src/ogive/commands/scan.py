@@ -15,6 +15,7 @@ from typing import Any
 
 from ..errors import EXIT_INTERRUPTED, OgiveError
 from .common import add_source_options
+from .objectives import add_objective_option
 
 DESCRIPTION = """\
 Read one or more sources once, in bounded memory, into a quantile sketch of one numeric
@@ -64,6 +65,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="with --follow: also keep a sketch of only the last DURATION (30s, 5m, 1h), shown live "
         "beside the all-time one and saved as the sketch recent-DURATION",
     )
+    add_objective_option(parser)
     add_source_options(parser)
 
 
@@ -71,7 +73,9 @@ def run(args: argparse.Namespace) -> int:
     from ..render.summary import summarise, summary_lines
     from ..store import save_sketches, sketch_ref
     from .common import scan_sources
+    from .objectives import objective_text, parse_objectives, set_objectives
 
+    objectives = parse_objectives(args.objective)
     to_stdout = args.output == "-"
     if to_stdout and args.json:
         raise OgiveError(
@@ -110,8 +114,11 @@ def run(args: argparse.Namespace) -> int:
     )
     if args.output:
         save_sketches(args.output, result.sketches)
+    slo = set_objectives(result.sketches, objectives)
     if args.json:
         doc = summary.to_dict()
+        if objectives:
+            doc["objectives"] = slo.to_dict()
         doc["bytes_read"] = result.bytes_read
         doc["elapsed_s"] = round(result.elapsed_s, 6)
         doc["output"] = args.output
@@ -121,7 +128,7 @@ def run(args: argparse.Namespace) -> int:
         _damaged(result, args.output)
         return EXIT_INTERRUPTED if result.interrupted else 0
     out = sys.stderr if to_stdout else sys.stdout
-    lines = summary_lines(summary)
+    lines = summary_lines(summary) + objective_text(slo)
     if args.output and not to_stdout:
         lines += [
             "",

@@ -1,0 +1,113 @@
+"""Objectives (``--objective 300ms@99.9%``) as text: one sentence per check, one table per report.
+
+``scan``, ``show``, ``compare``, ``timeline`` and the workspace all print objective
+checks through these functions, so a check reads the same everywhere. Formatting
+only: every number is a field of :class:`ogive.fit.objective.ObjectiveCheck`.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import TYPE_CHECKING
+
+from ..numbers import percent, quantity, span
+from .tables import Table, table, text_lines
+
+if TYPE_CHECKING:
+    from ..fit.objective import ObjectiveCheck, ObjectiveReport, ShareOver
+
+
+def share_text(s: ShareOver) -> str:
+    """``0.21%``, or ``0.8% to 2.1%`` when the sketch knows the count over only as a range
+    it cannot narrow (a threshold inside a telemetry bucket); ``–`` with no values."""
+    if s.n == 0:
+        return percent(None)
+    if math.isnan(s.estimate):
+        lo, hi = s.observed
+        return f"{percent(lo)} to {percent(hi)}"
+    return percent(s.estimate)
+
+
+def interval_text(low: float, high: float) -> str:
+    return f"[{percent(low)}, {percent(high)}]"
+
+
+def budget_text(c: ObjectiveCheck) -> str:
+    """The budget spent: ``210%``, or a range where the share is one."""
+    if c.share.n == 0:
+        return percent(None)
+    if math.isnan(c.budget):
+        lo, hi = c.observed_budget
+        return f"{percent(lo)} to {percent(hi)}"
+    return percent(c.budget)
+
+
+def bucket_note(c: ObjectiveCheck) -> str:
+    """Why a binned share is a range: the bucket the threshold falls in (empty otherwise)."""
+    s = c.share
+    if s.bucket is None:
+        return ""
+    where = quantity(s.threshold, s.unit)
+    return f"{where} lies inside the bucket {span(s.bucket[0], s.bucket[1], s.unit)}: the share over it is a range"
+
+
+def objective_sentence(c: ObjectiveCheck) -> str:
+    """``0.21% over 300 ms [0.18%, 0.24%], budget 210% spent: missed``."""
+    s = c.share
+    if s.n == 0:
+        return f"no values: {c.status}"
+    over = quantity(s.threshold, s.unit)
+    return (
+        f"{share_text(s)} over {over} {interval_text(s.low, s.high)}, "
+        f"budget {budget_text(c)} spent: {c.status}"
+    )
+
+
+def objective_table(checks: tuple[ObjectiveCheck, ...], *, names: bool = True) -> Table:
+    """One row per (sketch, objective): share over, its interval, budget spent and its interval, compliance."""
+    header = (
+        *(("sketch",) if names else ()),
+        "objective",
+        "n",
+        "over",
+        "interval",
+        "budget spent",
+        "interval",
+        "compliance",
+    )
+    rows = []
+    for c in checks:
+        lo, hi = c.budget_range
+        rows.append(
+            (
+                *((c.name,) if names else ()),
+                c.objective.text,
+                f"{c.share.n:,}",
+                share_text(c.share),
+                interval_text(c.share.low, c.share.high) if c.share.n else percent(None),
+                budget_text(c),
+                interval_text(lo, hi) if c.share.n else percent(None),
+                c.status,
+            )
+        )
+    first = 1 if names else 0
+    return table(header, rows, (first + 1, first + 2, first + 4))
+
+
+def objective_lines(report: ObjectiveReport) -> list[str]:
+    """The block ``--objective`` adds to a command's text output."""
+    if not report.checks:
+        return []
+    level = percent(report.confidence, digits=4, compact=True)
+    out = [
+        f"objectives (share over the threshold; {level} interval: Clopper-Pearson, widened by the "
+        "sketch's own error; budget spent = share over / allowed share)",
+        *text_lines(objective_table(report.checks), indent=2),
+    ]
+    notes = [f"  {c.name}: {bucket_note(c)}" for c in report.checks if bucket_note(c)]
+    out.extend(notes)
+    out.append(
+        "  met: the whole interval is within the allowed share; missed: all of it is above it; "
+        "about this sketch's period only"
+    )
+    return out
