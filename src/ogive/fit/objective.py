@@ -78,7 +78,9 @@ def parse_threshold(text: str, what: str) -> Threshold:
     """``300ms``, ``0.3s``, ``250`` -> Threshold; ``what`` names the option in the error."""
     m = _THRESHOLD.match(text)
     if not m:
-        raise ValueError(f"{what} {text!r}: the threshold is not a number with an optional unit, such as 300ms.")
+        raise ValueError(
+            f"{what} {text!r}: the threshold is not a number with an optional unit, such as 300ms."
+        )
     return Threshold(float(m["x"]), m["unit"])
 
 

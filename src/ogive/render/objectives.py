@@ -48,7 +48,8 @@ def bucket_note(c: ObjectiveCheck) -> str:
     if s.bucket is None:
         return ""
     where = quantity(s.threshold, s.unit)
-    return f"{where} lies inside the bucket {span(s.bucket[0], s.bucket[1], s.unit)}: the share over it is a range"
+    bucket = span(s.bucket[0], s.bucket[1], s.unit)
+    return f"{where} lies inside the bucket {bucket}: the share over it is a range"
 
 
 def objective_sentence(c: ObjectiveCheck) -> str:
@@ -64,7 +65,7 @@ def objective_sentence(c: ObjectiveCheck) -> str:
 
 
 def objective_table(checks: tuple[ObjectiveCheck, ...], *, names: bool = True) -> Table:
-    """One row per (sketch, objective): share over, its interval, budget spent and its interval, compliance."""
+    """One row per (sketch, objective): share over and budget spent, each with its interval; compliance."""
     header = (
         *(("sketch",) if names else ()),
         "objective",
