@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import argparse
 from collections.abc import Sequence
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from ..errors import OgiveError
 
@@ -41,13 +41,13 @@ def parse_objectives(texts: Sequence[str]) -> list[Objective]:
 
 
 def read_objectives(
-    named: Sequence[tuple[str, Distribution]], objectives: Sequence[Objective]
+    named: Sequence[tuple[str, Distribution]], objectives: Sequence[Objective], confidence: float = 0.95
 ) -> ObjectiveReport:
     """Every objective on every named distribution; a unit that does not convert is one line."""
     from ..fit.objective import objective_report
 
     try:
-        return objective_report(list(named), list(objectives))
+        return objective_report(list(named), list(objectives), confidence)
     except ValueError as exc:
         raise OgiveError(str(exc)) from None
 
@@ -60,3 +60,8 @@ def objective_text(report: ObjectiveReport) -> list[str]:
     from ..render.objectives import objective_lines
 
     return ["", *objective_lines(report)] if report.checks else []
+
+
+def with_objectives(doc: dict[str, Any], report: ObjectiveReport) -> dict[str, Any]:
+    """A command's JSON document with the objectives beside its own keys (unchanged without any)."""
+    return {**doc, "objectives": report.to_dict()} if report.checks else doc
