@@ -87,7 +87,9 @@ def run(args: argparse.Namespace) -> int:
     objectives = parse_objectives(args.objective)
     if args.window:
         if objectives:
-            raise OgiveError("--objective with --window: use 'ogive timeline --objective', which reads each window.")
+            raise OgiveError(
+                "--objective with --window: use 'ogive timeline --objective', which reads each window."
+            )
         return _run_windows(args, conf)
     if args.by:
         sides, labels = group_sides(args)
