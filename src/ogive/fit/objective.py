@@ -32,6 +32,7 @@ from __future__ import annotations
 
 import math
 import re
+import sys
 from dataclasses import dataclass
 from typing import Any
 
@@ -169,6 +170,12 @@ class ShareOver:
             "count_exact": self.count_exact,
             "bucket": None if self.bucket is None else [_num(self.bucket[0]), _num(self.bucket[1])],
         }
+
+
+def statistics_loaded() -> bool:
+    """Whether scipy.stats is imported already: the workspace's screen thread reads objectives
+    only then, since importing it there would freeze the keys for seconds (a worker loads it)."""
+    return "scipy.stats" in sys.modules
 
 
 def clopper_pearson(k_low: int, k_high: int, n: int, confidence: float) -> tuple[float, float]:

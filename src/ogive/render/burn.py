@@ -119,6 +119,8 @@ def burn_table(series: BurnSeries, starts: Sequence[float] | None = None, *, day
                 spent,
             )
         )
+    if not rows:
+        return []
     head = ("window", "n", "over", "burn rate", "interval", "", "spent so far")
     return text_lines(table(head, rows, (1, 2, 3, 6)), indent=2)
 

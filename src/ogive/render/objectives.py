@@ -64,24 +64,24 @@ def objective_sentence(c: ObjectiveCheck) -> str:
     )
 
 
-def objective_table(checks: tuple[ObjectiveCheck, ...], *, names: bool = True) -> Table:
-    """One row per (sketch, objective): share over and budget spent, each with its interval; compliance."""
-    header = (
-        *(("sketch",) if names else ()),
-        "objective",
-        "n",
-        "over",
-        "interval",
-        "budget spent",
-        "interval",
-        "compliance",
-    )
+def objective_cell(c: ObjectiveCheck | None) -> str:
+    """A narrow cell (the workspace's Distributions list): ``0.655% met``; ``–`` without a reading."""
+    if c is None or c.share.n == 0:
+        return percent(None)
+    return f"{share_text(c.share)} {c.status}"
+
+
+def objective_table(checks: tuple[ObjectiveCheck, ...], *, narrow: bool = False) -> Table:
+    """One row per (sketch, objective): share over and budget spent, each with its interval;
+    compliance. ``narrow`` (the workspace's ladder pane at 80 columns): without n and the
+    budget's interval."""
+    header = ("sketch", "objective", "n", "over", "interval", "budget spent", "interval", "compliance")
     rows = []
     for c in checks:
         lo, hi = c.budget_range
         rows.append(
             (
-                *((c.name,) if names else ()),
+                c.name,
                 c.objective.text,
                 f"{c.share.n:,}",
                 share_text(c.share),
@@ -91,8 +91,9 @@ def objective_table(checks: tuple[ObjectiveCheck, ...], *, names: bool = True) -
                 c.status,
             )
         )
-    first = 1 if names else 0
-    return table(header, rows, (first + 1, first + 2, first + 4))
+    keep = (0, 1, 3, 4, 5, 7) if narrow else tuple(range(len(header)))
+    right = [i for i, k in enumerate(keep) if k in (2, 3, 5)]
+    return table([header[k] for k in keep], [[r[k] for k in keep] for r in rows], right)
 
 
 def objective_lines(report: ObjectiveReport) -> list[str]:
