@@ -16,11 +16,12 @@ if TYPE_CHECKING:
     from ..fit.group_gate import GroupGate
 
 DESCRIPTION = """\
-Check a candidate B against a baseline A on limits for named quantiles, for CI
-pipelines. A and B are saved sketches (run.ogive, run.ogive:GROUP) or sources to scan;
-one source with --split-at TIME gates what came after TIME against what came before.
-With --by FIELD every group on both sides is gated and the worst group decides. Each
---limit says how far B's quantile may rise above A's:
+Check a candidate B against a baseline A on limits for named quantiles or for the
+share of values over a threshold, for CI pipelines. A and B are saved sketches
+(run.ogive, run.ogive:GROUP) or sources to scan; one source with --split-at TIME gates
+what came after TIME against what came before. With --by FIELD every group on both
+sides is gated and the worst group decides. Each --limit says how far B's quantile may
+rise above A's:
 
   --limit p99=+5%      B's p99 at most 5% above A's p99
   --limit p50=+2ms     B's p50 at most 2 ms above A's (converted to the sketches' unit)

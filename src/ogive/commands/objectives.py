@@ -24,10 +24,10 @@ OBJECTIVE_HELP = (
 )
 
 
-def add_objective_option(parser: argparse.ArgumentParser | argparse._ArgumentGroup) -> None:
-    parser.add_argument(
-        "--objective", action="append", default=[], metavar="THRESHOLD@SHARE%", help=OBJECTIVE_HELP
-    )
+def add_objective_option(
+    parser: argparse.ArgumentParser | argparse._ArgumentGroup, help: str = OBJECTIVE_HELP
+) -> None:
+    parser.add_argument("--objective", action="append", default=[], metavar="THRESHOLD@SHARE%", help=help)
 
 
 def parse_objectives(texts: Sequence[str]) -> list[Objective]:

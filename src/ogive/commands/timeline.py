@@ -112,7 +112,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="N",
         help=f"most window sketches to keep, groups included (default {MAX_WINDOWS:,})",
     )
-    add_objective_option(parser)
+    add_objective_option(
+        parser,
+        "a service-level objective THRESHOLD@SHARE%%, e.g. 300ms@99.9%%: the error budget's burn "
+        "per window (share over the threshold / allowed share, with its 95%% interval) and the "
+        "budget spent so far, for the whole stream (not per --by group); repeat for more",
+    )
     parser.add_argument(
         "--burn-mark",
         type=float,
