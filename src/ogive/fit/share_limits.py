@@ -177,9 +177,10 @@ def check_share(
     )
     status = _decide(limit, (a.low, a.high), (b.low, b.high))
     note = ""
-    if limit.relative and a.high <= 0.0:
+    if limit.relative and a.over_high == 0:
         note = (
-            "A has no values over the threshold, so a relative limit allows none; an absolute one says more"
+            "A has no values over the threshold: the relative limit allows only as much as A's interval "
+            "reaches; an absolute limit says plainly how much is allowed"
         )
     if status == EXCEEDED:
         reason = f"{what} is at least {percent(b.low)}, above {allowance}; {sides}."
