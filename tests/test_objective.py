@@ -238,3 +238,25 @@ def test_budget_burn_marks_and_cumulative() -> None:
     spent = [w.spent_high for w in series.windows]
     assert spent == sorted(spent)
     json.dumps(series.to_dict(), allow_nan=False)
+
+
+# ---------------------------------------------------------------- the text
+def test_burn_strips_text() -> None:
+    """The cumulative strip rises to its top cell at the end; marks say ! over ? over ."""
+    from ogive.render.burn import burn_lines, mark_row, rising
+
+    assert rising([0.0, 0.0, 0.5, 1.0], 4, ascii_only=True) == "  =%"
+    rng = np.random.default_rng(12)
+    xs = [rng.lognormal(3, 1, 2000) for _ in range(3)] + [rng.uniform(300, 400, 2000) for _ in range(1)]
+    whole = sketch_of(np.concatenate(xs))
+    series = budget_burn(
+        "all",
+        [(i * 6e7, sketch_of(x)) for i, x in enumerate(xs)],
+        whole,
+        parse_objective("250ms@99%"),
+        width_us=6e7,
+    )
+    assert mark_row(series.windows, 4) == "...!"
+    text = "\n".join(burn_lines(series, width=80, ascii_only=True))
+    assert "first window credibly burning faster than 1x: 00:03" in text
+    assert "Windows (95% interval of the burn rate per window)" in text
