@@ -63,3 +63,11 @@ async def test_objectives_on_the_shelf_and_in_the_ladder(pair: tuple[Path, Path,
         await pilot.pause(0.3)
         text = screen_text(app)
         assert "compliance" in text and "missed" in text
+        # The exported report carries the same readings (Markdown table and JSON).
+        from ogive.ui.report import markdown, screen_state
+
+        md = markdown(app.ws, [])
+        assert "## Objectives" in md and "| after | 250ms@99% |" in md
+        state = screen_state(app.ws, [])
+        assert [c["name"] for c in state["objectives"]] == ["before", "after"]
+        assert state["objectives"][1] == direct.to_dict()

@@ -138,6 +138,11 @@ class Workspace:
             out.append(check)
         return out
 
+    def all_objective_checks(self) -> tuple[ObjectiveCheck, ...]:
+        """Every row's readings of every objective (the exported report), where there are any."""
+        rows = [self.objective_checks(name) or [] for name in self.dists]
+        return tuple(c for row in rows for c in row if c is not None)
+
     @property
     def subject_dist(self) -> Distribution | None:
         return self.dists.get(self.subject or "")
