@@ -51,7 +51,7 @@ def test_scan_and_show_objective(log: Path, tmp_path: Path, capsys: pytest.Captu
         main(["scan", str(log), *READ, "--split-at", SPLIT, "-o", str(out), "--objective", "250ms@99%"]) == 0
     )
     text = capsys.readouterr().out
-    assert "objectives (share over the threshold" in text and "missed" in text
+    assert "objectives: share of values over the threshold" in text and "missed" in text
     assert main(["show", f"{out}", "--objective", "0.25s@99%", "--json"]) == 0
     doc = json.loads(capsys.readouterr().out)
     checks = {c["name"]: c for c in doc["objectives"]["checks"]}

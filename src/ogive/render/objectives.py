@@ -102,14 +102,15 @@ def objective_lines(report: ObjectiveReport) -> list[str]:
         return []
     level = percent(report.confidence, digits=4, compact=True)
     out = [
-        f"objectives (share over the threshold; {level} interval: Clopper-Pearson, widened by the "
-        "sketch's own error; budget spent = share over / allowed share)",
+        f"objectives: share of values over the threshold, {level} interval (Clopper-Pearson, "
+        "widened by the sketch's own error)",
         *text_lines(objective_table(report.checks), indent=2),
     ]
     notes = [f"  {c.name}: {bucket_note(c)}" for c in report.checks if bucket_note(c)]
     out.extend(notes)
-    out.append(
+    out += [
+        "  budget spent = share over / allowed share (100% is the whole budget)",
         "  met: the whole interval is within the allowed share; missed: all of it is above it; "
-        "about this sketch's period only"
-    )
+        "about this sketch's period only",
+    ]
     return out
