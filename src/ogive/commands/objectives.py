@@ -30,12 +30,17 @@ def add_objective_option(
     parser.add_argument("--objective", action="append", default=[], metavar="THRESHOLD@SHARE%", help=help)
 
 
-def parse_objectives(texts: Sequence[str]) -> list[Objective]:
-    """Every ``--objective``, parsed before any work starts (a typo fails at once)."""
+def parse_objectives(texts: Sequence[str], unit: str | None = None) -> list[Objective]:
+    """Every ``--objective``, parsed before any work starts (a typo fails at once); with the
+    ``--unit`` a scan will use, a threshold that cannot be in that unit fails before the scan too."""
     from ..fit.objective import parse_objective
 
     try:
-        return [parse_objective(t) for t in texts]
+        objectives = [parse_objective(t) for t in texts]
+        if unit is not None:
+            for o in objectives:
+                o.threshold.in_unit(unit, o.text)
+        return objectives
     except ValueError as exc:
         raise OgiveError(str(exc)) from None
 

@@ -75,7 +75,7 @@ def run(args: argparse.Namespace) -> int:
     from .common import scan_sources
     from .objectives import objective_text, parse_objectives, set_objectives
 
-    objectives = parse_objectives(args.objective)
+    objectives = parse_objectives(args.objective, args.unit)
     to_stdout = args.output == "-"
     if to_stdout and args.json:
         raise OgiveError(
@@ -114,7 +114,14 @@ def run(args: argparse.Namespace) -> int:
     )
     if args.output:
         save_sketches(args.output, result.sketches)
-    slo = set_objectives(result.sketches, objectives)
+    try:
+        slo = set_objectives(result.sketches, objectives)
+    except OgiveError:
+        # The values' unit came from the data and the threshold does not fit it: the summary
+        # (and -o) of a long scan is not lost for that; the error follows it.
+        if not args.json:
+            print("\n".join(summary_lines(summary)), file=sys.stderr if to_stdout else sys.stdout)
+        raise
     if args.json:
         doc = summary.to_dict()
         if objectives:

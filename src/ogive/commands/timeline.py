@@ -140,7 +140,7 @@ def run(args: argparse.Namespace) -> int:
     from .objectives import parse_objectives
     from .show import parse_quantiles
 
-    objectives = parse_objectives(args.objective)
+    objectives = parse_objectives(args.objective, args.unit)
     if not args.burn_mark > 0:
         raise OgiveError(f"--burn-mark must be above 0, got {args.burn_mark:g}.")
     if not 0.001 <= args.false_alarm <= 0.2:
