@@ -113,6 +113,7 @@ def test_timeline_objective(log: Path, capsys: pytest.CaptureFixture[str]) -> No
     assert len(series["windows"]) == 8
     x = _values(log)
     k = int((x > 250).sum())
-    assert series["whole"]["over_low"] <= k <= series["whole"]["over_high"]
+    whole = series["whole"]["share"]
+    assert whole["over_low"] <= k <= whole["over_high"]
     lo, hi = series["budget_spent"]
     assert lo <= k / (0.01 * x.size) <= hi

@@ -260,3 +260,18 @@ def test_burn_strips_text() -> None:
     text = "\n".join(burn_lines(series, width=80, ascii_only=True))
     assert "first window credibly burning faster than 1x: 00:03" in text
     assert "Windows (95% interval of the burn rate per window)" in text
+
+
+def test_narrowed_takes_the_tighter_sure_range() -> None:
+    """Two sure ranges of one count: the interval from their overlap still holds scipy's."""
+    from ogive.fit.objective import narrowed
+
+    rng = np.random.default_rng(13)
+    x = rng.lognormal(3, 1, 300_000)
+    sh = share_over(sketch_of(x), 60.0)
+    k = int((x > 60).sum())
+    assert sh.over_low < sh.over_high  # between the exact tails: a range
+    tight = narrowed(sh, k, k)
+    assert tight.over_low == tight.over_high == k and tight.estimate == k / x.size
+    assert (tight.low, tight.high) == pytest.approx(scipy_ci(k, x.size), abs=1e-12)
+    assert narrowed(sh, sh.over_high + 1, sh.over_high + 5) is sh  # ranges that do not meet

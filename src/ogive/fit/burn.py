@@ -28,7 +28,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from ..sketch import Distribution
-from .objective import Objective, ShareOver, share_over
+from .objective import Objective, ObjectiveCheck, ShareOver, compliance, narrowed, share_over
 
 CREDIBLE, ESTIMATE, NONE = "credible", "estimate", ""
 DEFAULT_MARK_RATE = 1.0
@@ -86,8 +86,8 @@ class BurnSeries:
     confidence: float
     width_us: float
     windows: tuple[BurnWindow, ...]
-    whole: ShareOver
-    """The share over the threshold of every value of the stream."""
+    whole: ObjectiveCheck
+    """The objective read on every value of the stream: share over, budget spent, compliance."""
 
     @property
     def first_credible(self) -> BurnWindow | None:
@@ -155,6 +155,9 @@ def budget_burn(
         rate, lo, hi = s.estimate / allowed, s.low / allowed, s.high / allowed
         spent = (low_sum / budget, high_sum / budget) if budget > 0 else (math.nan, math.nan)
         out.append(BurnWindow(start, s, rate, lo, hi, _mark(lo, rate, mark_rate), *spent))
+    all_of = share_over(whole, x, confidence)
+    if sum(w.share.n for w in out) == whole.count:  # the windows hold the same values: two sure ranges
+        all_of = narrowed(all_of, low_sum, high_sum)
     return BurnSeries(
         stream,
         objective,
@@ -164,5 +167,5 @@ def budget_burn(
         confidence,
         width_us,
         tuple(out),
-        share_over(whole, x, confidence),
+        ObjectiveCheck(stream, objective, all_of, compliance(all_of, allowed)),
     )

@@ -227,6 +227,22 @@ def share_over(d: Distribution, threshold: float, confidence: float = 0.95) -> S
     return ShareOver(threshold, d.unit, n, over_low, over_high, estimate, low, high, confidence, bucket)
 
 
+def narrowed(share: ShareOver, over_low: int, over_high: int) -> ShareOver:
+    """``share`` with its count range cut to [over_low, over_high], another sure range of the
+    same count (the sum over window sketches that hold the same values): the interval is
+    taken again from the tighter ends. Unchanged when the ranges do not meet."""
+    lo, hi = max(share.over_low, over_low), min(share.over_high, over_high)
+    if lo > hi or (lo, hi) == (share.over_low, share.over_high):
+        return share
+    low, high = clopper_pearson(lo, hi, share.n, share.confidence)
+    est = share.estimate * share.n if math.isfinite(share.estimate) else math.nan
+    estimate = lo / share.n if lo == hi else min(max(est, lo), hi) / share.n
+    bucket = share.bucket if lo != hi else None
+    return ShareOver(
+        share.threshold, share.unit, share.n, lo, hi, estimate, low, high, share.confidence, bucket
+    )
+
+
 @dataclass(frozen=True)
 class ObjectiveCheck:
     """One objective read on one sketch: share over, compliance and budget spent."""

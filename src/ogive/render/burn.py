@@ -16,7 +16,7 @@ import numpy as np
 
 from ..fit.burn import CREDIBLE, ESTIMATE, BurnSeries, BurnWindow
 from ..numbers import number, percent, quantity
-from .objectives import interval_text
+from .objectives import objective_sentence
 from .tables import table, text_lines
 from .timeline import span_text, sparkline, time_ticks, when
 
@@ -137,15 +137,11 @@ def burn_lines(
     o = series.objective
     over = quantity(series.threshold, series.unit)
     every = f" per {span_text(series.width_us / 1e6)} window" if math.isfinite(series.width_us) else ""
-    whole = series.whole
-    lo, hi = series.spent
-    spent = percent(hi) if lo == hi else f"{percent(lo)} to {percent(hi)}"
     first = series.first_credible
     out = [
         f"Objective {o.text} of {series.stream} (at most {percent(o.allowed)} over {over}): "
         f"budget burn{every}",
-        f"  over the whole span: {percent(whole.estimate) if math.isfinite(whole.estimate) else '–'} over "
-        f"{over} {interval_text(whole.low, whole.high)}; budget of the span spent: {spent}",
+        f"  the whole span: {objective_sentence(series.whole)}",
         "  first window credibly burning faster than "
         f"{_rate(series.mark_rate)}: {when(first.start_us, days=days) if first else 'none'}",
         *("  " + line for line in burn_strips(series, width=width - 2, ascii_only=ascii_only)),
