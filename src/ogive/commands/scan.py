@@ -32,6 +32,7 @@ examples:
   ogive scan demo_logs/checkout-day.csv --column latency_ms \\
       --time-field timestamp --split-at 2026-03-04T13:00:00Z -o day.ogive
   ogive scan demo_logs/checkout-after.ndjson.gz --field timing.total_ms --json
+  ogive scan demo_logs/checkout-day.csv --column latency_ms --unit ms --objective 250ms@99%
   ssh web-1 ogive scan /var/log/app.log --pattern 'dur=(\\S+)' -o - > web-1.ogive
   ogive scan 's3://logs/2026-03-04/*.log.gz' --pattern 'dur=(\\S+)' \\
       --cluster tcp://10.0.0.5:8786 -o day.ogive

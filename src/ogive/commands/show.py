@@ -28,7 +28,13 @@ quantiles may be written as fractions, percentiles or percents; 'mean' adds the 
 examples:
   ogive show before.ogive
   ogive show day.ogive:after -q p50,p95,p99.9
-  ogive show hosts.ogive --json"""
+  ogive show hosts.ogive --json
+  ogive show day.ogive --objective 250ms@99% --objective 1s@99.9%
+
+--objective THRESHOLD@SHARE% reads a service-level objective on each sketch: the share
+of values over the threshold with its 95% interval (Clopper-Pearson, widened to the
+counts the sketch is sure of), the error budget spent (that share / the share allowed)
+and met, missed or cannot tell. It describes the period the sketch covers only."""
 
 _P_RE = re.compile(r"^p(\d+(?:\.\d*)?)$")
 _PCT_RE = re.compile(r"^(\d+(?:\.\d*)?)\s*%$")

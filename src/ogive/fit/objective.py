@@ -195,7 +195,8 @@ def clopper_pearson(k_low: int, k_high: int, n: int, confidence: float) -> tuple
     return low, high
 
 
-def _bucket_around(d: Distribution, x: float) -> tuple[float, float] | None:
+def _bucket_around(d: Distribution, x: float) -> tuple[float, float]:
+    """The bucket edges on either side of ``x`` (infinite past the last edge)."""
     edges = np.unique(d.cdf_knots())
     below, above = edges[edges <= x], edges[edges > x]
     return (
