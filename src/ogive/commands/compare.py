@@ -49,6 +49,7 @@ examples:
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     from .common import add_source_options
+    from .objectives import add_objective_option
 
     parser.add_argument("a", metavar="A", help="baseline: a sketch file[:GROUP] or a source")
     parser.add_argument(
@@ -70,6 +71,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument("--json", action="store_true", help="print the comparison as JSON")
     add_plot_option(parser, ("shift", "qq", "detrended", "pp", "cdf"))
+    add_objective_option(parser)
     add_source_options(parser)
 
 
@@ -77,11 +79,17 @@ def run(args: argparse.Namespace) -> int:
     from ..fit.compare import compare_groups, compare_sketches
     from ..render.reports import comparison_text, groups_text
     from .common import group_sides, two_sides
+    from .objectives import objective_text, parse_objectives, read_objectives, with_objectives
 
     conf = float(args.confidence)
     if not 0.5 <= conf < 1:
         raise OgiveError(f"--confidence must be at least 0.5 and below 1, got {conf}.")
+    objectives = parse_objectives(args.objective)
     if args.window:
+        if objectives:
+            raise OgiveError(
+                "--objective with --window: use 'ogive timeline --objective', which reads each window."
+            )
         return _run_windows(args, conf)
     if args.by:
         sides, labels = group_sides(args)
@@ -89,14 +97,25 @@ def run(args: argparse.Namespace) -> int:
             groups = compare_groups(sides[0], sides[1], labels=labels, confidence=conf)
         except ValueError as exc:
             raise OgiveError(str(exc)) from None
-        _emit(args, groups.to_dict(), lambda: groups_text(groups))
+        named = [(f"{lab}:{g}", s[g]) for lab, s in zip(labels, sides, strict=True) for g in s.names()]
+        slo = read_objectives(named, objectives, conf)
+        _emit(
+            args,
+            with_objectives(groups.to_dict(), slo),
+            lambda: groups_text(groups) + "".join(f"{x}\n" for x in objective_text(slo)),
+        )
         return 0
     (a, b), labels, sources = two_sides(args)
     try:
         comp = compare_sketches(a, b, labels=labels, confidence=conf)
     except ValueError as exc:
         raise OgiveError(str(exc)) from None
-    _emit(args, comp.to_dict(), lambda: comparison_text(comp, sources))
+    slo = read_objectives([(labels[0], a), (labels[1], b)], objectives, conf)
+    _emit(
+        args,
+        with_objectives(comp.to_dict(), slo),
+        lambda: comparison_text(comp, sources) + "".join(f"{x}\n" for x in objective_text(slo)),
+    )
     if args.plot and not args.json:
         print_plot(
             args.plot, b, a, labels[1], labels[0], ascii_only=args.ascii, size=(args.width, args.height)

@@ -16,15 +16,21 @@ if TYPE_CHECKING:
     from ..fit.group_gate import GroupGate
 
 DESCRIPTION = """\
-Check a candidate B against a baseline A on limits for named quantiles, for CI
-pipelines. A and B are saved sketches (run.ogive, run.ogive:GROUP) or sources to scan;
-one source with --split-at TIME gates what came after TIME against what came before.
-With --by FIELD every group on both sides is gated and the worst group decides. Each
---limit says how far B's quantile may rise above A's:
+Check a candidate B against a baseline A on limits for named quantiles or for the
+share of values over a threshold, for CI pipelines. A and B are saved sketches
+(run.ogive, run.ogive:GROUP) or sources to scan; one source with --split-at TIME gates
+what came after TIME against what came before. With --by FIELD every group on both
+sides is gated and the worst group decides. Each --limit says how far B's quantile may
+rise above A's:
 
   --limit p99=+5%      B's p99 at most 5% above A's p99
   --limit p50=+2ms     B's p50 at most 2 ms above A's (converted to the sketches' unit)
   --limit p99.9=0      B's p99.9 no higher than A's
+
+or how large B's share of values over a threshold may be (a service-level objective):
+
+  --limit 'over(300ms)<=0.1%'   at most 0.1% of B's values over 300 ms
+  --limit 'over(300ms)=+20%'    B's share over 300 ms at most 20% above A's
 
 Each limit ends as one of:
   EXCEEDED  B's lowest plausible value is above the most the limit allows at any
@@ -32,12 +38,14 @@ Each limit ends as one of:
   HOLDS     shown within: B's highest plausible value is within the least it allows
   UNCLEAR   the intervals reach both sides of the limit (no credible evidence either way)
   TOO FEW   too few values to bound that quantile
+  COARSE    telemetry histograms: the bucket around the value, not the sample,
+            leaves the limit open
 A relative limit is a share of |A|, so it never tightens on a quantile below zero.
 
 Exit status:
   0  no limit is credibly exceeded (HOLDS, and UNCLEAR without --prove)
   1  at least one limit is EXCEEDED
-  2  the data cannot decide a limit: TOO FEW, or UNCLEAR with --prove
+  2  the data cannot decide a limit: TOO FEW, COARSE, or UNCLEAR with --prove
   3  bad input or usage
 """
 
@@ -45,23 +53,27 @@ EPILOG = """\
 What a pass means, and what it does not. A pass (exit 0) means that these samples
 gave no credible evidence, at the stated confidence, that a listed limit is exceeded.
 It is evidence for a release decision, not a guarantee: a small sample, a quantile
-that is not listed, traffic that was not captured, or a change that only shows under
-other load can all hide a regression. Without --prove a pass also covers limits the
+or threshold that is not listed, traffic that was not captured, or a change that only
+shows under other load can all hide a regression. A share limit that holds says the
+rate of slow values in the traffic sampled is within it, not that every later day,
+or the rest of an objective's period, will be. Without --prove a pass also covers limits the
 data could neither confirm nor rule out (each is printed as such). Defer to your
 team's own release policy; this gate is one input to it.
 
 Confidence: with L limits, each of the 2L quantile intervals is taken at
 1 - (1 - confidence)/(2L), so every "exceeded" holds together with at least the stated
-confidence (Bonferroni). With --by and G groups each group's gate runs at
-1 - (1 - confidence)/G, so the claims of all groups hold together too. Intervals are
-distribution-free (order statistics), read through each sketch so that they always
-contain the intervals the raw values would give.
+confidence (Bonferroni); share limits count among the L, and their intervals are
+Clopper-Pearson (1934) intervals of the share over the threshold. With --by and G
+groups each group's gate runs at 1 - (1 - confidence)/G, so the claims of all groups
+hold together too. Intervals are distribution-free (order statistics), read through
+each sketch so that they always contain the intervals the raw values would give.
 
 examples:
   ogive gate base.ogive cand.ogive --limit p99=+5% --limit p50=+2ms
   ogive gate base.ogive cand.ogive --limit p99.9=+10% --prove --json
   ogive gate app.log --time-field ts --split-at 2026-03-04T13:00:00Z --limit p99=+10%
   ogive gate base.ogive cand.ogive --by route --limit p99=+10%
+  ogive gate base.ogive cand.ogive --limit 'over(250ms)<=1%' --limit 'over(250ms)=+20%'
 """
 
 
@@ -81,8 +93,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--limit",
         action="append",
         default=[],
-        metavar="Q=CHANGE",
-        help="a limit such as p99=+5%% or p50=+2ms (repeat for more)",
+        metavar="LIMIT",
+        help="a limit such as p99=+5%%, p50=+2ms, over(300ms)<=0.1%% or over(300ms)=+20%% (repeat for more)",
     )
     parser.add_argument(
         "--confidence",
@@ -101,7 +113,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..fit.gate import MEANING, Limit, gate, parse_limit
+    from ..fit.gate import MEANING, Limit, ShareLimit, gate, parse_limit
     from ..fit.group_gate import gate_groups
     from ..render.reports import gate_text, group_gate_text
     from .common import group_sides, two_sides
@@ -111,7 +123,7 @@ def run(args: argparse.Namespace) -> int:
     conf = float(args.confidence)
     if not 0.5 <= conf < 1:
         raise OgiveError(f"--confidence must be at least 0.5 and below 1, got {conf}.")
-    check: Callable[[list[Limit]], GateResult | GroupGate]
+    check: Callable[[list[Limit | ShareLimit]], GateResult | GroupGate]
     text: Callable[[Any], str]
     if args.by:
         (sa, sb), names = group_sides(args)

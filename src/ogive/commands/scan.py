@@ -15,6 +15,7 @@ from typing import Any
 
 from ..errors import EXIT_INTERRUPTED, OgiveError
 from .common import add_source_options
+from .objectives import add_objective_option
 
 DESCRIPTION = """\
 Read one or more sources once, in bounded memory, into a quantile sketch of one numeric
@@ -31,6 +32,7 @@ examples:
   ogive scan demo_logs/checkout-day.csv --column latency_ms \\
       --time-field timestamp --split-at 2026-03-04T13:00:00Z -o day.ogive
   ogive scan demo_logs/checkout-after.ndjson.gz --field timing.total_ms --json
+  ogive scan demo_logs/checkout-day.csv --column latency_ms --unit ms --objective 250ms@99%
   ssh web-1 ogive scan /var/log/app.log --pattern 'dur=(\\S+)' -o - > web-1.ogive
   ogive scan 's3://logs/2026-03-04/*.log.gz' --pattern 'dur=(\\S+)' \\
       --cluster tcp://10.0.0.5:8786 -o day.ogive
@@ -64,6 +66,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="with --follow: also keep a sketch of only the last DURATION (30s, 5m, 1h), shown live "
         "beside the all-time one and saved as the sketch recent-DURATION",
     )
+    add_objective_option(parser)
     add_source_options(parser)
 
 
@@ -71,7 +74,9 @@ def run(args: argparse.Namespace) -> int:
     from ..render.summary import summarise, summary_lines
     from ..store import save_sketches, sketch_ref
     from .common import scan_sources
+    from .objectives import objective_text, parse_objectives, set_objectives
 
+    objectives = parse_objectives(args.objective, args.unit)
     to_stdout = args.output == "-"
     if to_stdout and args.json:
         raise OgiveError(
@@ -110,8 +115,18 @@ def run(args: argparse.Namespace) -> int:
     )
     if args.output:
         save_sketches(args.output, result.sketches)
+    try:
+        slo = set_objectives(result.sketches, objectives)
+    except OgiveError:
+        # The values' unit came from the data and the threshold does not fit it: the summary
+        # (and -o) of a long scan is not lost for that; the error follows it.
+        if not args.json:
+            print("\n".join(summary_lines(summary)), file=sys.stderr if to_stdout else sys.stdout)
+        raise
     if args.json:
         doc = summary.to_dict()
+        if objectives:
+            doc["objectives"] = slo.to_dict()
         doc["bytes_read"] = result.bytes_read
         doc["elapsed_s"] = round(result.elapsed_s, 6)
         doc["output"] = args.output
@@ -121,7 +136,7 @@ def run(args: argparse.Namespace) -> int:
         _damaged(result, args.output)
         return EXIT_INTERRUPTED if result.interrupted else 0
     out = sys.stderr if to_stdout else sys.stdout
-    lines = summary_lines(summary)
+    lines = summary_lines(summary) + objective_text(slo)
     if args.output and not to_stdout:
         lines += [
             "",

@@ -28,7 +28,13 @@ quantiles may be written as fractions, percentiles or percents; 'mean' adds the 
 examples:
   ogive show before.ogive
   ogive show day.ogive:after -q p50,p95,p99.9
-  ogive show hosts.ogive --json"""
+  ogive show hosts.ogive --json
+  ogive show day.ogive --objective 250ms@99% --objective 1s@99.9%
+
+--objective THRESHOLD@SHARE% reads a service-level objective on each sketch: the share
+of values over the threshold with its 95% interval (Clopper-Pearson, widened to the
+counts the sketch is sure of), the error budget spent (that share / the share allowed)
+and met, missed or cannot tell. It describes the period the sketch covers only."""
 
 _P_RE = re.compile(r"^p(\d+(?:\.\d*)?)$")
 _PCT_RE = re.compile(r"^(\d+(?:\.\d*)?)\s*%$")
@@ -79,11 +85,17 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument("-q", "--quantiles", metavar="Q,...", help="print these quantiles only")
     parser.add_argument("--json", action="store_true", help="print one JSON document on stdout")
+    from .objectives import add_objective_option
+
+    add_objective_option(parser)
 
 
 def run(args: argparse.Namespace) -> int:
     from ..render.summary import LADDER, MEAN, quantile_lines, summarise, summary_lines
     from ..store import SketchRef, load_ref, sketch_ref, split_group
+    from .objectives import objective_text, parse_objectives, set_objectives
+
+    objectives = parse_objectives(args.objective)
 
     columns = parse_quantiles(args.quantiles) if args.quantiles else list(LADDER)
     qs = [float(c) for c in columns if c != MEAN]
@@ -95,11 +107,16 @@ def run(args: argparse.Namespace) -> int:
         ref = SketchRef(path, group)  # loading says the file is missing, in one line
     sset = load_ref(ref)
     summary = summarise(sset, qs=qs)
+    slo = set_objectives(sset, objectives)
     if args.json:
-        json.dump(summary.to_dict(), sys.stdout, indent=2, allow_nan=False)
+        doc = summary.to_dict()
+        if objectives:
+            doc["objectives"] = slo.to_dict()
+        json.dump(doc, sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
         return 0
     lines = quantile_lines(summary, columns) if args.quantiles else summary_lines(summary)
+    lines += objective_text(slo)
     for line in lines:
         print(line)
     return 0

@@ -63,6 +63,7 @@ TABLE_AUTO = 48
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     from .common import add_source_options
+    from .objectives import add_objective_option
 
     parser.add_argument(
         "sources",
@@ -111,16 +112,37 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="N",
         help=f"most window sketches to keep, groups included (default {MAX_WINDOWS:,})",
     )
+    add_objective_option(
+        parser,
+        "a service-level objective THRESHOLD@SHARE%%, e.g. 300ms@99.9%%: the error budget's burn "
+        "per window (share over the threshold / allowed share, with its 95%% interval) and the "
+        "budget spent so far, for the whole stream (not per --by group); repeat for more",
+    )
+    parser.add_argument(
+        "--burn-mark",
+        type=float,
+        default=1.0,
+        metavar="RATE",
+        help="with --objective: mark windows whose burn rate (share over / allowed share) is above "
+        "RATE (default 1: faster than the objective allows); ! when the window's interval is "
+        "above it, ? when only the estimate is",
+    )
     add_source_options(parser)
 
 
 def run(args: argparse.Namespace) -> int:
+    from ..fit.burn import budget_burn
     from ..fit.timeline import build_timeline, read_windows
     from ..render import color_allowed
-    from ..render.timeline_text import report_lines
+    from ..render.burn import burn_lines
+    from ..render.timeline_text import days_of, report_lines
     from ..store import save_sketches
+    from .objectives import parse_objectives
     from .show import parse_quantiles
 
+    objectives = parse_objectives(args.objective, args.unit)
+    if not args.burn_mark > 0:
+        raise OgiveError(f"--burn-mark must be above 0, got {args.burn_mark:g}.")
     if not 0.001 <= args.false_alarm <= 0.2:
         raise OgiveError(f"--false-alarm must lie between 0.001 and 0.2, got {args.false_alarm:g}.")
     asked = parse_quantiles(args.quantiles)
@@ -136,10 +158,24 @@ def run(args: argparse.Namespace) -> int:
         data = read_windows(sset)
         table = args.table if args.table != "auto" else ("all" if data.count <= TABLE_AUTO else "changes")
         tl = build_timeline(data, chart_qs=qs, alpha=args.false_alarm, table=table)
+        main = next(iter(data.streams.values()))
+        burns = [
+            budget_burn(
+                main.name,
+                [(data.start(i), w) for i, w in enumerate(main.windows)],
+                main.whole,
+                o,
+                mark_rate=args.burn_mark,
+                width_us=data.width_us,
+            )
+            for o in objectives
+        ]
     except ValueError as exc:
         raise OgiveError(str(exc)) from None
     if args.json:
         doc = tl.to_dict()
+        if burns:
+            doc["objectives"] = [b.to_dict() for b in burns]
         _add_gate_commands(doc, tl, base)
         doc["output"] = args.output
         json.dump(doc, sys.stdout, indent=2, allow_nan=False)
@@ -148,6 +184,9 @@ def run(args: argparse.Namespace) -> int:
     width = args.width or min(shutil.get_terminal_size((100, 40)).columns, 120)
     colour = color_allowed(sys.stdout)
     lines = report_lines(tl, _title(args), base, width=width, ascii_only=args.ascii, colour=colour)
+    starts = [r.start_us for r in tl.streams[0].rows] if args.table != "none" else []
+    for b in burns:
+        lines += ["", *burn_lines(b, width=width, starts=starts, days=days_of(tl), ascii_only=args.ascii)]
     sys.stdout.write("\n".join(lines) + "\n")
     if args.output:
         sys.stdout.write(f"saved {len(sset.names()):,} sketches to {args.output}\n")

@@ -6,6 +6,7 @@ import argparse
 from typing import TYPE_CHECKING
 
 from .common import add_source_options
+from .objectives import add_objective_option, parse_objectives
 
 if TYPE_CHECKING:
     from ..read.options import ScanOptions
@@ -67,6 +68,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         default=None,
         help="with --follow: also show a sketch of only the last DURATION (30s, 5m, 1h) as its own row",
     )
+    add_objective_option(parser)
     add_source_options(parser)
 
 
@@ -105,6 +107,7 @@ def run(args: argparse.Namespace) -> int:
             families = resolve(families)
         except ValueError as exc:
             raise OgiveError(str(exc)) from None
+    objectives = parse_objectives(args.objective)
     options = _options(args)
     app = OgiveApp(
         args.sources,
@@ -116,6 +119,7 @@ def run(args: argparse.Namespace) -> int:
         recent=args.recent,
         cluster=args.cluster,
     )
+    app.ws.objectives = objectives
     return app.run() or 0
 
 

@@ -42,6 +42,8 @@ from ..numbers import quantity, span
 from ..sketch import Distribution, quantile_label
 from ..sketch.units import SECONDS_PER_UNIT
 from .ladder import QuantileInterval, above, quantile_intervals
+from .limit_states import COARSE, EXCEEDED, HOLDS, STATUSES, TOO_FEW, UNCLEAR
+from .share_limits import ShareCheck, ShareLimit, check_share, is_share_limit, parse_share_limit
 
 TIME_UNITS = SECONDS_PER_UNIT
 """Seconds per unit, for limits written in another time unit than the sketch's."""
@@ -50,9 +52,7 @@ _LIMIT = re.compile(
     r"^\s*(?P<q>p[0-9.]+|median)\s*=\s*(?P<amount>[+-]?[0-9.]+(?:[eE][+-]?[0-9]+)?)\s*(?P<unit>%|[A-Za-zµ]+)?\s*$"
 )
 
-EXCEEDED, HOLDS, UNCLEAR, TOO_FEW = "exceeded", "holds", "unclear", "too few values"
-COARSE = "buckets too coarse"
-STATUSES = (EXCEEDED, HOLDS, UNCLEAR, TOO_FEW, COARSE)
+__all__ = ["COARSE", "EXCEEDED", "HOLDS", "STATUSES", "TOO_FEW", "UNCLEAR", "ShareCheck", "ShareLimit"]
 
 
 @dataclass(frozen=True)
@@ -102,11 +102,14 @@ class Limit:
         }
 
 
-def parse_limit(text: str, unit: str) -> Limit:
-    """``p99=+5%``, ``p50=+2ms``, ``p99.9=0.3s``, ``median=+1`` (sketch unit) -> Limit.
+def parse_limit(text: str, unit: str) -> Limit | ShareLimit:
+    """``p99=+5%``, ``p50=+2ms``, ``p99.9=0.3s``, ``median=+1`` (sketch unit) -> Limit;
+    ``over(300ms)<=0.1%``, ``over(300ms)=+20%`` -> ShareLimit (``share_limits.py``).
 
     Raises ValueError with a full sentence for anything else.
     """
+    if is_share_limit(text):
+        return parse_share_limit(text, unit)
     m = _LIMIT.match(text)
     if not m:
         if text.strip().lower().startswith("max"):
@@ -178,7 +181,7 @@ class GateResult:
     confidence: float
     per_interval_confidence: float
     prove: bool
-    checks: tuple[LimitCheck, ...]
+    checks: tuple[LimitCheck | ShareCheck, ...]
 
     @property
     def exit_code(self) -> int:
@@ -212,7 +215,7 @@ class GateResult:
 MEANING = (
     "A pass means these data gave no credible evidence that a listed limit is exceeded; "
     "it is evidence for a release decision, not a guarantee, and says nothing about "
-    "quantiles not listed or traffic not sampled. Follow your team's own release policy."
+    "quantiles or thresholds not listed or traffic not sampled. Follow your team's own release policy."
 )
 
 
@@ -309,7 +312,7 @@ def values_needed(q: float, confidence: float) -> int:
 def gate(
     a: Distribution,
     b: Distribution,
-    limits: list[Limit],
+    limits: list[Limit | ShareLimit],
     *,
     confidence: float = 0.95,
     prove: bool = False,
@@ -328,8 +331,14 @@ def gate(
             f"{labels[0]!r} is in {a.unit!r} and {labels[1]!r} in {b.unit!r}; they do not compare."
         )
     each = 1.0 - (1.0 - confidence) / (2 * len(limits))
-    qs = tuple(lim.q for lim in limits)
-    ia = quantile_intervals(a, qs, each)
-    ib = quantile_intervals(b, qs, each)
-    checks = tuple(_check(lim, x, y, a.unit, prove) for lim, x, y in zip(limits, ia, ib, strict=True))
+    quantile_limits = [lim for lim in limits if isinstance(lim, Limit)]
+    qs = tuple(lim.q for lim in quantile_limits)
+    ia = iter(quantile_intervals(a, qs, each) if qs else [])
+    ib = iter(quantile_intervals(b, qs, each) if qs else [])
+    checks = tuple(
+        _check(lim, next(ia), next(ib), a.unit, prove)
+        if isinstance(lim, Limit)
+        else check_share(lim, a, b, each, prove)
+        for lim in limits
+    )
     return GateResult(labels, a.unit, confidence, each, prove, checks)

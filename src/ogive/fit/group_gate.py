@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from ..sketch import SketchSet
-from .gate import GateResult, Limit, gate
+from .gate import GateResult, Limit, ShareLimit, gate
 
 
 @dataclass(frozen=True)
@@ -62,7 +62,7 @@ class GroupGate:
 def gate_groups(
     a: SketchSet,
     b: SketchSet,
-    limits: list[Limit],
+    limits: list[Limit | ShareLimit],
     *,
     confidence: float = 0.95,
     prove: bool = False,

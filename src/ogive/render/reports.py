@@ -23,7 +23,7 @@ from .tables import (
 
 if TYPE_CHECKING:
     from ..fit.compare import Comparison, GroupComparison
-    from ..fit.gate import GateResult, LimitCheck
+    from ..fit.gate import GateResult, LimitCheck, ShareCheck
     from ..fit.group_gate import GroupGate
     from ..fit.models import Candidate, FitReport
     from ..fit.windows import WindowSeries
@@ -210,7 +210,7 @@ STATUS_WORD = {
 """How each limit's status is written at the start of its line."""
 
 
-def _check_lines(c: LimitCheck, *, pad: bool = True) -> list[str]:
+def _check_lines(c: LimitCheck | ShareCheck, *, pad: bool = True) -> list[str]:
     """A limit's line (its word padded to line the limits up, or not), and its note."""
     word = STATUS_WORD.get(c.status, c.status.upper())
     head = f"{word:9s}" if pad else word

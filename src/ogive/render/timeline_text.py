@@ -62,6 +62,10 @@ def _days(t: Timeline) -> bool:
     return timekeys.start_text(t.first_us)[:10] != timekeys.start_text(t.start(t.count) - 1)[:10]
 
 
+days_of = _days
+"""Public name for other timeline views (the budget burn) that write window times."""
+
+
 def _wrap(text: str, width: int, indent: str = "") -> list[str]:
     return textwrap.wrap(text, width=max(width, 20), initial_indent=indent, subsequent_indent=indent + "  ")
 

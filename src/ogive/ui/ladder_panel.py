@@ -8,6 +8,7 @@ from rich.console import Group, RenderableType
 from rich.text import Text
 from textual.widgets import Static
 
+from ..render.objectives import objective_table
 from ..render.reports import comparison_notes
 from ..render.tables import ladder_table, rich_table
 from .placeholder import notice
@@ -21,6 +22,10 @@ def comparison_renderable(ws: Workspace) -> RenderableType:
     ref, subj = c.labels
     head = f"S = {subj} against R = {ref}" + (f", in {c.unit}" if c.unit else "")
     parts: list[RenderableType] = [Text(head, style="bold"), rich_table(ladder_table(c, narrow=True))]
+    rows = [ws.objective_checks(d.name) or [] for d in (ws.reference_dist, ws.subject_dist) if d]
+    checks = tuple(x for row in rows for x in row if x is not None)
+    if checks:
+        parts.append(rich_table(objective_table(checks, narrow=True)))
     parts.extend(Text(line) for line in comparison_notes(c))
     return Group(*parts)
 

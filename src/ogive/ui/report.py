@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import Any
 
 from ..render.jsonsafe import json_safe
+from ..render.objectives import objective_table
 from ..render.reports import comparison_notes
 from ..render.tables import distribution_table, ladder_table, markdown_lines, ranking_table
 from ..store import write_atomic
@@ -22,8 +23,10 @@ from .workspace import KIND_NAMES, Workspace
 def screen_state(ws: Workspace, picture: list[str]) -> dict[str, Any]:
     """Everything on screen as JSON: the rows, the roles, the picture's lines, fit and comparison."""
     ref = ws.reference
+    objectives = {"objectives": [c.to_dict() for c in ws.all_objective_checks()]} if ws.objectives else {}
     return json_safe(
         {
+            **objectives,
             "subject": ws.subject,
             "reference": None if ref is None else {"kind": ref.kind, "name": ref.name},
             "distributions": [
@@ -80,6 +83,14 @@ def markdown(ws: Workspace, picture: list[str]) -> str:
         out.append(ws.compare_note or "No comparison on screen.")
     else:
         out += [*markdown_lines(ladder_table(ws.comparison)), "", *comparison_notes(ws.comparison)]
+    if ws.objectives:
+        checks = ws.all_objective_checks()
+        out += [
+            "",
+            "## Objectives",
+            "",
+            *(markdown_lines(objective_table(checks)) if checks else ["None read."]),
+        ]
     out.append("")
     return "\n".join(out)
 

@@ -9,7 +9,8 @@ from textual.binding import Binding, BindingType
 from textual.message import Message
 from textual.widgets import DataTable
 
-from ..render.tables import distribution_table
+from ..render.objectives import objective_cell
+from ..render.tables import distribution_table, table
 from .workspace import Workspace
 
 STATE_MARKS = {"scanning": "…", "following": "~", "partial": "!", "failed": "!"}
@@ -60,6 +61,11 @@ class DistributionShelf(DataTable[str | Text]):
             for d in ws.dists.values()
         ]
         t = distribution_table(marked, compact=True)
+        if ws.objectives:  # one column per objective, read by the workspace (same words as the CLI)
+            reads = [ws.objective_checks(name) or [None] * len(ws.objectives) for _, name, _ in marked]
+            rows = [(*r, *(objective_cell(c) for c in cs)) for r, cs in zip(t.rows, reads, strict=True)]
+            extra = range(len(t.header), len(t.header) + len(ws.objectives))
+            t = table((*t.header, *(o.text for o in ws.objectives)), rows, (*t.right, *extra))
         self._fit_height(len(marked))
         self.clear(columns=True)
         for title in t.header:

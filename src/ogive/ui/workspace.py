@@ -30,6 +30,7 @@ from .state import Distribution, ReferenceChoice, ScanJob
 if TYPE_CHECKING:
     from ..fit.compare import Comparison
     from ..fit.models import Candidate, FitReport
+    from ..fit.objective import Objective, ObjectiveCheck
     from ..fit.timeline import Timeline
 
 KINDS: tuple[str, ...] = ("qq", "detrended", "pp", "cdf", "shift")
@@ -111,8 +112,37 @@ class Workspace:
     """The change point highlighted in the Timeline pane."""
     study_roles: tuple[str, str] | None = None
     """(subject, reference) to take once both rows exist: a change point chosen for study."""
+    objectives: list[Objective] = field(default_factory=list)
+    """``view --objective``: read on every row (Distributions) and on the pair in the ladder."""
+    objective_memo: dict[tuple[str, str], tuple[int, ObjectiveCheck | None]] = field(default_factory=dict)
+    """(n, check) by (row, objective): a row is read again only when it grew."""
 
     # ------------------------------------------------------------------ queries
+    def objective_checks(self, name: str) -> list[ObjectiveCheck | None] | None:
+        """Each objective read on row ``name`` (None for one whose unit does not fit the row);
+        None while the statistics library is not loaded yet (see ``statistics_loaded``)."""
+        from ..fit.objective import check_objective, statistics_loaded
+
+        d = self.dists.get(name)
+        if d is None or not self.objectives or not statistics_loaded():
+            return None
+        out: list[ObjectiveCheck | None] = []
+        for o in self.objectives:
+            n, check = self.objective_memo.get((name, o.text), (-1, None))
+            if n != d.sketch.count:
+                try:
+                    check = check_objective(name, d.sketch, o)
+                except ValueError:  # a threshold in ms against a row in bytes: no reading
+                    check = None
+                self.objective_memo[(name, o.text)] = (d.sketch.count, check)
+            out.append(check)
+        return out
+
+    def all_objective_checks(self) -> tuple[ObjectiveCheck, ...]:
+        """Every row's readings of every objective (the exported report), where there are any."""
+        rows = [self.objective_checks(name) or [] for name in self.dists]
+        return tuple(c for row in rows for c in row if c is not None)
+
     @property
     def subject_dist(self) -> Distribution | None:
         return self.dists.get(self.subject or "")
