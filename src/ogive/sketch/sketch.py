@@ -20,6 +20,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .digest import DEFAULT_COMPRESSION, TDigest
+from .invariants import check_sketch
 from .provenance import EXAMPLES_KEPT as EXAMPLES_KEPT
 from .provenance import Provenance, SkipTally, quantile_label
 from .rank_error import quantile_rank_error
@@ -34,6 +35,58 @@ DEFAULT_SCALE = "k1-ladder"
 
 DEFAULT_TAIL = 512
 MAX_TAIL = 1 << 20
+SUM_SHIFT = 64
+"""A sum that overflows float64 is kept divided by 2**64 (``Sketch.add_sum``)."""
+
+Side = tuple[FloatArray, bool]
+"""A buffer of one tail and whether it holds every value of its sketch."""
+
+
+def _low_side(s: Sketch) -> Side:
+    if s.exact and s.count:
+        return s._exact_values(), True
+    return s.low, s.count <= s.low.size
+
+
+def _high_side(s: Sketch) -> Side:
+    if s.exact and s.count:
+        return s._exact_values(), True
+    return s.high, s.count <= s.high.size
+
+
+def fold_tails(low: Sequence[Side], high: Sequence[Side], k: int) -> tuple[FloatArray, FloatArray]:
+    """The ``k`` smallest and largest values of several sketches, as far as they are known.
+
+    A buffer that does not hold all of its sketch's values says nothing about values
+    beyond its innermost entry: the merged low tail is exact only up to the smallest
+    such entry (values equal to it are real copies, so they may stay), and may come
+    out shorter than ``k``. Taking the ``k`` smallest of the union instead (the old
+    way) claimed values exact that were missing: merging a sketch with a 10-value tail
+    into one with a 100-value tail put the 11th smallest of the first sketch nowhere.
+    """
+    return _fold_one(low, k, low=True), _fold_one(high, k, low=False)
+
+
+def _fold_one(sides: Sequence[Side], k: int, *, low: bool) -> FloatArray:
+    cut: float | None = None
+    for buf, complete in sides:
+        if complete:
+            continue
+        if buf.size == 0:
+            return np.empty(0)
+        edge = float(buf[-1] if low else buf[0])
+        cut = edge if cut is None else (min(cut, edge) if low else max(cut, edge))
+    parts = [buf for buf, _ in sides if buf.size]
+    if not parts:
+        return np.empty(0)
+    if cut is not None:
+        parts = [b[b <= cut] if low else b[b >= cut] for b in parts]
+    vals = np.concatenate(parts) if len(parts) > 1 else parts[0]
+    if vals.size > k:
+        vals = np.partition(vals, k - 1)[:k] if low else np.partition(vals, vals.size - k)[vals.size - k :]
+    return np.sort(vals)
+
+
 class Sketch:
     """A mergeable summary of one numeric field in one unit.
 
@@ -57,6 +110,8 @@ class Sketch:
         self.digest = TDigest(compression, scale)
         self.count = 0
         self.total = 0.0
+        """The sum of the values divided by ``2 ** sum_exponent`` (see :meth:`add_sum`)."""
+        self.sum_exponent = 0
         self.nan_count = 0
         self.inf_count = 0
         self.negative_count = 0
@@ -93,34 +148,60 @@ class Sketch:
             with np.errstate(over="ignore"):
                 total = float(arr.sum())  # inf only if huge finite values overflow
         self.count += arr.size
-        self.total += total
+        if math.isfinite(total) and not self.sum_exponent:
+            self.add_sum(total, 0)
+        else:  # values near the float64 limit (1.8e308): their sum is kept scaled
+            self.add_sum(float(np.ldexp(arr, -SUM_SHIFT).sum()), SUM_SHIFT)
         self.negative_count += int(np.count_nonzero(arr < 0))
         self.zero_count += int(np.count_nonzero(arr == 0))
         self.digest.add(arr)
         self._fold_tails(arr, arr)
 
+    def add_sum(self, value: float, exponent: int) -> None:
+        """Add ``value * 2 ** exponent`` to the sum without overflowing.
+
+        Values near the float64 limit (a damaged field reading 1.7e308) have a sum no
+        float holds, though their mean is an ordinary number. The sum is then kept
+        scaled by ``2 ** -SUM_SHIFT`` (exact: a power of two), which holds the sum of
+        more values than any file has; the mean is read back unscaled.
+        """
+        e = max(self.sum_exponent, exponent)
+        total = math.ldexp(self.total, self.sum_exponent - e) + math.ldexp(value, exponent - e)
+        if not math.isfinite(total) and e < SUM_SHIFT:
+            e = SUM_SHIFT
+            total = math.ldexp(self.total, self.sum_exponent - e) + math.ldexp(value, exponent - e)
+        self.total, self.sum_exponent = total, e
+
+    def scale_sum(self, factor: float) -> None:
+        """The sum times ``factor`` (a change of unit), rescaled when it would overflow."""
+        scaled = self.total * factor
+        if math.isfinite(scaled):
+            self.total = scaled
+        else:
+            self.total = math.ldexp(self.total, -SUM_SHIFT) * factor
+            self.sum_exponent += SUM_SHIFT
+
     def _fold_tails(self, low_in: FloatArray, high_in: FloatArray) -> None:
-        """Keep the ``tail_size`` smallest and largest values seen.
+        """Keep the ``tail_size`` smallest and largest values seen (``low_in``/``high_in``:
+        every value of a batch, or at least every value beyond ``fold_tails``'s cut).
 
         Once a buffer is full only values strictly beyond its innermost entry can
         change it (an equal value would replace an equal value), so one comparison pass
         leaves a handful of candidates to partition instead of the whole batch.
         """
         k = self.tail_size
-        if self.low.size >= k:
+        before = self.count - low_in.size  # the batch is already counted
+        if self.low.size >= k:  # full: an equal value would only replace an equal one
             low_in = low_in[low_in < self.low[-1]]
-        if low_in.size:
-            lo = np.concatenate((self.low, low_in))
-            if lo.size > k:
-                lo = np.partition(lo, k - 1)[:k]
-            self.low = np.sort(lo)
         if self.high.size >= k:
             high_in = high_in[high_in > self.high[0]]
-        if high_in.size:
-            hi = np.concatenate((self.high, high_in))
-            if hi.size > k:
-                hi = np.partition(hi, hi.size - k)[hi.size - k :]
-            self.high = np.sort(hi)
+        if not low_in.size and not high_in.size:
+            return
+        self.low, self.high = fold_tails(
+            [(self.low, before <= self.low.size), (low_in, True)],
+            [(self.high, before <= self.high.size), (high_in, True)],
+            self.tail_size,
+        )
 
     def merge(self, other: Sketch) -> None:
         """Fold ``other`` into this sketch (same unit checked by the caller)."""
@@ -133,6 +214,11 @@ class Sketch:
         ``count_bounds`` and ``order_statistic_bounds`` stay valid however the inputs'
         centroids interleave; nothing is carried as slack.
         """
+        self.low, self.high = fold_tails(
+            [_low_side(s) for s in (self, *others)],
+            [_high_side(s) for s in (self, *others)],
+            max(self.tail_size, *(o.tail_size for o in others)) if others else self.tail_size,
+        )
         parts = [o.digest for o in others if o.count]
         if parts:
             cols = [d.centroids() for d in parts]
@@ -149,13 +235,12 @@ class Sketch:
     def _absorb_counts(self, other: Sketch) -> None:
         """Everything of ``other`` but its centroids: counts, tails, provenance."""
         self.count += other.count
-        self.total += other.total
+        self.add_sum(other.total, other.sum_exponent)
         self.nan_count += other.nan_count
         self.inf_count += other.inf_count
         self.negative_count += other.negative_count
         self.zero_count += other.zero_count
         self.tail_size = max(self.tail_size, other.tail_size)
-        self._fold_tails(other.low, other.high)
         self.provenance.absorb(other.provenance)
 
     # ------------------------------------------------------------------ queries
@@ -175,7 +260,22 @@ class Sketch:
 
     @property
     def mean(self) -> float:
-        return self.total / self.count if self.count else float("nan")
+        if not self.count:
+            return float("nan")
+        try:
+            mean = math.ldexp(self.total / self.count, self.sum_exponent)
+        except OverflowError:  # rounding of a sum of values at the float limit
+            mean = math.copysign(math.inf, self.total)
+        # Rounding of a sum of values at the float limit must not step past them.
+        return min(max(mean, self.min), self.max) if self.low.size and self.high.size else mean
+
+    def check(self) -> None:
+        """Raise ValueError, in one sentence naming it, when the sketch is inconsistent
+        (unsorted tails, tails outside [min, max], weights not adding up to n, NaN or
+        infinity in the arrays, quantiles that fall). The reference t-digest asserts
+        such invariants after its merges; the loader runs this on every file and the
+        tests after every merge (``invariants.py``)."""
+        check_sketch(self)
 
     @property
     def exact(self) -> bool:
