@@ -13,12 +13,33 @@ same check after every merge.
 from __future__ import annotations
 
 import math
-from typing import TYPE_CHECKING
+from typing import Any, Protocol
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
-if TYPE_CHECKING:
-    from .sketch import Sketch
+
+class Sketch(Protocol):
+    """What the checks read of a sketch (``sketch.Sketch``; named here so that the two
+    modules do not import each other)."""
+
+    count: int
+    nan_count: int
+    inf_count: int
+    negative_count: int
+    zero_count: int
+    tail_size: int
+    total: float
+    sum_exponent: int
+    low: NDArray[np.float64]
+    high: NDArray[np.float64]
+    digest: Any
+
+    @property
+    def exact(self) -> bool: ...
+
+    def quantile(self, q: ArrayLike) -> NDArray[np.float64]: ...
+
 
 _GRID = np.linspace(0.0, 1.0, 201)
 """Quantiles at which the answer must not fall (every half percent, both ends included)."""

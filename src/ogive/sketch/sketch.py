@@ -24,6 +24,7 @@ from .invariants import check_sketch
 from .provenance import EXAMPLES_KEPT as EXAMPLES_KEPT
 from .provenance import Provenance, SkipTally, quantile_label
 from .rank_error import quantile_rank_error
+from .tails import Side, fold_tails
 
 if TYPE_CHECKING:
     from .binned import Binned
@@ -37,54 +38,6 @@ DEFAULT_TAIL = 512
 MAX_TAIL = 1 << 20
 SUM_SHIFT = 64
 """A sum that overflows float64 is kept divided by 2**64 (``Sketch.add_sum``)."""
-
-Side = tuple[FloatArray, bool]
-"""A buffer of one tail and whether it holds every value of its sketch."""
-
-
-def _low_side(s: Sketch) -> Side:
-    if s.exact and s.count:
-        return s._exact_values(), True
-    return s.low, s.count <= s.low.size
-
-
-def _high_side(s: Sketch) -> Side:
-    if s.exact and s.count:
-        return s._exact_values(), True
-    return s.high, s.count <= s.high.size
-
-
-def fold_tails(low: Sequence[Side], high: Sequence[Side], k: int) -> tuple[FloatArray, FloatArray]:
-    """The ``k`` smallest and largest values of several sketches, as far as they are known.
-
-    A buffer that does not hold all of its sketch's values says nothing about values
-    beyond its innermost entry: the merged low tail is exact only up to the smallest
-    such entry (values equal to it are real copies, so they may stay), and may come
-    out shorter than ``k``. Taking the ``k`` smallest of the union instead (the old
-    way) claimed values exact that were missing: merging a sketch with a 10-value tail
-    into one with a 100-value tail put the 11th smallest of the first sketch nowhere.
-    """
-    return _fold_one(low, k, low=True), _fold_one(high, k, low=False)
-
-
-def _fold_one(sides: Sequence[Side], k: int, *, low: bool) -> FloatArray:
-    cut: float | None = None
-    for buf, complete in sides:
-        if complete:
-            continue
-        if buf.size == 0:
-            return np.empty(0)
-        edge = float(buf[-1] if low else buf[0])
-        cut = edge if cut is None else (min(cut, edge) if low else max(cut, edge))
-    parts = [buf for buf, _ in sides if buf.size]
-    if not parts:
-        return np.empty(0)
-    if cut is not None:
-        parts = [b[b <= cut] if low else b[b >= cut] for b in parts]
-    vals = np.concatenate(parts) if len(parts) > 1 else parts[0]
-    if vals.size > k:
-        vals = np.partition(vals, k - 1)[:k] if low else np.partition(vals, vals.size - k)[vals.size - k :]
-    return np.sort(vals)
 
 
 class Sketch:
@@ -215,8 +168,8 @@ class Sketch:
         centroids interleave; nothing is carried as slack.
         """
         self.low, self.high = fold_tails(
-            [_low_side(s) for s in (self, *others)],
-            [_high_side(s) for s in (self, *others)],
+            [s.tail_side(low=True) for s in (self, *others)],
+            [s.tail_side(low=False) for s in (self, *others)],
             max(self.tail_size, *(o.tail_size for o in others)) if others else self.tail_size,
         )
         parts = [o.digest for o in others if o.count]
@@ -281,6 +234,14 @@ class Sketch:
     def exact(self) -> bool:
         """True when every value is held exactly (n <= 2 * tail_size)."""
         return self.count <= 2 * self.tail_size and self.count <= self.low.size + self.high.size
+
+    def tail_side(self, *, low: bool) -> Side:
+        """One exact tail for a merge, and whether it holds every value of this sketch
+        (an exact sketch offers all its values: its two buffers together hold them)."""
+        if self.exact and self.count:
+            return self._exact_values(), True
+        buf = self.low if low else self.high
+        return buf, self.count <= buf.size
 
     def _exact_values(self) -> FloatArray:
         """All values, sorted, when ``exact`` (the buffers overlap by nl + nh - n)."""
