@@ -19,7 +19,7 @@ import threading
 from collections.abc import Iterator
 from typing import TYPE_CHECKING
 
-from ..errors import OgiveError
+from ..errors import OgiveError, printable
 from .generate import parse_size
 
 if TYPE_CHECKING:
@@ -258,7 +258,7 @@ def side_names(specs: tuple[str, str], names: tuple[str, str]) -> tuple[str, str
         out = tuple(f"{stem}:{name}" for stem, name in zip(stems, names, strict=True))
     if out[0] == out[1]:
         out = specs
-    return out[0], out[1]
+    return printable(out[0]), printable(out[1])
 
 
 def in_baseline_unit(
@@ -392,7 +392,7 @@ def scan_sources(
         # are whole, and are kept unflagged (the exit status still says 130).
     if not quiet:
         for warning in result.warnings:
-            print(f"ogive: warning: {warning}", file=sys.stderr)
+            print(f"ogive: warning: {printable(warning)}", file=sys.stderr)
     return result
 
 

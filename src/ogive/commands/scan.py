@@ -12,7 +12,7 @@ import json
 import sys
 from typing import Any
 
-from ..errors import EXIT_INTERRUPTED, OgiveError
+from ..errors import EXIT_INTERRUPTED, OgiveError, printable
 from .common import add_source_options
 
 DESCRIPTION = """\
@@ -190,7 +190,7 @@ def _follow(args: argparse.Namespace) -> Any:
         if window is not None and recent is not None:
             label = f"last {args.recent.strip()} "
             parts.append(quantiles(label, window) if window.count else f"{label}no values yet")
-        text = " | ".join(parts)
+        text = printable(" | ".join(parts))  # the file's name and group keys may hold ESC
         print(f"\r{text[:200]}\033[K" if tty else text, end="" if tty else "\n", file=sys.stderr, flush=True)
 
     with first_ctrl_c_stops(quiet=True) as stopped:

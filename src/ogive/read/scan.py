@@ -322,7 +322,9 @@ class Pipeline:
         sketch stands for the whole scan."""
         examples = self.skips.unassigned(reason, display, lines)
         if not self.options.by and not self.router.by_time and self.decoder.unit is not None:
-            self.builder.sketch("all").provenance.skip(reason, len(lines), examples)
+            prov = self.builder.sketch("all").provenance
+            prov.skip(reason, len(lines), examples)
+            prov.rows_read += len(lines)  # a row of the sketch's, skipped: n + skipped == rows read
 
     # ----------------------------------------------------------------- reports
     @property
