@@ -210,6 +210,11 @@ def entry_from_dict(body: Any, version: int = VERSION) -> Sketch | Binned:
 def sketch_from_dict(body: Any) -> Sketch:
     if not isinstance(body, dict):
         raise ValueError("a sketch must be an object")
+    for name in ("unit", "scale"):  # str() would read null as the unit "None" (found by fuzzing)
+        if not isinstance(body[name], str):
+            raise ValueError(f"'{name}' must be a string")
+    if not isinstance(body["compression"], (int, float)) or isinstance(body["compression"], bool):
+        raise ValueError("'compression' must be a number")
     s = Sketch(
         str(body["unit"]),
         compression=float(body["compression"]),
