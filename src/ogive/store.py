@@ -16,6 +16,7 @@ from .errors import OgiveError
 from .outputs import check_target as check_target
 from .outputs import write_atomic as write_atomic
 from .sketch import SketchFormatError, SketchSet, dumps, loads
+from .sketch.codec import MissingSketch
 
 
 def save_sketches(path: str | os.PathLike[str], sketches: SketchSet) -> None:
@@ -23,14 +24,18 @@ def save_sketches(path: str | os.PathLike[str], sketches: SketchSet) -> None:
     write_atomic(path, dumps(sketches), what="the sketch file")
 
 
-def load_sketches(path: str | os.PathLike[str]) -> SketchSet:
-    """Load a sketch file (``-`` reads standard input)."""
+def load_sketches(path: str | os.PathLike[str], only: str | None = None) -> SketchSet:
+    """Load a sketch file (``-`` reads standard input); with ``only``, just that sketch."""
     try:
         data = sys.stdin.buffer.read() if str(path) == "-" else Path(path).read_bytes()
     except OSError as exc:
         raise OgiveError(f"cannot read {path}: {exc.strerror or exc}.") from None
+    except MemoryError:
+        raise OgiveError(f"cannot read {path}: it does not fit in memory.") from None
     try:
-        return loads(data)
+        return loads(data, only)
+    except MissingSketch as exc:
+        raise OgiveError(f"{path} has no sketch named {only!r} (it has: {few(exc.names)}).") from None
     except SketchFormatError as exc:
         raise OgiveError(f"{path}: {exc}") from None
 
@@ -74,11 +79,9 @@ def sketch_ref(spec: str) -> SketchRef | None:
 
 def load_ref(ref: SketchRef) -> SketchSet:
     """The set a reference names: the whole file, or the one sketch its group picks."""
-    sset = load_sketches(ref.path)
     if ref.group is None:
-        return sset
-    if ref.group not in sset.sketches:
-        raise OgiveError(f"{ref.path} has no sketch named {ref.group!r} (it has: {few(sset.names())}).")
+        return load_sketches(ref.path)
+    sset = load_sketches(ref.path, only=ref.group)  # only that one is built (see codec.loads)
     return SketchSet({ref.group: sset[ref.group]})
 
 

@@ -107,7 +107,10 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         metavar="N",
         type=_positive_int,
         default=1000,
-        help="with --by: after N distinct values, further ones share the group FIELD=(other) (default 1000)",
+        help="with --by: after N distinct values, further ones share the group FIELD=(other) (default 1000). "
+        "Each group costs memory while scanning (measured: about 15 KB for a group of a few values, up to "
+        "about 60 KB for one of many, plus at most 32 MB of values buffered across all groups) and "
+        "about 1.3 KB to 60 KB in the saved file; 10^5 small groups took 1.6 GB and a 126 MB file",
     )
     g.add_argument(
         "--time-field",
