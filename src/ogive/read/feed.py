@@ -237,9 +237,7 @@ _POLL_S = 0.1
 """How often a cancellable wait for the reader looks at its cancel flag."""
 
 
-def prefetch(
-    it: Iterator[_T], depth: int = 1, cancel: Callable[[], bool] | None = None
-) -> Iterator[_T]:
+def prefetch(it: Iterator[_T], depth: int = 1, cancel: Callable[[], bool] | None = None) -> Iterator[_T]:
     """Run ``it`` in a thread, ``depth`` items ahead, re-raising its errors here.
 
     The reader thread reads and decompresses the next chunk (zlib, zstd and polars
