@@ -13,6 +13,7 @@ import sys
 from typing import Any
 
 from ..errors import EXIT_INTERRUPTED, OgiveError, printable
+from ..outputs import check_target, repeated
 from .common import add_source_options
 
 DESCRIPTION = """\
@@ -67,9 +68,20 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..outputs import repeated
-    from ..store import check_target, sketch_ref
+    """The scan with the first Ctrl-C or SIGTERM held from the first byte read to the last
+    byte written: a signal while the sketches are finished or the file is written keeps
+    the result too (exit 130). Following a file, Ctrl-C is its normal end."""
     from .common import first_ctrl_c_stops
+
+    with first_ctrl_c_stops(quiet=bool(args.follow)) as stopped:
+        code = _run(args)
+    return EXIT_INTERRUPTED if stopped.is_set() and not args.follow else code
+
+
+def _run(args: argparse.Namespace) -> int:
+    from ..render.summary import summarise, summary_lines
+    from ..store import save_sketches, sketch_ref
+    from .common import scan_sources
 
     to_stdout = args.output == "-"
     if to_stdout and args.json:
@@ -82,31 +94,21 @@ def run(args: argparse.Namespace) -> int:
         )
     if args.output and args.output != "-" and args.output in args.sources:
         raise OgiveError(f"-o {args.output} is also a source; choose another output name.")
-    if args.output:
-        check_target(args.output)  # a device, FIFO, socket or folder: refused before a long scan
-        clash = repeated([args.output, *args.sources]) if args.output != "-" else None
-        if clash is not None and clash[0] == args.output:
-            raise OgiveError(f"-o {args.output} is the source {clash[1]}; choose another output name.")
 
     for src in args.sources:
         if sketch_ref(src) is not None:
             raise OgiveError(f"{src} is a saved sketch, not a log; look at it with 'ogive show {src}'.")
+    if args.output:
+        # Fail before a long scan, not after it: a device, FIFO, socket or folder is refused.
+        check_target(args.output)
+        clash = repeated([args.output, *args.sources]) if not to_stdout else None
+        if clash is not None and clash[0] == args.output:
+            raise OgiveError(f"-o {args.output} is the source {clash[1]}; choose another output name.")
+
     if args.follow and args.cluster:
         raise OgiveError("--follow reads a growing file on this machine; it does not run on a cluster.")
     if args.recent is not None and not args.follow:
         raise OgiveError("--recent keeps the last minutes of a followed log; use it with --follow.")
-    # Held until the last byte is written. Following a file, Ctrl-C is its normal end.
-    with first_ctrl_c_stops(quiet=args.follow) as stopped:
-        code = _scan_and_save(args, to_stdout)
-    return EXIT_INTERRUPTED if stopped.is_set() and not args.follow else code
-
-
-def _scan_and_save(args: argparse.Namespace, to_stdout: bool) -> int:
-    """Scan, summarise, save and print; the exit status (130: the scan was interrupted)."""
-    from ..render.summary import summarise, summary_lines
-    from ..store import save_sketches
-    from .common import scan_sources
-
     result = _follow(args) if args.follow else scan_sources(list(args.sources), args, keep_partial=True)
     warnings = list(result.warnings)
     if result.partial and result.error is None:  # a damaged input gets its own error line
