@@ -45,6 +45,15 @@ def csv(tmp_path_factory: pytest.TempPathFactory) -> Path:
     return f
 
 
+@pytest.fixture(scope="module")
+def saved(csv: Path) -> tuple[Path, Path]:
+    """Two sketch files of the same data, made once for the module (each run is a process)."""
+    a, b = csv.parent / "a.ogive", csv.parent / "b.ogive"
+    assert ogive("scan", str(csv), "--column", "latency_ms", "-o", str(a), "--quiet").returncode == 0
+    b.write_bytes(a.read_bytes())
+    return a, b
+
+
 def _one_line_error(r: subprocess.CompletedProcess[str]) -> str:
     # Warnings about the input may come first; the failure itself is one line.
     lines = [ln for ln in r.stderr.strip().splitlines() if not ln.startswith("ogive: warning: ")]
@@ -67,10 +76,10 @@ def _one_line_error(r: subprocess.CompletedProcess[str]) -> str:
         ("generate", "-o", "-", "--rows", "20000"),
     ],
 )
-def test_full_stdout_is_one_line_and_exit_3(csv: Path, tmp_path: Path, args: tuple[str, ...]) -> None:
-    sketch, sketch2 = tmp_path / "a.ogive", tmp_path / "b.ogive"
-    for out in (sketch, sketch2):
-        assert ogive("scan", str(csv), "--column", "latency_ms", "-o", str(out), "--quiet").returncode == 0
+def test_full_stdout_is_one_line_and_exit_3(
+    csv: Path, saved: tuple[Path, Path], args: tuple[str, ...]
+) -> None:
+    sketch, sketch2 = saved
     argv = [a.format(csv=csv, sketch=sketch, sketch2=sketch2) for a in args]
     with open("/dev/full", "wb") as full:
         r = ogive(*argv, stdout=full.fileno())
@@ -128,6 +137,7 @@ def _socket(tmp_path: Path) -> str:
 @pytest.mark.parametrize("command", ["scan", "merge", "generate", "timeline"])
 def test_special_targets_refused_before_reading(
     csv: Path,
+    saved: tuple[Path, Path],
     tmp_path: Path,
     make,
     kind: str,
@@ -137,12 +147,8 @@ def test_special_targets_refused_before_reading(
     if not os.path.exists(target):
         pytest.skip(f"{target} does not exist here")
     before = os.stat(target)
-    sk = tmp_path / "one.ogive"
     if command == "merge":
-        assert ogive("scan", str(csv), "--column", "latency_ms", "-o", str(sk), "--quiet").returncode == 0
-        sk2 = tmp_path / "two.ogive"
-        sk2.write_bytes(sk.read_bytes())
-        argv = ["merge", str(sk), str(sk2), "-o", target]
+        argv = ["merge", str(saved[0]), str(saved[1]), "-o", target]
     elif command == "generate":
         argv = ["generate", "-o", target, "--rows", "10"]
     elif command == "timeline":
