@@ -9,13 +9,16 @@ heavy libraries (polars, scipy, textual) are imported inside ``run`` so that
 from __future__ import annotations
 
 import argparse
+import contextlib
 import importlib
 import os
+import signal
 import sys
 from collections.abc import Sequence
 
 from . import __version__
-from .errors import EXIT_ERROR, EXIT_INTERRUPTED, OgiveError
+from .errors import EXIT_ERROR, EXIT_INTERRUPTED, OgiveError, printable
+from .outputs import OUTPUT_ERRNOS, silence_stdout
 
 COMMANDS: dict[str, str] = {
     "scan": "read sources once and summarise (and save) a sketch of one numeric field",
@@ -69,30 +72,54 @@ def main(argv: Sequence[str] | None = None) -> int:
     if not getattr(args, "_run", None):
         parser.print_help()
         return EXIT_ERROR
+    # SIGTERM ends a command as Ctrl-C does (a scan keeps what it read; anything else
+    # stops cleanly, its temporary files removed) instead of killing it mid-write.
+    with contextlib.suppress(ValueError):  # not the main thread (embedded in a test runner)
+        signal.signal(signal.SIGTERM, _terminate)
     try:
-        return int(args._run(args))
+        code = int(args._run(args))
+        sys.stdout.flush()  # a full output fails here, inside the checks, not at exit
+        return code
     except OgiveError as exc:
-        print(f"ogive: error: {exc}", file=sys.stderr)
+        print(f"ogive: error: {printable(str(exc))}", file=sys.stderr)
         return EXIT_ERROR
     except KeyboardInterrupt:
         print("ogive: interrupted", file=sys.stderr)
         return EXIT_INTERRUPTED
     except BrokenPipeError:
-        # A reader such as `head` went away: stop quietly, as other filters do.
-        devnull = os.open(os.devnull, os.O_WRONLY)
-        os.dup2(devnull, sys.stdout.fileno())
+        # A reader such as `head` went away: stop quietly, as other filters do (a sketch
+        # or a generated log sent to it is checked where it is written, and fails).
+        silence_stdout()
         return 0
-    except Exception as exc:
-        # A bug in ogive, not the user's fault; still one line, and the traceback on demand.
-        if os.environ.get("OGIVE_DEBUG"):
-            raise
-        first = (str(exc).splitlines() or [""])[0][:200]
+    except OSError as exc:
+        if exc.errno not in OUTPUT_ERRNOS:
+            return _internal(exc)
+        # Text output (tables, --json) that the disk or device behind stdout refused.
+        silence_stdout()
         print(
-            f"ogive: internal error: {type(exc).__name__}: {first} "
-            "(please report it; OGIVE_DEBUG=1 shows the traceback)",
+            f"ogive: error: cannot write the output: {exc.strerror or exc}; what was printed is incomplete.",
             file=sys.stderr,
         )
         return EXIT_ERROR
+    except Exception as exc:
+        return _internal(exc)
+
+
+def _terminate(signum: int, frame: object) -> None:
+    raise KeyboardInterrupt
+
+
+def _internal(exc: Exception) -> int:
+    """A bug in ogive, not the user's fault; still one line, and the traceback on demand."""
+    if os.environ.get("OGIVE_DEBUG"):
+        raise exc
+    first = printable((str(exc).splitlines() or [""])[0][:200])
+    print(
+        f"ogive: internal error: {type(exc).__name__}: {first} "
+        "(please report it; OGIVE_DEBUG=1 shows the traceback)",
+        file=sys.stderr,
+    )
+    return EXIT_ERROR
 
 
 if __name__ == "__main__":

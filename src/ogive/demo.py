@@ -27,19 +27,19 @@ import contextlib
 import datetime as dt
 import gzip
 import os
-import sys
 import tempfile
 import time
 from collections.abc import Iterator
 from dataclasses import asdict, dataclass
 from pathlib import Path
-from typing import IO, Any
+from typing import IO, Any, cast
 
 import numpy as np
 import polars as pl
 from numpy.typing import NDArray
 
 from .errors import OgiveError
+from .outputs import CheckedStdout, check_target
 
 FORMATS = ("text", "csv", "ndjson")
 PHASES = ("before", "after", "day", "rollout")
@@ -407,10 +407,11 @@ def write(
     total = rows_done = spoilt = 0
     out: IO[bytes] | gzip.GzipFile
     tmp: str | None = None
+    check_target(path)
     if path == "-":
-        raw: IO[bytes] = sys.stdout.buffer
+        raw: IO[bytes] = cast(IO[bytes], CheckedStdout(what="the generated log"))
     else:
-        target = Path(path)
+        target = Path(os.path.realpath(path))
         folder = target.parent if str(target.parent) else Path(".")
         try:
             fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
@@ -436,10 +437,8 @@ def write(
             umask = os.umask(0)
             os.umask(umask)
             os.chmod(tmp, 0o666 & ~umask)  # an ordinary file, not mkstemp's private 0600
-            os.replace(tmp, path)
+            os.replace(tmp, target)
             tmp = None
-    except BrokenPipeError:
-        raise  # the reader (`| head`) went away: the CLI ends quietly, as filters do
     except OSError as exc:
         raise OgiveError(f"cannot write {path}: {exc.strerror or exc}; nothing was kept.") from None
     finally:

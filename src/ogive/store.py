@@ -7,73 +7,35 @@ That decision is made from the file's first bytes, never its name, so a sketch r
 
 from __future__ import annotations
 
-import contextlib
 import os
 import sys
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
 from .errors import OgiveError
+from .outputs import check_target as check_target
+from .outputs import write_atomic as write_atomic
 from .sketch import SketchFormatError, SketchSet, dumps, loads
-
-
-def write_atomic(path: str | os.PathLike[str], data: bytes) -> None:
-    """Write ``data`` to ``path`` via a temporary file in the same folder and a rename.
-
-    A crash, Ctrl-C or full disk leaves either the old file or the new one, never a
-    half-written one. ``-`` writes to standard output.
-    """
-    if str(path) == "-":
-        sys.stdout.buffer.write(data)
-        sys.stdout.buffer.flush()
-        return
-    target = Path(path)
-    folder = target.parent if str(target.parent) else Path(".")
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
-    except OSError as exc:
-        raise OgiveError(f"cannot write {target}: {exc.strerror or exc}.") from None
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        # mkstemp creates 0600; a saved sketch should get the mode any new file gets
-        # (or keep the one it replaces), so colleagues can read what was shared.
-        os.chmod(tmp, _mode_for(target))
-        os.replace(tmp, target)
-    except OSError as exc:
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
-        raise OgiveError(f"cannot write {target}: {exc.strerror or exc}; nothing was changed.") from None
-    except BaseException:
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
-        raise
-
-
-def _mode_for(target: Path) -> int:
-    try:
-        return target.stat().st_mode & 0o7777
-    except OSError:
-        umask = os.umask(0)
-        os.umask(umask)
-        return 0o666 & ~umask
+from .sketch.codec import MissingSketch
 
 
 def save_sketches(path: str | os.PathLike[str], sketches: SketchSet) -> None:
-    write_atomic(path, dumps(sketches))
+    """The set to ``path`` (``-``: standard output), atomically and checked (``outputs.py``)."""
+    write_atomic(path, dumps(sketches), what="the sketch file")
 
 
-def load_sketches(path: str | os.PathLike[str]) -> SketchSet:
-    """Load a sketch file (``-`` reads standard input)."""
+def load_sketches(path: str | os.PathLike[str], only: str | None = None) -> SketchSet:
+    """Load a sketch file (``-`` reads standard input); with ``only``, just that sketch."""
     try:
         data = sys.stdin.buffer.read() if str(path) == "-" else Path(path).read_bytes()
     except OSError as exc:
         raise OgiveError(f"cannot read {path}: {exc.strerror or exc}.") from None
+    except MemoryError:
+        raise OgiveError(f"cannot read {path}: it does not fit in memory.") from None
     try:
-        return loads(data)
+        return loads(data, only)
+    except MissingSketch as exc:
+        raise OgiveError(f"{path} has no sketch named {only!r} (it has: {few(exc.names)}).") from None
     except SketchFormatError as exc:
         raise OgiveError(f"{path}: {exc}") from None
 
@@ -117,11 +79,9 @@ def sketch_ref(spec: str) -> SketchRef | None:
 
 def load_ref(ref: SketchRef) -> SketchSet:
     """The set a reference names: the whole file, or the one sketch its group picks."""
-    sset = load_sketches(ref.path)
     if ref.group is None:
-        return sset
-    if ref.group not in sset.sketches:
-        raise OgiveError(f"{ref.path} has no sketch named {ref.group!r} (it has: {few(sset.names())}).")
+        return load_sketches(ref.path)
+    sset = load_sketches(ref.path, only=ref.group)  # only that one is built (see codec.loads)
     return SketchSet({ref.group: sset[ref.group]})
 
 

@@ -19,7 +19,7 @@ import threading
 from collections.abc import Iterator
 from typing import TYPE_CHECKING
 
-from ..errors import OgiveError
+from ..errors import OgiveError, printable
 from .generate import parse_size
 
 if TYPE_CHECKING:
@@ -107,7 +107,10 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         metavar="N",
         type=_positive_int,
         default=1000,
-        help="with --by: after N distinct values, further ones share the group FIELD=(other) (default 1000)",
+        help="with --by: after N distinct values, further ones share the group FIELD=(other) (default 1000). "
+        "Each group costs memory while scanning (measured: about 15 KB for a group of a few values, up to "
+        "about 60 KB for one of many, plus at most 32 MB of values buffered across all groups) and "
+        "about 1.3 KB to 60 KB in the saved file; 10^5 small groups took 1.6 GB and a 126 MB file",
     )
     g.add_argument(
         "--time-field",
@@ -258,7 +261,7 @@ def side_names(specs: tuple[str, str], names: tuple[str, str]) -> tuple[str, str
         out = tuple(f"{stem}:{name}" for stem, name in zip(stems, names, strict=True))
     if out[0] == out[1]:
         out = specs
-    return out[0], out[1]
+    return printable(out[0]), printable(out[1])
 
 
 def in_baseline_unit(
@@ -384,33 +387,55 @@ def scan_sources(
                 line.clear()
     if stopped.is_set():
         result.interrupted = True
-        result.partial = f"interrupted (Ctrl-C): {result.partial or 'what was read before it is kept'}"
-        for sketch in result.sketches.sketches.values():
-            sketch.provenance.partial = result.partial  # the saved file says why it is partial
+        if result.partial is not None:  # the request came while reading: what was read is kept
+            result.partial = f"interrupted (Ctrl-C or SIGTERM): {result.partial}"
+            for sketch in result.sketches.sketches.values():
+                sketch.provenance.partial = result.partial  # the saved file says why it is partial
+        # else: it came once every byte was read, while the sketches were finished: they
+        # are whole, and are kept unflagged (the exit status still says 130).
     if not quiet:
         for warning in result.warnings:
-            print(f"ogive: warning: {warning}", file=sys.stderr)
+            print(f"ogive: warning: {printable(warning)}", file=sys.stderr)
     return result
+
+
+_ACTIVE: list[threading.Event] = []
+"""The stop flag of the outermost ``first_ctrl_c_stops`` in force (inner ones share it)."""
+
+STOP_SIGNALS = (signal.SIGINT, signal.SIGTERM)
 
 
 @contextlib.contextmanager
 def first_ctrl_c_stops(*, quiet: bool = False) -> Iterator[threading.Event]:
-    """The first Ctrl-C asks the scan to stop after the chunk in hand, so the sketch of
-    what was read survives (and is saved, flagged partial); a second one abandons it."""
+    """The first Ctrl-C (or SIGTERM) asks the scan to stop after the chunk in hand, so the
+    sketch of what was read survives (and is saved, flagged partial); a second one
+    abandons it (KeyboardInterrupt: nothing half-written is left behind).
+
+    Nested uses share the outer flag, so a command can hold it from the first byte
+    read to the last byte written: a signal while groups are flushed or the file is
+    written is then the same request, not a KeyboardInterrupt that loses the result.
+    """
+    if _ACTIVE:
+        yield _ACTIVE[-1]
+        return
     stopped = threading.Event()
     if threading.current_thread() is not threading.main_thread():
         yield stopped  # signals reach only the main thread; a UI worker cancels its own way
         return
 
-    def on_sigint(signum: int, frame: object) -> None:
+    def on_signal(signum: int, frame: object) -> None:
         if stopped.is_set():
             raise KeyboardInterrupt
         stopped.set()
         if not quiet:
-            print("ogive: interrupted; keeping what was read (Ctrl-C again to abandon it)", file=sys.stderr)
+            what = "interrupted" if signum == signal.SIGINT else "asked to stop (SIGTERM)"
+            print(f"ogive: {what}; keeping what was read (Ctrl-C again to abandon it)", file=sys.stderr)
 
-    previous = signal.signal(signal.SIGINT, on_sigint)
+    previous = {sig: signal.signal(sig, on_signal) for sig in STOP_SIGNALS}
+    _ACTIVE.append(stopped)
     try:
         yield stopped
     finally:
-        signal.signal(signal.SIGINT, previous)
+        _ACTIVE.pop()
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)

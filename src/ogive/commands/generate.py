@@ -107,6 +107,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from .. import demo
+    from ..outputs import check_target
 
     metric_files: list[str] = []
     if args.demo_set:
@@ -123,6 +124,7 @@ def run(args: argparse.Namespace) -> int:
             raise OgiveError(f"--bad-rows must be zero or more, got {args.bad_rows}.")
         if args.output == "-" and args.json:
             raise OgiveError("-o - and --json both want standard output; write to a file or drop --json.")
+        check_target(args.output)
         rows = args.rows if args.rows or args.size else 100_000
         results = [
             demo.write(

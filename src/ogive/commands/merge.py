@@ -161,11 +161,13 @@ def renamed(named: list[tuple[str, SketchSet]], specs: list[str]) -> list[tuple[
 def run(args: argparse.Namespace) -> int:
     import json
 
+    from ..outputs import repeated
     from ..render.summary import summarise, summary_lines
-    from ..store import load_sketches, save_sketches
+    from ..store import check_target, load_sketches, save_sketches
 
     if len(args.inputs) < 2:
         raise OgiveError("merge needs two or more sketch files; to look at one, use 'ogive show'.")
+    check_target(args.output)
     if args.output in args.inputs:
         # Allowed in principle (the write is atomic), but it is almost always a slip of a glob.
         raise OgiveError(f"-o {args.output} is also an input; write the merge to a new file.")
@@ -173,9 +175,10 @@ def run(args: argparse.Namespace) -> int:
         raise OgiveError(
             "-o - and --json both want standard output; write the sketch to a file or drop --json."
         )
-    seen = {p for p in args.inputs if args.inputs.count(p) > 1}
-    if seen:
-        raise OgiveError(f"{sorted(seen)[0]} is given more than once; its values would be counted twice.")
+    twice = repeated(args.inputs)
+    if twice is not None:
+        same = "is given more than once" if twice[0] == twice[1] else f"is the same file as {twice[0]}"
+        raise OgiveError(f"{twice[1]} {same}; its values would be counted twice.")
     named = renamed([(path, load_sketches(path)) for path in args.inputs], args.names)
     merged, warnings = merge_sets(named, force=args.force)
     save_sketches(args.output, merged)

@@ -10,6 +10,8 @@ from __future__ import annotations
 import time
 from typing import TYPE_CHECKING, TextIO
 
+from ..errors import printable
+
 if TYPE_CHECKING:
     from ..read.options import ScanProgress
 
@@ -80,7 +82,7 @@ class ProgressLine:
         if now - self._last < 1.0 / MAX_RATE:
             return
         self._last = now
-        text = format_progress(progress)[: self.width]
+        text = printable(format_progress(progress))[: self.width]  # a source's name may hold ESC
         pad = " " * max(0, self._drawn - len(text))
         self.stream.write("\r" + text + pad)
         self.stream.flush()

@@ -9,11 +9,11 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
 import sys
 from typing import Any
 
-from ..errors import EXIT_INTERRUPTED, OgiveError
+from ..errors import EXIT_INTERRUPTED, OgiveError, printable
+from ..outputs import check_target, repeated
 from .common import add_source_options
 from .objectives import add_objective_option
 
@@ -71,6 +71,17 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    """The scan with the first Ctrl-C or SIGTERM held from the first byte read to the last
+    byte written: a signal while the sketches are finished or the file is written keeps
+    the result too (exit 130). Following a file, Ctrl-C is its normal end."""
+    from .common import first_ctrl_c_stops
+
+    with first_ctrl_c_stops(quiet=bool(args.follow)) as stopped:
+        code = _run(args)
+    return EXIT_INTERRUPTED if stopped.is_set() and not args.follow else code
+
+
+def _run(args: argparse.Namespace) -> int:
     from ..render.summary import summarise, summary_lines
     from ..store import save_sketches, sketch_ref
     from .common import scan_sources
@@ -92,13 +103,12 @@ def run(args: argparse.Namespace) -> int:
     for src in args.sources:
         if sketch_ref(src) is not None:
             raise OgiveError(f"{src} is a saved sketch, not a log; look at it with 'ogive show {src}'.")
-    if args.output and not to_stdout:
-        # Fail before a long scan, not after it.
-        folder = os.path.dirname(args.output) or "."
-        if not os.path.isdir(folder):
-            raise OgiveError(f"cannot write {args.output}: the folder {folder} does not exist.")
-        if not os.access(folder, os.W_OK):
-            raise OgiveError(f"cannot write {args.output}: the folder {folder} is not writable.")
+    if args.output:
+        # Fail before a long scan, not after it: a device, FIFO, socket or folder is refused.
+        check_target(args.output)
+        clash = repeated([args.output, *args.sources]) if not to_stdout else None
+        if clash is not None and clash[0] == args.output:
+            raise OgiveError(f"-o {args.output} is the source {clash[1]}; choose another output name.")
 
     if args.follow and args.cluster:
         raise OgiveError("--follow reads a growing file on this machine; it does not run on a cluster.")
@@ -197,7 +207,7 @@ def _follow(args: argparse.Namespace) -> Any:
         if window is not None and recent is not None:
             label = f"last {args.recent.strip()} "
             parts.append(quantiles(label, window) if window.count else f"{label}no values yet")
-        text = " | ".join(parts)
+        text = printable(" | ".join(parts))  # the file's name and group keys may hold ESC
         print(f"\r{text[:200]}\033[K" if tty else text, end="" if tty else "\n", file=sys.stderr, flush=True)
 
     with first_ctrl_c_stops(quiet=True) as stopped:

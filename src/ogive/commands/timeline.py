@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
 import shutil
 import sys
 from typing import TYPE_CHECKING, Any
@@ -218,10 +217,10 @@ def _load(args: argparse.Namespace) -> tuple[SketchSet, str | None]:
         )
     if args.output and args.output in args.sources:
         raise OgiveError(f"-o {args.output} is also a source; choose another output name.")
-    if args.output and args.output != "-":
-        folder = os.path.dirname(args.output) or "."
-        if not os.path.isdir(folder) or not os.access(folder, os.W_OK):
-            raise OgiveError(f"cannot write {args.output}: the folder {folder} is missing or not writable.")
+    if args.output:
+        from ..store import check_target
+
+        check_target(args.output)
     return _scan(args), _gate_base(args)
 
 

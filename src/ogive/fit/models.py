@@ -32,6 +32,10 @@ such sizes, so only the distances are informative."""
 
 
 # ---------------------------------------------------------------- public API
+FIT_LIMIT = 1e150
+"""Beyond this a value squared overflows float64: moments, likelihoods and bins break."""
+
+
 def fit_sketch(
     sketch: Distribution,
     families: list[str] | tuple[str, ...] | None = None,
@@ -60,6 +64,12 @@ def fit_sketch(
         raise ValueError(f"tail_prob must be at least 0.5 and below 1, got {tail_prob}.")
     if sketch.count < 3:
         raise ValueError(f"a fit needs at least 3 values; the sketch holds {sketch.count}.")
+    if max(abs(sketch.min), abs(sketch.max)) > FIT_LIMIT:
+        raise ValueError(
+            f"the values reach {sketch.max if abs(sketch.max) > abs(sketch.min) else sketch.min:g}, "
+            "too close to the largest number a computer float holds to fit a model (its moments "
+            "and densities overflow); check the field and its unit, or scan without those rows."
+        )
     if not sketch.max > sketch.min:
         raise ValueError(
             f"all {sketch.count} values equal {sketch.min:g}; no continuous family describes a single value."

@@ -85,6 +85,8 @@ class Builder:
                 self.skips.count(reason, count, examples)
             if reason != BAD_TIMESTAMP or not self.by_time:  # cut by time: in no sketch
                 prov.skip(reason, count, examples)
+            else:
+                prov.rows_read -= count  # counted in the set's unassigned rows instead
         if batch.tus is not None:
             t = batch.tus if idx is None else batch.tus[idx]
             t = t[np.isfinite(t) & sel_ok] if sel_ok.size else t[:0]

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import polars as pl
 
-from ..errors import OgiveError
+from ..errors import OgiveError, excerpt
 from .layout import Layout
 from .options import ScanOptions
 from .values import looks_numeric
@@ -103,8 +103,11 @@ class CsvLayout(Layout):
         except pl.exceptions.PolarsError as exc:
             if numeric:
                 raise
-            first = str(exc).splitlines()[0][:200]
-            raise OgiveError(f"cannot parse the {self.format.upper()} records: {first}") from None
+            fmt = self.format.upper()
+            raise OgiveError(
+                f"cannot read the lines as {fmt} records; check that the file is {fmt} (or name its format "
+                f"with --format) and that its quotes are balanced (the parser said: {excerpt(str(exc), 80)})."
+            ) from None
         return df.rename(dict(zip(df.columns, self.names, strict=True)))
 
     def lazy(self, path: str, skip: int, *, numeric: bool) -> pl.LazyFrame:
@@ -265,7 +268,10 @@ def _resolver(names: list[str], header: bool) -> Callable[[str, str], int]:
                 f"{what} {spec!r} is a name, but the file has no header line; give a 1-based position."
             )
         if spec not in names:
-            raise OgiveError(f"no column named {spec!r} (the header has: {', '.join(names)}).")
+            shown = ", ".join(excerpt(n, 30) for n in names[:8]) + (
+                f", … ({len(names) - 8} more)" if len(names) > 8 else ""
+            )
+            raise OgiveError(f"no column named {excerpt(spec, 40)!r} (the header has: {shown}).")
         return names.index(spec)
 
     return resolve

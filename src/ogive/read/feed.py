@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import queue
 import threading
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from typing import TypeVar
 
@@ -233,11 +233,18 @@ def lines_in(data: bytes, rows: int, fmt: str) -> tuple[int, NDArray[np.int64] |
     return rows, None
 
 
-def prefetch(it: Iterator[_T], depth: int = 1) -> Iterator[_T]:
+_POLL_S = 0.1
+"""How often a cancellable wait for the reader looks at its cancel flag."""
+
+
+def prefetch(it: Iterator[_T], depth: int = 1, cancel: Callable[[], bool] | None = None) -> Iterator[_T]:
     """Run ``it`` in a thread, ``depth`` items ahead, re-raising its errors here.
 
     The reader thread reads and decompresses the next chunk (zlib, zstd and polars
-    release the GIL) while the caller works on this one.
+    release the GIL) while the caller works on this one. With ``cancel``, the wait for
+    the next item ends within ``_POLL_S`` of it turning true, even while the reader is
+    stuck in a read (an idle FIFO writer, a terminal): the reader is then left behind
+    (a daemon thread), never waited for.
     """
     q: queue.Queue[tuple[str, object]] = queue.Queue(maxsize=depth)
     stop = threading.Event()
@@ -261,7 +268,12 @@ def prefetch(it: Iterator[_T], depth: int = 1) -> Iterator[_T]:
     thread.start()
     try:
         while True:
-            kind, payload = q.get()
+            try:
+                kind, payload = q.get(timeout=_POLL_S if cancel is not None else None)
+            except queue.Empty:
+                if cancel is not None and cancel():
+                    return
+                continue
             if kind == "item":
                 yield payload  # type: ignore[misc]
             elif kind == "error":
@@ -270,7 +282,7 @@ def prefetch(it: Iterator[_T], depth: int = 1) -> Iterator[_T]:
                 return
     finally:
         stop.set()
-        while thread.is_alive():
+        while thread.is_alive() and not (cancel is not None and cancel()):
             try:
                 q.get_nowait()
             except queue.Empty:

@@ -12,6 +12,7 @@ counted by reason with its first places, as the log reader does for rows.
 
 from __future__ import annotations
 
+import os
 import sys
 import time
 from collections.abc import Callable, Sequence
@@ -19,7 +20,7 @@ from collections.abc import Callable, Sequence
 from ..errors import OgiveError
 from ..sketch import SketchSet, SkipTally
 from ..sketch.sketch import EXAMPLES_KEPT
-from . import openmetrics, otlp_metrics, sources
+from . import openmetrics, otlp_metrics, sources, urls
 from .options import ScanOptions, ScanProgress, ScanResult
 from .series import REASON_TEXT as SERIES_TEXT
 from .series import Collector, SeriesBook, floor_of
@@ -54,6 +55,11 @@ def _head(name: str) -> bytes:
     if name == "-":
         peek = getattr(sys.stdin.buffer, "peek", None)
         return bytes(peek(HEAD)[:HEAD]) if peek is not None else b""
+    if not os.path.isfile(name) and not urls.is_url(name):
+        # A FIFO or a device: reading a head here would take those bytes from the scan
+        # (it opens the source again) and may wait for a writer forever. Metrics read
+        # from such a source need --format.
+        return b""
     try:
         src = sources.Opened(name)
     except OgiveError:

@@ -223,7 +223,7 @@ def sample_objects(data: bytes) -> list[dict[str, Any]]:
     for line in data[: 1 << 20].split(b"\n")[:SNIFF_LINES]:
         try:
             obj = json.loads(line.decode("utf-8", errors="replace"))  # bytes not yet cleaned
-        except ValueError:
+        except (ValueError, RecursionError):  # nested thousands deep: no record we can read
             continue
         if isinstance(obj, dict):
             out.append(obj)

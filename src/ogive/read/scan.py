@@ -23,6 +23,7 @@ import numpy as np
 import polars as pl
 
 from ..errors import OgiveError
+from ..outputs import repeated
 from ..sketch import SketchSet, SkipTally
 from . import direct, metrics, sources, urls
 from .build import Builder, TimeOrder
@@ -62,6 +63,11 @@ def scan(
         raise OgiveError("no source given; name a file, or '-' for standard input.")
     if open_source is None:  # a part of a cluster scan comes with its own opener and decisions
         sources_ = urls.expand(list(sources_))
+        twice = repeated(list(sources_))
+        if twice is not None:
+            same = "is listed twice" if twice[0] == twice[1] else f"is the same file as {twice[0]}"
+            shown = "standard input ('-')" if twice[1] == "-" else twice[1]
+            raise OgiveError(f"{shown} {same}; its values would be counted twice. Name each source once.")
         fmt = metrics.detect(sources_, options)
         if fmt is not None:  # histograms already aggregated: read into binned distributions
             return metrics.scan_metrics(sources_, options, fmt, progress=progress, cancel=cancel)
@@ -73,6 +79,7 @@ def scan(
     done_bytes = 0
     last_report = 0.0
     partial: str | None = None
+    cut: str | None = None
     error: str | None = None
     # Workers parse the next chunks (polars and numpy release the GIL; an eager
     # str.extract is single-threaded, so two chunks at once use both cores) while this
@@ -87,6 +94,7 @@ def scan(
     try:
         for name in sources_:
             src = opener(name)
+            src.cancel = cancel
             run.start_source(src.display, at_start=src.at_start)
             jobs = run.jobs(src, pool)
             try:
@@ -103,20 +111,24 @@ def scan(
                             last_report = now
                             progress(run.progress(done_bytes + job.pos, total, now - start, src.display))
                         if cancel is not None and cancel():
-                            drain(0)
-                            partial = f"stopped on request in {src.display} after line {run.lines.next - 1}"
                             break
+                except sources.Cancelled:
+                    pass  # the records read before the request are whole: kept below
                 except sources.CorruptSource as exc:
                     if not options.keep_partial:
                         raise
                     drain(0)  # the chunks before the damage are good: keep them
                     error, partial = str(exc), f"the input is damaged: {exc}"
                 drain(0)
+                if cancel is not None and cancel() and not partial:
+                    partial = f"stopped on request in {src.display} after line {run.lines.next - 1}"
             finally:
                 jobs.close()
                 change = src.changed()
                 if change is not None:
                     run.warnings.append(change)
+                    if src.truncated and not partial:
+                        cut = change  # the sketch covers less than the file held: partial
                 src.close()
             done_bytes += src.size or 0
             if partial:
@@ -126,7 +138,7 @@ def scan(
             if job.future is not None:
                 job.future.cancel()
         pool.shutdown(wait=True)
-    return run.finish(time.monotonic() - start, partial=partial, error=error)
+    return run.finish(time.monotonic() - start, partial=partial or cut, error=error)
 
 
 def _file_size(name: str) -> int | None:
@@ -230,7 +242,7 @@ class Pipeline:
                 self.bytes_seen += (src.size or 0) - seen
                 return
         consumed = 0
-        for piece in prefetch(self.feed.pieces(src)):
+        for piece in prefetch(self.feed.pieces(src), cancel=src.cancel):
             job = Job(src.display, piece.too_long, piece.header)
             if piece.data:
                 if self.decoder.unit is None:  # the first rows decide the unit and time form
@@ -310,7 +322,9 @@ class Pipeline:
         sketch stands for the whole scan."""
         examples = self.skips.unassigned(reason, display, lines)
         if not self.options.by and not self.router.by_time and self.decoder.unit is not None:
-            self.builder.sketch("all").provenance.skip(reason, len(lines), examples)
+            prov = self.builder.sketch("all").provenance
+            prov.skip(reason, len(lines), examples)
+            prov.rows_read += len(lines)  # a row of the sketch's, skipped: n + skipped == rows read
 
     # ----------------------------------------------------------------- reports
     @property

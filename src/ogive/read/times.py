@@ -370,7 +370,11 @@ def parse_moment(text: str, fmt: str | None = None) -> float:
 
 def iso(us: float) -> str:
     """Epoch microseconds as an ISO 8601 UTC string (for provenance)."""
-    moment = dt.datetime(1970, 1, 1, tzinfo=dt.UTC) + dt.timedelta(microseconds=int(us))
+    epoch = dt.datetime(1970, 1, 1, tzinfo=dt.UTC)
+    try:
+        moment = epoch + dt.timedelta(microseconds=int(us))
+    except (OverflowError, ValueError):  # outside years 1-9999: the nearest moment a datetime holds
+        moment = dt.datetime.max.replace(tzinfo=dt.UTC) if us > 0 else dt.datetime.min.replace(tzinfo=dt.UTC)
     return moment.isoformat().replace("+00:00", "Z")
 
 

@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 
+from ..errors import printable
 from ..numbers import quantity
 from ..sketch import Binned, Sketch, SketchSet, is_binned, quantile_label
 from .tables import table, text_lines
@@ -259,7 +260,7 @@ def summary_lines(summary: SetSummary) -> list[str]:
     out.extend(_notes(summary))
     for w in summary.warnings:
         out.append(f"warning: {w}")
-    return out
+    return [printable(line) for line in out]  # sources, fields and provenance come from the input
 
 
 def _bounds_of(s: SketchSummary) -> tuple[tuple[float, float], ...]:

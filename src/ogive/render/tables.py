@@ -15,6 +15,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from ..errors import printable
 from ..numbers import MISSING, count, number, percent, quantity, signed
 from ..sketch import Binned, Sketch, is_binned, quantile_label
 
@@ -40,7 +41,15 @@ class Table:
 
 
 def table(header: Sequence[str], rows: Sequence[Sequence[str]], right: Sequence[int] = ()) -> Table:
-    return Table(tuple(header), tuple(tuple(r) for r in rows), frozenset(right))
+    """A table whose cells are safe to print: names from the input (sources, group keys)
+    have their terminal controls written as escapes (``errors.printable``) before any
+    width is measured, so a key holding ESC can neither act on the terminal nor skew
+    the columns. The CLI, the markdown report and the workspace all draw from here."""
+    return Table(
+        tuple(printable(h) for h in header),
+        tuple(tuple(printable(c) for c in r) for r in rows),
+        frozenset(right),
+    )
 
 
 def text_lines(t: Table, *, indent: int = 0, header: bool = True) -> list[str]:

@@ -37,8 +37,17 @@ STRIP_GLYPHS = {False: " ░▒▓█", True: " .:+#"}
 CHANGE = ("┊", ":")
 
 
+_FIRST_US = (dt.datetime.min.replace(tzinfo=dt.UTC) - dt.datetime(1970, 1, 1, tzinfo=dt.UTC)) // dt.timedelta(
+    microseconds=1
+)
+_LAST_US = (dt.datetime.max.replace(tzinfo=dt.UTC) - dt.datetime(1970, 1, 1, tzinfo=dt.UTC)) // dt.timedelta(
+    microseconds=1
+)
+
+
 def _moment(us: float) -> dt.datetime:
-    return _EPOCH + dt.timedelta(microseconds=round(us))
+    # The end of a window that starts late in year 9999 lies past what a datetime holds.
+    return _EPOCH + dt.timedelta(microseconds=round(min(max(us, _FIRST_US), _LAST_US)))
 
 
 def time_label(us: float, step_s: float, *, days: bool) -> str:

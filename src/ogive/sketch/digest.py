@@ -156,6 +156,21 @@ class TDigest:
         mine = (self._means, self._weights, self._pure, self._lo, self._hi)
         self._regroup(*_merge_sorted(mine, (m, w, p, lo, hi)))
 
+    def restore(
+        self, means: FloatArray, weights: FloatArray, pure: BoolArray, lows: FloatArray, highs: FloatArray
+    ) -> None:
+        """Take a saved digest's centroids as they are (the loader, after its checks).
+
+        A file ogive wrote holds the clusters its digest had; regrouping them again on
+        every load cost ~1 ms per sketch, 100 s for a file of 10^5 groups. More
+        centroids than the compression can have (a file not written this way) are
+        regrouped as any import is.
+        """
+        if self._weights.size or self._buf or means.size > 4 * self.compression + 64:
+            self.add_centroids(means, weights, pure, (lows, highs))
+            return
+        self._means, self._weights, self._pure, self._lo, self._hi = means, weights, pure, lows, highs
+
     def flush(self) -> None:
         """Merge the buffer into the centroids."""
         if not self._buf:

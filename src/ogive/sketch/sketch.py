@@ -20,9 +20,11 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .digest import DEFAULT_COMPRESSION, TDigest
+from .invariants import check_sketch
 from .provenance import EXAMPLES_KEPT as EXAMPLES_KEPT
 from .provenance import Provenance, SkipTally, quantile_label
 from .rank_error import quantile_rank_error
+from .tails import Side, fold_tails
 
 if TYPE_CHECKING:
     from .binned import Binned
@@ -34,6 +36,10 @@ DEFAULT_SCALE = "k1-ladder"
 
 DEFAULT_TAIL = 512
 MAX_TAIL = 1 << 20
+SUM_SHIFT = 64
+"""A sum that overflows float64 is kept divided by 2**64 (``Sketch.add_sum``)."""
+
+
 class Sketch:
     """A mergeable summary of one numeric field in one unit.
 
@@ -57,6 +63,8 @@ class Sketch:
         self.digest = TDigest(compression, scale)
         self.count = 0
         self.total = 0.0
+        """The sum of the values divided by ``2 ** sum_exponent`` (see :meth:`add_sum`)."""
+        self.sum_exponent = 0
         self.nan_count = 0
         self.inf_count = 0
         self.negative_count = 0
@@ -93,34 +101,60 @@ class Sketch:
             with np.errstate(over="ignore"):
                 total = float(arr.sum())  # inf only if huge finite values overflow
         self.count += arr.size
-        self.total += total
+        if math.isfinite(total) and not self.sum_exponent:
+            self.add_sum(total, 0)
+        else:  # values near the float64 limit (1.8e308): their sum is kept scaled
+            self.add_sum(float(np.ldexp(arr, -SUM_SHIFT).sum()), SUM_SHIFT)
         self.negative_count += int(np.count_nonzero(arr < 0))
         self.zero_count += int(np.count_nonzero(arr == 0))
         self.digest.add(arr)
         self._fold_tails(arr, arr)
 
+    def add_sum(self, value: float, exponent: int) -> None:
+        """Add ``value * 2 ** exponent`` to the sum without overflowing.
+
+        Values near the float64 limit (a damaged field reading 1.7e308) have a sum no
+        float holds, though their mean is an ordinary number. The sum is then kept
+        scaled by ``2 ** -SUM_SHIFT`` (exact: a power of two), which holds the sum of
+        more values than any file has; the mean is read back unscaled.
+        """
+        e = max(self.sum_exponent, exponent)
+        total = math.ldexp(self.total, self.sum_exponent - e) + math.ldexp(value, exponent - e)
+        if not math.isfinite(total) and e < SUM_SHIFT:
+            e = SUM_SHIFT
+            total = math.ldexp(self.total, self.sum_exponent - e) + math.ldexp(value, exponent - e)
+        self.total, self.sum_exponent = total, e
+
+    def scale_sum(self, factor: float) -> None:
+        """The sum times ``factor`` (a change of unit), rescaled when it would overflow."""
+        scaled = self.total * factor
+        if math.isfinite(scaled):
+            self.total = scaled
+        else:
+            self.total = math.ldexp(self.total, -SUM_SHIFT) * factor
+            self.sum_exponent += SUM_SHIFT
+
     def _fold_tails(self, low_in: FloatArray, high_in: FloatArray) -> None:
-        """Keep the ``tail_size`` smallest and largest values seen.
+        """Keep the ``tail_size`` smallest and largest values seen (``low_in``/``high_in``:
+        every value of a batch, or at least every value beyond ``fold_tails``'s cut).
 
         Once a buffer is full only values strictly beyond its innermost entry can
         change it (an equal value would replace an equal value), so one comparison pass
         leaves a handful of candidates to partition instead of the whole batch.
         """
         k = self.tail_size
-        if self.low.size >= k:
+        before = self.count - low_in.size  # the batch is already counted
+        if self.low.size >= k:  # full: an equal value would only replace an equal one
             low_in = low_in[low_in < self.low[-1]]
-        if low_in.size:
-            lo = np.concatenate((self.low, low_in))
-            if lo.size > k:
-                lo = np.partition(lo, k - 1)[:k]
-            self.low = np.sort(lo)
         if self.high.size >= k:
             high_in = high_in[high_in > self.high[0]]
-        if high_in.size:
-            hi = np.concatenate((self.high, high_in))
-            if hi.size > k:
-                hi = np.partition(hi, hi.size - k)[hi.size - k :]
-            self.high = np.sort(hi)
+        if not low_in.size and not high_in.size:
+            return
+        self.low, self.high = fold_tails(
+            [(self.low, before <= self.low.size), (low_in, True)],
+            [(self.high, before <= self.high.size), (high_in, True)],
+            self.tail_size,
+        )
 
     def merge(self, other: Sketch) -> None:
         """Fold ``other`` into this sketch (same unit checked by the caller)."""
@@ -133,6 +167,11 @@ class Sketch:
         ``count_bounds`` and ``order_statistic_bounds`` stay valid however the inputs'
         centroids interleave; nothing is carried as slack.
         """
+        self.low, self.high = fold_tails(
+            [s.tail_side(low=True) for s in (self, *others)],
+            [s.tail_side(low=False) for s in (self, *others)],
+            max(self.tail_size, *(o.tail_size for o in others)) if others else self.tail_size,
+        )
         parts = [o.digest for o in others if o.count]
         if parts:
             cols = [d.centroids() for d in parts]
@@ -149,13 +188,12 @@ class Sketch:
     def _absorb_counts(self, other: Sketch) -> None:
         """Everything of ``other`` but its centroids: counts, tails, provenance."""
         self.count += other.count
-        self.total += other.total
+        self.add_sum(other.total, other.sum_exponent)
         self.nan_count += other.nan_count
         self.inf_count += other.inf_count
         self.negative_count += other.negative_count
         self.zero_count += other.zero_count
         self.tail_size = max(self.tail_size, other.tail_size)
-        self._fold_tails(other.low, other.high)
         self.provenance.absorb(other.provenance)
 
     # ------------------------------------------------------------------ queries
@@ -175,12 +213,35 @@ class Sketch:
 
     @property
     def mean(self) -> float:
-        return self.total / self.count if self.count else float("nan")
+        if not self.count:
+            return float("nan")
+        try:
+            mean = math.ldexp(self.total / self.count, self.sum_exponent)
+        except OverflowError:  # rounding of a sum of values at the float limit
+            mean = math.copysign(math.inf, self.total)
+        # Rounding of a sum of values at the float limit must not step past them.
+        return min(max(mean, self.min), self.max) if self.low.size and self.high.size else mean
+
+    def check(self) -> None:
+        """Raise ValueError, in one sentence naming it, when the sketch is inconsistent
+        (unsorted tails, tails outside [min, max], weights not adding up to n, NaN or
+        infinity in the arrays, quantiles that fall). The reference t-digest asserts
+        such invariants after its merges; the loader runs this on every file and the
+        tests after every merge (``invariants.py``)."""
+        check_sketch(self)
 
     @property
     def exact(self) -> bool:
         """True when every value is held exactly (n <= 2 * tail_size)."""
         return self.count <= 2 * self.tail_size and self.count <= self.low.size + self.high.size
+
+    def tail_side(self, *, low: bool) -> Side:
+        """One exact tail for a merge, and whether it holds every value of this sketch
+        (an exact sketch offers all its values: its two buffers together hold them)."""
+        if self.exact and self.count:
+            return self._exact_values(), True
+        buf = self.low if low else self.high
+        return buf, self.count <= buf.size
 
     def _exact_values(self) -> FloatArray:
         """All values, sorted, when ``exact`` (the buffers overlap by nl + nh - n)."""

@@ -29,7 +29,10 @@ _DUR_PARTS = re.compile(r"^P(?:(\d+)D)?(?:T(?:(\d+)H)?(?:(\d+)M)?(?:(\d+(?:\.\d+
 
 def start_text(start_us: float) -> str:
     """Epoch microseconds as ``2026-03-04T13:00:00Z`` (a fraction only when there is one)."""
-    moment = _EPOCH + dt.timedelta(microseconds=round(start_us))
+    try:
+        moment = _EPOCH + dt.timedelta(microseconds=round(start_us))
+    except OverflowError:  # the end of a window late in year 9999 (times are read up to 9999-12-31)
+        moment = (dt.datetime.max if start_us > 0 else dt.datetime.min).replace(tzinfo=dt.UTC)
     return moment.isoformat().replace("+00:00", "Z")
 
 

@@ -5,6 +5,7 @@ sketches kept in different ones)."""
 from __future__ import annotations
 
 import copy
+import math
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
@@ -73,9 +74,15 @@ def in_unit(sketch: Sketch | Binned, unit: str) -> Sketch | Binned:
 
     if isinstance(sketch, Binned):  # edges, extremes and sum scale; counts do not move
         return sketch.scaled(factor, unit)
+    biggest = max(abs(sketch.min), abs(sketch.max)) if sketch.count else 0.0
+    if not math.isfinite(biggest * factor):
+        raise ValueError(
+            f"values up to {biggest:g} {sketch.unit} are too large to express in {unit} "
+            "(they pass the largest number a float holds)."
+        )
     out = copy.deepcopy(sketch)
     out.unit = unit
-    out.total = sketch.total * factor
+    out.scale_sum(factor)
     out.low, out.high = sketch.low * factor, sketch.high * factor
     out.digest.scale_values(factor)  # keeps each centroid's range, so the bounds carry over
     return out
