@@ -287,11 +287,11 @@ def load() -> str:
 def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     ap.add_argument("--size", type=int, default=1000, help="MB per generated file (default 1000)")
-    ap.add_argument("--rounds", type=int, default=3, help="A B rounds per case (default 3; >= 3 for a median)")
+    ap.add_argument("--rounds", type=int, default=3, help="A B rounds per case (default 3)")
     ap.add_argument("--cases", default="", help="comma-separated case names (default: all; see --list)")
     ap.add_argument("--dir", type=Path, default=Path("/var/tmp/ogive-bench"), help="cache of generated files")
     ap.add_argument("--list", action="store_true", help="list the cases and their goals, then stop")
-    ap.add_argument("--ogive", default="", help="PYTHONPATH for ogive (default: the installed or current one)")
+    ap.add_argument("--ogive", default="", help="PYTHONPATH for ogive (default: as run)")
     args = ap.parse_args()
     todo = cases()
     if args.list:
@@ -312,10 +312,11 @@ def main() -> int:
     env = dict(os.environ)
     if args.ogive:
         env["PYTHONPATH"] = args.ogive
-    import ogive  # noqa: F401  (only to say which copy runs)
+    import ogive  # only to say which copy runs
 
     where = args.ogive or os.path.dirname(os.path.dirname(ogive.__file__))
-    print(f"ogive from {where}; {os.cpu_count()} cores; --split-at {split_at}; {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())}")
+    now = time.strftime("%Y-%m-%d %H:%M UTC", time.gmtime())
+    print(f"ogive from {where}; {os.cpu_count()} cores; --split-at {split_at}; {now}")
     head = (
         f"{'case':10s} {'side':6s} {'MB':>6s} {'best s':>7s} {'med s':>7s} {'CPU-s':>6s} {'MB/s':>6s} "
         f"{'RSS MB':>6s} {'anon':>5s}  {'wall x':>6s} {'CPU x':>6s}  load"
@@ -347,9 +348,7 @@ def main() -> int:
         a, b = stats["ogive"], stats["theirs"]
         ours_best[c.name] = a[0]
         for side, s in (("ogive", a), ("theirs", b)):
-            ratio = (
-                f"{a[0] / b[0]:6.2f} {a[2] / b[2]:6.2f}" if side == "ogive" else f"{'':6s} {'':6s}"
-            )
+            ratio = f"{a[0] / b[0]:6.2f} {a[2] / b[2]:6.2f}" if side == "ogive" else f"{'':6s} {'':6s}"
             print(
                 f"{c.name:10s} {side:6s} {mb:6.0f} {s[0]:7.2f} {s[1]:7.2f} {s[2]:6.2f} {mb / s[0]:6.0f} "
                 f"{s[3]:6.0f} {s[4]:5.0f}  {ratio}  {min(loads):.1f}-{max(loads):.1f}"
@@ -357,7 +356,7 @@ def main() -> int:
                 flush=True,
             )
     print()
-    print("wall x, CPU x: ogive's best wall / theirs, ogive's median CPU / theirs (< 1: ogive faster, cheaper).")
+    print("wall x: ogive's best wall / theirs; CPU x: medians (< 1: ogive faster, cheaper).")
     for name, base in (("csv-time", "csv"), ("by-host", "csv"), ("text-time", "text")):
         if name in ours_best and base in ours_best:
             print(f"{name} / our {base}: {ours_best[name] / ours_best[base]:.2f}x wall")
