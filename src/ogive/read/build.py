@@ -188,6 +188,12 @@ class TimeOrder:
     def watch(self, batch: Batch) -> None:
         if batch.tus is None:
             return
+        t = batch.tus
+        # The usual log: every time read and none earlier than the one before it. One
+        # comparison pass settles it (NaN compares False, so a missing time goes the long way).
+        if t.size and t[0] >= self._t_max and bool(np.all(t[1:] >= t[:-1])):
+            self._t_max = float(t[-1])
+            return
         rows = np.flatnonzero(np.isfinite(batch.tus))
         if not rows.size:
             return

@@ -72,14 +72,7 @@ class Router:
                     names.append(f"{half}/{lab}" if lab else half)
         else:
             names = labels
-        order = np.argsort(codes, kind="stable")
-        sorted_codes = codes[order]
-        bounds = np.flatnonzero(np.diff(sorted_codes)) + 1
-        out = []
-        for part in np.split(order, bounds):
-            if part.size:
-                out.append((names[int(codes[part[0]])], part))
-        return out
+        return _split_codes(names, codes)
 
     def also(self) -> list[tuple[str, NDArray[np.int64] | None]]:
         """The sketches the rows of the last :meth:`route` go to besides their own
@@ -216,7 +209,22 @@ def _split_by(
     labels: list[str], codes: NDArray[np.int64], rows: NDArray[np.int64]
 ) -> list[tuple[str, NDArray[np.int64]]]:
     """``rows`` split by their group code, as (group name, rows) pairs."""
-    c = codes[rows]
-    order = np.argsort(c, kind="stable")
-    bounds = np.flatnonzero(np.diff(c[order])) + 1
-    return [(labels[int(c[part[0]])], rows[part]) for part in np.split(order, bounds) if part.size]
+    return [(name, rows[part]) for name, part in _split_codes(labels, codes[rows])]
+
+
+def _split_codes(names: list[str], codes: NDArray[np.int64]) -> list[tuple[str, NDArray[np.int64]]]:
+    """Row indices per code, in row order within each, as (name, rows) pairs by code.
+
+    Why not one stable argsort of int64 codes (a merge sort, ~60 ms for a chunk of 10^6
+    rows): two codes (before/after) are two ``flatnonzero`` passes, and up to 2^16
+    codes fit ``uint16``, which numpy sorts stably by radix in one linear pass.
+    """
+    if codes.size == 0:
+        return []
+    top = int(codes.max())
+    if top <= 1:
+        return [(names[c], part) for c in (0, 1) if (part := np.flatnonzero(codes == c)).size]
+    small = codes.astype(np.uint16) if top < 1 << 16 else codes
+    order = np.argsort(small, kind="stable")
+    bounds = np.flatnonzero(np.diff(small[order])) + 1
+    return [(names[int(codes[part[0]])], part) for part in np.split(order, bounds) if part.size]
