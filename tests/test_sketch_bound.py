@@ -20,7 +20,9 @@ import pytest
 from numpy.typing import NDArray
 
 from ogive.sketch import Sketch, merge
-from ogive.sketch.digest import TDigest, _merge_sorted, _sort_floats
+from ogive.sketch.digest import TDigest
+from ogive.sketch.runs import merge_sorted as _merge_sorted
+from ogive.sketch.runs import sort_floats as _sort_floats
 from rank_check import rank_error
 
 FloatArray = NDArray[np.float64]

@@ -19,6 +19,17 @@ from ..sketch.units import span_seconds
 CSV_CHUNK = 8 << 20
 LINE_CHUNK = 4 << 20
 OTLP_CHUNK = 2 << 20
+LEAN_MB = 250
+"""The default scan's memory: peak RSS at most this, at any file size (no grant needed)."""
+MIN_BUDGET_MB = 160
+"""The least ``memory_budget_mb`` accepted: the interpreter, polars and numpy alone take ~90 MB."""
+BASE_MB = 100
+"""Resident memory of a scan before its chunks: interpreter, libraries, sketches."""
+MAX_CHUNK = 64 << 20
+PER_CHUNK_MB = {"csv-value": 10.0, "lines": 30.0, "otlp": 45.0}
+"""Peak resident MB per MB of chunk, by kind of chunk (measured with
+``benchmarks/scan_bench.py``: several chunks are in flight, each parsed into a frame
+larger than its bytes; text lines become one string each)."""
 
 
 @dataclass(frozen=True)
@@ -90,6 +101,11 @@ class ScanOptions:
     ``ScanResult.error`` set and the sketches marked partial) instead of raising."""
     max_line_bytes: int = 64 << 20
     """A line longer than this (no newline within it) is skipped as ``too_long``."""
+    memory_budget_mb: int | None = None
+    """Memory the user grants the scan (``--memory-budget``), in MB. None: the lean default
+    (peak RSS <= ``LEAN_MB`` at any size), for a scan beside the service being looked at.
+    A grant sizes the chunks to it (larger ones cost less per byte); a smaller one shrinks
+    them for a tight box. The sketches are the same whatever the chunk size."""
     window_us: float | None = dataclasses.field(default=None, init=False, repr=False, compare=False)
     """``window`` in microseconds, set when the options are built (``field`` is an option
     name in this class body, hence ``dataclasses.field``)."""
@@ -122,9 +138,15 @@ class ScanOptions:
             )
         if (self.window_tail is not None and self.window_tail < 1) or self.max_windows < 1:
             raise OgiveError("window_tail and max_windows must be at least 1.")
+        if self.memory_budget_mb is not None and self.memory_budget_mb < MIN_BUDGET_MB:
+            raise OgiveError(
+                f"--memory-budget must be at least {MIN_BUDGET_MB} MB (the reader and its libraries "
+                f"alone take about 90 MB), got {self.memory_budget_mb}."
+            )
 
     def chunk_size(self, fmt: str | None, *, value_only: bool = False) -> int:
-        """Bytes per chunk for a source of format ``fmt`` (None: not known yet).
+        """Bytes per chunk for a source of format ``fmt`` (None: not known yet), by the
+        lean defaults below, or sized to ``memory_budget_mb`` when one is given.
 
         Measured on 2 cores at 1 GB (``benchmarks/scan_bench.py``): a CSV read for its
         value column alone parses ~20% faster in 8 MB chunks than in 4 MB (polars'
@@ -137,9 +159,12 @@ class ScanOptions:
         """
         if self.chunk_bytes is not None:
             return self.chunk_bytes
-        if fmt == "otlp":
-            return OTLP_CHUNK
-        return CSV_CHUNK if value_only and fmt in ("csv", "tsv") else LINE_CHUNK
+        kind = "otlp" if fmt == "otlp" else ("csv-value" if value_only and fmt in ("csv", "tsv") else "lines")
+        lean = {"otlp": OTLP_CHUNK, "csv-value": CSV_CHUNK, "lines": LINE_CHUNK}[kind]
+        if self.memory_budget_mb is None:
+            return lean
+        fits = int((self.memory_budget_mb - BASE_MB) / PER_CHUNK_MB[kind] * (1 << 20))
+        return max(1 << 20, min(MAX_CHUNK, fits))
 
 
 @dataclass(frozen=True)

@@ -28,7 +28,7 @@ timestamp, partial).
 
 Older files of the same version have ``pure`` (0/1) instead of ``min``/``max`` and may
 have ``merge_slack``; they load, with each mixed centroid's range taken to reach its
-neighbours' means (``digest.neighbour_ranges``) and the slack no longer needed.
+neighbours' means (``runs.neighbour_ranges``) and the slack no longer needed.
 Version 2 adds binned distributions (telemetry histograms, ``binned.py``): a SKETCH
 entry with ``"kind": "binned"`` holds ``unit``, ``count``, ``provenance`` as above and
 ``parts``, each one bucket layout as its spec writes it (``binned_codec.py`` lists the

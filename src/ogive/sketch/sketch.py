@@ -34,6 +34,8 @@ DEFAULT_SCALE = "k1-ladder"
 
 DEFAULT_TAIL = 512
 MAX_TAIL = 1 << 20
+
+
 class Sketch:
     """A mergeable summary of one numeric field in one unit.
 
@@ -56,7 +58,8 @@ class Sketch:
         self.tail_size = int(tail_size)
         self.digest = TDigest(compression, scale)
         self.count = 0
-        self.total = 0.0
+        self._base_total = 0.0
+        """Sum of values that came in by merges and loads (raw values: ``digest.raw_sum``)."""
         self.nan_count = 0
         self.inf_count = 0
         self.negative_count = 0
@@ -71,6 +74,16 @@ class Sketch:
     def compression(self) -> float:
         return self.digest.compression
 
+    @property
+    def total(self) -> float:
+        """Sum of the finite values. Raw values are summed by the digest in fixed blocks,
+        so the figure does not depend on how a scan batched them."""
+        return self._base_total + self.digest.raw_sum()
+
+    @total.setter
+    def total(self, value: float) -> None:
+        self._base_total = value - self.digest.raw_sum()
+
     # ------------------------------------------------------------------ building
     def add(self, values: ArrayLike) -> None:
         """Fold in a batch of values; NaN and infinities are counted, not sketched."""
@@ -80,8 +93,8 @@ class Sketch:
         # A finite sum proves every value finite: one pass instead of two on the
         # common path (a sum that overflows just takes the careful path).
         with np.errstate(over="ignore", invalid="ignore"):
-            total = float(arr.sum())
-        if not math.isfinite(total):
+            finite_sum = float(arr.sum())
+        if not math.isfinite(finite_sum):
             finite = np.isfinite(arr)
             bad = arr[~finite]
             nans = int(np.count_nonzero(np.isnan(bad)))
@@ -90,10 +103,7 @@ class Sketch:
             arr = arr[finite]
             if arr.size == 0:
                 return
-            with np.errstate(over="ignore"):
-                total = float(arr.sum())  # inf only if huge finite values overflow
         self.count += arr.size
-        self.total += total
         self.negative_count += int(np.count_nonzero(arr < 0))
         self.zero_count += int(np.count_nonzero(arr == 0))
         self.digest.add(arr)
@@ -149,7 +159,7 @@ class Sketch:
     def _absorb_counts(self, other: Sketch) -> None:
         """Everything of ``other`` but its centroids: counts, tails, provenance."""
         self.count += other.count
-        self.total += other.total
+        self._base_total += other.total
         self.nan_count += other.nan_count
         self.inf_count += other.inf_count
         self.negative_count += other.negative_count
