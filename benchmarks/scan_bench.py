@@ -209,6 +209,8 @@ def cases(split_at: str = "2026-05-28T04:00:00Z") -> list[Case]:
     return [
         Case("csv", "csv", csv_v, [*py, POLARS_CSV, "FILE"], "polars scan_csv(col)",
              "wall >= 0.9x polars (0.8x with reason), CPU <= 1.1x (1.25x)"),
+        Case("csv-1gb", "csv", [*csv_v, "--memory-budget", "1000"], [*py, POLARS_CSV, "FILE"],
+             "polars scan_csv(col)", "memory granted (1000 MB): faster than csv?"),
         Case("csv-time", "csv", [*csv_v, "--time-field", "ts", "--split-at", split_at],
              [*py, POLARS_CSV_TIME, "FILE"], "polars col + str.to_datetime",
              ">= 0.8x polars; <= 1.25x our csv"),

@@ -77,10 +77,15 @@ def _scan_bytes(path: Path, options: ScanOptions, *, workers: int, seed: int | N
 def test_plain_scan_repeats_byte_for_byte(table: tuple[Path, np.ndarray]) -> None:
     path, raw = table
     first = _scan_bytes(path, ScanOptions(column="latency_ms"), workers=2, seed=None)
-    for workers, seed, chunk in ((1, 1, None), (3, 2, None), (2, 3, 1 << 20), (2, None, 16 << 20)):
-        options = ScanOptions(column="latency_ms", chunk_bytes=chunk)
+    ways = [
+        (1, 1, ScanOptions(column="latency_ms")),
+        (3, 2, ScanOptions(column="latency_ms")),
+        (2, 3, ScanOptions(column="latency_ms", chunk_bytes=1 << 20)),
+        (2, None, ScanOptions(column="latency_ms", memory_budget_mb=1000)),  # 64 MB chunks
+    ]
+    for workers, seed, options in ways:
         again = _scan_bytes(path, options, workers=workers, seed=seed)
-        assert again == first, f"workers={workers} progress seed={seed} chunk={chunk}"
+        assert again == first, f"workers={workers} progress seed={seed} {options}"
     # The repeated answer is also right: numpy on the raw values, within the sketch's bound.
     from ogive.sketch import loads
 
@@ -100,3 +105,19 @@ def test_grouped_and_split_scans_repeat_byte_for_byte(
     first = _scan_bytes(path, options, workers=2, seed=None)
     for workers, seed in ((1, 4), (3, 5)):
         assert _scan_bytes(path, options, workers=workers, seed=seed) == first, (workers, seed)
+
+
+def test_memory_budget_is_checked_and_sizes_chunks() -> None:
+    """A grant below what a scan needs is refused in one sentence; above the lean default
+    it reads larger chunks, and the lean default is what no grant gets."""
+    from ogive.errors import OgiveError
+
+    with pytest.raises(OgiveError, match="--memory-budget must be at least 200 MB"):
+        ScanOptions(memory_budget_mb=150)
+    lean = ScanOptions()
+    for fmt, value_only in (("csv", True), ("csv", False), ("text", False), ("otlp", False)):
+        small = ScanOptions(memory_budget_mb=200).chunk_size(fmt, value_only=value_only)
+        big = ScanOptions(memory_budget_mb=1000).chunk_size(fmt, value_only=value_only)
+        assert 1 << 20 <= small <= lean.chunk_size(fmt, value_only=value_only) * 2
+        assert big > lean.chunk_size(fmt, value_only=value_only)
+        assert big <= 64 << 20

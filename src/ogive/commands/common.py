@@ -147,7 +147,7 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         metavar="MB",
         type=_positive_int,
         default=None,
-        help="memory the scan may use, in MB (at least 160). Without it the scan stays lean "
+        help="memory the scan may use, in MB (at least 200). Without it the scan stays lean "
         "(peak RSS at most 250 MB at any file size) to leave room for the service beside it; "
         "a larger budget reads larger chunks, a little faster, with the same sketches",
     )
