@@ -32,8 +32,11 @@ class Router:
         self.by_time = self.split_us is not None or self.window_us is not None
         """Rows without a readable time belong to no sketch."""
         self.groups: dict[str, str] = {}
-        self.overflow = pl.Series([], dtype=pl.String)
-        """Values that got no sketch of their own (at most ``OVERFLOW_KEPT``, for the count)."""
+        self._overflow = np.empty(0, dtype=np.uint64)
+        """Sorted 64-bit hashes of the values that got no sketch of their own (at most
+        ``OVERFLOW_KEPT``, only to count them): a sorted array is searched per chunk,
+        where ``is_in`` against a Series rebuilt its hash table of up to 10^5 values
+        every chunk (4 of 6.4 ms a chunk with 10^5 keys)."""
         self._known = pl.Series([], dtype=pl.String)
         self._keys: dict[float, str] = {}
         """Timeline: window start -> its ``START/DURATION`` name."""
@@ -157,20 +160,25 @@ class Router:
         codes = keys.replace_strict(
             self._known, pl.Series(np.arange(other, dtype=np.int64)), default=other, return_dtype=pl.Int64
         ).to_numpy()
-        if self.overflow.len() < OVERFLOW_KEPT and (codes == other).any():
-            rest = keys.filter(pl.Series(codes == other)).unique()
-            rest = rest.filter(~rest.is_in(self.overflow.implode()))
-            room = OVERFLOW_KEPT - self.overflow.len()
-            self.overflow = pl.concat([self.overflow, rest.head(room)])
+        if self._overflow.size < OVERFLOW_KEPT and (codes == other).any():
+            # Counted by hash: two distinct values sharing a 64-bit hash (odds ~10^-9 at
+            # 10^5 values) would be counted once.
+            rest = np.unique(keys.filter(pl.Series(codes == other)).hash(seed=0).to_numpy())
+            known = self._overflow
+            at = np.searchsorted(known, rest)
+            fresh = rest[known[np.minimum(at, max(known.size - 1, 0))] != rest] if known.size else rest
+            fresh = fresh[: OVERFLOW_KEPT - known.size]
+            if fresh.size:
+                self._overflow = np.sort(np.concatenate((known, fresh)))
         return labels, codes
 
     def overflow_warning(self) -> str | None:
-        if not self.overflow.len():
+        if not self._overflow.size:
             return None
         o = self.options
-        more = "+" if self.overflow.len() >= OVERFLOW_KEPT else ""
+        more = "+" if self._overflow.size >= OVERFLOW_KEPT else ""
         return (
-            f"--by {o.by}: more than {o.max_groups} distinct values; {self.overflow.len()}{more} further "
+            f"--by {o.by}: more than {o.max_groups} distinct values; {self._overflow.size}{more} further "
             f"values share the group {o.by}={OTHER} (raise --max-groups to keep them apart)."
         )
 
