@@ -166,10 +166,10 @@ class Router:
             rest = np.unique(keys.filter(pl.Series(codes == other)).hash(seed=0).to_numpy())
             known = self._overflow
             at = np.searchsorted(known, rest)
-            fresh = rest[known[np.minimum(at, max(known.size - 1, 0))] != rest] if known.size else rest
-            fresh = fresh[: OVERFLOW_KEPT - known.size]
-            if fresh.size:
-                self._overflow = np.sort(np.concatenate((known, fresh)))
+            unseen = rest[known[np.minimum(at, max(known.size - 1, 0))] != rest] if known.size else rest
+            unseen = unseen[: OVERFLOW_KEPT - known.size]
+            if unseen.size:
+                self._overflow = np.sort(np.concatenate((known, unseen)))
         return labels, codes
 
     def overflow_warning(self) -> str | None:
