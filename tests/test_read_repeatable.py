@@ -39,6 +39,7 @@ def table(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, np.ndarray]:
         {
             "ts": pl.from_epoch(pl.Series(secs), time_unit="s").dt.strftime("%Y-%m-%dT%H:%M:%SZ"),
             "host": np.char.add("h", rng.integers(0, 5, ROWS).astype(str)),
+            "client": np.char.add("c", rng.integers(0, 300, ROWS).astype(str)),
             "latency_ms": latency,
         }
     )
@@ -96,9 +97,16 @@ def test_plain_scan_repeats_byte_for_byte(table: tuple[Path, np.ndarray]) -> Non
     assert np.all(np.abs(ranks - qs) <= s.rank_error_bound() + 1e-6)
 
 
-@pytest.mark.parametrize("extra", [{"by": "host"}, {"time_field": "ts", "split_at": "2026-05-28T22:00:00Z"}])
+@pytest.mark.parametrize(
+    "extra",
+    [
+        {"by": "host"},
+        {"by": "client", "max_groups": 200},  # many sketches, and the (other) group
+        {"time_field": "ts", "split_at": "2026-05-28T22:00:00Z"},
+    ],
+)
 def test_grouped_and_split_scans_repeat_byte_for_byte(
-    table: tuple[Path, np.ndarray], extra: dict[str, str]
+    table: tuple[Path, np.ndarray], extra: dict[str, object]
 ) -> None:
     path, _ = table
     options = ScanOptions(column="latency_ms", **extra)  # type: ignore[arg-type]
