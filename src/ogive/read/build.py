@@ -19,7 +19,7 @@ from .route import OTHER
 from .skips import BAD_TIMESTAMP, Skips
 
 BATCH_VALUES = 500_000
-"""Values held (over all sketches) before they are added; 4 MB, whatever the groups."""
+"""Values held (over all sketches) before they are added: 4 MB (8 MB over 64 sketches, below)."""
 MANY_SKETCHES = 64
 BATCH_VALUES_MANY = 1_000_000
 """Held values when there are more than ``MANY_SKETCHES`` sketches (8 MB): with 1000 groups
