@@ -32,7 +32,9 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ogive.sketch import DEFAULT_COMPRESSION, DEFAULT_TAIL, Sketch, SketchSet, dumps
-from ogive.sketch.digest import TDigest, _merge_sorted
+from ogive.sketch.digest import TDigest
+from ogive.sketch.runs import merge_sorted as _merge_sorted
+from ogive.sketch.sums import add_scaled, block_sum
 
 QS = np.array([0.5, 0.9, 0.99, 0.999, 0.9999])
 BATCH = 1 << 16
@@ -64,12 +66,14 @@ def rank_error(sorted_x: FloatArray, v: FloatArray, qs: FloatArray) -> FloatArra
 class _GeneralPath(TDigest):
     """The flush as first written: ndarray.sort, materialised merge, ``_regroup``."""
 
-    def flush(self) -> None:
-        if not self._buf:
-            return
+    def _merge_first(self, k: int) -> None:
         x = np.concatenate(self._buf)
+        rest = x[k:].copy()
+        x = x[:k].copy()
+        self._buf, self._buf_n = ([rest] if rest.size else []), rest.size
+        self._raw_sum = add_scaled(self._raw_sum, block_sum(x))
+        self._version += 1
         x.sort()
-        self._buf, self._buf_n = [], 0
         ones = np.ones(x.size)
         mine = (self._means, self._weights, self._pure, self._lo, self._hi)
         self._regroup(*_merge_sorted(mine, (x, ones, ones.astype(bool), x, x)))

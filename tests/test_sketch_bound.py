@@ -20,7 +20,9 @@ import pytest
 from numpy.typing import NDArray
 
 from ogive.sketch import Sketch, merge
-from ogive.sketch.digest import TDigest, _merge_sorted, _sort_floats
+from ogive.sketch.digest import TDigest
+from ogive.sketch.runs import merge_sorted as _merge_sorted
+from ogive.sketch.runs import sort_floats as _sort_floats
 from rank_check import rank_error
 
 FloatArray = NDArray[np.float64]
@@ -72,7 +74,7 @@ def prebinned(x: FloatArray, compression: float) -> Sketch:
         s.digest.add_centroids(means, counts, pure, (np.where(pure, mins, lo), np.where(pure, maxs, hi)))
         # The counts and exact tails as Sketch.add keeps them (the digest got the values).
         s.count += pos.size
-        s.total += float(pos.sum())
+        s.add_sum(float(pos.sum()), 0)
         s._fold_tails(pos, pos)
     return s
 

@@ -25,7 +25,7 @@ from ..errors import OgiveError
 from . import layout as L
 from .delimited import MOST
 from .options import ScanOptions
-from .text import Extract, choose_key, key_value_regex, sample_lines, value_source
+from .text import Extract, choose_key, extract_columns, key_value_regex, sample_lines, value_source
 from .values import MISSING_FIELD
 
 _Q = r'(?:[^"\\]|\\.)*'
@@ -102,7 +102,7 @@ class AccessLayout(L.Layout):
                 else found.struct.field(group).alias(name)
                 for name, group in self.columns
             ]
-            cols += [e.column(lines) for e in self.pairs]
+            cols += extract_columns(self.pairs, lines)
             df = pl.DataFrame(cols).select(self.names)
             # A line that matched has its time (always captured); one that did not, none.
             matched = found.struct.field("time").is_not_null()

@@ -19,7 +19,12 @@ from .route import OTHER
 from .skips import BAD_TIMESTAMP, Skips
 
 BATCH_VALUES = 500_000
-"""Values held (over all sketches) before they are added; 4 MB, whatever the groups."""
+"""Values held (over all sketches) before they are added: 4 MB (8 MB over 64 sketches, below)."""
+MANY_SKETCHES = 64
+BATCH_VALUES_MANY = 1_000_000
+"""Held values when there are more than ``MANY_SKETCHES`` sketches (8 MB): with 1000 groups
+a batch of 500k gave each sketch ~500 values, and the fixed cost of ``Sketch.add`` on
+such small arrays was a quarter of the ordered thread's time (10^5 keys, 300 MB)."""
 DIGEST_BUDGET = 4_000_000
 """Values buffered in all digests together before the fullest are compressed (32 MB)."""
 
@@ -42,6 +47,9 @@ class Builder:
         """Sketches are cut by time: a row without a readable time belongs to none."""
         self._held: dict[str, list[NDArray[np.float64]]] = {}
         self._held_n = 0
+        self._since_budget = 0
+        """Good values given since the digest budget was last checked (counted, not held:
+        a progress report adding the held values early must not move the check)."""
         self._spans: dict[str, list[float]] = {}
 
     def sketch(self, name: str) -> Sketch:
@@ -76,8 +84,13 @@ class Builder:
         if good.size:
             self._held.setdefault(name, []).append(good)
             self._held_n += good.size
-            if self._held_n >= BATCH_VALUES:
+            self._since_budget += good.size
+            batch_values = BATCH_VALUES if len(self.sketches) <= MANY_SKETCHES else BATCH_VALUES_MANY
+            if self._since_budget >= batch_values:
+                self._since_budget = 0
                 self.flush()
+            elif self._held_n >= batch_values:
+                self._add_held()
         if tally:
             self.values += good.size
         for reason, count, examples in self.skips.found(batch, idx):
@@ -102,13 +115,23 @@ class Builder:
         held = self._held.pop(name, [])
         self._held_n -= sum(part.size for part in held)
 
-    def flush(self) -> None:
+    def _add_held(self) -> None:
         """Add the held values: one batch per sketch of ~BATCH_VALUES costs less per value
-        than one per chunk (fewer tail merges and digest compressions)."""
+        than one per chunk (fewer tail merges). When they are added does not change the
+        sketches (``TDigest.add`` merges at fixed counts), only when memory is freed."""
         for name, parts in self._held.items():
             self.sketches[name].add(parts[0] if len(parts) == 1 else np.concatenate(parts))
         self._held.clear()
         self._held_n = 0
+
+    def flush(self) -> None:
+        """Add the held values, then keep the digests' buffers within the budget.
+
+        Called at fixed counts of values (and at the end), never by the clock: the
+        budget's early merges shape the digests, so they must fall at the same rows in
+        every run (a progress report only adds the held values, :meth:`sset`).
+        """
+        self._add_held()
         if len(self.sketches) > 1:
             # Each digest buffers up to ~10^6 values before it compresses them: alone that
             # is 8 MB, but over 24 hosts it was 88 MB, and over 1000 groups it could grow
@@ -128,8 +151,9 @@ class Builder:
                         break
 
     def sset(self) -> SketchSet:
-        """The sketches as they stand, every held value added."""
-        self.flush()
+        """The sketches as they stand, every held value added (for progress reports:
+        reading them changes nothing that the finished sketches will hold)."""
+        self._add_held()
         return SketchSet(dict(self.sketches))
 
     def finish(self, *, lines: int, partial: str | None, halves: bool) -> SketchSet:
@@ -189,6 +213,12 @@ class TimeOrder:
 
     def watch(self, batch: Batch) -> None:
         if batch.tus is None:
+            return
+        t = batch.tus
+        # The usual log: every time read and none earlier than the one before it. One
+        # comparison pass settles it (NaN compares False, so a missing time goes the long way).
+        if t.size and t[0] >= self._t_max and bool(np.all(t[1:] >= t[:-1])):
+            self._t_max = float(t[-1])
             return
         rows = np.flatnonzero(np.isfinite(batch.tus))
         if not rows.size:

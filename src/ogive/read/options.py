@@ -19,6 +19,25 @@ from ..sketch.units import span_seconds
 CSV_CHUNK = 8 << 20
 LINE_CHUNK = 4 << 20
 OTLP_CHUNK = 2 << 20
+LEAN_MB = 250
+"""The default scan's memory: peak RSS at most this, at any file size (no grant needed)."""
+MIN_BUDGET_MB = 200
+"""The least ``memory_budget_mb`` accepted: a scan of text lines holds ~170 MB before its
+chunks count."""
+FASTEST_CHUNK = {"csv-value": 8 << 20, "lines": 8 << 20, "otlp": 2 << 20}
+"""The chunk size past which a grant buys no more speed, by kind of chunk. Measured on
+300 MB files, 2 cores, best of 3 in one process: text lines 4/8/16 MB took 0.78/0.66/
+0.71 s, NDJSON 1.97/1.69/1.70 s, a CSV read for value and ``--by`` group 0.91/0.74/0.76
+s; a CSV value column alone 4/8/16/32 MB 0.49/0.43/0.63/0.66 s (bigger chunks delay the
+first parse and leave the two cores idle at the ends). OTLP: 2 and 4 MB ran alike."""
+PEAK_MODEL = {"csv-value": (140.0, 4.0), "lines": (170.0, 7.5), "otlp": (100.0, 46.0)}
+"""Peak resident MB of a scan ~ base + slope x chunk MB, by kind of chunk: several chunks
+are in flight, each parsed into a frame larger than its bytes (text lines become one
+string each; OTLP documents nested lists). Fitted to whole-process peaks on 300 MB files
+(``benchmarks/scan_bench.py``; file-backed pages of the input included): a CSV value
+column at 6/8/50 MB chunks peaked at 174/185/331 MB, text lines at 3.75/4/31 MB at
+194/193/391, a CSV read for value and group at 3.75/31 at 154/360, OTLP at 2/4 MB at
+185/277."""
 
 
 @dataclass(frozen=True)
@@ -90,6 +109,13 @@ class ScanOptions:
     ``ScanResult.error`` set and the sketches marked partial) instead of raising."""
     max_line_bytes: int = 64 << 20
     """A line longer than this (no newline within it) is skipped as ``too_long``."""
+    memory_budget_mb: int | None = None
+    """Memory the user grants the scan (``--memory-budget``), in MB. None: the lean default
+    (peak RSS <= ``LEAN_MB`` at any size), for a scan beside the service being looked at.
+    A grant sizes the chunks to it, up to the size measured fastest (``FASTEST_CHUNK``):
+    text lines, NDJSON and CSV read with a group or time column then read 8 MB chunks
+    instead of 4 (~15 % faster, ~250 MB at peak); a smaller one shrinks them for a tight
+    box. The sketches are the same whatever the chunk size."""
     window_us: float | None = dataclasses.field(default=None, init=False, repr=False, compare=False)
     """``window`` in microseconds, set when the options are built (``field`` is an option
     name in this class body, hence ``dataclasses.field``)."""
@@ -122,9 +148,15 @@ class ScanOptions:
             )
         if (self.window_tail is not None and self.window_tail < 1) or self.max_windows < 1:
             raise OgiveError("window_tail and max_windows must be at least 1.")
+        if self.memory_budget_mb is not None and self.memory_budget_mb < MIN_BUDGET_MB:
+            raise OgiveError(
+                f"--memory-budget must be at least {MIN_BUDGET_MB} MB (a scan of text lines holds about "
+                f"170 MB before its chunks), got {self.memory_budget_mb}."
+            )
 
     def chunk_size(self, fmt: str | None, *, value_only: bool = False) -> int:
-        """Bytes per chunk for a source of format ``fmt`` (None: not known yet).
+        """Bytes per chunk for a source of format ``fmt`` (None: not known yet), by the
+        lean defaults below, or sized to ``memory_budget_mb`` when one is given.
 
         Measured on 2 cores at 1 GB (``benchmarks/scan_bench.py``): a CSV read for its
         value column alone parses ~20% faster in 8 MB chunks than in 4 MB (polars'
@@ -137,9 +169,14 @@ class ScanOptions:
         """
         if self.chunk_bytes is not None:
             return self.chunk_bytes
-        if fmt == "otlp":
-            return OTLP_CHUNK
-        return CSV_CHUNK if value_only and fmt in ("csv", "tsv") else LINE_CHUNK
+        kind = "otlp" if fmt == "otlp" else ("csv-value" if value_only and fmt in ("csv", "tsv") else "lines")
+        lean = {"otlp": OTLP_CHUNK, "csv-value": CSV_CHUNK, "lines": LINE_CHUNK}[kind]
+        if self.memory_budget_mb is None:
+            return lean
+        base, slope = PEAK_MODEL[kind]
+        # 10 % of the grant is kept back: the model is a fit, and the machine is not ours.
+        fits = int((0.9 * self.memory_budget_mb - base) / slope * (1 << 20))
+        return max(1 << 20, min(FASTEST_CHUNK[kind], fits))
 
 
 @dataclass(frozen=True)

@@ -25,7 +25,7 @@ from ..errors import OgiveError
 from . import layout as L
 from .delimited import MOST
 from .options import ScanOptions
-from .text import Extract, key_value_regex, sample_lines, value_source
+from .text import Extract, extract_columns, key_value_regex, sample_lines, value_source
 
 RFC3164 = (
     r"^(?:<(?P<pri>\d{1,3})>)?(?P<time>[A-Z][a-z]{2} [ \d]?\d \d{2}:\d{2}:\d{2}(?:\.\d+)?) "
@@ -70,7 +70,7 @@ class SyslogLayout(L.Layout):
 
     def frame(self, lines: pl.Series) -> pl.DataFrame:
         found = lines.str.extract_groups(self.regex)
-        cols = [e.column(lines) for e in self.extracts]
+        cols = extract_columns(self.extracts, lines)
         for name, group in self.fields:
             col = found.struct.field(group)
             if group == "pri":

@@ -123,9 +123,10 @@ def read_times(
     """
     if fmt in EPOCH_US:
         return _epoch(col, fmt, by_magnitude)
-    s = col.cast(pl.String).str.strip_chars()
+    s = col.cast(pl.String)
     if fmt == "iso":
-        return TimeColumn(_iso(s))
+        return TimeColumn(_iso(s))  # strips only what polars' parser could not read
+    s = s.str.strip_chars()
     if fmt == "clf":
         return TimeColumn(_clf(s))
     if fmt == "rfc3164":
@@ -236,12 +237,20 @@ def _fields(s: pl.Series, pattern: str) -> tuple[pl.Series, NDArray[np.bool_]]:
 
 
 def _iso(s: pl.Series) -> NDArray[np.float64]:
-    return _with_fast_path(s, _iso_chrono(s), _iso_slow)
+    """ISO 8601 times, read as they are by polars' parser; only the values it could not
+    read are stripped of spaces and read again (stripping every value first cost a
+    third of the time column's reading)."""
+    chrono = _iso_chrono(s)
+
+    def rest(r: pl.Series) -> NDArray[np.float64]:
+        return _with_fast_path(r.str.strip_chars(), chrono, _iso_slow)
+
+    return _with_fast_path(s, chrono, rest)
 
 
 def _iso_chrono(s: pl.Series) -> str | None:
     """A chrono format for polars' own parser that fits the batch's first value, or None."""
-    first = s.drop_nulls().head(1).to_list()
+    first = [v.strip() for v in s.drop_nulls().head(1).to_list()]
     if not first:
         return None
     m = re.match(ISO_RE, first[0])

@@ -31,7 +31,7 @@ A sum too large for a float64 (values near 1.8e308) is written divided by
 
 Older files of the same version have ``pure`` (0/1) instead of ``min``/``max`` and may
 have ``merge_slack``; they load, with each mixed centroid's range taken to reach its
-neighbours' means (``digest.neighbour_ranges``) and the slack no longer needed.
+neighbours' means (``runs.neighbour_ranges``) and the slack no longer needed.
 Version 2 adds binned distributions (telemetry histograms, ``binned.py``): a SKETCH
 entry with ``"kind": "binned"`` holds ``unit``, ``count``, ``provenance`` as above and
 ``parts``, each one bucket layout as its spec writes it (``binned_codec.py`` lists the
@@ -272,11 +272,10 @@ def sketch_from_dict(body: Any) -> Sketch:
     s.low, s.high = array_field(body, "low"), array_field(body, "high")
     if s.low.size > s.tail_size or s.high.size > s.tail_size or s.low.size > s.count:
         raise ValueError("the exact tails are longer than the sketch allows")
-    s.total = float(body["sum"])
     exponent = body.get("sum_exponent", 0)
     if not isinstance(exponent, int) or isinstance(exponent, bool) or not 0 <= exponent <= 1100:
         raise ValueError("'sum_exponent' must be a whole number from 0 to 1100")
-    s.sum_exponent = exponent
+    s.set_sum(float(body["sum"]), exponent)
     for name in ("nan_count", "inf_count", "negative_count", "zero_count"):
         setattr(s, name, int_field(body, name))
     slack = body.get("merge_slack", 0.0)  # older files: a merge allowance the ranges replace

@@ -27,23 +27,22 @@ Where this implementation departs from the paper's sequential loop, and why:
 * A flush (``_absorb_sorted``) never builds the merged run: the ~10^3 centroids stay a
   side array whose places among the ~10^6 sorted values are computed, so the values
   are touched by the sort, one equality pass and one ``reduceat``. Folding in other
-  centroids (merges, loading) takes the plain path, ``_regroup(_merge_sorted(...))``;
+  centroids (merges, loading) takes the plain path, ``_regroup(merge_sorted(...))``;
   both give the same clusters (tested).
 """
 
 from __future__ import annotations
 
-from typing import TypeVar
-
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .rounding import settle
+from .runs import Columns, merge_sorted, neighbour_ranges, sort_floats
 from .scale import INVERSES, SCALES
+from .sums import ZERO, Scaled, add_scaled, block_sum, scale_scaled
 
 FloatArray = NDArray[np.float64]
 BoolArray = NDArray[np.bool_]
-T = TypeVar("T", bound=np.generic)
 
 DEFAULT_COMPRESSION = 1600.0
 """Chosen by measurement (``benchmarks/sketch_accuracy.py``, ``benchmarks/interval_bench.py``,
@@ -78,6 +77,9 @@ class TDigest:
         "_lo",
         "_means",
         "_pure",
+        "_raw_sum",
+        "_version",
+        "_view",
         "_weights",
         "compression",
         "scale",
@@ -99,11 +101,30 @@ class TDigest:
         self._buf_n = 0
         # A large buffer amortises the sort/merge; memory stays bounded by it.
         self._limit = max(_MIN_BUFFER, int(50 * compression))
+        self._raw_sum: Scaled = ZERO
+        """Sum of the values merged from the buffer, summed in blocks of ``_limit`` values."""
+        self._version = 0
+        """Bumped by every change, so a cached view of the buffered state knows it is current."""
+        self._view: tuple[int, Columns, Scaled] | None = None
+
+    def copy(self) -> TDigest:
+        """An independent digest in the same state (arrays are never changed in place, so
+        they are shared; the buffer list is not)."""
+        out = TDigest.__new__(TDigest)
+        for name in TDigest.__slots__:
+            setattr(out, name, getattr(self, name))
+        out._buf = list(self._buf)
+        out._view = None
+        return out
 
     # ------------------------------------------------------------------ building
     def add(self, values: ArrayLike) -> None:
-        """Buffer finite values; flushes when the buffer is full.
+        """Buffer finite values; every full buffer's worth is merged.
 
+        The merges happen at every ``_limit``-th value, wherever the batches begin and
+        end, so the centroids depend on the values and their order only: a scan that
+        hands the same rows over in other batches (a progress report flushing early,
+        other chunk sizes) builds the same digest, byte for byte.
         The values are copied: a reader may refill the array it handed over.
         """
         arr = np.array(values, dtype=np.float64, copy=True).ravel()
@@ -111,8 +132,9 @@ class TDigest:
             return
         self._buf.append(arr)
         self._buf_n += arr.size
-        if self._buf_n >= self._limit:
-            self.flush()
+        self._version += 1
+        while self._buf_n >= self._limit:
+            self._merge_first(self._limit)
 
     @property
     def buffered(self) -> int:
@@ -154,7 +176,8 @@ class TDigest:
                 raise ValueError("every point's mean must lie inside its range.")
         self.flush()
         mine = (self._means, self._weights, self._pure, self._lo, self._hi)
-        self._regroup(*_merge_sorted(mine, (m, w, p, lo, hi)))
+        self._regroup(*merge_sorted(mine, (m, w, p, lo, hi)))
+        self._version += 1
 
     def restore(
         self, means: FloatArray, weights: FloatArray, pure: BoolArray, lows: FloatArray, highs: FloatArray
@@ -172,17 +195,53 @@ class TDigest:
         self._means, self._weights, self._pure, self._lo, self._hi = means, weights, pure, lows, highs
 
     def flush(self) -> None:
-        """Merge the buffer into the centroids."""
-        if not self._buf:
-            return
-        incoming = np.concatenate(self._buf) if len(self._buf) > 1 else self._buf[0]
-        _sort_floats(incoming)
-        self._buf = []
-        self._buf_n = 0
+        """Merge the whole buffer into the centroids now (a caller bounding memory).
+
+        Queries do not flush: they read a merged view (``_settled``) and leave the
+        digest as it was, so when they run cannot change what it becomes.
+        """
+        if self._buf:
+            self._merge_first(self._buf_n)
+
+    def _merge_first(self, k: int) -> None:
+        """Merge the first ``k`` buffered values into the centroids."""
+        buffered = np.concatenate(self._buf) if len(self._buf) > 1 else self._buf[0]
+        # A fresh array: buffered arrays may be shared with a copy of this digest.
+        incoming = buffered[:k].copy()
+        rest = buffered[k:]
+        self._buf = [rest.copy()] if rest.size else []
+        self._buf_n = rest.size
+        self._raw_sum = add_scaled(self._raw_sum, block_sum(incoming))
+        self._version += 1
+        sort_floats(incoming)
         self._absorb_sorted(incoming)
 
+    def _settled(self) -> tuple[Columns, Scaled]:
+        """(centroid columns, sum of every added value) as if the buffer were merged now.
+
+        Computed on a copy and cached until the next change: a progress report or a
+        screen reading a digest mid-scan must not decide where its merges fall.
+        """
+        if not self._buf:
+            return (self._means, self._weights, self._pure, self._lo, self._hi), self._raw_sum
+        if self._view is None or self._view[0] != self._version:
+            scratch = self.copy()
+            scratch.flush()
+            cols = (scratch._means, scratch._weights, scratch._pure, scratch._lo, scratch._hi)
+            self._view = (self._version, cols, scratch._raw_sum)
+        return self._view[1], self._view[2]
+
+    def raw_sum(self) -> Scaled:
+        """Sum of every value added through :meth:`add` (merged or buffered), as
+        ``(total, exponent)`` of :mod:`.sums` (values near the float limit overflow).
+
+        Summed in fixed blocks of the buffer's size, so it does not depend on how the
+        values were batched (float addition is not associative).
+        """
+        return self._settled()[1]
+
     def _absorb_sorted(self, x: FloatArray) -> None:
-        """The same clustering as ``_regroup(_merge_sorted(...))`` for unit-weight values.
+        """The same clustering as ``_regroup(merge_sorted(...))`` for unit-weight values.
 
         Why a second code path: a flush brings ~10^6 values and ~10^3 centroids. The
         general path materialises the merged (mean, weight, pure) run and makes about
@@ -361,6 +420,8 @@ class TDigest:
         if not factor > 0:
             raise ValueError(f"factor must be positive, got {factor!r}.")
         self.flush()
+        self._raw_sum = scale_scaled(self._raw_sum, factor)
+        self._version += 1
         m, lo, hi = self._means * factor, self._lo * factor, self._hi * factor
         # Rounding may put a product a hair inside the true scaled end: widen by an ulp.
         lo, hi = np.nextafter(lo, -np.inf), np.nextafter(hi, np.inf)
@@ -373,14 +434,14 @@ class TDigest:
         return float(self._weights.sum()) + self._buf_n
 
     def centroids(self) -> tuple[FloatArray, FloatArray, BoolArray]:
-        """Sorted (means, weights, pure) after a flush; arrays are copies."""
-        self.flush()
-        return self._means.copy(), self._weights.copy(), self._pure.copy()
+        """Sorted (means, weights, pure), buffered values included; arrays are copies."""
+        m, w, p, _, _ = self._settled()[0]
+        return m.copy(), w.copy(), p.copy()
 
     def ranges(self) -> tuple[FloatArray, FloatArray]:
         """(smallest, largest) value held by each centroid, in centroid order; copies."""
-        self.flush()
-        return self._lo.copy(), self._hi.copy()
+        _, _, _, lo, hi = self._settled()[0]
+        return lo.copy(), hi.copy()
 
     def knots(self) -> tuple[FloatArray, FloatArray]:
         """The piecewise-linear quantile function as (position, value) knots.
@@ -391,8 +452,7 @@ class TDigest:
         has its centre at position ``c + (w - 1) / 2``; a pure centroid holds its value
         flat from position ``c`` to ``c + w - 1``.
         """
-        self.flush()
-        w, m, p = self._weights, self._means, self._pure
+        m, w, p, _, _ = self._settled()[0]
         if w.size == 0:
             return np.empty(0), np.empty(0)
         before = np.cumsum(w) - w
@@ -424,27 +484,6 @@ class TDigest:
         return r + 1.0
 
 
-_LOW_BITS = np.int64(0x7FFFFFFFFFFFFFFF)
-
-
-def _sort_floats(a: FloatArray) -> None:
-    """Sort finite float64 values in place, about a third faster than ``ndarray.sort``.
-
-    Why it works: the IEEE 754 bit patterns of non-negative doubles, read as int64,
-    are ordered like the doubles, and numpy's integer sort beats its float sort (no
-    NaN handling). Negative doubles order backwards as integers; flipping their low
-    63 bits first makes the whole line monotone (-0.0 lands just below +0.0, which
-    compare equal, so the order stays valid).
-    """
-    bits = a.view(np.int64)
-    if a.size and a.min() < 0:
-        bits ^= (bits >> 63) & _LOW_BITS
-        bits.sort()
-        bits ^= (bits >> 63) & _LOW_BITS
-    else:
-        bits.sort()
-
-
 def _heaviest(runs: NDArray[np.intp], span: FloatArray, compression: float) -> NDArray[np.intp]:
     """At most ``_HEAVY_SHARE * compression`` of the heavy runs, the heaviest first.
 
@@ -457,43 +496,3 @@ def _heaviest(runs: NDArray[np.intp], span: FloatArray, compression: float) -> N
     if runs.size <= cap:
         return runs
     return runs[np.argpartition(span[runs], runs.size - cap)[runs.size - cap :]]
-
-
-Columns = tuple[FloatArray, FloatArray, BoolArray, FloatArray, FloatArray]
-"""(means, weights, pure, lows, highs) of centroids sorted by mean."""
-
-
-def _merge_sorted(first: Columns, second: Columns) -> Columns:
-    """Merge two runs sorted by mean without a full argsort (O(n) placement)."""
-    m1, m2 = first[0], second[0]
-    if m1.size == 0:
-        return second
-    at = np.searchsorted(m2, m1, side="left") + np.arange(m1.size)
-    n = m1.size + m2.size
-    slot = np.ones(n, dtype=bool)
-    slot[at] = False
-
-    def place(a: NDArray[T], b: NDArray[T]) -> NDArray[T]:
-        c = np.empty(n, dtype=a.dtype)
-        c[at], c[slot] = a, b
-        return c
-
-    return (
-        place(first[0], second[0]),
-        place(first[1], second[1]),
-        place(first[2], second[2]),
-        place(first[3], second[3]),
-        place(first[4], second[4]),
-    )
-
-
-def neighbour_ranges(means: FloatArray, pure: BoolArray) -> tuple[FloatArray, FloatArray]:
-    """Ranges for centroids that came without them: from the neighbouring means.
-
-    Exact for pure centroids; for a mixed one, the span from the mean before it to the
-    mean after it (unbounded at the ends), which holds its values when centroids do
-    not overlap - the assumption a digest without ranges leaves no way around.
-    """
-    lo = np.concatenate(([-np.inf], means[:-1]))
-    hi = np.concatenate((means[1:], [np.inf]))
-    return np.where(pure, means, lo), np.where(pure, means, hi)

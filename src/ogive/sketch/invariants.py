@@ -29,8 +29,12 @@ class Sketch(Protocol):
     negative_count: int
     zero_count: int
     tail_size: int
-    total: float
-    sum_exponent: int
+    @property
+    def total(self) -> float: ...
+
+    @property
+    def sum_exponent(self) -> int: ...
+
     low: NDArray[np.float64]
     high: NDArray[np.float64]
     digest: Any

@@ -24,6 +24,7 @@ from .invariants import check_sketch
 from .provenance import EXAMPLES_KEPT as EXAMPLES_KEPT
 from .provenance import Provenance, SkipTally, quantile_label
 from .rank_error import quantile_rank_error
+from .sums import ZERO, Scaled, add_scaled, scale_scaled
 from .tails import Side, fold_tails
 
 if TYPE_CHECKING:
@@ -36,8 +37,6 @@ DEFAULT_SCALE = "k1-ladder"
 
 DEFAULT_TAIL = 512
 MAX_TAIL = 1 << 20
-SUM_SHIFT = 64
-"""A sum that overflows float64 is kept divided by 2**64 (``Sketch.add_sum``)."""
 
 
 class Sketch:
@@ -62,9 +61,9 @@ class Sketch:
         self.tail_size = int(tail_size)
         self.digest = TDigest(compression, scale)
         self.count = 0
-        self.total = 0.0
-        """The sum of the values divided by ``2 ** sum_exponent`` (see :meth:`add_sum`)."""
-        self.sum_exponent = 0
+        self._base: Scaled = ZERO
+        """Sum of values that came in by merges and loads, as ``(total, exponent)`` of
+        :mod:`.sums` (values added one by one are summed by the digest)."""
         self.nan_count = 0
         self.inf_count = 0
         self.negative_count = 0
@@ -79,6 +78,26 @@ class Sketch:
     def compression(self) -> float:
         return self.digest.compression
 
+    @property
+    def total(self) -> float:
+        """Sum of the finite values divided by ``2 ** sum_exponent``. Raw values are summed
+        by the digest in fixed blocks, so the figure does not depend on how a scan
+        batched them."""
+        return self._sum()[0]
+
+    @property
+    def sum_exponent(self) -> int:
+        """0, or the power of two the sum is divided by (values near the float limit)."""
+        return self._sum()[1]
+
+    def _sum(self) -> Scaled:
+        return add_scaled(self._base, self.digest.raw_sum())
+
+    def set_sum(self, total: float, exponent: int = 0) -> None:
+        """Make the sum ``total * 2 ** exponent`` (the loader: a saved sketch's sum)."""
+        raw = self.digest.raw_sum()
+        self._base = add_scaled((total, exponent), (-raw[0], raw[1]))
+
     # ------------------------------------------------------------------ building
     def add(self, values: ArrayLike) -> None:
         """Fold in a batch of values; NaN and infinities are counted, not sketched."""
@@ -88,8 +107,8 @@ class Sketch:
         # A finite sum proves every value finite: one pass instead of two on the
         # common path (a sum that overflows just takes the careful path).
         with np.errstate(over="ignore", invalid="ignore"):
-            total = float(arr.sum())
-        if not math.isfinite(total):
+            finite_sum = float(arr.sum())
+        if not math.isfinite(finite_sum):
             finite = np.isfinite(arr)
             bad = arr[~finite]
             nans = int(np.count_nonzero(np.isnan(bad)))
@@ -98,13 +117,7 @@ class Sketch:
             arr = arr[finite]
             if arr.size == 0:
                 return
-            with np.errstate(over="ignore"):
-                total = float(arr.sum())  # inf only if huge finite values overflow
         self.count += arr.size
-        if math.isfinite(total) and not self.sum_exponent:
-            self.add_sum(total, 0)
-        else:  # values near the float64 limit (1.8e308): their sum is kept scaled
-            self.add_sum(float(np.ldexp(arr, -SUM_SHIFT).sum()), SUM_SHIFT)
         self.negative_count += int(np.count_nonzero(arr < 0))
         self.zero_count += int(np.count_nonzero(arr == 0))
         self.digest.add(arr)
@@ -114,25 +127,14 @@ class Sketch:
         """Add ``value * 2 ** exponent`` to the sum without overflowing.
 
         Values near the float64 limit (a damaged field reading 1.7e308) have a sum no
-        float holds, though their mean is an ordinary number. The sum is then kept
-        scaled by ``2 ** -SUM_SHIFT`` (exact: a power of two), which holds the sum of
-        more values than any file has; the mean is read back unscaled.
+        float holds, though their mean is an ordinary number (:mod:`.sums`).
         """
-        e = max(self.sum_exponent, exponent)
-        total = math.ldexp(self.total, self.sum_exponent - e) + math.ldexp(value, exponent - e)
-        if not math.isfinite(total) and e < SUM_SHIFT:
-            e = SUM_SHIFT
-            total = math.ldexp(self.total, self.sum_exponent - e) + math.ldexp(value, exponent - e)
-        self.total, self.sum_exponent = total, e
+        self._base = add_scaled(self._base, (value, exponent))
 
     def scale_sum(self, factor: float) -> None:
-        """The sum times ``factor`` (a change of unit), rescaled when it would overflow."""
-        scaled = self.total * factor
-        if math.isfinite(scaled):
-            self.total = scaled
-        else:
-            self.total = math.ldexp(self.total, -SUM_SHIFT) * factor
-            self.sum_exponent += SUM_SHIFT
+        """The merged part of the sum times ``factor`` (a change of unit; the digest
+        scales its own raw sum in ``scale_values``), rescaled when it would overflow."""
+        self._base = scale_scaled(self._base, factor)
 
     def _fold_tails(self, low_in: FloatArray, high_in: FloatArray) -> None:
         """Keep the ``tail_size`` smallest and largest values seen (``low_in``/``high_in``:
