@@ -47,7 +47,7 @@ def draw_picture(ws: Workspace, *, width: int, height: int) -> PlotLines:
             raise NoPicture("The shift function compares two sketches; pick a sketch as reference.")
         assert ref.model is not None
         data = plot_inputs(ws.kind, subj.sketch, ref.model, subject_label=subj.name, reference_label=ref.name)
-    return draw(ws.kind, data, width=width, height=height, log=ws.log_axes)
+    return draw(ws.kind, data, width=width, height=height, log=ws.log_axes, ascii_only=ws.ascii_only)
 
 
 def _lineup(ws: Workspace, *, width: int, height: int) -> PlotLines:
@@ -63,8 +63,10 @@ def _lineup(ws: Workspace, *, width: int, height: int) -> PlotLines:
         lineup = lineup_inputs(
             "detrended", subj.sketch, models, subject_label=subj.name, rank_key=ws.fit.rank_key
         )
-        return one_axis_plot(lineup, width=width, height=height, marked=marked)
+        return one_axis_plot(lineup, width=width, height=height, marked=marked, ascii_only=ws.ascii_only)
     if ws.kind == "shift":
         raise NoPicture("A line-up reads the subject against models; the shift function needs two sketches.")
     lineup = lineup_inputs(ws.kind, subj.sketch, models, subject_label=subj.name, rank_key=ws.fit.rank_key)
-    return lineup_plot(lineup, width=width, height=height, log=ws.log_axes, marked=marked)
+    return lineup_plot(
+        lineup, width=width, height=height, log=ws.log_axes, marked=marked, ascii_only=ws.ascii_only
+    )

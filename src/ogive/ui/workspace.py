@@ -111,6 +111,8 @@ class Workspace:
     """The change point highlighted in the Timeline pane."""
     study_roles: tuple[str, str] | None = None
     """(subject, reference) to take once both rows exist: a change point chosen for study."""
+    ascii_only: bool = False
+    """Draw with ASCII only (a terminal or locale without Unicode, or ``view --ascii``)."""
 
     # ------------------------------------------------------------------ queries
     @property
@@ -224,6 +226,12 @@ class Workspace:
         while name in taken:
             name, k = f"{base}#{k}", k + 1
         return name
+
+    def fail_job(self, job: ScanJob, note: str) -> None:
+        """A scan failed: the rows it had filled keep what they hold, marked failed with the reason."""
+        for d in self.dists.values():
+            if d.job is job:
+                d.state, d.note = "failed", note
 
     # ------------------------------------------------------------------ roles
     def auto_roles(self) -> None:
