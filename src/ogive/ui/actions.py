@@ -50,7 +50,7 @@ class ActionsMixin(WorkspaceBase):
         if self.pane != "picture":
             self.action_pane("picture")
         self.workspace_screen.query_one(PlotPanel).redraw()
-        self.say(f"picture: {KIND_NAMES[self.ws.kind]}")
+        self.set_aside(f"picture: {KIND_NAMES[self.ws.kind]}")
 
     def action_cycle_lineup(self) -> None:
         self.ws.lineup = LINEUPS[(LINEUPS.index(self.ws.lineup) + 1) % len(LINEUPS)]
@@ -58,12 +58,12 @@ class ActionsMixin(WorkspaceBase):
         if self.ws.lineup and not panel.region.area:
             self.action_pane("picture")  # only one pane below the rows: show the line-up
         panel.redraw()
-        self.say(f"picture: {LINEUP_WORDS[self.ws.lineup]}")
+        self.set_aside(f"picture: {LINEUP_WORDS[self.ws.lineup]}")
 
     def action_cycle_axes(self) -> None:
         self.ws.axes = AXES[(AXES.index(self.ws.axes) + 1) % len(AXES)]
         self.workspace_screen.query_one(PlotPanel).redraw()
-        self.say(f"value axes: {self.ws.axes}")
+        self.set_aside(f"value axes: {self.ws.axes}")
 
     # ------------------------------------------------------------------ dialogs
     def action_open(self) -> None:

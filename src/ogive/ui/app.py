@@ -159,6 +159,12 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
         yield FeedStatus(id="status")
         yield Footer()
 
+    def run_for_status(self) -> int:
+        """Run the workspace; the process's exit status: 0 after a quit, 130 after ctrl+c twice
+        (or SIGINT), 128+N after signal N, 1 when the app itself failed (never 0 then)."""
+        self.run()
+        return self.return_code if self.return_code is not None else 1
+
     def on_mount(self) -> None:
         ws = self.workspace_screen
         self.set_class(self.ascii_only, "-ascii")

@@ -97,3 +97,8 @@ class WorkspaceBase(App[int]):
             del self.messages[:-MESSAGES_KEPT]
         if not self._gone:
             self.workspace_screen.query_one(FeedStatus).message = text
+
+    def set_aside(self, text: str) -> None:
+        """The picture or axes just chosen, beside the status (it never hides a scan's progress)."""
+        if not self._gone:
+            self.workspace_screen.query_one(FeedStatus).aside = text

@@ -8,29 +8,45 @@ from textual.widgets import Static
 from ..numbers import count, duration, size
 from .state import ScanJob
 
+LINES = 2
+"""The status line's height at most (CSS ``max-height``): a longer text is cut at a word and
+says where the whole of it is (``!``)."""
+MORE = " … (! shows all)"
+
 
 class FeedStatus(Static):
-    """Shows the running scans, else the last thing that happened (saved, exported, failed)."""
+    """Shows the running scans and the last thing that happened (saved, exported, failed), and
+    beside them the picture just chosen (``v``, ``l``, ``m``), so choosing a picture never hides
+    a scan's ETA or its "scan done"."""
 
     message: reactive[str] = reactive("")
-    """The last event, shown when no scan is running."""
+    """The last event."""
+    aside: reactive[str] = reactive("")
+    """The picture or axes just chosen (a setting, not an event: not kept in the ``!`` list)."""
     _shown: str | None = None
     """The text on screen now (an update with the same text is skipped: it costs a redraw)."""
+    _jobs: list[ScanJob] | None = None
 
     def show_jobs(self, jobs: list[ScanJob]) -> None:
+        self._jobs = jobs
         running = [j for j in jobs if not j.done]
-        if not running:
-            self._show(self.message or "ready")
-            return
         parts = [self.describe(j) for j in running[:2]]
         if len(running) > 2:
             parts.append(f"+{len(running) - 2} more")
-        self._show(" | ".join(parts))
+        if self.message or not running:
+            parts.append(self.message or "ready")  # progress and the last event, both
+        self._show(" | ".join(parts), self.aside)
 
-    def _show(self, text: str) -> None:
+    def _show(self, text: str, aside: str = "") -> None:
+        text = fit_lines(text, aside, max(self.size.width - 2, 20), LINES)
         if text != self._shown:
             self._shown = text
             self.update(text)
+
+    def on_resize(self) -> None:
+        self._shown = None
+        if self._jobs is not None:
+            self.show_jobs(self._jobs)
 
     @staticmethod
     def describe(job: ScanJob) -> str:
@@ -54,8 +70,26 @@ class FeedStatus(Static):
         turns = f", {job.rotations} rotation{'s' if job.rotations != 1 else ''}" if job.rotations else ""
         return f"following {name}: {count(job.values)} values, {count(job.rate)}/s now{turns} (s stops)"
 
-    def watch_message(self, value: str) -> None:
-        self._show(value or "ready")
+    def watch_message(self, _value: str) -> None:
+        self.show_jobs(self._jobs or [])
+
+    def watch_aside(self, _value: str) -> None:
+        self.show_jobs(self._jobs or [])
+
+
+def fit_lines(text: str, aside: str, width: int, lines: int) -> str:
+    """``text · aside`` in ``lines`` lines of ``width`` cells: the aside is kept whole, the text
+    is cut at a word boundary and ends with :data:`MORE` when it does not fit (never mid-word)."""
+    tail = f" · {aside}" if aside else ""
+    room = width * lines - len(tail)
+    # Word wrapping wastes up to a word's length a line: leave room for it.
+    if len(text) <= room - 12 * (lines - 1) or len(text + tail) <= width:
+        return text + tail
+    budget = max(room - 12 * (lines - 1) - len(MORE), 10)
+    cut = text[:budget]
+    if " " in cut:
+        cut = cut[: cut.rfind(" ")]
+    return cut.rstrip(" ,;:") + MORE + tail
 
 
 def headline(subject: str | None, reference: str | None, width: int) -> str:
