@@ -168,6 +168,7 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
     def on_mount(self) -> None:
         ws = self.workspace_screen
         self.set_class(self.ascii_only, "-ascii")
+        ws.query_one(FeedStatus).ascii_only = self.ascii_only
         self.set_class(self.no_color, "-nocolor")
         terminal.set_escape_delay()
         self._catch_signals()

@@ -23,6 +23,7 @@ from .plot_panel import PlotPanel
 from .schedule import Scheduler
 from .shelf import DistributionShelf
 from .status_line import FeedStatus, headline
+from .terminal import plain
 from .timeline_panel import TimelinePanel
 from .workspace import Workspace
 
@@ -74,7 +75,8 @@ class WorkspaceBase(App[int]):
         ws, screen = self.ws, self.workspace_screen
         head = screen.query_one("#headline", Static)
         ref = ws.reference
-        head.update(headline(ws.subject, ref.label if ref else None, max(head.size.width, 40)))
+        text = headline(ws.subject, ref.label if ref else None, max(head.size.width, 40))
+        head.update(plain(text, ws.ascii_only))
         fitting = self.schedule.fit.busy
         steps: list[tuple[str, Callable[[], None]]] = [
             ("the Distributions list", lambda: screen.query_one(DistributionShelf).show(ws)),

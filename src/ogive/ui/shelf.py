@@ -10,6 +10,7 @@ from textual.message import Message
 from textual.widgets import DataTable
 
 from ..render.tables import distribution_table
+from .terminal import plain
 from .workspace import Workspace
 
 STATE_MARKS = {"scanning": "…", "following": "~", "partial": "!", "failed": "!"}
@@ -53,7 +54,7 @@ class DistributionShelf(DataTable[str | Text]):
         marked = [
             (
                 ("S" if d.name == ws.subject else "R" if ref is not None and d.name == ref.name else "")
-                + STATE_MARKS.get(d.state, ""),
+                + plain(STATE_MARKS.get(d.state, ""), ws.ascii_only),
                 d.name,
                 d.sketch,
             )

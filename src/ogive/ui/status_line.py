@@ -7,6 +7,7 @@ from textual.widgets import Static
 
 from ..numbers import count, duration, size
 from .state import ScanJob
+from .terminal import plain
 
 LINES = 2
 """The status line's height at most (CSS ``max-height``): a longer text is cut at a word and
@@ -26,6 +27,8 @@ class FeedStatus(Static):
     _shown: str | None = None
     """The text on screen now (an update with the same text is skipped: it costs a redraw)."""
     _jobs: list[ScanJob] | None = None
+    ascii_only = False
+    """Set by the app on an ASCII terminal: the line's own signs become ASCII."""
 
     def show_jobs(self, jobs: list[ScanJob]) -> None:
         self._jobs = jobs
@@ -38,7 +41,7 @@ class FeedStatus(Static):
         self._show(" | ".join(parts), self.aside)
 
     def _show(self, text: str, aside: str = "") -> None:
-        text = fit_lines(text, aside, max(self.size.width - 2, 20), LINES)
+        text = plain(fit_lines(text, aside, max(self.size.width - 2, 20), LINES), self.ascii_only)
         if text != self._shown:
             self._shown = text
             self.update(text)

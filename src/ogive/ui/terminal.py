@@ -72,3 +72,14 @@ def set_escape_delay(env: Mapping[str, str] | None = None) -> float:
         # A Final in textual, read by its key parser at each Escape: set through setattr.
         setattr(constants, "ESCAPE_DELAY", ESCAPE_DELAY_MS / 1000.0)  # noqa: B010
     return constants.ESCAPE_DELAY
+
+
+ASCII_FOR = str.maketrans(
+    {"·": "|", "…": "...", "—": "-", "→": "->", "←": "<-", "≤": "<=", "≥": ">=", "×": "x"}
+)
+"""The few non-ASCII signs the workspace's own text uses, and their ASCII stand-ins."""
+
+
+def plain(text: str, ascii_only: bool) -> str:
+    """``text`` with the workspace's own Unicode signs made ASCII when the terminal needs it."""
+    return text.translate(ASCII_FOR) if ascii_only else text
