@@ -120,7 +120,9 @@ def _restored(out: bytes) -> None:
     assert out.rfind(b"\x1b[?25h") > out.rfind(b"\x1b[?25l"), "cursor left hidden"
 
 
-@pytest.mark.parametrize(("sig", "status"), [(signal.SIGTERM, 143), (signal.SIGHUP, 129), (signal.SIGINT, 130)])
+@pytest.mark.parametrize(
+    ("sig", "status"), [(signal.SIGTERM, 143), (signal.SIGHUP, 129), (signal.SIGINT, 130)]
+)
 def test_a_signal_gives_the_terminal_back(sketches: Path, sig: int, status: int) -> None:
     """Issue 21: SIGTERM/SIGHUP left the alternate screen, a hidden cursor and mouse reporting on."""
     tty = Tty(["view", str(sketches)], {})

@@ -151,16 +151,21 @@ class ActionsMixin(WorkspaceBase):
         names = ", ".join(Path(j.source).name for j in following)
         self.say(f"stopping: {names} (what was read stays)…" if following else "nothing is being followed.")
 
+    @property
+    def interrupt_pending(self) -> bool:
+        """A ctrl+c was pressed within the last :data:`INTERRUPT_WINDOW_S`: another one quits."""
+        at = self._interrupted_at
+        return at is not None and time.monotonic() - at <= INTERRUPT_WINDOW_S
+
     def action_interrupt(self) -> None:
         """Ctrl-C: stop the scans; a second press within a few seconds quits (status 130)."""
-        now = time.monotonic()
-        if self._interrupted_at is not None and now - self._interrupted_at <= INTERRUPT_WINDOW_S:
+        if self.interrupt_pending:
             self.leave(EXIT_INTERRUPTED)
             return
-        self._interrupted_at = now
+        self._interrupted_at = time.monotonic()
         stopped = self.stop_scans()
-        first = f"stopping {stopped} scan(s) (what was read stays); " if stopped else ""
-        self.say(f"{first}ctrl+c again within {INTERRUPT_WINDOW_S:.0f} s quits (q quits too).")
+        then = f"; stopping {stopped} scan(s), what was read stays" if stopped else " (q quits too)"
+        self.say(f"ctrl+c again within {INTERRUPT_WINDOW_S:.0f} s quits{then}.")
 
     async def action_quit(self) -> None:
         self.leave(0)

@@ -253,6 +253,16 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
         self._take(job, msg.sketches, state="following" if job.follow else "scanning", note="")
 
     def on_scan_ended(self, msg: ScanEnded) -> None:
+        try:
+            self._ended(msg)
+        except Exception as exc:  # its rows stay, marked; the workspace goes on
+            note = workers.failure("taking the scan's result", exc).note
+            msg.job.done = True
+            self.ws.fail_job(msg.job, note)
+            self.say(f"{Path(msg.job.source).name}: {note}")
+            self.refresh_all()
+
+    def _ended(self, msg: ScanEnded) -> None:
         job, end = msg.job, msg.end
         job.done = True
         job.bytes_read, job.elapsed_s = end.bytes_read or job.bytes_read, end.elapsed_s or job.elapsed_s
@@ -269,7 +279,8 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
         else:
             state = "partial" if job.cancel.is_set() or "partial" in end.note else "ready"
             self._take(job, end.sketches, state=state, note=end.note)
-            self.say(f"{name}: scan {'stopped' if state == 'partial' else 'done'}{note}")
+            again = "ctrl+c again quits; " if self.interrupt_pending else ""
+            self.say(f"{again}{name}: scan {'stopped' if state == 'partial' else 'done'}{note}")
         self.request_analysis()
         self.refresh_all()
 

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import textwrap
+
 from textual.reactive import reactive
 from textual.widgets import Static
 
@@ -82,17 +84,22 @@ class FeedStatus(Static):
 
 def fit_lines(text: str, aside: str, width: int, lines: int) -> str:
     """``text · aside`` in ``lines`` lines of ``width`` cells: the aside is kept whole, the text
-    is cut at a word boundary and ends with :data:`MORE` when it does not fit (never mid-word)."""
+    loses words from its end and says :data:`MORE` when it does not fit (never cut mid-word,
+    unless one word alone is longer than the room)."""
     tail = f" · {aside}" if aside else ""
-    room = width * lines - len(tail)
-    # Word wrapping wastes up to a word's length a line: leave room for it.
-    if len(text) <= room - 12 * (lines - 1) or len(text + tail) <= width:
+
+    def fits(candidate: str) -> bool:
+        return len(textwrap.wrap(candidate, width)) <= lines
+
+    if fits(text + tail):
         return text + tail
-    budget = max(room - 12 * (lines - 1) - len(MORE), 10)
-    cut = text[:budget]
-    if " " in cut:
-        cut = cut[: cut.rfind(" ")]
-    return cut.rstrip(" ,;:") + MORE + tail
+    words = text.split(" ")
+    while len(words) > 1:
+        words.pop()
+        candidate = " ".join(words).rstrip(" ,;:(") + MORE + tail
+        if fits(candidate):
+            return candidate
+    return text[: max(width * lines - len(MORE) - len(tail) - 1, 1)] + MORE + tail
 
 
 def headline(subject: str | None, reference: str | None, width: int) -> str:
