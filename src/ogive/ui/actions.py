@@ -21,6 +21,7 @@ from .help_overlay import KeyHelp, MessageLog
 from .keys import key_groups
 from .open_prompt import OpenPrompt, OpenRequest
 from .plot_panel import PlotPanel
+from .shelf import DistributionShelf
 from .workspace import AXES, KIND_NAMES, KINDS, LINEUP_WORDS, LINEUPS
 
 PANES = ("picture", "models", "ladder", "timeline")
@@ -36,14 +37,21 @@ class ActionsMixin(WorkspaceBase):
     _interrupted_at: float | None = None
 
     def action_pane(self, pane: str) -> None:
-        self.pane = pane
+        """Show a pane; ``list`` shows the Distributions list (the only thing shown, in a compact window)."""
         screen = self.workspace_screen
+        screen.set_class(pane == "list", "-listing")
+        if pane == "list":
+            screen.query_one(DistributionShelf).show(self.ws)
+            screen.query_one(DistributionShelf).focus()
+            return
+        self.pane = pane
         for name in PANES:
             screen.query_one(f"#{name}").set_class(name == pane, "-current")
         # Wide screens show every pane; the timeline takes the picture's place when asked for.
         screen.query_one("#picture").set_class(pane == "timeline", "-covered")
         target = {"models": "#models", "ladder": "#ladder", "timeline": "#timeline"}.get(pane, "#shelf")
-        screen.query_one(target).focus()
+        if target != "#shelf" or not screen.has_class("-compact"):
+            screen.query_one(target).focus()
 
     def action_cycle_kind(self, step: int) -> None:
         self.ws.kind = KINDS[(KINDS.index(self.ws.kind) + step) % len(KINDS)]

@@ -22,6 +22,8 @@ from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Container, VerticalScroll
 from textual.filter import Monochrome, NoColor
+from textual.message import Message
+from textual.screen import Screen
 from textual.widgets import Footer, Static
 
 from ..read.follow import FollowProgress, recent_name
@@ -42,6 +44,22 @@ from .status_line import FeedStatus
 from .timeline_panel import TimelinePanel
 from .timeline_study import study_change
 from .workspace import Workspace
+
+MIN_WIDTH, MIN_HEIGHT = 60, 15
+"""The smallest window the workspace draws in (a picture needs 40×12 cells, plus the lines around it)."""
+COMPACT_BELOW = 23
+"""Fewer lines than this: one pane at a time, the list (d) or a pane (g f c t), without the key bar."""
+
+
+class WorkspaceScreen(Screen[None]):
+    """The default screen; it tells the app when the window changes size (the app's own resize
+    handler stops the event before it reaches ours)."""
+
+    class Resized(Message):
+        """The window has a new size."""
+
+    def on_resize(self) -> None:
+        self.post_message(self.Resized())
 
 
 class OgiveApp(ActionsMixin, AnalysisMixin):
@@ -65,6 +83,7 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
     | e | Export a report of the screen (Markdown and JSON). |
     | x | Stop every running scan (what was read stays, marked partial). |
     | s | Stop following the growing file (what was read stays, ready). |
+    | d | Show the Distributions list (in a window under 23 lines it takes the panes' place). |
     | ! | Show every message said in the status line, whole. |
     | ? | Show every key. |
     | ctrl+c | Stop every running scan; a second ctrl+c within 3 s quits (status 130). |
@@ -76,7 +95,7 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
     ENABLE_COMMAND_PALETTE = False
     TITLE = "ogive"
     HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (130, "-wide")]  # noqa: RUF012 -- textual's own ClassVar
-    VERTICAL_BREAKPOINTS = [(0, "-short"), (36, "-tall")]  # noqa: RUF012
+    VERTICAL_BREAKPOINTS = [(0, "-compact"), (COMPACT_BELOW, "-short"), (36, "-tall")]  # noqa: RUF012
 
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("o", "open", "Open"),
@@ -94,6 +113,7 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
         Binding("s", "stop_follow", "Stop following", show=False),
         Binding("question_mark", "help", "Keys"),
         Binding("exclamation_mark", "messages", "Messages", show=False),
+        Binding("d", "pane('list')", "List", show=False),
         Binding("ctrl+c", "interrupt", "Interrupt", show=False, priority=True),
         Binding("ctrl+z", "suspend_process", "Suspend", show=False),
         Binding("q", "quit", "Quit"),
@@ -148,6 +168,7 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
 
     # ------------------------------------------------------------------ layout
     def compose(self) -> ComposeResult:
+        yield Static("", id="too-small")
         yield Static("", id="headline")
         with Container(id="body"):
             yield DistributionShelf(id="shelf")
@@ -294,6 +315,23 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
         loop = asyncio.get_running_loop()
         for name, status in terminal.SIGNAL_STATUS.items():
             loop.add_signal_handler(getattr(signal, name), self.leave, status)
+
+    def get_default_screen(self) -> Screen[None]:
+        return WorkspaceScreen(id="_default")
+
+    def on_workspace_screen_resized(self) -> None:
+        """Below the smallest size, one sentence saying how large the window must be."""
+        width, height = self.size
+        small = width < MIN_WIDTH or height < MIN_HEIGHT
+        self.set_class(small, "-too-small")
+        status = self.workspace_screen.query_one(FeedStatus)
+        status.lines = 1 if height < COMPACT_BELOW else 2
+        self.call_after_refresh(self.refresh_all)  # the list's height follows the layout
+        if small:
+            self.workspace_screen.query_one("#too-small", Static).update(
+                f"Make the window at least {MIN_WIDTH}×{MIN_HEIGHT} (it is {width}×{height}); "
+                "ogive redraws as soon as it is. q quits."
+            )
 
     def _resumed(self, _signal: object = None) -> None:
         """Back from ctrl+z (``fg``): the terminal was given to the shell; draw everything again."""

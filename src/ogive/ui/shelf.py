@@ -82,9 +82,9 @@ class DistributionShelf(DataTable[str | Text]):
         refilled twice a second kept the screen from redrawing while a scan streamed.
         """
         screen = self.screen
-        if screen.has_class("-wide") and screen.has_class("-tall"):
+        if (screen.has_class("-wide") and screen.has_class("-tall")) or screen.has_class("-compact"):
             if self.styles.inline.has_rule("height"):
-                self.styles.inline.clear_rule("height")  # the grid of the wide layout decides
+                self.styles.inline.clear_rule("height")  # the grid (wide) or the whole body (compact) decides
                 self.refresh(layout=True)
             return
         cap = VISIBLE_ROWS["tall" if self.app.size.height >= 36 else "short"]

@@ -30,6 +30,8 @@ class FeedStatus(Static):
     """The text on screen now (an update with the same text is skipped: it costs a redraw)."""
     _jobs: list[ScanJob] | None = None
     ascii_only = False
+    lines = LINES
+    """Lines the status may take (one in a compact window)."""
     """Set by the app on an ASCII terminal: the line's own signs become ASCII."""
 
     def show_jobs(self, jobs: list[ScanJob]) -> None:
@@ -43,7 +45,9 @@ class FeedStatus(Static):
         self._show(" | ".join(parts), self.aside)
 
     def _show(self, text: str, aside: str = "") -> None:
-        text = plain(fit_lines(text, aside, max(self.size.width - 2, 20), LINES), self.ascii_only)
+        # With a picture named beside it, one line: choosing a picture must not shrink the picture.
+        lines = 1 if aside else self.lines
+        text = plain(fit_lines(text, aside, max(self.size.width - 2, 20), lines), self.ascii_only)
         if text != self._shown:
             self._shown = text
             self.update(text)
