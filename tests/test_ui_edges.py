@@ -302,3 +302,40 @@ async def test_choosing_a_picture_keeps_the_scan_progress(log: Path) -> None:
         await pilot.pause(0.2)
         status = screen_text(app).splitlines()[-2]
         assert "scan done" in status and "picture: detrended Q-Q" in status
+
+
+# ---------------------------------------------------------------------- the reference for one source
+class _Model:
+    def __init__(self, label: str, low: float, high: float, ok: bool = True) -> None:
+        self.label, self.ok, self._q = label, ok, (low, high)
+
+    def ppf(self, q: object) -> np.ndarray:
+        return np.array(self._q)
+
+
+def test_a_lone_subject_gets_a_model_that_spans_its_data() -> None:
+    """Issue 21: the top-ranked heavy-tailed model stretched the Q-Q axis from 10 ns to 10 s."""
+    from types import SimpleNamespace
+
+    from ogive.ui.workspace import reference_model
+
+    s = Sketch("ms")
+    s.add(np.random.default_rng(1).lognormal(3.0, 0.5, 20_000))
+    lo, hi = (float(v) for v in np.quantile(s.quantile(np.array([0.001, 0.999])), [0, 1]))
+    wild = _Model("Pareto", 1e-5, 1e4)  # p0.1 at 10 ns, p99.9 at 10 s for data in ms
+    stuck = _Model("gamma", lo, hi, ok=False)
+    fine = _Model("lognormal", lo * 1.2, hi * 0.8)
+    report = SimpleNamespace(models=(wild, stuck, fine))
+    assert reference_model(report, s) is fine  # type: ignore[arg-type]
+    assert reference_model(SimpleNamespace(models=(wild,)), s) is wild  # type: ignore[arg-type]
+    assert reference_model(SimpleNamespace(models=()), s) is None  # type: ignore[arg-type]
+
+
+async def test_the_reference_of_a_lone_scan_is_chosen_once_complete(log: Path) -> None:
+    app = OgiveApp([str(log)], LOG_OPTIONS, families=FAST)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _quiet(app, pilot)
+        ref = app.ws.reference
+        assert ref is not None and ref.kind == "model"
+        assert any(m.startswith(f"reference: model {ref.name}") for _, m in app.messages)
+        assert f"model {ref.name}" in screen_text(app).splitlines()[0]

@@ -52,9 +52,17 @@ class AnalysisMixin(WorkspaceBase):
 
     def _fit_done(self, result: FitReport | None, note: str, generation: int) -> None:
         again = self.schedule.fit_ended_at(time.monotonic())
+        was_auto = self.ws.auto_model
         if self.ws.take_fit(result, note, generation):
             if note:
                 self.say(note)
+            ref = self.ws.reference
+            if self.ws.auto_model and not was_auto and ref is not None and result is not None:
+                first = result.best
+                why = f"the best by {result.rank_key.upper()}"
+                if first is not None and first.label != ref.name:
+                    why += f" whose quantiles stay near the data's ({first.label} ranks first, far wider)"
+                self.say(f"reference: model {ref.name}, {why}; 2 in Models picks another.")
             self.refresh_all()
         if again:
             self._start_fit()

@@ -66,6 +66,44 @@ def partner(name: str) -> str | None:
     return _AFTER.sub(lambda m: f"{m.group(1)}before", name, count=1)
 
 
+SPAN_PROBS = (0.001, 0.999)
+"""Where a reference model's quantiles are held against the data's (the picture's axis ends)."""
+SPAN_FACTOR = 10.0
+"""A model whose p0.1 or p99.9 is more than this factor away from the data's would stretch the
+picture's value axis by a decade or more beyond the data (common practice for a readable Q-Q)."""
+
+
+def reference_model(report: FitReport, sketch: Sketch | Binned) -> Candidate | None:
+    """The model a lone subject is held against: the best-ranked one (by the key the data
+    supports, ``fit_sketch``'s ``auto``) that converged and whose p0.1 and p99.9 stay within
+    :data:`SPAN_FACTOR` of the data's; the best-ranked one when none does.
+
+    Chosen once, when the scan is complete: the app does not call this for a partial scan,
+    and a later refit keeps the family (so the reference does not flip as data arrives).
+    """
+    import numpy as np
+
+    if not report.models:
+        return None
+    probs = np.array(SPAN_PROBS)
+    lo, hi = (float(v) for v in sketch.quantile(probs))
+    for cand in report.models:
+        if not cand.ok:
+            continue
+        try:
+            m_lo, m_hi = (float(v) for v in cand.ppf(probs))
+        except (ValueError, ArithmeticError):
+            continue
+        if lo > 0 and hi > 0 and m_lo > 0 and m_hi > 0:
+            near = max(lo / m_lo, m_lo / lo, hi / m_hi, m_hi / hi) <= SPAN_FACTOR
+        else:  # values around or below zero: compare on the data's own spread
+            spread = max(hi - lo, 1e-300)
+            near = abs(m_lo - lo) <= SPAN_FACTOR * spread and abs(m_hi - hi) <= SPAN_FACTOR * spread
+        if near:
+            return cand
+    return report.models[0]
+
+
 @dataclass
 class Workspace:
     """Everything the workspace shows, as data."""
@@ -305,9 +343,12 @@ class Workspace:
                 if m.label == ref.name:
                     self.reference = ReferenceChoice("model", ref.name, m)
         alone = len(self.dists) == 1 and not self.scanning
-        if self.reference is None and result is not None and alone and result.best is not None:
-            self.auto_model = True
-            self.reference = ReferenceChoice("model", result.best.label, result.best)
+        subj = self.subject_dist
+        if self.reference is None and result is not None and alone and subj is not None:
+            chosen = reference_model(result, subj.sketch)
+            if chosen is not None:
+                self.auto_model = True
+                self.reference = ReferenceChoice("model", chosen.label, chosen)
         return True
 
     def take_comparison(self, result: Comparison | None, note: str, key: tuple[str, str]) -> bool:
