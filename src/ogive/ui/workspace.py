@@ -12,6 +12,8 @@ Role rules, in the order they apply:
   before.log after.log`` reads "after against before"), except that a subject named
   ``.../after/X`` is held against ``.../before/X`` when that row exists (a split by time
   and by group pairs each group with itself);
+* many groups of one source (``--by``): the largest group that has a ``before`` partner is
+  held against it, else the largest against the next largest (never the ``(other)`` bucket);
 * a lone subject is held against its best fitted model until a second row arrives;
 * a model reference belongs to the subject it was fitted to, and goes when the subject
   changes.
@@ -277,9 +279,14 @@ class Workspace:
         names = list(self.dists)
         if self.auto_model and len(names) > 1:
             self.reference, self.auto_model = None, False  # a sketch to compare with has arrived
+        largest = self._largest_pair() if self.wanted_subject is None else None
         if self.subject is None or self.subject not in self.dists:
             if self.wanted_subject in self.dists:
                 self.subject = self.wanted_subject
+            elif largest is not None:
+                self.subject = largest[0]
+                if self.reference is None and self.wanted_reference is None:
+                    self.reference = ReferenceChoice("sketch", largest[1])
             elif self.wanted_subject is None and names:
                 self.subject = names[-1]
         if (
@@ -294,12 +301,26 @@ class Workspace:
         if self.wanted_reference in self.dists and self.wanted_reference != self.subject:
             self.reference = ReferenceChoice("sketch", self.wanted_reference)
         elif self.wanted_reference is None:
-            pair = partner(self.subject or "")
+            twin = partner(self.subject or "")
             others = [n for n in names if n != self.subject]
-            if pair in self.dists:
-                self.reference = ReferenceChoice("sketch", pair)
+            if twin in self.dists:
+                self.reference = ReferenceChoice("sketch", twin)
             elif others:
                 self.reference = ReferenceChoice("sketch", others[0])
+
+    def _largest_pair(self) -> tuple[str, str] | None:
+        """For many groups of one source (``--by``): the largest group paired with its ``before``
+        partner, else with the next largest; an overflow bucket (``(other)``) is never chosen.
+        None when the rows are not many groups of one source (then the rules above apply)."""
+        rows = list(self.dists.values())
+        if len(rows) <= 2 or len({d.origin for d in rows}) != 1:
+            return None
+        sized = sorted((d for d in rows if "(other)" not in d.name), key=lambda d: -d.sketch.count)
+        for d in sized:
+            other = partner(d.name)
+            if other in self.dists:
+                return d.name, other
+        return (sized[0].name, sized[1].name) if len(sized) >= 2 else None
 
     def set_subject(self, name: str) -> None:
         if self.reference is not None and self.reference.kind == "sketch" and self.reference.name == name:
