@@ -339,3 +339,39 @@ async def test_the_reference_of_a_lone_scan_is_chosen_once_complete(log: Path) -
         assert ref is not None and ref.kind == "model"
         assert any(m.startswith(f"reference: model {ref.name}") for _, m in app.messages)
         assert f"model {ref.name}" in screen_text(app).splitlines()[0]
+
+
+# ---------------------------------------------------------------------- the open prompt's preview
+@pytest.mark.parametrize("content", [b"", b'{"format":', b"0123456789"])
+async def test_preview_and_open_agree_on_a_damaged_sketch(tmp_path: Path, content: bytes) -> None:
+    """Issue 21: the preview refused an empty .ogive while enter scanned it as a log."""
+    path = tmp_path / "cut.ogive"
+    path.write_bytes(content)
+    app = OgiveApp([], families=FAST)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("o")
+        await pilot.pause(0.2)
+        app.screen.query_one("#open-path").value = str(path)  # type: ignore[attr-defined]
+        await pilot.pause(1.0)  # the preview's debounce and its worker
+        previewed = " ".join(screen_text(app).split())
+        assert "named as a saved sketch but is" in previewed
+        await pilot.press("enter")
+        await pilot.pause(0.3)
+        assert isinstance(app.screen, OpenPrompt)  # refused, the prompt stays
+        assert not app.ws.dists and not app.ws.jobs
+        said = " ".join(screen_text(app).split())
+        assert "named as a saved sketch but is" in said
+        assert ("empty" in said) == (content == b"")
+
+
+async def test_the_preview_keeps_the_values_line_in_sight(tmp_path: Path) -> None:
+    path = tmp_path / "wide.log"
+    path.write_text("".join(f"{'x' * 300} dur={i + 1}.5\n" for i in range(200)))
+    app = OgiveApp([], families=FAST)
+    async with app.run_test(size=(60, 15)) as pilot:  # the smallest window squeezes the preview
+        await pilot.press("o")
+        await pilot.pause(0.2)
+        app.screen.query_one("#open-path").value = str(path)  # type: ignore[attr-defined]
+        app.screen.query_one("#open-pattern").value = r"dur=(\S+)"  # type: ignore[attr-defined]
+        await pilot.pause(1.5)
+        assert "200 values from 200 rows" in " ".join(screen_text(app).split())
