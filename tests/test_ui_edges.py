@@ -375,3 +375,19 @@ async def test_the_preview_keeps_the_values_line_in_sight(tmp_path: Path) -> Non
         app.screen.query_one("#open-pattern").value = r"dur=(\S+)"  # type: ignore[attr-defined]
         await pilot.pause(1.5)
         assert "200 values from 200 rows" in " ".join(screen_text(app).split())
+
+
+async def test_escape_sequences_in_group_names_are_shown_not_obeyed(tmp_path: Path) -> None:
+    """Issue 12: terminal escapes in group keys are printed neutralised (ECMA-48: ESC 0x1b, BEL 0x07)."""
+    path = tmp_path / "esc.csv"
+    path.write_text("host,v\n" + "".join(f"\x1b]0;title\x07h{i % 3},{i + 1}\n" for i in range(60)))
+    app = OgiveApp([str(path)], ScanOptions(format="csv", column="v", by="host"), families=FAST)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _quiet(app, pilot)
+        for pane in ("g", "c", "f"):
+            await pilot.press(pane)
+            await _quiet(app, pilot)
+            text = screen_text(app)
+            assert not any(ch in text for ch in "\x1b\x07"), pane
+        assert "\\x1b]0;title\\x07h" in screen_text(app).split("╮")[0] + screen_text(app)
+        await _alive(app, pilot)

@@ -142,6 +142,7 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
             # textual turns colours into greys (256-colour codes); NO_COLOR asks for none at all.
             self._filters = [f for f in self._filters if not isinstance(f, Monochrome | NoColor)]
             self._filters.append(NoColor())
+        self._filters.append(terminal.ControlFilter())  # no control character reaches the terminal
         self.ascii_only = terminal.wants_ascii() if ascii_only is None else ascii_only
         """ASCII canvas and plain borders (``view --ascii``, or a terminal/locale without Unicode)."""
         self.ws = Workspace(wanted_subject=subject, wanted_reference=reference, ascii_only=self.ascii_only)

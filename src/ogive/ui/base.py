@@ -23,7 +23,7 @@ from .plot_panel import PlotPanel
 from .schedule import Scheduler
 from .shelf import DistributionShelf
 from .status_line import FeedStatus, headline
-from .terminal import plain
+from .terminal import plain, printable
 from .timeline_panel import TimelinePanel
 from .workspace import Workspace
 
@@ -75,7 +75,8 @@ class WorkspaceBase(App[int]):
         ws, screen = self.ws, self.workspace_screen
         head = screen.query_one("#headline", Static)
         ref = ws.reference
-        text = headline(ws.subject, ref.label if ref else None, max(head.size.width, 40))
+        subject, label = (printable(n) if n else None for n in (ws.subject, ref.label if ref else None))
+        text = headline(subject, label, max(head.size.width, 40))
         head.update(plain(text, ws.ascii_only))
         fitting = self.schedule.fit.busy
         steps: list[tuple[str, Callable[[], None]]] = [
@@ -94,6 +95,7 @@ class WorkspaceBase(App[int]):
 
     def say(self, text: str) -> None:
         """One line in the status line (kept, with the others, for the ``!`` view)."""
+        text = printable(text)
         if not self.messages or self.messages[-1][1] != text:  # a pane failing at each refresh: once
             self.messages.append((time.time(), text))
             del self.messages[:-MESSAGES_KEPT]

@@ -12,6 +12,7 @@ from textual.widgets import DataTable
 from ..numbers import count
 from ..render.tables import ranking_table
 from .columns import MODELS_DROP, fit_columns
+from .terminal import printable
 from .workspace import Workspace
 
 
@@ -70,7 +71,7 @@ class ModelRanking(DataTable[str | Text]):
             self.move_cursor(row=ws.model_row)  # a refresh keeps the highlight where it was
         subj = ws.subject_dist
         when = f" at n={count(ws.fit_n)}" if subj is not None and subj.state == "following" else ""
-        self.border_subtitle = f"fitted to {ws.subject}{when}, ranked by {ws.fit.rank_key}"
+        self.border_subtitle = f"fitted to {printable(ws.subject or '')}{when}, ranked by {ws.fit.rank_key}"
 
     def action_pick(self) -> None:
         """Only the ranked models can be a reference (tail-only models describe the tail alone)."""

@@ -12,6 +12,7 @@ from ..render.reports import comparison_notes
 from ..render.tables import ladder_table, rich_table
 from .columns import LADDER_DROP, fit_columns
 from .placeholder import notice
+from .terminal import printable
 from .workspace import Workspace
 
 
@@ -21,7 +22,7 @@ def comparison_renderable(ws: Workspace, width: int = 200) -> RenderableType:
     c = ws.comparison
     assert c is not None
     ref, subj = c.labels
-    head = f"S = {subj} against R = {ref}" + (f", in {c.unit}" if c.unit else "")
+    head = f"S = {printable(subj)} against R = {printable(ref)}" + (f", in {c.unit}" if c.unit else "")
     ladder = fit_columns(ladder_table(c, narrow=True), width, LADDER_DROP, keep=("q", "S", "verdict"))
     parts: list[RenderableType] = [Text(head, style="bold"), rich_table(ladder)]
     parts.extend(Text(line) for line in comparison_notes(c))

@@ -11,6 +11,7 @@ from ..fit.curves import plot_inputs
 from ..fit.lineup import lineup_inputs
 from ..render import PlotLines, draw
 from ..render.lineup import lineup_plot, one_axis_plot
+from .terminal import printable
 from .workspace import Workspace
 
 
@@ -40,13 +41,23 @@ def draw_picture(ws: Workspace, *, width: int, height: int) -> PlotLines:
             # have imported it, rather than import it here on the screen's thread.
             raise NoPicture("The comparison is not ready yet.")
         data = plot_inputs(
-            ws.kind, subj.sketch, ref_dist.sketch, subject_label=subj.name, reference_label=ref_dist.name
+            ws.kind,
+            subj.sketch,
+            ref_dist.sketch,
+            subject_label=printable(subj.name),
+            reference_label=printable(ref_dist.name),
         )
     else:
         if ws.kind == "shift":
             raise NoPicture("The shift function compares two sketches; pick a sketch as reference.")
         assert ref.model is not None
-        data = plot_inputs(ws.kind, subj.sketch, ref.model, subject_label=subj.name, reference_label=ref.name)
+        data = plot_inputs(
+            ws.kind,
+            subj.sketch,
+            ref.model,
+            subject_label=printable(subj.name),
+            reference_label=printable(ref.name),
+        )
     return draw(ws.kind, data, width=width, height=height, log=ws.log_axes, ascii_only=ws.ascii_only)
 
 
@@ -61,12 +72,14 @@ def _lineup(ws: Workspace, *, width: int, height: int) -> PlotLines:
     models, marked = ws.lineup_models()
     if ws.lineup == "one-axis":
         lineup = lineup_inputs(
-            "detrended", subj.sketch, models, subject_label=subj.name, rank_key=ws.fit.rank_key
+            "detrended", subj.sketch, models, subject_label=printable(subj.name), rank_key=ws.fit.rank_key
         )
         return one_axis_plot(lineup, width=width, height=height, marked=marked, ascii_only=ws.ascii_only)
     if ws.kind == "shift":
         raise NoPicture("A line-up reads the subject against models; the shift function needs two sketches.")
-    lineup = lineup_inputs(ws.kind, subj.sketch, models, subject_label=subj.name, rank_key=ws.fit.rank_key)
+    lineup = lineup_inputs(
+        ws.kind, subj.sketch, models, subject_label=printable(subj.name), rank_key=ws.fit.rank_key
+    )
     return lineup_plot(
         lineup, width=width, height=height, log=ws.log_axes, marked=marked, ascii_only=ws.ascii_only
     )

@@ -11,7 +11,7 @@ from textual.message import Message
 from textual.widgets import DataTable
 
 from ..render.tables import distribution_table
-from .terminal import plain
+from .terminal import plain, printable
 from .workspace import Workspace
 
 STATE_MARKS = {"scanning": "…", "following": "~", "partial": "!", "failed": "!"}
@@ -74,7 +74,7 @@ class DistributionShelf(DataTable[str | Text]):
             (
                 ("S" if d.name == ws.subject else "R" if ref is not None and d.name == ref.name else "")
                 + plain(STATE_MARKS.get(d.state, ""), ws.ascii_only),
-                d.name,
+                printable(d.name),
                 d.sketch,
             )
             for d in shown

@@ -19,7 +19,12 @@ Kept apart from the app so the rules can be read (and tested) as plain functions
 from __future__ import annotations
 
 import os
+import re
 from collections.abc import Mapping
+
+from rich.segment import Segment
+from textual.color import Color
+from textual.filter import LineFilter
 
 ESCAPE_DELAY_MS = 25
 """Our escape delay when ``ESCDELAY`` is not set (see the module text)."""
@@ -83,3 +88,33 @@ ASCII_FOR = str.maketrans(
 def plain(text: str, ascii_only: bool) -> str:
     """``text`` with the workspace's own Unicode signs made ASCII when the terminal needs it."""
     return text.translate(ASCII_FOR) if ascii_only else text
+
+
+_CONTROLS = re.compile("[\x00-\x1f\x7f-\x9f]")
+
+
+def printable(text: str) -> str:
+    """``text`` with terminal control characters shown as ``\\xNN`` (ESC, BEL, CR, C1 …).
+
+    Source names, group keys and notes come from the user's files; an escape sequence in one
+    (``ESC ] 0 ; title BEL``) would otherwise be obeyed by the terminal. Shown, not dropped,
+    so two names that differ only there still look different.
+    """
+    return _CONTROLS.sub(lambda m: f"\\x{ord(m.group(0)):02x}", text)
+
+
+class ControlFilter(LineFilter):
+    """The last guard: no control character in any drawn text reaches the terminal.
+
+    Text the workspace draws goes through :func:`printable` where it is made (so widths stay
+    right); this filter removes any that came another way (a renderer's label), at the cost of
+    a cell or two of alignment, never the terminal's state.
+    """
+
+    def apply(self, segments: list[Segment], background: Color) -> list[Segment]:
+        return [
+            Segment(_CONTROLS.sub("", text), style, control)
+            if control is None and _CONTROLS.search(text)
+            else Segment(text, style, control)
+            for text, style, control in segments
+        ]
