@@ -41,7 +41,8 @@ class FeedStatus(Static):
         if len(running) > 2:
             parts.append(f"+{len(running) - 2} more")
         if self.message or not running:
-            parts.append(self.message or "ready")  # progress and the last event, both
+            # Progress and the last event, both; a compact window has no key bar: say the two keys.
+            parts.append(self.message or ("ready · d: list · ?: keys" if self.lines == 1 else "ready"))
         self._show(" | ".join(parts), self.aside)
 
     def _show(self, text: str, aside: str = "") -> None:
