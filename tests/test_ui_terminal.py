@@ -185,3 +185,17 @@ def test_ascii_is_chosen_by_terminal_and_locale() -> None:
     assert not wants_ascii({"TERM": "xterm-256color", "LANG": "en_US.UTF-8"})
     assert not wants_ascii({"TERM": "xterm-256color", "LC_ALL": "C.UTF-8"})
     assert not wants_ascii({"TERM": "screen-256color"})  # no locale said: Unicode stays
+
+
+def test_escape_then_a_key_50_ms_later_is_two_keys(sketches: Path) -> None:
+    """Issue 21: Escape followed within ~50 ms by a key was read as Alt+key (the key landed in the
+    path field). Escape closes the Write prompt; the q after it quits (status 0)."""
+    tty = Tty(["view", str(sketches)], {})
+    tty.started()
+    tty.press(b"w")
+    tty.read(0.8)
+    tty.press(b"\x1b")
+    time.sleep(0.05)
+    tty.press(b"q")
+    assert tty.wait(8.0) == 0
+    _restored(tty.out)

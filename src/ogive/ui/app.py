@@ -11,7 +11,10 @@ the panes draw the workspace through ``ogive.render``.
 from __future__ import annotations
 
 import asyncio
+import os
 import signal
+import sys
+import threading
 import time
 from collections.abc import Callable, Sequence
 from pathlib import Path
@@ -21,6 +24,7 @@ from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Container, VerticalScroll
+from textual.driver import Driver
 from textual.filter import Monochrome, NoColor
 from textual.message import Message
 from textual.screen import Screen
@@ -49,6 +53,15 @@ MIN_WIDTH, MIN_HEIGHT = 60, 15
 """The smallest window the workspace draws in (a picture needs 40×12 cells, plus the lines around it)."""
 COMPACT_BELOW = 23
 """Fewer lines than this: one pane at a time, the list (d) or a pane (g f c t), without the key bar."""
+
+
+def on_time_driver() -> type[Driver] | None:
+    """Our driver where textual would use its Linux one (any POSIX terminal), else textual's choice."""
+    if os.name != "posix":
+        return None
+    from .driver import OnTimeEscapeDriver
+
+    return OnTimeEscapeDriver
 
 
 class WorkspaceScreen(Screen[None]):
@@ -137,7 +150,8 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
         ascii_only: bool | None = None,
     ) -> None:
         colourless = terminal.no_color()  # read before textual's App takes NO_COLOR out of the environment
-        super().__init__()
+        terminal.set_escape_delay()
+        super().__init__(driver_class=on_time_driver())
         if colourless or self.no_color:
             # textual turns colours into greys (256-colour codes); NO_COLOR asks for none at all.
             self._filters = [f for f in self._filters if not isinstance(f, Monochrome | NoColor)]
@@ -184,15 +198,29 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
     def run_for_status(self) -> int:
         """Run the workspace; the process's exit status: 0 after a quit, 130 after ctrl+c twice
         (or SIGINT), 128+N after signal N, 1 when the app itself failed (never 0 then)."""
-        self.run()
-        return self.return_code if self.return_code is not None else 1
+        # Our own loop: asyncio.run (textual's default) waits for every thread worker before it
+        # returns, and a fit cannot be interrupted (scipy holds its thread for seconds): q would
+        # leave the terminal restored but the process alive until the fit ended.
+        loop = asyncio.new_event_loop()
+        asyncio.set_event_loop(loop)
+        try:
+            self.run(loop=loop)
+        finally:
+            loop.close()
+        status = self.return_code if self.return_code is not None else 1
+        busy = [t for t in threading.enumerate() if t is not threading.main_thread() and not t.daemon]
+        if busy:
+            # Python would also wait for them at exit; the terminal is already given back: end now.
+            sys.stdout.flush()
+            sys.stderr.flush()
+            os._exit(status)
+        return status
 
     def on_mount(self) -> None:
         ws = self.workspace_screen
         self.set_class(self.ascii_only, "-ascii")
         ws.query_one(FeedStatus).ascii_only = self.ascii_only
         self.set_class(self.no_color, "-nocolor")
-        terminal.set_escape_delay()
         self._catch_signals()
         self.app_resume_signal.subscribe(self, self._resumed)
         ws.query_one("#shelf").border_title = "Distributions"

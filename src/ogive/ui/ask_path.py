@@ -29,6 +29,9 @@ class OnceScreen(ModalScreen[T]):
         if self._answered or not self.is_current:
             return
         self._answered = True
+        # Keys already on their way (typed right after escape or enter) must not land in this
+        # prompt's field: with nothing focused they reach the workspace's own bindings.
+        self.set_focus(None)
         self.dismiss(value)
 
 
