@@ -180,7 +180,7 @@ async def test_ctrl_c_stops_scans_first_then_quits_with_130(log: Path) -> None:
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.press("ctrl+c")
         await pilot.pause(0.2)
-        assert all(j.cancel.is_set() for j in app.ws.jobs)
+        assert all(j.cancel.is_set() or j.done for j in app.ws.jobs)  # a fast scan may be done already
         assert "ctrl+c again" in screen_text(app).replace("\n", " ")
         assert app.is_running
         await pilot.press("ctrl+c")
@@ -394,3 +394,17 @@ async def test_escape_sequences_in_group_names_are_shown_not_obeyed(tmp_path: Pa
             assert not any(ch in text for ch in "\x1b\x07"), pane
         assert "\\x1b]0;title\\x07h" in screen_text(app).split("╮")[0] + screen_text(app)
         await _alive(app, pilot)
+
+
+async def test_a_crash_of_the_app_itself_is_a_non_zero_status(
+    pair: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Issue 21: a crash exited 0. The app's own failure (here: a key's action raising) gives 1."""
+    monkeypatch.setattr(OgiveApp, "action_cycle_axes", _boom)
+    app = OgiveApp([str(pair)], families=FAST)
+    with pytest.raises(OverflowError):
+        async with app.run_test(size=(80, 24)) as pilot:
+            await _quiet(app, pilot)
+            await pilot.press("l")
+            await pilot.pause(0.3)
+    assert app.return_code == 1

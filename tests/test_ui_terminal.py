@@ -199,3 +199,22 @@ def test_escape_then_a_key_50_ms_later_is_two_keys(sketches: Path) -> None:
     tty.press(b"q")
     assert tty.wait(8.0) == 0
     _restored(tty.out)
+
+
+def test_suspend_and_resume_redraw_the_screen(sketches: Path) -> None:
+    """Issue 21: after ctrl+z and fg the screen stayed blank until a key. SIGTSTP gives the
+    terminal back (alternate screen left); SIGCONT takes it again and draws the whole screen."""
+    tty = Tty(["view", str(sketches)], {})
+    tty.started()
+    mark = len(tty.out)
+    os.kill(tty.proc.pid, signal.SIGTSTP)
+    tty.read(1.5)
+    assert b"\x1b[?1049l" in tty.out[mark:]
+    mark = len(tty.out)
+    os.kill(tty.proc.pid, signal.SIGCONT)
+    tty.read(3.0, until=b"Quit")
+    tty.read(0.5)
+    resumed = tty.out[mark:]
+    assert b"\x1b[?1049h" in resumed and b"Quit" in resumed and b"Distributions" in resumed
+    tty.press(b"q")
+    assert tty.wait() == 0

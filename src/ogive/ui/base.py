@@ -53,6 +53,8 @@ class WorkspaceBase(App[int]):
     @property
     def _gone(self) -> bool:
         """True once the workspace screen is gone (quitting): late worker results are dropped."""
+        if not self.screen_stack:
+            return True  # shutting down: a timer's last tick finds no screen at all
         screen = self.workspace_screen
         return not screen.is_attached or not screen.query(FeedStatus)
 
