@@ -182,7 +182,7 @@ async def test_help_lists_every_key(pair: tuple[Path, Path, np.ndarray, np.ndarr
         keys = [k for _, rows in app.screen.groups for k, _ in rows]
         for binding in OgiveApp.BINDINGS:
             key = binding.key if hasattr(binding, "key") else binding[0]  # type: ignore[index]
-            shown = {"question_mark": "?"}.get(key, key)
+            shown = {"question_mark": "?", "exclamation_mark": "!"}.get(key, key)
             assert any(shown in k for k in keys), key
         await pilot.press("escape")
         await pilot.pause(0.1)

@@ -39,13 +39,23 @@ async def test_snapshot(state: str) -> None:
         _check(f"{state}_80x24", screen_text(app))
 
 
-async def _settled(pilot: object, app: OgiveApp) -> None:
+@pytest.mark.parametrize(("size", "ascii_only"), [((60, 15), False), ((50, 12), False), ((80, 24), True)])
+async def test_snapshot_sizes_and_ascii(size: tuple[int, int], ascii_only: bool) -> None:
+    """Issue 21: the compact window (60×15), the sentence below it, and the ASCII screen."""
+    app = OgiveApp([], ascii_only=ascii_only)
+    async with app.run_test(size=size) as pilot:
+        await _settled(pilot, app, footer=size[1] >= 23)
+        name = f"empty_{size[0]}x{size[1]}" + ("_ascii" if ascii_only else "")
+        _check(name, screen_text(app))
+
+
+async def _settled(pilot: object, app: OgiveApp, *, footer: bool = True) -> None:
     """Wait until two captures 0.1 s apart agree (up to 5 s): a loaded CI machine can take
     longer than a fixed pause to draw the key bar (seen: the footer missing at 0.2 s)."""
     previous = None
     for _ in range(50):
         await pilot.pause(0.1)  # type: ignore[attr-defined]
         text = screen_text(app)
-        if text == previous and "Quit" in text.splitlines()[-1]:
+        if text == previous and (not footer or "Quit" in text.splitlines()[-1]):
             return
         previous = text

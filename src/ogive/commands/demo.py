@@ -43,6 +43,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         default=None,
         help="use demo logs from this folder instead of the bundled ones",
     )
+    parser.add_argument("--ascii", action="store_true", help="plain ASCII pictures and borders")
 
 
 def demo_folder() -> Path:
@@ -99,10 +100,12 @@ def demo_options(path: Path) -> ScanOptions:
 
 
 def run(args: argparse.Namespace) -> int:
-    return demo_app(Path(args.folder) if args.folder else None).run() or 0
+    return demo_app(
+        Path(args.folder) if args.folder else None, ascii_only=True if args.ascii else None
+    ).run_for_status()
 
 
-def demo_app(folder: Path | None = None) -> OgiveApp:
+def demo_app(folder: Path | None = None, *, ascii_only: bool | None = None) -> OgiveApp:
     """The workspace on the demo pair, subject 'after' and reference 'before' (also what
     the README's screenshots are taken of, by a test)."""
     from ..ui import OgiveApp
@@ -135,6 +138,7 @@ def demo_app(folder: Path | None = None) -> OgiveApp:
         per_source=per_source,
         subject=_stem(after),
         reference=_stem(before),
+        ascii_only=ascii_only,
     )
 
 

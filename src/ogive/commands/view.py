@@ -26,7 +26,10 @@ the data cannot tell, not that nothing changed.
 EPILOG = """\
 keys: o open · 1/2 subject/reference · g f c t panes · v/V picture · l lin/log ·
       w write .ogive · e export report · x stop scans · s stop following ·
-      ? all keys · q quit
+      ! messages · ? all keys · q quit · ctrl+c stops scans, twice quits
+
+exit status: 0 after q, 130 after ctrl+c twice (or SIGINT), 129/143 after SIGHUP/SIGTERM,
+non-zero when the workspace itself failed.
 
 following a live log (the lines already there are read first, then what is appended):
   ogive view --follow /var/log/app.log --pattern 'dur=(\\S+)' --recent 5m
@@ -69,6 +72,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="with --follow: also show a sketch of only the last DURATION (30s, 5m, 1h) as its own row",
     )
     add_objective_option(parser)
+    parser.add_argument(
+        "--ascii",
+        action="store_true",
+        help="plain ASCII pictures and borders (chosen by itself under TERM=linux/vt100 or a non-UTF-8 "
+        "locale such as LC_ALL=C)",
+    )
     add_source_options(parser)
 
 
@@ -118,9 +127,10 @@ def run(args: argparse.Namespace) -> int:
         follow=args.follow,
         recent=args.recent,
         cluster=args.cluster,
+        ascii_only=True if args.ascii else None,
     )
     app.ws.objectives = objectives
-    return app.run() or 0
+    return app.run_for_status()
 
 
 def _options(args: argparse.Namespace) -> ScanOptions:

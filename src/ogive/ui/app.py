@@ -10,50 +10,72 @@ the panes draw the workspace through ``ogive.render``.
 
 from __future__ import annotations
 
+import asyncio
+import os
+import signal
+import sys
+import threading
 import time
 from collections.abc import Callable, Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, ClassVar
+from typing import ClassVar
 
 from textual import on, work
-from textual.app import App, ComposeResult
+from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Container, VerticalScroll
+from textual.driver import Driver
+from textual.filter import Monochrome, NoColor
+from textual.message import Message
 from textual.screen import Screen
 from textual.widgets import Footer, Static
 
-from ..errors import OgiveError
 from ..read.follow import FollowProgress, recent_name
 from ..read.options import ScanOptions, ScanProgress
-from ..sketch import Binned, Sketch, SketchSet
-from ..store import save_sketches
-from . import report, workers
-from .ask_path import AskPath
+from ..sketch import Binned, Sketch
+from . import terminal, workers
+from .actions import ActionsMixin
+from .analysis import AnalysisMixin
 from .fit_panel import ModelRanking
-from .help_overlay import KeyHelp
-from .keys import key_groups
 from .ladder_panel import LadderPanel
 from .messages import ScanEnded, ScanTick
-from .open_prompt import OpenPrompt, OpenRequest
 from .plot_panel import PlotPanel
 from .schedule import Scheduler
 from .shelf import DistributionShelf
 from .sources import open_source, without_windows
 from .state import ScanJob
-from .status_line import FeedStatus, headline
+from .status_line import FeedStatus
 from .timeline_panel import TimelinePanel
 from .timeline_study import study_change
-from .workspace import AXES, KIND_NAMES, KINDS, LINEUP_WORDS, LINEUPS, Workspace
+from .workspace import Workspace
 
-if TYPE_CHECKING:
-    from ..fit.compare import Comparison
-    from ..fit.models import FitReport
-    from ..fit.timeline import Timeline
-
-PANES = ("picture", "models", "ladder", "timeline")
+MIN_WIDTH, MIN_HEIGHT = 60, 15
+"""The smallest window the workspace draws in (a picture needs 40×12 cells, plus the lines around it)."""
+COMPACT_BELOW = 23
+"""Fewer lines than this: one pane at a time, the list (d) or a pane (g f c t), without the key bar."""
 
 
-class OgiveApp(App[int]):
+def on_time_driver() -> type[Driver] | None:
+    """Our driver where textual would use its Linux one (any POSIX terminal), else textual's choice."""
+    if os.name != "posix":
+        return None
+    from .driver import OnTimeEscapeDriver
+
+    return OnTimeEscapeDriver
+
+
+class WorkspaceScreen(Screen[None]):
+    """The default screen; it tells the app when the window changes size (the app's own resize
+    handler stops the event before it reaches ours)."""
+
+    class Resized(Message):
+        """The window has a new size."""
+
+    def on_resize(self) -> None:
+        self.post_message(self.Resized())
+
+
+class OgiveApp(ActionsMixin, AnalysisMixin):
     """Distributions on the left or top; the picture, the model ranking and the ladder beside them.
 
     | Key | Action |
@@ -74,15 +96,19 @@ class OgiveApp(App[int]):
     | e | Export a report of the screen (Markdown and JSON). |
     | x | Stop every running scan (what was read stays, marked partial). |
     | s | Stop following the growing file (what was read stays, ready). |
+    | d | Show the Distributions list (in a window under 23 lines it takes the panes' place). |
+    | ! | Show every message said in the status line, whole. |
     | ? | Show every key. |
-    | q / ctrl+q | Quit. |
+    | ctrl+c | Stop every running scan; a second ctrl+c within 3 s quits (status 130). |
+    | ctrl+z | Suspend to the shell (fg brings the workspace back, redrawn). |
+    | q / ctrl+q | Quit (status 0). |
     """
 
     CSS_PATH = "ogive.tcss"
     ENABLE_COMMAND_PALETTE = False
     TITLE = "ogive"
     HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (130, "-wide")]  # noqa: RUF012 -- textual's own ClassVar
-    VERTICAL_BREAKPOINTS = [(0, "-short"), (36, "-tall")]  # noqa: RUF012
+    VERTICAL_BREAKPOINTS = [(0, "-compact"), (COMPACT_BELOW, "-short"), (36, "-tall")]  # noqa: RUF012
 
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("o", "open", "Open"),
@@ -99,6 +125,10 @@ class OgiveApp(App[int]):
         Binding("x", "stop_scans", "Stop", show=False),
         Binding("s", "stop_follow", "Stop following", show=False),
         Binding("question_mark", "help", "Keys"),
+        Binding("exclamation_mark", "messages", "Messages", show=False),
+        Binding("d", "pane('list')", "List", show=False),
+        Binding("ctrl+c", "interrupt", "Interrupt", show=False, priority=True),
+        Binding("ctrl+z", "suspend_process", "Suspend", show=False),
         Binding("q", "quit", "Quit"),
         Binding("ctrl+q", "quit", "Quit", show=False),
     ]
@@ -117,9 +147,19 @@ class OgiveApp(App[int]):
         recent: str | None = None,
         clock: Callable[[], float] = time.time,
         cluster: str | None = None,
+        ascii_only: bool | None = None,
     ) -> None:
-        super().__init__()
-        self.ws = Workspace(wanted_subject=subject, wanted_reference=reference)
+        colourless = terminal.no_color()  # read before textual's App takes NO_COLOR out of the environment
+        terminal.set_escape_delay()
+        super().__init__(driver_class=on_time_driver())
+        if colourless or self.no_color:
+            # textual turns colours into greys (256-colour codes); NO_COLOR asks for none at all.
+            self._filters = [f for f in self._filters if not isinstance(f, Monochrome | NoColor)]
+            self._filters.append(NoColor())
+        self._filters.append(terminal.ControlFilter())  # no control character reaches the terminal
+        self.ascii_only = terminal.wants_ascii() if ascii_only is None else ascii_only
+        """ASCII canvas and plain borders (``view --ascii``, or a terminal/locale without Unicode)."""
+        self.ws = Workspace(wanted_subject=subject, wanted_reference=reference, ascii_only=self.ascii_only)
         """What is on screen, as data (the report and the tests read it too)."""
         self.initial_sources = list(sources)
         self.options = options or ScanOptions()
@@ -139,9 +179,11 @@ class OgiveApp(App[int]):
         self.pane = "picture"
         self.schedule = Scheduler()
         self._dirty = False
+        self.messages = []
 
     # ------------------------------------------------------------------ layout
     def compose(self) -> ComposeResult:
+        yield Static("", id="too-small")
         yield Static("", id="headline")
         with Container(id="body"):
             yield DistributionShelf(id="shelf")
@@ -153,13 +195,34 @@ class OgiveApp(App[int]):
         yield FeedStatus(id="status")
         yield Footer()
 
-    @property
-    def workspace_screen(self) -> Screen[Any]:
-        """The workspace screen: widgets are looked up there even while a dialog is on top."""
-        return self.screen_stack[0] if self.screen_stack else self.screen
+    def run_for_status(self) -> int:
+        """Run the workspace; the process's exit status: 0 after a quit, 130 after ctrl+c twice
+        (or SIGINT), 128+N after signal N, 1 when the app itself failed (never 0 then)."""
+        # Our own loop: asyncio.run (textual's default) waits for every thread worker before it
+        # returns, and a fit cannot be interrupted (scipy holds its thread for seconds): q would
+        # leave the terminal restored but the process alive until the fit ended.
+        loop = asyncio.new_event_loop()
+        asyncio.set_event_loop(loop)
+        try:
+            self.run(loop=loop)
+        finally:
+            loop.close()
+        status = self.return_code if self.return_code is not None else 1
+        busy = [t for t in threading.enumerate() if t is not threading.main_thread() and not t.daemon]
+        if busy:
+            # Python would also wait for them at exit; the terminal is already given back: end now.
+            sys.stdout.flush()
+            sys.stderr.flush()
+            os._exit(status)
+        return status
 
     def on_mount(self) -> None:
         ws = self.workspace_screen
+        self.set_class(self.ascii_only, "-ascii")
+        ws.query_one(FeedStatus).ascii_only = self.ascii_only
+        self.set_class(self.no_color, "-nocolor")
+        self._catch_signals()
+        self.app_resume_signal.subscribe(self, self._resumed)
         ws.query_one("#shelf").border_title = "Distributions"
         ws.query_one("#models").border_title = "Models (fit to subject)"
         ws.query_one("#ladder").border_title = "Quantile ladder"
@@ -170,10 +233,20 @@ class OgiveApp(App[int]):
         ws.query_one(DistributionShelf).focus()
 
     # ------------------------------------------------------------------ opening and scanning
-    def open(self, source: str, options: ScanOptions, *, follow: bool = False) -> None:
-        """A .ogive file loads at once; a log is scanned (or followed) in the background."""
+    def open(self, source: str, options: ScanOptions, *, follow: bool = False) -> str:
+        """A .ogive file loads at once; a log is scanned (or followed) in the background.
+
+        Returns why nothing could be opened ('' when rows or a scan came of it), so the
+        Open prompt can stay open with the reason.
+        """
         order, recent = self.ws.next_order(), self.recent
-        got = open_source(source, options, order=order, follow=follow, recent=recent, cluster=self.cluster)
+        try:
+            got = open_source(
+                source, options, order=order, follow=follow, recent=recent, cluster=self.cluster
+            )
+        except Exception as exc:  # whatever opening a name raises, the workspace stays
+            self.say(f"cannot open {source}: {type(exc).__name__}: {exc}")
+            return self.messages[-1][1]
         if got.rows:
             self.ws.add_rows(got.rows)
             self.request_analysis()
@@ -185,8 +258,9 @@ class OgiveApp(App[int]):
         if got.message:
             self.say(got.message)
         self.refresh_all()
+        return got.message if not got.rows and got.job is None else ""
 
-    @work(thread=True, exclusive=False, group="scan")
+    @work(thread=True, exclusive=False, group="scan", exit_on_error=False)
     def scan_worker(self, job: ScanJob) -> None:
         """Runs :func:`.workers.run_scan`; copies of the sketches reach the screen ~2×/s."""
         from textual.worker import get_current_worker
@@ -199,10 +273,20 @@ class OgiveApp(App[int]):
         def tick(p: ScanProgress, sketches: dict[str, Sketch | Binned]) -> None:
             self.post_message(ScanTick(job, p, sketches))
 
-        end = workers.run_scan(job, tick=tick, cancelled=cancelled, clock=self.clock)
+        try:
+            end = workers.run_scan(job, tick=tick, cancelled=cancelled, clock=self.clock)
+        except Exception as exc:  # run_scan catches its own; this is the last net
+            end = workers.failure("the scan", exc)
         self.post_message(ScanEnded(job, end))
 
     def on_scan_tick(self, msg: ScanTick) -> None:
+        try:
+            self._tick(msg)
+        except Exception as exc:  # a tick that cannot be taken ends that scan, not the workspace
+            msg.job.cancel.set()
+            self.say(f"{Path(msg.job.source).name}: {workers.failure('the scan', exc).note}")
+
+    def _tick(self, msg: ScanTick) -> None:
         job, p = msg.job, msg.progress
         job.bytes_read, job.bytes_total = p.bytes_read, p.bytes_total
         job.rows, job.values, job.elapsed_s = p.rows, p.values, p.elapsed_s
@@ -219,6 +303,16 @@ class OgiveApp(App[int]):
         self._take(job, msg.sketches, state="following" if job.follow else "scanning", note="")
 
     def on_scan_ended(self, msg: ScanEnded) -> None:
+        try:
+            self._ended(msg)
+        except Exception as exc:  # its rows stay, marked; the workspace goes on
+            note = workers.failure("taking the scan's result", exc).note
+            msg.job.done = True
+            self.ws.fail_job(msg.job, note)
+            self.say(f"{Path(msg.job.source).name}: {note}")
+            self.refresh_all()
+
+    def _ended(self, msg: ScanEnded) -> None:
         job, end = msg.job, msg.end
         job.done = True
         job.bytes_read, job.elapsed_s = end.bytes_read or job.bytes_read, end.elapsed_s or job.elapsed_s
@@ -226,6 +320,7 @@ class OgiveApp(App[int]):
         name = Path(job.source).name
         note = f" ({end.note})" if end.note else ""
         if end.failed:
+            self.ws.fail_job(job, end.note)  # its rows so far stay, marked !
             self.say(f"{name}: {end.note}")
         elif job.follow:
             # Stopping is how a follow ends: what was read is a whole answer, not a partial one.
@@ -234,8 +329,43 @@ class OgiveApp(App[int]):
         else:
             state = "partial" if job.cancel.is_set() or "partial" in end.note else "ready"
             self._take(job, end.sketches, state=state, note=end.note)
-            self.say(f"{name}: scan {'stopped' if state == 'partial' else 'done'}{note}")
+            again = "ctrl+c again quits; " if self.interrupt_pending else ""
+            self.say(f"{again}{name}: scan {'stopped' if state == 'partial' else 'done'}{note}")
         self.request_analysis()
+        self.refresh_all()
+
+    # ------------------------------------------------------------------ signals and resuming
+    def _catch_signals(self) -> None:
+        """SIGTERM, SIGHUP (the SSH link dropping) and SIGINT end the app through its own exit,
+        so the terminal is given back (alternate screen left, cursor shown, mouse reporting off)
+        and the status says which signal it was. Not under a test's headless pilot."""
+        if self.is_headless:
+            return
+        loop = asyncio.get_running_loop()
+        for name, status in terminal.SIGNAL_STATUS.items():
+            loop.add_signal_handler(getattr(signal, name), self.leave, status)
+
+    def get_default_screen(self) -> Screen[None]:
+        return WorkspaceScreen(id="_default")
+
+    def on_workspace_screen_resized(self) -> None:
+        """Below the smallest size, one sentence saying how large the window must be."""
+        width, height = self.size
+        small = width < MIN_WIDTH or height < MIN_HEIGHT
+        self.set_class(small, "-too-small")
+        status = self.workspace_screen.query_one(FeedStatus)
+        status.lines = 1 if height < COMPACT_BELOW else 2
+        self.call_after_refresh(self.refresh_all)  # the list's height follows the layout
+        if small:
+            self.workspace_screen.query_one("#too-small", Static).update(
+                f"Make the window at least {MIN_WIDTH}×{MIN_HEIGHT} (it is {width}×{height}); "
+                "ogive redraws as soon as it is. q quits."
+            )
+
+    def _resumed(self, _signal: object = None) -> None:
+        """Back from ctrl+z (``fg``): the terminal was given to the shell; draw everything again."""
+        self.refresh(repaint=True, layout=True)
+        self.screen.refresh(repaint=True, layout=True)
         self.refresh_all()
 
     def _take(self, job: ScanJob, sketches: dict[str, Sketch | Binned], *, state: str, note: str) -> None:
@@ -265,92 +395,6 @@ class OgiveApp(App[int]):
             self.request_analysis()
         self.refresh_all()
 
-    @on(ModelRanking.Picked)
-    def _picked_model(self, msg: ModelRanking.Picked) -> None:
-        if self.ws.set_reference_model(msg.index):
-            self.refresh_all()
-
-    @on(ModelRanking.RowHighlighted, "#models")
-    def _highlighted_model(self, msg: ModelRanking.RowHighlighted) -> None:
-        if self.ws.model_row != msg.cursor_row:
-            self.ws.model_row = msg.cursor_row
-            if self.ws.lineup:
-                self.workspace_screen.query_one(PlotPanel).redraw()  # the marked panel follows
-
-    # ------------------------------------------------------------------ analysis
-    def request_analysis(self, *, force_fit: bool = False) -> None:
-        plan = self.schedule.plan(self.ws, time.monotonic(), force_fit=force_fit)
-        if plan.fit:
-            self._start_fit()
-        if plan.compare:
-            self._start_compare()
-
-    def _start_fit(self) -> None:
-        subj = self.ws.subject_dist
-        if subj is None or not self.schedule.fit.claim():
-            return
-        self.schedule.fit_started_at(time.monotonic())
-        self.ws.fit_n = subj.sketch.count
-        self.fit_worker(subj.sketch, self.ws.generation, subj.name)
-
-    @work(thread=True, exclusive=True, group="fit")
-    def fit_worker(self, sketch: Sketch | Binned, generation: int, name: str) -> None:
-        """``fit_sketch`` off the screen's thread (scipy takes seconds to load)."""
-        result, note = workers.run_fit(sketch, self.families, name)
-        self.call_from_thread(self._fit_done, result, note, generation)
-
-    def _fit_done(self, result: FitReport | None, note: str, generation: int) -> None:
-        again = self.schedule.fit_ended_at(time.monotonic())
-        if self.ws.take_fit(result, note, generation):
-            self.refresh_all()
-        if again:
-            self._start_fit()
-
-    def _start_compare(self) -> None:
-        key = self.ws.compare_key()
-        if key is None or not self.schedule.compare.claim():
-            return
-        subj, ref = self.ws.dists[key[0]], self.ws.dists[key[1]]
-        self.compare_worker(ref.sketch, subj.sketch, key)
-
-    @work(thread=True, exclusive=True, group="compare")
-    def compare_worker(
-        self, reference: Sketch | Binned, subject: Sketch | Binned, key: tuple[str, str]
-    ) -> None:
-        result, note = workers.run_compare(reference, subject, (key[1], key[0]))
-        self.call_from_thread(self._compare_done, result, note, key)
-
-    def _compare_done(self, result: Comparison | None, note: str, key: tuple[str, str]) -> None:
-        again = self.schedule.compare.release()
-        if self.ws.take_comparison(result, note, key):
-            if self.ws.following:
-                # A follow brings a new comparison every tick: drawn with the next tick's
-                # refresh (one redraw per tick, not two; the screen is most of the cost).
-                self._dirty = True
-            else:
-                self.refresh_all()
-        if again:
-            self._start_compare()
-
-    # ------------------------------------------------------------------ the timeline
-    def request_timeline(self) -> None:
-        if self.schedule.plan_timeline(self.ws, time.monotonic()) and self.schedule.timeline.claim():
-            self.timeline_worker(dict(self.ws.timeline_input))
-
-    @work(thread=True, exclusive=True, group="timeline")
-    def timeline_worker(self, sketches: dict[str, Sketch]) -> None:
-        """``ogive timeline``'s analysis off the screen's thread (the change search takes a while)."""
-        result, note = workers.run_timeline(sketches)
-        self.call_from_thread(self._timeline_done, result, note)
-
-    def _timeline_done(self, result: Timeline | None, note: str) -> None:
-        again = self.schedule.timeline_ended_at(time.monotonic())
-        self.ws.take_timeline(result, note)
-        if not self._gone:
-            self.workspace_screen.query_one(TimelinePanel).show(self.ws)
-        if again:
-            self.request_timeline()
-
     @on(TimelinePanel.Chosen)
     def _study_change(self, msg: TimelinePanel.Chosen) -> None:
         study = study_change(self.ws, msg.index)
@@ -364,136 +408,3 @@ class OgiveApp(App[int]):
         self.request_analysis(force_fit=True)
         self.action_pane("ladder")
         self.refresh_all()
-
-    # ------------------------------------------------------------------ drawing
-    @property
-    def _gone(self) -> bool:
-        """True once the workspace screen is gone (quitting): late worker results are dropped."""
-        screen = self.workspace_screen
-        return not screen.is_attached or not screen.query(FeedStatus)
-
-    def _refresh_if_dirty(self) -> None:
-        if self._gone:
-            return
-        self.workspace_screen.query_one(FeedStatus).show_jobs(self.ws.jobs)
-        if self._dirty:
-            self._dirty = False
-            self.refresh_all()
-
-    def refresh_all(self) -> None:
-        if self._gone:
-            return
-        ws, screen = self.ws, self.workspace_screen
-        head = screen.query_one("#headline", Static)
-        ref = ws.reference
-        head.update(headline(ws.subject, ref.label if ref else None, max(head.size.width, 40)))
-        screen.query_one(DistributionShelf).show(ws)
-        screen.query_one(PlotPanel).show(ws)
-        screen.query_one(ModelRanking).show(ws, fitting=self.schedule.fit.busy)
-        screen.query_one(LadderPanel).show(ws)
-        screen.query_one(TimelinePanel).show(ws)
-        screen.query_one(FeedStatus).show_jobs(ws.jobs)
-
-    # ------------------------------------------------------------------ actions
-    def action_pane(self, pane: str) -> None:
-        self.pane = pane
-        screen = self.workspace_screen
-        for name in PANES:
-            screen.query_one(f"#{name}").set_class(name == pane, "-current")
-        # Wide screens show every pane; the timeline takes the picture's place when asked for.
-        screen.query_one("#picture").set_class(pane == "timeline", "-covered")
-        target = {"models": "#models", "ladder": "#ladder", "timeline": "#timeline"}.get(pane, "#shelf")
-        screen.query_one(target).focus()
-
-    def action_cycle_kind(self, step: int) -> None:
-        self.ws.kind = KINDS[(KINDS.index(self.ws.kind) + step) % len(KINDS)]
-        if self.pane != "picture":
-            self.action_pane("picture")
-        self.workspace_screen.query_one(PlotPanel).redraw()
-        self.say(f"picture: {KIND_NAMES[self.ws.kind]}")
-
-    def action_cycle_lineup(self) -> None:
-        self.ws.lineup = LINEUPS[(LINEUPS.index(self.ws.lineup) + 1) % len(LINEUPS)]
-        panel = self.workspace_screen.query_one(PlotPanel)
-        if self.ws.lineup and not panel.region.area:
-            self.action_pane("picture")  # only one pane below the rows: show the line-up
-        panel.redraw()
-        self.say(f"picture: {LINEUP_WORDS[self.ws.lineup]}")
-
-    def action_cycle_axes(self) -> None:
-        self.ws.axes = AXES[(AXES.index(self.ws.axes) + 1) % len(AXES)]
-        self.workspace_screen.query_one(PlotPanel).redraw()
-        self.say(f"value axes: {self.ws.axes}")
-
-    def action_open(self) -> None:
-        def opened(req: OpenRequest | None) -> None:
-            if req is not None:
-                self.open(req.path, req.options)
-
-        start = str(self.save_dir) + "/" if str(self.save_dir) != "." else ""
-        self.push_screen(OpenPrompt(start, self.options), opened)
-
-    def action_save(self) -> None:
-        def chosen(path: str | None) -> None:
-            if path:
-                self.save_to(path)
-
-        self.push_screen(
-            AskPath("Write sketches to (.ogive)", str(self.save_dir / "workspace.ogive")), chosen
-        )
-
-    def save_to(self, path: str) -> None:
-        # A followed sketch is written as it stands now: the file goes on growing, so
-        # there is no "finished" to wait for (the CLI's scan --follow -o does the same).
-        ready, busy = self.ws.finished()
-        if not ready:
-            self.say("nothing to write yet: no finished sketches.")
-            return
-        try:
-            save_sketches(path, SketchSet(dict(ready)))
-        except OgiveError as exc:
-            self.say(str(exc))
-            return
-        extra = f"; still scanning, not written: {', '.join(busy)}" if busy else ""
-        self.say(f"wrote {len(ready)} sketch(es) to {path}{extra}")
-
-    def action_export(self) -> None:
-        def chosen(path: str | None) -> None:
-            if path:
-                self.export_to(path)
-
-        title = "Export report to (.md; a .json is written beside it)"
-        self.push_screen(AskPath(title, str(self.save_dir / "ogive-report.md")), chosen)
-
-    def export_to(self, path: str) -> None:
-        try:
-            md, js = report.write(self.ws, self.workspace_screen.query_one(PlotPanel).lines, path)
-        except OgiveError as exc:
-            self.say(str(exc))
-            return
-        self.say(f"exported {md} and {js}")
-
-    def action_stop_scans(self) -> None:
-        running = [j for j in self.ws.jobs if not j.done]
-        for j in running:
-            j.cancel.set()
-        self.say(f"stopping {len(running)} scan(s)…" if running else "no scan is running.")
-
-    def action_stop_follow(self) -> None:
-        following = [j for j in self.ws.jobs if j.follow and not j.done]
-        for j in following:
-            j.cancel.set()
-        names = ", ".join(Path(j.source).name for j in following)
-        self.say(f"stopping: {names} (what was read stays)…" if following else "nothing is being followed.")
-
-    def action_help(self) -> None:
-        self.push_screen(KeyHelp(key_groups(type(self))))
-
-    async def action_quit(self) -> None:
-        for j in self.ws.jobs:
-            j.cancel.set()
-        self.exit(0)
-
-    def say(self, text: str) -> None:
-        if not self._gone:
-            self.workspace_screen.query_one(FeedStatus).message = text

@@ -1,8 +1,13 @@
-"""A small prompt for one path (where to save sketches, where to write a report)."""
+"""Small prompts: one path (where to save sketches, where to write a report), and a yes/no question.
+
+Both answer once: keys that arrive together (two enters in one read over a laggy link,
+a paste, a macro) reach the prompt after it has already answered, and are dropped
+instead of closing the screen beneath it.
+"""
 
 from __future__ import annotations
 
-from typing import ClassVar
+from typing import ClassVar, TypeVar
 
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
@@ -12,8 +17,25 @@ from textual.widgets import Input, Static
 
 from .path_input import PathInput
 
+T = TypeVar("T")
 
-class AskPath(ModalScreen[str | None]):
+
+class OnceScreen(ModalScreen[T]):
+    """A modal screen whose answer is given at most once (later keys of a burst are ignored)."""
+
+    _answered = False
+
+    def answer(self, value: T) -> None:
+        if self._answered or not self.is_current:
+            return
+        self._answered = True
+        # Keys already on their way (typed right after escape or enter) must not land in this
+        # prompt's field: with nothing focused they reach the workspace's own bindings.
+        self.set_focus(None)
+        self.dismiss(value)
+
+
+class AskPath(OnceScreen[str | None]):
     """Ask for a path; enter accepts, escape cancels.
 
     | Key | Action |
@@ -42,7 +64,35 @@ class AskPath(ModalScreen[str | None]):
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
         value = event.value.strip()
-        self.dismiss(value or None)
+        self.answer(value or None)
 
     def action_cancel(self) -> None:
-        self.dismiss(None)
+        self.answer(None)
+
+
+class Confirm(OnceScreen[bool]):
+    """A yes/no question (replace a file that exists?); anything but y is no.
+
+    | Key | Action |
+    | :- | :- |
+    | y | Yes. |
+    | n / escape | No. |
+    """
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("y", "choose(True)", "Yes"),
+        Binding("n", "choose(False)", "No"),
+        Binding("escape", "choose(False)", "No", show=False),
+    ]
+
+    def __init__(self, question: str) -> None:
+        super().__init__()
+        self.question = question
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="dialog"):
+            yield Static(self.question, classes="dialog-title")
+            yield Static("y: yes · n or escape: no", classes="dialog-hint")
+
+    def action_choose(self, yes: bool) -> None:
+        self.answer(yes)

@@ -7,8 +7,9 @@ so it cannot drift from the bindings (a test checks that every binding is listed
 
 from __future__ import annotations
 
-from .ask_path import AskPath
+from .ask_path import AskPath, Confirm
 from .fit_panel import ModelRanking
+from .help_overlay import MessageLog
 from .open_prompt import OpenPrompt
 from .path_input import PathInput
 from .shelf import DistributionShelf
@@ -39,4 +40,6 @@ def key_groups(app_class: type) -> list[tuple[str, KeyRows]]:
         ("Open prompt", key_table(OpenPrompt)),
         ("Path fields", key_table(PathInput)),
         ("Write / export prompt", key_table(AskPath)),
+        ("Replace? question", key_table(Confirm)),
+        ("Messages (!)", key_table(MessageLog)),
     ]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import dataclasses
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import ClassVar
 
@@ -12,7 +13,6 @@ from textual import events, work
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical
-from textual.screen import ModalScreen
 from textual.suggester import SuggestFromList
 from textual.timer import Timer
 from textual.widgets import Input, Label, Static
@@ -20,6 +20,7 @@ from textual.widgets import Input, Label, Static
 from ..errors import OgiveError
 from ..read.options import ScanOptions
 from . import preview
+from .ask_path import OnceScreen
 from .path_input import PathInput
 
 FORMATS = ("auto", "csv", "tsv", "ndjson", "text", "access", "syslog", "otlp", "parquet")
@@ -32,8 +33,12 @@ class OpenRequest:
     options: ScanOptions
 
 
-class OpenPrompt(ModalScreen[OpenRequest | None]):
+class OpenPrompt(OnceScreen[OpenRequest | None]):
     """Open a file: type its path, say how to read it, check the preview, press enter.
+
+    With ``attempt``, enter opens the file through it and the prompt stays open with the
+    reason (and the path as typed) when the file cannot be opened; without it, the request
+    is the prompt's answer.
 
     | Key | Action |
     | :- | :- |
@@ -58,10 +63,18 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
     ]  # fmt: skip
     """Rows of (ScanOptions field, label, what it means) below the path."""
 
-    def __init__(self, start: str = "", base: ScanOptions | None = None) -> None:
+    def __init__(
+        self,
+        start: str = "",
+        base: ScanOptions | None = None,
+        *,
+        attempt: Callable[[OpenRequest], str] | None = None,
+    ) -> None:
         super().__init__()
         self.start = start
         self.base = base or ScanOptions()
+        self.attempt = attempt
+        """Opens a request; returns why it could not be opened ('' when it was)."""
         self._debounce: Timer | None = None
 
     def compose(self) -> ComposeResult:
@@ -158,6 +171,8 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
             self.query_one("#open-preview", Static).update(Group(*parts))
 
     def on_input_submitted(self, _event: Input.Submitted) -> None:
+        if self._answered:
+            return  # the second enter of a burst: the file is already being opened
         if not self.path:
             self._say("a path is needed")
             return
@@ -166,11 +181,22 @@ class OpenPrompt(ModalScreen[OpenRequest | None]):
             self._say(f"format must be one of {', '.join(FORMATS)}")
             return
         options = self._checked_options()
-        if options is not None:
-            self.dismiss(OpenRequest(self.path, options))
+        if options is None:
+            return
+        request = OpenRequest(self.path, options)
+        if self.attempt is not None:
+            failed = self.attempt(request)
+            if failed:
+                if self._debounce is not None:
+                    self._debounce.stop()  # the preview must not cover the reason
+                self._say(preview.in_dialog_words(failed))
+                return
+            self.answer(None)
+            return
+        self.answer(request)
 
     def action_cancel(self) -> None:
-        self.dismiss(None)
+        self.answer(None)
 
 
 def _id(key: str) -> str:

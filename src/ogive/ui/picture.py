@@ -7,6 +7,7 @@ exactly as ``ogive plot`` does; a test holds the two pictures equal for every ki
 
 from __future__ import annotations
 
+from ..errors import printable
 from ..fit.curves import plot_inputs
 from ..fit.lineup import lineup_inputs
 from ..render import PlotLines, draw
@@ -40,14 +41,24 @@ def draw_picture(ws: Workspace, *, width: int, height: int) -> PlotLines:
             # have imported it, rather than import it here on the screen's thread.
             raise NoPicture("The comparison is not ready yet.")
         data = plot_inputs(
-            ws.kind, subj.sketch, ref_dist.sketch, subject_label=subj.name, reference_label=ref_dist.name
+            ws.kind,
+            subj.sketch,
+            ref_dist.sketch,
+            subject_label=printable(subj.name),
+            reference_label=printable(ref_dist.name),
         )
     else:
         if ws.kind == "shift":
             raise NoPicture("The shift function compares two sketches; pick a sketch as reference.")
         assert ref.model is not None
-        data = plot_inputs(ws.kind, subj.sketch, ref.model, subject_label=subj.name, reference_label=ref.name)
-    return draw(ws.kind, data, width=width, height=height, log=ws.log_axes)
+        data = plot_inputs(
+            ws.kind,
+            subj.sketch,
+            ref.model,
+            subject_label=printable(subj.name),
+            reference_label=printable(ref.name),
+        )
+    return draw(ws.kind, data, width=width, height=height, log=ws.log_axes, ascii_only=ws.ascii_only)
 
 
 def _lineup(ws: Workspace, *, width: int, height: int) -> PlotLines:
@@ -61,10 +72,14 @@ def _lineup(ws: Workspace, *, width: int, height: int) -> PlotLines:
     models, marked = ws.lineup_models()
     if ws.lineup == "one-axis":
         lineup = lineup_inputs(
-            "detrended", subj.sketch, models, subject_label=subj.name, rank_key=ws.fit.rank_key
+            "detrended", subj.sketch, models, subject_label=printable(subj.name), rank_key=ws.fit.rank_key
         )
-        return one_axis_plot(lineup, width=width, height=height, marked=marked)
+        return one_axis_plot(lineup, width=width, height=height, marked=marked, ascii_only=ws.ascii_only)
     if ws.kind == "shift":
         raise NoPicture("A line-up reads the subject against models; the shift function needs two sketches.")
-    lineup = lineup_inputs(ws.kind, subj.sketch, models, subject_label=subj.name, rank_key=ws.fit.rank_key)
-    return lineup_plot(lineup, width=width, height=height, log=ws.log_axes, marked=marked)
+    lineup = lineup_inputs(
+        ws.kind, subj.sketch, models, subject_label=printable(subj.name), rank_key=ws.fit.rank_key
+    )
+    return lineup_plot(
+        lineup, width=width, height=height, log=ws.log_axes, marked=marked, ascii_only=ws.ascii_only
+    )

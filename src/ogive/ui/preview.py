@@ -18,6 +18,7 @@ from ..numbers import count, number, size
 from ..read import ScanOptions, ScanProgress, ScanResult, scan
 from ..read.sources import Opened
 from ..store import load_ref, sketch_ref
+from .sources import not_a_sketch
 
 PREVIEW_BYTES = 64 * 1024
 PREVIEW_CHUNK = 16 * 1024
@@ -81,6 +82,9 @@ def describe(path: str, options: ScanOptions) -> str:
     p = Path(path).expanduser()
     if p.is_dir():
         return f"{path} is a folder; keep typing (tab completes)."
+    refused = not_a_sketch(str(p), options)
+    if refused:
+        return refused  # what enter would say: the prompt and the open agree
     ref = sketch_ref(str(p))
     if ref is None and not p.exists():
         return f"{path}: no such file yet."
@@ -88,11 +92,13 @@ def describe(path: str, options: ScanOptions) -> str:
         sset = load_ref(ref)
         rows = [f"{name}: n={count(s.count)} unit={s.unit or '-'}" for name, s in sset.sketches.items()]
         return f"sketch file with {len(rows)} sketch(es)\n" + "\n".join(rows[:8])
-    out = ["first lines:", *("  " + line for line in first_lines(str(p)))]
+    # What was parsed comes first: the dialog caps the preview's height, and the values line
+    # is the one the user must see (a long first line once pushed it out of sight).
     try:
-        out.extend(summarise_head(scan_head(str(p), options)))
+        out = summarise_head(scan_head(str(p), options))
     except OgiveError as exc:
-        out.append(in_dialog_words(str(exc)))
+        out = [in_dialog_words(str(exc))]
+    out.extend(["first lines:", *("  " + line for line in first_lines(str(p)))])
     return "\n".join(out)
 
 

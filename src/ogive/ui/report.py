@@ -95,12 +95,17 @@ def markdown(ws: Workspace, picture: list[str]) -> str:
     return "\n".join(out)
 
 
-def write(ws: Workspace, picture: list[str], path: str) -> tuple[Path, Path]:
-    """Write ``path`` (Markdown) and the same name with ``.json``; both atomically."""
+def targets(path: str) -> tuple[Path, Path]:
+    """The two files an export to ``path`` writes: the Markdown and the JSON beside it."""
     md = Path(path)
     if md.suffix.lower() != ".md":
         md = md.with_suffix(md.suffix + ".md") if md.suffix else md.with_suffix(".md")
-    js = md.with_suffix(".json")
+    return md, md.with_suffix(".json")
+
+
+def write(ws: Workspace, picture: list[str], path: str) -> tuple[Path, Path]:
+    """Write ``path`` (Markdown) and the same name with ``.json``; both atomically."""
+    md, js = targets(path)
     write_atomic(md, markdown(ws, picture).encode())
     write_atomic(js, (json.dumps(screen_state(ws, picture), indent=2) + "\n").encode())
     return md, js

@@ -5,12 +5,15 @@ from __future__ import annotations
 from typing import ClassVar
 
 from rich.text import Text
+from textual import events
 from textual.binding import Binding, BindingType
 from textual.message import Message
 from textual.widgets import DataTable
 
+from ..errors import printable
 from ..render.objectives import objective_cell
 from ..render.tables import distribution_table, table
+from .terminal import plain
 from .workspace import Workspace
 
 STATE_MARKS = {"scanning": "…", "following": "~", "partial": "!", "failed": "!"}
@@ -26,14 +29,28 @@ class DistributionShelf(DataTable[str | Text]):
     | Key | Action |
     | :- | :- |
     | up / down | Move the highlight. |
+    | pageup / pagedown | Move by the rows in sight. |
+    | home / end | First / last row. |
     | 1 | Make the highlighted distribution the subject. |
     | 2 | Make the highlighted distribution the reference. |
+    | / | Filter the rows: type part of a name (enter keeps the filter, escape clears it). |
     """
 
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("1", "pick('subject')", "Subject", show=True),
         Binding("2", "pick('reference')", "Ref", show=True),
+        Binding("slash", "filter", "Filter", show=False),
+        Binding("pagedown", "page(1)", "Page down", show=False),
+        Binding("pageup", "page(-1)", "Page up", show=False),
+        Binding("home", "first_last(0)", "First", show=False),
+        Binding("end", "first_last(-1)", "Last", show=False),
     ]
+
+    filter_text = ""
+    """Rows whose name holds this (case-insensitive) are shown; '' shows all."""
+    filtering = False
+    """Keys go to the filter (typed after /) instead of the workspace."""
+    _ws: Workspace | None = None
 
     class Picked(Message):
         """The user gave a distribution a role."""
@@ -49,20 +66,24 @@ class DistributionShelf(DataTable[str | Text]):
 
     def show(self, ws: Workspace) -> None:
         """Redraw the rows from the sketches as they are now, keeping the highlight."""
+        self._ws = ws
         keep = self.highlighted_name
         ref = ws.reference_dist
+        wanted = self.filter_text.lower()
+        shown = [d for d in ws.dists.values() if wanted in d.name.lower()]
+        self._title(len(shown), len(ws.dists))
         marked = [
             (
                 ("S" if d.name == ws.subject else "R" if ref is not None and d.name == ref.name else "")
-                + STATE_MARKS.get(d.state, ""),
-                d.name,
+                + plain(STATE_MARKS.get(d.state, ""), ws.ascii_only),
+                printable(d.name),
                 d.sketch,
             )
-            for d in ws.dists.values()
+            for d in shown
         ]
         t = distribution_table(marked, compact=True)
         if ws.objectives:  # one column per objective, read by the workspace (same words as the CLI)
-            reads = [ws.objective_checks(name) or [None] * len(ws.objectives) for _, name, _ in marked]
+            reads = [ws.objective_checks(d.name) or [None] * len(ws.objectives) for d in shown]
             rows = [(*r, *(objective_cell(c) for c in cs)) for r, cs in zip(t.rows, reads, strict=True)]
             extra = range(len(t.header), len(t.header) + len(ws.objectives))
             t = table((*t.header, *(o.text for o in ws.objectives)), rows, (*t.right, *extra))
@@ -76,9 +97,10 @@ class DistributionShelf(DataTable[str | Text]):
             )
         # Keep the highlight; at first, rest it on the subject (the last row of a long list
         # would otherwise be out of sight).
-        row = keep if keep is not None and keep in ws.dists else ws.subject
-        if row is not None and row in ws.dists:
-            self.move_cursor(row=list(ws.dists).index(row))
+        names = [d.name for d in shown]
+        row = keep if keep is not None and keep in names else ws.subject
+        if row is not None and row in names:
+            self.move_cursor(row=names.index(row))
 
     def _fit_height(self, rows: int) -> None:
         """As tall as its rows (a fixed height wasted two lines at 80x24), up to a cap.
@@ -87,9 +109,9 @@ class DistributionShelf(DataTable[str | Text]):
         refilled twice a second kept the screen from redrawing while a scan streamed.
         """
         screen = self.screen
-        if screen.has_class("-wide") and screen.has_class("-tall"):
+        if (screen.has_class("-wide") and screen.has_class("-tall")) or screen.has_class("-compact"):
             if self.styles.inline.has_rule("height"):
-                self.styles.inline.clear_rule("height")  # the grid of the wide layout decides
+                self.styles.inline.clear_rule("height")  # the grid (wide) or the whole body (compact) decides
                 self.refresh(layout=True)
             return
         cap = VISIBLE_ROWS["tall" if self.app.size.height >= 36 else "short"]
@@ -107,6 +129,49 @@ class DistributionShelf(DataTable[str | Text]):
         except Exception:  # no rows or cursor outside after a clear
             return None
         return None if key.value is None else str(key.value)
+
+    def _title(self, shown: int, total: int) -> None:
+        if self.filtering or self.filter_text:
+            typing = "_" if self.filtering else ""
+            self.border_subtitle = f"/{self.filter_text}{typing}  {shown} of {total}"
+        else:
+            self.border_subtitle = f"{total} rows, / filters" if total > VISIBLE_ROWS["short"] else ""
+
+    def action_filter(self) -> None:
+        self.filtering = True
+        self._redraw()
+
+    def _redraw(self) -> None:
+        if self._ws is not None:
+            self.show(self._ws)
+
+    def on_key(self, event: events.Key) -> None:
+        """While filtering, printable keys edit the filter (they are not the workspace's keys)."""
+        if not self.filtering:
+            return
+        if event.key == "escape":
+            self.filtering, self.filter_text = False, ""
+        elif event.key == "enter":
+            self.filtering = False
+        elif event.key == "backspace":
+            self.filter_text = self.filter_text[:-1]
+        elif event.is_printable and event.character:
+            self.filter_text += event.character
+        else:
+            return  # arrows and page keys still move the highlight
+        event.stop()
+        event.prevent_default()
+        self._redraw()
+
+    def action_page(self, step: int) -> None:
+        """By the rows in sight (the table's own page keys moved by its full virtual height)."""
+        in_sight = max(self.scrollable_content_region.height - 1, 1)  # the header line
+        target = min(max(self.cursor_row + step * in_sight, 0), max(self.row_count - 1, 0))
+        self.move_cursor(row=target)
+
+    def action_first_last(self, end: int) -> None:
+        if self.row_count:
+            self.move_cursor(row=0 if end == 0 else self.row_count - 1)
 
     def action_pick(self, role: str) -> None:
         name = self.highlighted_name

@@ -10,6 +10,7 @@ pane, and only the wholes beside them (``all``, the groups) are rows.
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -18,7 +19,7 @@ from ..read.options import ScanOptions
 from ..read.urls import has_glob, is_url
 from ..sketch import timekeys
 from ..sketch.distribution import Dist
-from ..store import load_ref, sketch_ref, source_stem
+from ..store import load_ref, sketch_ref, source_stem, split_group
 from .state import Distribution, ScanJob
 
 
@@ -38,6 +39,23 @@ def without_windows(sketches: dict[str, Dist]) -> dict[str, Dist]:
     return {n: s for n, s in sketches.items() if timekeys.parse_key(n) is None}
 
 
+def not_a_sketch(spec: str, options: ScanOptions) -> str:
+    """Why a name that says "saved sketch" (``*.ogive``) cannot be opened as one, or ''.
+
+    The one decision the Open prompt's preview and its enter both ask (they disagreed on an
+    empty or cut-short ``.ogive``: the preview refused it, enter scanned it as a log). A
+    format chosen in the prompt means "read it as a log", and is obeyed.
+    """
+    if options.format is not None or sketch_ref(spec) is not None:
+        return ""
+    path = split_group(spec)[0] if not spec.endswith(".ogive") else spec
+    if not path.endswith(".ogive") or not os.path.isfile(path):
+        return ""
+    size = os.path.getsize(path)
+    what = "empty" if size == 0 else f"not one ({size:,} bytes without the sketch-set header; cut short?)"
+    return f"{path} is named as a saved sketch but is {what}. Choose a format to read it as a log."
+
+
 def open_source(
     spec: str,
     options: ScanOptions,
@@ -52,6 +70,9 @@ def open_source(
     A followed log may not exist yet: following waits for it, as ``scan --follow`` does.
     A URL or a glob is left for the scan to open (and to say what is wrong with it).
     """
+    refused = not_a_sketch(spec, options)
+    if refused:
+        return Opened(message=refused)
     ref = sketch_ref(spec)
     if ref is not None:
         try:

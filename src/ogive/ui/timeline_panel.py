@@ -109,7 +109,9 @@ class TimelinePanel(Static, can_focus=True):
         self.lines = []
         chart_h = height - max(len(listed), 1)
         if chart_h >= MIN_HEIGHT and width >= MIN_WIDTH:
-            lines = chart_figure(t, t.streams[0], width=width, height=chart_h).lines()
+            lines = chart_figure(
+                t, t.streams[0], width=width, height=chart_h, ascii_only=ws.ascii_only
+            ).lines()
             self.lines = list(lines)
             parts.append(rich_text(lines))
         if not changes:

@@ -60,6 +60,16 @@ class ScanEnd:
     rotations: int = 0
 
 
+def failure(what: str, exc: BaseException) -> ScanEnd:
+    """A scan that ended on an exception the reader did not turn into a sentence: one line saying so.
+
+    The workspace keeps running and marks the scan's rows (``!``); the kind of error is
+    named so the line can be reported, and no traceback reaches the screen.
+    """
+    text = " ".join(str(exc).split())[:200] or "no detail"
+    return ScanEnd({}, f"{what} stopped on an unexpected {type(exc).__name__}: {text}", failed=True)
+
+
 Tick = Callable[[ScanProgress, dict[str, Sketch | Binned]], None]
 
 
@@ -125,6 +135,8 @@ def run_scan(
             result, rotations = scan([job.source], job.options, progress=progress, cancel=cancelled), 0
     except (OgiveError, ValueError) as exc:
         return ScanEnd({}, str(exc), failed=True)
+    except Exception as exc:  # any other: the workspace must outlive it (a marked row, one line)
+        return failure("the scan", exc)
     notes = list(result.warnings)
     if result.partial:
         notes.insert(0, f"partial: {result.partial}")

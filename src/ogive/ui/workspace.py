@@ -12,6 +12,8 @@ Role rules, in the order they apply:
   before.log after.log`` reads "after against before"), except that a subject named
   ``.../after/X`` is held against ``.../before/X`` when that row exists (a split by time
   and by group pairs each group with itself);
+* many groups of one source (``--by``): the largest group that has a ``before`` partner is
+  held against it, else the largest against the next largest (never the ``(other)`` bucket);
 * a lone subject is held against its best fitted model until a second row arrives;
 * a model reference belongs to the subject it was fitted to, and goes when the subject
   changes.
@@ -67,6 +69,44 @@ def partner(name: str) -> str | None:
     return _AFTER.sub(lambda m: f"{m.group(1)}before", name, count=1)
 
 
+SPAN_PROBS = (0.001, 0.999)
+"""Where a reference model's quantiles are held against the data's (the picture's axis ends)."""
+SPAN_FACTOR = 10.0
+"""A model whose p0.1 or p99.9 is more than this factor away from the data's would stretch the
+picture's value axis by a decade or more beyond the data (common practice for a readable Q-Q)."""
+
+
+def reference_model(report: FitReport, sketch: Sketch | Binned) -> Candidate | None:
+    """The model a lone subject is held against: the best-ranked one (by the key the data
+    supports, ``fit_sketch``'s ``auto``) that converged and whose p0.1 and p99.9 stay within
+    :data:`SPAN_FACTOR` of the data's; the best-ranked one when none does.
+
+    Chosen once, when the scan is complete: the app does not call this for a partial scan,
+    and a later refit keeps the family (so the reference does not flip as data arrives).
+    """
+    import numpy as np
+
+    if not report.models:
+        return None
+    probs = np.array(SPAN_PROBS)
+    lo, hi = (float(v) for v in sketch.quantile(probs))
+    for cand in report.models:
+        if not cand.ok:
+            continue
+        try:
+            m_lo, m_hi = (float(v) for v in cand.ppf(probs))
+        except (ValueError, ArithmeticError):
+            continue
+        if lo > 0 and hi > 0 and m_lo > 0 and m_hi > 0:
+            near = max(lo / m_lo, m_lo / lo, hi / m_hi, m_hi / hi) <= SPAN_FACTOR
+        else:  # values around or below zero: compare on the data's own spread
+            spread = max(hi - lo, 1e-300)
+            near = abs(m_lo - lo) <= SPAN_FACTOR * spread and abs(m_hi - hi) <= SPAN_FACTOR * spread
+        if near:
+            return cand
+    return report.models[0]
+
+
 @dataclass
 class Workspace:
     """Everything the workspace shows, as data."""
@@ -116,6 +156,8 @@ class Workspace:
     """``view --objective``: read on every row (Distributions) and on the pair in the ladder."""
     objective_memo: dict[tuple[str, str], tuple[int, ObjectiveCheck | None]] = field(default_factory=dict)
     """(n, check) by (row, objective): a row is read again only when it grew."""
+    ascii_only: bool = False
+    """Draw with ASCII only (a terminal or locale without Unicode, or ``view --ascii``)."""
 
     # ------------------------------------------------------------------ queries
     def objective_checks(self, name: str) -> list[ObjectiveCheck | None] | None:
@@ -255,15 +297,26 @@ class Workspace:
             name, k = f"{base}#{k}", k + 1
         return name
 
+    def fail_job(self, job: ScanJob, note: str) -> None:
+        """A scan failed: the rows it had filled keep what they hold, marked failed with the reason."""
+        for d in self.dists.values():
+            if d.job is job:
+                d.state, d.note = "failed", note
+
     # ------------------------------------------------------------------ roles
     def auto_roles(self) -> None:
         """Apply the role rules of the module text to the rows as they are now."""
         names = list(self.dists)
         if self.auto_model and len(names) > 1:
             self.reference, self.auto_model = None, False  # a sketch to compare with has arrived
+        largest = self._largest_pair() if self.wanted_subject is None else None
         if self.subject is None or self.subject not in self.dists:
             if self.wanted_subject in self.dists:
                 self.subject = self.wanted_subject
+            elif largest is not None:
+                self.subject = largest[0]
+                if self.reference is None and self.wanted_reference is None:
+                    self.reference = ReferenceChoice("sketch", largest[1])
             elif self.wanted_subject is None and names:
                 self.subject = names[-1]
         if (
@@ -278,12 +331,26 @@ class Workspace:
         if self.wanted_reference in self.dists and self.wanted_reference != self.subject:
             self.reference = ReferenceChoice("sketch", self.wanted_reference)
         elif self.wanted_reference is None:
-            pair = partner(self.subject or "")
+            twin = partner(self.subject or "")
             others = [n for n in names if n != self.subject]
-            if pair in self.dists:
-                self.reference = ReferenceChoice("sketch", pair)
+            if twin in self.dists:
+                self.reference = ReferenceChoice("sketch", twin)
             elif others:
                 self.reference = ReferenceChoice("sketch", others[0])
+
+    def _largest_pair(self) -> tuple[str, str] | None:
+        """For many groups of one source (``--by``): the largest group paired with its ``before``
+        partner, else with the next largest; an overflow bucket (``(other)``) is never chosen.
+        None when the rows are not many groups of one source (then the rules above apply)."""
+        rows = list(self.dists.values())
+        if len(rows) <= 2 or len({d.origin for d in rows}) != 1:
+            return None
+        sized = sorted((d for d in rows if "(other)" not in d.name), key=lambda d: -d.sketch.count)
+        for d in sized:
+            other = partner(d.name)
+            if other in self.dists:
+                return d.name, other
+        return (sized[0].name, sized[1].name) if len(sized) >= 2 else None
 
     def set_subject(self, name: str) -> None:
         if self.reference is not None and self.reference.kind == "sketch" and self.reference.name == name:
@@ -327,9 +394,12 @@ class Workspace:
                 if m.label == ref.name:
                     self.reference = ReferenceChoice("model", ref.name, m)
         alone = len(self.dists) == 1 and not self.scanning
-        if self.reference is None and result is not None and alone and result.best is not None:
-            self.auto_model = True
-            self.reference = ReferenceChoice("model", result.best.label, result.best)
+        subj = self.subject_dist
+        if self.reference is None and result is not None and alone and subj is not None:
+            chosen = reference_model(result, subj.sketch)
+            if chosen is not None:
+                self.auto_model = True
+                self.reference = ReferenceChoice("model", chosen.label, chosen)
         return True
 
     def take_comparison(self, result: Comparison | None, note: str, key: tuple[str, str]) -> bool:
