@@ -15,14 +15,14 @@ import pytest
 from textual.pilot import Pilot
 
 from ogive.read.options import ScanOptions
-from ogive.sketch import Sketch, SketchSet
-from ogive.store import save_sketches
+from ogive.sketch import Sketch
 from ogive.ui import OgiveApp
 from ogive.ui.ask_path import Confirm
 from ogive.ui.help_overlay import KeyHelp, MessageLog
 from ogive.ui.open_prompt import OpenPrompt
 from ogive.ui.screen_text import screen_text
 from ogive.ui.status_line import MORE, fit_lines
+from ui_pilot import pair_file, until_idle
 
 FAST = ("lognormal", "gamma")
 os.environ.setdefault("NO_COLOR", "1")
@@ -30,13 +30,7 @@ os.environ.setdefault("NO_COLOR", "1")
 
 @pytest.fixture()
 def pair(tmp_path: Path) -> Path:
-    rng = np.random.default_rng(7)
-    a, b = Sketch("ms"), Sketch("ms")
-    a.add(rng.lognormal(3.0, 0.5, 5000))
-    b.add(rng.lognormal(3.2, 0.5, 5000))
-    path = tmp_path / "pair.ogive"
-    save_sketches(path, SketchSet({"before": a, "after": b}))
-    return path
+    return pair_file(tmp_path, 7, 3.2)
 
 
 @pytest.fixture()
@@ -50,13 +44,7 @@ def log(tmp_path: Path) -> Path:
 LOG_OPTIONS = ScanOptions(format="text", pattern=r"dur=(\S+)", unit="ms")
 
 
-async def _quiet(app: OgiveApp, pilot: Pilot[int], limit_s: float = 30.0) -> None:
-    waited = 0.0
-    await pilot.pause(0.2)
-    while any(w.is_running for w in app.workers) and waited < limit_s:
-        await pilot.pause(0.05)
-        waited += 0.05
-    await pilot.pause(0.2)
+_quiet = until_idle
 
 
 async def _alive(app: OgiveApp, pilot: Pilot[int]) -> None:

@@ -22,6 +22,7 @@ from ogive.ui import OgiveApp
 from ogive.ui.screen_text import screen_text
 from ogive.ui.shelf import DistributionShelf
 from ogive.ui.terminal import ESCAPE_DELAY_MS, set_escape_delay
+from ui_pilot import until_idle
 
 FAST = ("lognormal", "gamma")
 os.environ.setdefault("NO_COLOR", "1")
@@ -52,12 +53,7 @@ def groups(tmp_path: Path) -> Path:
 
 
 async def _quiet(app: OgiveApp, pilot: Pilot[int], limit_s: float = 30.0) -> None:
-    waited = 0.0
-    await pilot.pause(0.3)
-    while any(w.is_running for w in app.workers) and waited < limit_s:
-        await pilot.pause(0.05)
-        waited += 0.05
-    await pilot.pause(0.3)
+    await until_idle(app, pilot, limit_s, settle_s=0.3)
 
 
 @pytest.mark.parametrize("size", [(60, 15), (60, 24), (80, 24)])

@@ -19,12 +19,10 @@ import sys
 import time
 from pathlib import Path
 
-import numpy as np
 import pytest
 
-from ogive.sketch import Sketch, SketchSet
-from ogive.store import save_sketches
 from ogive.ui.terminal import wants_ascii
+from ui_pilot import pair_file
 
 SRC = Path(__file__).resolve().parents[1] / "src"
 SGR = re.compile(r"\x1b\[([0-9;:]*)m")
@@ -43,13 +41,7 @@ def colour_codes(text: str) -> list[str]:
 
 @pytest.fixture()
 def sketches(tmp_path: Path) -> Path:
-    rng = np.random.default_rng(4)
-    a, b = Sketch("ms"), Sketch("ms")
-    a.add(rng.lognormal(3, 0.5, 5000))
-    b.add(rng.lognormal(3.1, 0.5, 5000))
-    path = tmp_path / "pair.ogive"
-    save_sketches(path, SketchSet({"before": a, "after": b}))
-    return path
+    return pair_file(tmp_path, 4, 3.1)
 
 
 class Tty:
