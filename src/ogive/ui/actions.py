@@ -16,7 +16,7 @@ from ..sketch import SketchSet
 from ..store import save_sketches
 from . import report
 from .ask_path import AskPath, Confirm
-from .base import WorkspaceBase
+from .base import INTERRUPT_WINDOW_S, WorkspaceBase
 from .help_overlay import KeyHelp, MessageLog
 from .keys import key_groups
 from .open_prompt import OpenPrompt, OpenRequest
@@ -25,16 +25,12 @@ from .shelf import DistributionShelf
 from .workspace import AXES, KIND_NAMES, KINDS, LINEUP_WORDS, LINEUPS
 
 PANES = ("picture", "models", "ladder", "timeline")
-INTERRUPT_WINDOW_S = 3.0
-"""A second Ctrl-C within this many seconds of the first quits."""
 EXIT_INTERRUPTED = 130
 """128 + SIGINT: what a shell reports for a program ended by Ctrl-C."""
 
 
 class ActionsMixin(WorkspaceBase):
     """The actions bound in :class:`.app.OgiveApp`'s key table."""
-
-    _interrupted_at: float | None = None
 
     def action_pane(self, pane: str) -> None:
         """Show a pane; ``list`` shows the Distributions list (the only thing shown, in a compact window)."""
@@ -158,12 +154,6 @@ class ActionsMixin(WorkspaceBase):
             j.cancel.set()
         names = ", ".join(Path(j.source).name for j in following)
         self.say(f"stopping: {names} (what was read stays)…" if following else "nothing is being followed.")
-
-    @property
-    def interrupt_pending(self) -> bool:
-        """A ctrl+c was pressed within the last :data:`INTERRUPT_WINDOW_S`: another one quits."""
-        at = self._interrupted_at
-        return at is not None and time.monotonic() - at <= INTERRUPT_WINDOW_S
 
     def action_interrupt(self) -> None:
         """Ctrl-C: stop the scans; a second press within a few seconds quits (status 130)."""

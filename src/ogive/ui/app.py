@@ -329,8 +329,7 @@ class OgiveApp(ActionsMixin, AnalysisMixin):
         else:
             state = "partial" if job.cancel.is_set() or "partial" in end.note else "ready"
             self._take(job, end.sketches, state=state, note=end.note)
-            again = "ctrl+c again quits; " if self.interrupt_pending else ""
-            self.say(f"{again}{name}: scan {'stopped' if state == 'partial' else 'done'}{note}")
+            self.say(f"{name}: scan {'stopped' if state == 'partial' else 'done'}{note}")
         self.request_analysis()
         self.refresh_all()
 

@@ -32,6 +32,10 @@ MESSAGES_KEPT = 200
 """Messages the ``!`` view keeps (older ones go first)."""
 
 
+INTERRUPT_WINDOW_S = 3.0
+"""A second Ctrl-C within this many seconds of the first quits."""
+
+
 class WorkspaceBase(App[int]):
     """The model and the drawing every mixin of the workspace relies on."""
 
@@ -45,6 +49,13 @@ class WorkspaceBase(App[int]):
     _dirty: bool
     messages: list[tuple[float, str]]
     """Everything the status line has said, with the time it was said (the ``!`` view lists them)."""
+    _interrupted_at: float | None = None
+
+    @property
+    def interrupt_pending(self) -> bool:
+        """A ctrl+c was pressed within the last :data:`INTERRUPT_WINDOW_S`: another one quits."""
+        at = self._interrupted_at
+        return at is not None and time.monotonic() - at <= INTERRUPT_WINDOW_S
 
     @property
     def workspace_screen(self) -> Screen[Any]:
@@ -97,8 +108,14 @@ class WorkspaceBase(App[int]):
         screen.query_one(FeedStatus).show_jobs(ws.jobs)
 
     def say(self, text: str) -> None:
-        """One line in the status line (kept, with the others, for the ``!`` view)."""
+        """One line in the status line (kept, with the others, for the ``!`` view).
+
+        While a first ctrl+c waits for its second, every line says so: a message arriving
+        just after (a scan ending, the reference chosen) must not hide that the next
+        ctrl+c quits."""
         text = printable(text)
+        if self.interrupt_pending and "ctrl+c" not in text:
+            text = f"ctrl+c again quits; {text}"
         if not self.messages or self.messages[-1][1] != text:  # a pane failing at each refresh: once
             self.messages.append((time.time(), text))
             del self.messages[:-MESSAGES_KEPT]
