@@ -88,8 +88,13 @@ class JsonLayout(L.Layout):
     def _read_ndjson(self, data: bytes, *, numeric: bool = False) -> pl.DataFrame | None:
         """The fields by ``pl.read_ndjson`` with a declared schema; None when the chunk
         has a blank line (the reader skips it, so rows would not be lines) or a line
-        that is not a JSON object (the reader stops: the slower way names the line)."""
-        if not data or b"\n\n" in data or b"\n\r\n" in data or data[:1] in b"\r\n":
+        that is not a JSON object (the reader stops: the slower way names the line).
+
+        Blank lines are found by the row count alone: the reader never gives more rows
+        than lines (two objects on a line fail it), so a skipped line always shows as a
+        short count. Searching the chunk for ``\n\n`` first cost ~7 ms a 4 MB chunk,
+        a third of the reader's own time, with the GIL held."""
+        if not data:
             return None
         lines = data.count(b"\n") + (0 if data.endswith(b"\n") else 1)
         try:

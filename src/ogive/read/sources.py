@@ -11,7 +11,6 @@ skipped, so a file without newlines cannot exhaust memory.
 from __future__ import annotations
 
 import bz2
-import gzip
 import io
 import lzma
 import os
@@ -24,6 +23,7 @@ from dataclasses import dataclass
 from typing import BinaryIO, cast
 
 from ..errors import OgiveError
+from .streams import GzipStream, ZstdStream
 from .urls import is_url, open_url
 
 MAGIC = {
@@ -114,13 +114,13 @@ class Opened:
 
     def _wrap(self) -> BinaryIO:
         if self.compression == "gzip":
-            return gzip.GzipFile(fileobj=self._counted, mode="rb")  # type: ignore[return-value]
+            return GzipStream(self._counted)  # type: ignore[return-value]
         if self.compression == "bz2":
             return bz2.BZ2File(self._counted, "rb")  # type: ignore[return-value]
         if self.compression == "xz":
             return lzma.LZMAFile(self._counted, "rb")  # type: ignore[return-value]
         if self.compression == "zstd":
-            return _ZstdStream(self._counted)  # type: ignore[return-value]
+            return ZstdStream(self._counted)  # type: ignore[return-value]
         return self.raw
 
     @property
@@ -301,49 +301,6 @@ class _Counted:
 
     def readable(self) -> bool:
         return True
-
-    def close(self) -> None:
-        pass
-
-
-class _ZstdStream:
-    """Zstandard frames one after another, with truncation detected.
-
-    ``zstandard``'s stream reader ends quietly when the input stops inside a frame;
-    a log cut off mid-copy must be reported, so frames are decoded here with a
-    decompression object per frame and an unfinished frame at end of input raises.
-    """
-
-    def __init__(self, raw: BinaryIO) -> None:
-        import zstandard
-
-        self._zstd = zstandard
-        self.raw = raw
-        self._dobj = zstandard.ZstdDecompressor().decompressobj()
-        self._fresh = True  # no input given to the current frame yet
-        self._out = bytearray()
-
-    def read(self, n: int) -> bytes:
-        while len(self._out) < n:
-            data = self.raw.read(1 << 20)
-            if not data:
-                if not self._fresh and not self._dobj.eof:
-                    raise EOFError("compressed input ended inside a zstd frame")
-                break
-            self._feed(data)
-        out = bytes(self._out[:n])
-        del self._out[:n]
-        return out
-
-    def _feed(self, data: bytes) -> None:
-        while data:
-            self._fresh = False
-            self._out += self._dobj.decompress(data)
-            if not self._dobj.eof:
-                return
-            data = self._dobj.unused_data
-            self._dobj = self._zstd.ZstdDecompressor().decompressobj()
-            self._fresh = True
 
     def close(self) -> None:
         pass

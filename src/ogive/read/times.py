@@ -250,7 +250,8 @@ def _iso(s: pl.Series) -> NDArray[np.float64]:
 
 def _iso_chrono(s: pl.Series) -> str | None:
     """A chrono format for polars' own parser that fits the batch's first value, or None."""
-    first = [v.strip() for v in s.drop_nulls().head(1).to_list()]
+    head = s.head(64).drop_nulls()  # drop_nulls of the whole batch would copy it all
+    first = [v.strip() for v in (head if head.len() else s.drop_nulls()).head(1).to_list()]
     if not first:
         return None
     m = re.match(ISO_RE, first[0])
@@ -269,13 +270,25 @@ def _with_fast_path(
     strict, so any error there sends the whole batch our way."""
     if chrono is None:
         return slow(s)
+    # One query for the parse; the values polars could not read are looked for only
+    # when it left a gap (each eager Series step is a query of its own, and a boolean
+    # mask's to_numpy unpacks bits: measured 2.3 -> 1.5 ms a 4 MB CSV chunk).
     try:
-        t = s.str.to_datetime(chrono, strict=False, time_zone="UTC", time_unit="us")
-        us = t.dt.epoch("us").cast(pl.Float64).fill_null(np.nan).to_numpy().astype(np.float64, copy=True)
+        out = s.to_frame().select(
+            pl.first()
+            .str.to_datetime(chrono, strict=False, time_zone="UTC", time_unit="us")
+            .dt.epoch("us")
+            .cast(pl.Float64)
+            .fill_null(np.nan)
+        )
     except Exception:  # polars raises ComputeError and others for years it cannot hold
         return slow(s)
-    rest = np.isnan(us) & s.is_not_null().to_numpy()
+    us = out.to_series().to_numpy()
+    rest = np.isnan(us)
     if rest.any():
+        rest &= s.is_not_null().to_numpy()
+    if rest.any():
+        us = us.copy()  # to_numpy may hand out polars' own (read-only) buffer
         us[rest] = slow(s.filter(pl.Series(rest)))
     return _in_range(us)
 
