@@ -77,6 +77,22 @@ def sketch_ref(spec: str) -> SketchRef | None:
     return None
 
 
+def misnamed_sketch(spec: str) -> str:
+    """Why a file named as a saved sketch (``*.ogive``) is not one, or '' (a sketch, or a log).
+
+    Beside :func:`sketch_ref`: an empty or cut-short ``.ogive`` file fails its sniff and
+    would otherwise be taken for a log to scan.
+    """
+    if sketch_ref(spec) is not None:
+        return ""
+    path = split_group(spec)[0] if not spec.endswith(".ogive") else spec
+    if not path.endswith(".ogive") or not os.path.isfile(path):
+        return ""
+    size = os.path.getsize(path)
+    what = "empty" if size == 0 else f"not one ({size:,} bytes without the sketch-set header; cut short?)"
+    return f"{path} is named as a saved sketch but is {what}. Choose a format to read it as a log."
+
+
 def load_ref(ref: SketchRef) -> SketchSet:
     """The set a reference names: the whole file, or the one sketch its group picks."""
     if ref.group is None:

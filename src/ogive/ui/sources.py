@@ -10,7 +10,6 @@ pane, and only the wholes beside them (``all``, the groups) are rows.
 
 from __future__ import annotations
 
-import os
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -19,7 +18,7 @@ from ..read.options import ScanOptions
 from ..read.urls import has_glob, is_url
 from ..sketch import timekeys
 from ..sketch.distribution import Dist
-from ..store import load_ref, sketch_ref, source_stem, split_group
+from ..store import load_ref, misnamed_sketch, sketch_ref, source_stem
 from .state import Distribution, ScanJob
 
 
@@ -46,14 +45,7 @@ def not_a_sketch(spec: str, options: ScanOptions) -> str:
     empty or cut-short ``.ogive``: the preview refused it, enter scanned it as a log). A
     format chosen in the prompt means "read it as a log", and is obeyed.
     """
-    if options.format is not None or sketch_ref(spec) is not None:
-        return ""
-    path = split_group(spec)[0] if not spec.endswith(".ogive") else spec
-    if not path.endswith(".ogive") or not os.path.isfile(path):
-        return ""
-    size = os.path.getsize(path)
-    what = "empty" if size == 0 else f"not one ({size:,} bytes without the sketch-set header; cut short?)"
-    return f"{path} is named as a saved sketch but is {what}. Choose a format to read it as a log."
+    return "" if options.format is not None else misnamed_sketch(spec)
 
 
 def open_source(
