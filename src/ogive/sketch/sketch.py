@@ -217,10 +217,11 @@ class Sketch:
     def mean(self) -> float:
         if not self.count:
             return float("nan")
+        total, exponent = self._sum()  # one read of the digest's raw sum, not two
         try:
-            mean = math.ldexp(self.total / self.count, self.sum_exponent)
+            mean = math.ldexp(total / self.count, exponent)
         except OverflowError:  # rounding of a sum of values at the float limit
-            mean = math.copysign(math.inf, self.total)
+            mean = math.copysign(math.inf, total)
         # Rounding of a sum of values at the float limit must not step past them.
         return min(max(mean, self.min), self.max) if self.low.size and self.high.size else mean
 
