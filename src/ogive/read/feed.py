@@ -99,6 +99,13 @@ class Feed:
             return self.options.chunk_size(None)
         return self.options.chunk_size(layout.format, value_only=layout.names == ("v",))
 
+    def parse_ahead(self) -> int:
+        """Chunks to parse at once, by format once the layout is known."""
+        layout = self.layout
+        if layout is None:
+            return self.options.parse_ahead(None)
+        return self.options.parse_ahead(layout.format, value_only=layout.names == ("v",))
+
     def cutting(self) -> str:
         """How to cut: CSV records may hold quoted newlines; before the layout, guess."""
         layout = self.layout

@@ -30,14 +30,21 @@ FASTEST_CHUNK = {"csv-value": 8 << 20, "lines": 8 << 20, "otlp": 2 << 20}
 0.71 s, NDJSON 1.97/1.69/1.70 s, a CSV read for value and ``--by`` group 0.91/0.74/0.76
 s; a CSV value column alone 4/8/16/32 MB 0.49/0.43/0.63/0.66 s (bigger chunks delay the
 first parse and leave the two cores idle at the ends). OTLP: 2 and 4 MB ran alike."""
-PEAK_MODEL = {"csv-value": (140.0, 4.0), "lines": (170.0, 7.5), "otlp": (100.0, 46.0)}
+PARSE_AHEAD = {"csv-value": 4, "lines": 2, "otlp": 2}
+"""Chunks parsed at once, by kind of chunk (at most ``scan.PARSE_WORKERS``); about
+ahead + 3 chunks are in memory. Measured on 2 cores at 1 GB, whole processes, median of
+4: a CSV value column at 2/3/4 ahead 1.75/1.61/1.54 s (2.58/2.48/2.44 CPU-s) at
+197/208/211 MB peak. Text lines gain as much (2.31 -> 1.88 s) but a pattern with a time
+reached 238-245 MB at 4 ahead and 229 MB at 3 (208 MB at 2), too near the 250 MB
+budget: lines and OTLP stay at 2."""
+PEAK_MODEL = {"csv-value": (140.0, 8.5), "lines": (170.0, 7.5), "otlp": (100.0, 46.0)}
 """Peak resident MB of a scan ~ base + slope x chunk MB, by kind of chunk: several chunks
 are in flight, each parsed into a frame larger than its bytes (text lines become one
 string each; OTLP documents nested lists). Fitted to whole-process peaks on 300 MB files
 (``benchmarks/scan_bench.py``; file-backed pages of the input included): a CSV value
 column at 6/8/50 MB chunks peaked at 174/185/331 MB, text lines at 3.75/4/31 MB at
 194/193/391, a CSV read for value and group at 3.75/31 at 154/360, OTLP at 2/4 MB at
-185/277."""
+185/277. The CSV value slope was refitted with 4 chunks ahead (8 MB: 211 MB at 1 GB)."""
 
 
 @dataclass(frozen=True)
@@ -169,7 +176,7 @@ class ScanOptions:
         """
         if self.chunk_bytes is not None:
             return self.chunk_bytes
-        kind = "otlp" if fmt == "otlp" else ("csv-value" if value_only and fmt in ("csv", "tsv") else "lines")
+        kind = _kind(fmt, value_only)
         lean = {"otlp": OTLP_CHUNK, "csv-value": CSV_CHUNK, "lines": LINE_CHUNK}[kind]
         if self.memory_budget_mb is None:
             return lean
@@ -177,6 +184,17 @@ class ScanOptions:
         # 10 % of the grant is kept back: the model is a fit, and the machine is not ours.
         fits = int((0.9 * self.memory_budget_mb - base) / slope * (1 << 20))
         return max(1 << 20, min(FASTEST_CHUNK[kind], fits))
+
+    def parse_ahead(self, fmt: str | None, *, value_only: bool = False) -> int:
+        """Chunks parsed at once for a source of format ``fmt`` (``PARSE_AHEAD``): more
+        keeps both cores busy, each costs a chunk of memory."""
+        return PARSE_AHEAD[_kind(fmt, value_only)]
+
+
+def _kind(fmt: str | None, value_only: bool) -> str:
+    """The kind of chunk, for its size and memory: OTLP documents, a CSV read for its
+    value column alone, or lines (everything else)."""
+    return "otlp" if fmt == "otlp" else ("csv-value" if value_only and fmt in ("csv", "tsv") else "lines")
 
 
 @dataclass(frozen=True)

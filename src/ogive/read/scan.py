@@ -25,7 +25,7 @@ import polars as pl
 from ..errors import OgiveError
 from ..outputs import repeated
 from ..sketch import SketchSet, SkipTally
-from . import direct, metrics, sources, urls
+from . import direct, heap, metrics, sources, urls
 from .build import Builder, TimeOrder
 from .decode import Batch, Decoder
 from .feed import FIXED_TEXT, Feed, prefetch
@@ -34,8 +34,9 @@ from .route import Router
 from .skips import TOO_LONG, Skips, places
 
 PROGRESS_INTERVAL_S = 0.2
-PARSE_WORKERS = 2
-"""Chunks parsed at once; memory in flight is about (workers + 3) chunks."""
+PARSE_WORKERS = 4
+"""Parser threads: the most chunks parsed at once (the format's ``parse_ahead`` decides
+how many are; memory in flight is about that + 3 chunks)."""
 
 
 def scan(
@@ -101,7 +102,8 @@ def scan(
                 try:
                     for job in jobs:
                         pending.append(job)
-                        drain(PARSE_WORKERS if job.future is not None else 0)  # done here: commit now
+                        ahead = min(PARSE_WORKERS, run.feed.parse_ahead()) if job.future is not None else 0
+                        drain(ahead)  # a job done here (no future) is committed now
                         now = time.monotonic()
                         if (
                             progress is not None
@@ -195,6 +197,7 @@ class Pipeline:
     """
 
     def __init__(self, names: list[str], options: ScanOptions) -> None:
+        heap.keep_chunks()  # chunk buffers reused, not page-faulted in afresh (see .heap)
         self.options = options
         self.router = Router(options)
         self.feed = Feed(options)
