@@ -7,12 +7,14 @@ import io
 from pathlib import Path
 
 import numpy as np
+import polars as pl
 import pytest
 
 from ogive.commands.common import add_source_options, load_one, load_set, options_from_args
 from ogive.commands.progress import ProgressLine, format_progress
 from ogive.errors import OgiveError
 from ogive.read import ScanProgress
+from ogive.read.route import MISSING, code_keys
 from ogive.sketch import Sketch, SketchSet
 from ogive.store import save_sketches, sketch_ref
 
@@ -86,3 +88,15 @@ def test_progress_text_and_drawing() -> None:
     quiet = io.StringIO()  # not a terminal: nothing at all
     ProgressLine(quiet).update(_progress(1, 10))
     assert quiet.getvalue() == ""
+
+
+def test_group_keys_are_coded_in_order_of_first_appearance() -> None:
+    """``route.code_keys`` (run in the parser threads): the distinct values in file order,
+    a missing one named ``(missing)``, and per-row indices that give every row back;
+    the hashes are polars' own ``hash(seed=0)`` of those values."""
+    raw = ["web-2", None, "web-1", "web-2", "", "web-1", None, "wëb-3"]
+    keys = code_keys(pl.Series(raw, dtype=pl.String))
+    assert keys.distinct == ["web-2", MISSING, "web-1", "", "wëb-3"]
+    assert [keys.distinct[i] for i in keys.local] == [MISSING if k is None else k for k in raw]
+    expect = pl.Series(keys.distinct, dtype=pl.String).hash(seed=0).to_list()
+    assert keys.hashes.tolist() == expect

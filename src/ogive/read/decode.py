@@ -19,6 +19,7 @@ from numpy.typing import NDArray
 from . import records, times, values
 from .layout import NOT_RECORDS
 from .options import ScanOptions
+from .route import Keys, code_keys
 from .skips import BAD_TIMESTAMP
 
 _NAME_UNITS = {
@@ -45,7 +46,8 @@ class Batch:
     reasons: dict[str, NDArray[np.bool_]]
     tus: NDArray[np.float64] | None
     """Each row's time in epoch microseconds (NaN: unreadable), when a time field is read."""
-    groups: pl.Series | None
+    groups: Keys | None
+    """The ``--by`` values, coded in the parser thread."""
     suffixed: int
     unsuffixed: int
     other_epoch: int
@@ -180,7 +182,7 @@ class Decoder:
             if bt.any():
                 reasons[BAD_TIMESTAMP] = bt
                 ok = ok & ~bt
-        g = df.get_column("g").cast(pl.String) if "g" in df.columns else None
+        g = code_keys(df.get_column("g")) if "g" in df.columns else None
         batch = Batch(
             n, pv.values, ok, reasons, tus, g, pv.suffixed, pv.unsuffixed, other_epoch, years, fmt, display, n
         )

@@ -24,28 +24,44 @@ LEAN_MB = 250
 MIN_BUDGET_MB = 200
 """The least ``memory_budget_mb`` accepted: a scan of text lines holds ~170 MB before its
 chunks count."""
-FASTEST_CHUNK = {"csv-value": 8 << 20, "lines": 8 << 20, "ndjson": 8 << 20, "otlp": 2 << 20}
+FASTEST_CHUNK = {
+    "csv-value": 8 << 20,
+    "csv-columns": 8 << 20,
+    "lines": 8 << 20,
+    "ndjson": 8 << 20,
+    "otlp": 2 << 20,
+}
 """The chunk size past which a grant buys no more speed, by kind of chunk. Measured on
 300 MB files, 2 cores, best of 3 in one process: text lines 4/8/16 MB took 0.78/0.66/
 0.71 s, NDJSON 1.97/1.69/1.70 s, a CSV read for value and ``--by`` group 0.91/0.74/0.76
 s; a CSV value column alone 4/8/16/32 MB 0.49/0.43/0.63/0.66 s (bigger chunks delay the
 first parse and leave the two cores idle at the ends). OTLP: 2 and 4 MB ran alike."""
-PARSE_AHEAD = {"csv-value": 4, "lines": 2, "ndjson": 4, "otlp": 2}
+PARSE_AHEAD = {"csv-value": 4, "csv-columns": 4, "lines": 2, "ndjson": 4, "otlp": 2}
 """Chunks parsed at once, by kind of chunk (at most ``scan.PARSE_WORKERS``); about
 ahead + 3 chunks are in memory. Measured on 2 cores at 1 GB, whole processes, median of
 4: a CSV value column at 2/3/4 ahead 1.75/1.61/1.54 s (2.58/2.48/2.44 CPU-s) at
 197/208/211 MB peak. Text lines gain as much (2.31 -> 1.88 s) but a pattern with a time
 reached 238-245 MB at 4 ahead and 229 MB at 3 (208 MB at 2), too near the 250 MB
 budget: lines and OTLP stay at 2. NDJSON at 2/4 ahead: 4.11/3.77 s (7.21/6.89 CPU-s) at
-176/187 MB; with a group and a time 5.00/4.63 s at 191/204 MB."""
-PEAK_MODEL = {"csv-value": (140.0, 8.5), "lines": (170.0, 7.5), "ndjson": (170.0, 7.5), "otlp": (100.0, 46.0)}
+176/187 MB; with a group and a time 5.00/4.63 s at 191/204 MB. A CSV read for its value
+and a group or time column (4 MB chunks), once the groups were coded in the parser
+threads: ``--by host`` 2.64/2.52 s (best 2.31/2.07) at 178/189 MB, ``--time-field
+--split-at`` 2.12/1.96 s at 192/209 MB."""
+PEAK_MODEL = {
+    "csv-value": (140.0, 8.5),
+    "csv-columns": (170.0, 10.0),
+    "lines": (170.0, 7.5),
+    "ndjson": (170.0, 7.5),
+    "otlp": (100.0, 46.0),
+}
 """Peak resident MB of a scan ~ base + slope x chunk MB, by kind of chunk: several chunks
 are in flight, each parsed into a frame larger than its bytes (text lines become one
 string each; OTLP documents nested lists). Fitted to whole-process peaks on 300 MB files
 (``benchmarks/scan_bench.py``; file-backed pages of the input included): a CSV value
 column at 6/8/50 MB chunks peaked at 174/185/331 MB, text lines at 3.75/4/31 MB at
 194/193/391, a CSV read for value and group at 3.75/31 at 154/360, OTLP at 2/4 MB at
-185/277. The CSV value slope was refitted with 4 chunks ahead (8 MB: 211 MB at 1 GB)."""
+185/277. The CSV slopes were refitted with 4 chunks ahead (value alone, 8 MB: 211 MB at 1 GB;
+with a group or time column, 4 MB: 209 MB)."""
 
 
 @dataclass(frozen=True)
@@ -178,7 +194,7 @@ class ScanOptions:
         if self.chunk_bytes is not None:
             return self.chunk_bytes
         kind = _kind(fmt, value_only)
-        lean = {"otlp": OTLP_CHUNK, "csv-value": CSV_CHUNK, "lines": LINE_CHUNK, "ndjson": LINE_CHUNK}[kind]
+        lean = CSV_CHUNK if kind == "csv-value" else OTLP_CHUNK if kind == "otlp" else LINE_CHUNK
         if self.memory_budget_mb is None:
             return lean
         base, slope = PEAK_MODEL[kind]
@@ -193,11 +209,13 @@ class ScanOptions:
 
 
 def _kind(fmt: str | None, value_only: bool) -> str:
-    """The kind of chunk, for its size and memory: OTLP documents, a CSV read for its
-    value column alone, NDJSON lines, or lines (everything else)."""
+    """The kind of chunk, for its size and memory: OTLP documents, NDJSON lines, a CSV
+    read for its value column alone or with more columns, or lines (everything else)."""
     if fmt in ("otlp", "ndjson"):
         return fmt
-    return "csv-value" if value_only and fmt in ("csv", "tsv") else "lines"
+    if fmt in ("csv", "tsv"):
+        return "csv-value" if value_only else "csv-columns"
+    return "lines"
 
 
 @dataclass(frozen=True)
