@@ -14,7 +14,7 @@ from ogive.commands.common import add_source_options, load_one, load_set, option
 from ogive.commands.progress import ProgressLine, format_progress
 from ogive.errors import OgiveError
 from ogive.read import ScanProgress
-from ogive.read.route import MISSING, code_keys
+from ogive.read.route import MISSING, NAMED_KEYS, code_keys
 from ogive.sketch import Sketch, SketchSet
 from ogive.store import save_sketches, sketch_ref
 
@@ -93,10 +93,11 @@ def test_progress_text_and_drawing() -> None:
 def test_group_keys_are_coded_in_order_of_first_appearance() -> None:
     """``route.code_keys`` (run in the parser threads): the distinct values in file order,
     a missing one named ``(missing)``, and per-row indices that give every row back;
-    the hashes are polars' own ``hash(seed=0)`` of those values."""
+    a chunk of more distinct values than ``NAMED_KEYS`` is left uncoded."""
     raw = ["web-2", None, "web-1", "web-2", "", "web-1", None, "wëb-3"]
     keys = code_keys(pl.Series(raw, dtype=pl.String))
-    assert keys.distinct == ["web-2", MISSING, "web-1", "", "wëb-3"]
-    assert [keys.distinct[i] for i in keys.local] == [MISSING if k is None else k for k in raw]
-    expect = pl.Series(keys.distinct, dtype=pl.String).hash(seed=0).to_list()
-    assert keys.hashes.tolist() == expect
+    assert keys.names == ["web-2", MISSING, "web-1", "", "wëb-3"]
+    assert keys.local is not None
+    assert [keys.names[i] for i in keys.local] == [MISSING if k is None else k for k in raw]
+    many = code_keys(pl.Series([f"c{i}" for i in range(NAMED_KEYS + 1)]))
+    assert many.names is None and many.local is None and many.values.len() == NAMED_KEYS + 1

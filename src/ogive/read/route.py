@@ -24,34 +24,43 @@ OVERFLOW_KEPT = 100_000
 """Distinct values beyond the group cap remembered, only to say how many there were."""
 
 
+NAMED_KEYS = 4096
+"""Chunks with at most this many distinct ``--by`` values are coded in the parser threads."""
+
+
 @dataclass(frozen=True)
 class Keys:
-    """A chunk's ``--by`` values, coded where the chunk is parsed (:func:`code_keys`)."""
+    """A chunk's ``--by`` values, as prepared in the parser threads (:func:`code_keys`)."""
 
-    distinct: list[str]
-    """The distinct values (a missing one as ``MISSING``), in order of first appearance."""
-    hashes: NDArray[np.uint64]
-    """Their 64-bit hashes (polars' ``hash(seed=0)``), to count values past the cap."""
-    local: NDArray[np.integer]
-    """Each row's index into ``distinct``."""
+    values: pl.Series
+    """Each row's value (String; a missing one as ``MISSING``)."""
+    names: list[str] | None = None
+    """The distinct values in order of first appearance, when there are at most
+    ``NAMED_KEYS`` (None: too many to name in Python; the commit maps the rows in polars)."""
+    local: NDArray[np.integer] | None = None
+    """With ``names``: each row's index into them."""
 
 
 def code_keys(g: pl.Series) -> Keys:
-    """The chunk's group values as distinct values and per-row indices.
+    """The chunk's group values, coded when they are few.
 
-    Why here and not in :meth:`Router.route`: this is the part that touches every row
-    (hashing each value), and it needs nothing from earlier chunks, so it runs in the
-    parser threads, in parallel. What is left for the ordered commit is to name the
-    few distinct values of the chunk, in Python: a polars call there, however small,
-    waits for polars' threads, busy parsing the next chunks. Measured with 12 hosts on
-    1 GB: per-row lookups in the commit thread cost 1.3 s of a 2 s scan, and polars
-    calls on the 12 distinct values still 0.7 s.
+    Why here and not in :meth:`Router.route`: coding touches every row and needs nothing
+    from earlier chunks, so it runs in the parser threads, in parallel; the ordered
+    commit then only names the few distinct values, in Python: a polars call there,
+    however small, waits for polars' threads, busy parsing the next chunks. Measured
+    with 12 hosts on 1 GB: per-row lookups in the commit thread cost 1.3 s of a 2 s
+    scan, and polars calls on the 12 distinct values still 0.7 s. With many distinct
+    values (10^5 clients: ~4*10^4 a chunk) coding them here cost more (10 ms a chunk)
+    than one polars mapping of the rows at commit against the at most ``max_groups``
+    groups (~1 ms), so those chunks are left as they are.
     """
-    keys = g.cast(pl.String).fill_null(MISSING)
-    distinct = keys.unique(maintain_order=True)
+    values = g.cast(pl.String).fill_null(MISSING)
+    distinct = values.unique(maintain_order=True)
+    if distinct.len() > NAMED_KEYS:
+        return Keys(values)
     # An Enum of the chunk's own values: its physical codes are the indices into them.
-    local = keys.cast(pl.Enum(distinct)).to_physical().to_numpy()
-    return Keys(distinct.to_list(), distinct.hash(seed=0).to_numpy(), local)
+    local = values.cast(pl.Enum(distinct)).to_physical().to_numpy()
+    return Keys(values, distinct.to_list(), local)
 
 
 class Router:
@@ -71,6 +80,7 @@ class Router:
         every chunk (4 of 6.4 ms a chunk with 10^5 keys)."""
         self._codes: dict[str, int] = {}
         """Each grouped value's index among ``groups``."""
+        self._known = pl.Series([], dtype=pl.String)
         self._keys: dict[float, str] = {}
         """Timeline: window start -> its ``START/DURATION`` name."""
         self._window_sketches: dict[str, float] = {}
@@ -175,26 +185,36 @@ class Router:
         """Sketch names and each row's index into them, for ``--by``.
 
         The first ``max_groups`` distinct values met (in file order) get a sketch each;
-        later ones share ``FIELD=(other)``. Only the chunk's distinct values are looked
-        up here, one dict lookup each (the rows were coded in the parser threads,
-        :func:`code_keys`): with 10^5 distinct keys a chunk holds ~4*10^4 of them, ~2 ms.
+        later ones share ``FIELD=(other)``. A chunk of few distinct values comes coded
+        (:func:`code_keys`): only those values are looked up, in a dict. Otherwise polars
+        maps the rows; Python touches each distinct value only until the groups are full
+        (a Python loop over a chunk's 10^5 values made ``--by`` run at 12 MB/s).
         """
         o = self.options
         codes = self._codes
         if len(self.groups) < o.max_groups:
-            for key in g.distinct:
+            distinct = g.names if g.names is not None else g.values.unique(maintain_order=True).to_list()
+            for key in distinct:
                 if key not in codes and len(self.groups) < o.max_groups:
                     codes[key] = len(self.groups)
                     self.groups[key] = f"{o.by}={key}"
+            self._known = pl.Series(list(self.groups), dtype=pl.String)
         labels = [*self.groups.values(), f"{o.by}={OTHER}"]
         other = len(labels) - 1
-        mapped = np.fromiter((codes.get(k, other) for k in g.distinct), dtype=np.int64, count=len(g.distinct))
-        rows = mapped[g.local]
-        if self._overflow.size < OVERFLOW_KEPT and (mapped == other).any():
+        if g.names is not None and g.local is not None:
+            mapped = np.fromiter((codes.get(k, other) for k in g.names), dtype=np.int64, count=len(g.names))
+            rows = mapped[g.local]
+            past = (mapped == other).any()
+        else:
+            rows = g.values.replace_strict(
+                self._known, pl.Series(np.arange(other, dtype=np.int64)), default=other, return_dtype=pl.Int64
+            ).to_numpy()
+            past = (rows == other).any()
+        if self._overflow.size < OVERFLOW_KEPT and past:
             # Counted by hash: two distinct values sharing a 64-bit hash (odds ~10^-9 at
-            # 10^5 values) would be counted once. Sorted so that the search walks the
-            # known hashes in order.
-            rest = np.sort(g.hashes[mapped == other])
+            # 10^5 values) would be counted once. Made distinct by polars, sorted so that
+            # the search walks the known hashes in order.
+            rest = np.sort(g.values.filter(pl.Series(rows == other)).unique().hash(seed=0).to_numpy())
             known = self._overflow
             at = np.searchsorted(known, rest)
             unseen = rest[known[np.minimum(at, max(known.size - 1, 0))] != rest] if known.size else rest
