@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import csv
 import dataclasses
+import functools
 import io
 from collections import Counter
 from collections.abc import Callable
@@ -130,12 +131,15 @@ class CsvLayout(Layout):
         )
 
 
-_CSV_BASE = int(pl.read_csv(b"x\n", has_header=False).columns[0].rsplit("_", 1)[1])
-"""Polars names header-less columns ``column_N``; whether N starts at 0 or 1 is probed."""
+@functools.cache
+def _csv_base() -> int:
+    """Polars names header-less columns ``column_N``; whether N starts at 0 or 1 is probed
+    (once, when first needed: a read at import cost every command 7 ms)."""
+    return int(pl.read_csv(b"x\n", has_header=False).columns[0].rsplit("_", 1)[1])
 
 
 def _csv_name(index: int) -> str:
-    return f"column_{index + _CSV_BASE}"
+    return f"column_{index + _csv_base()}"
 
 
 def sample_rows(data: bytes, sep: str) -> list[list[str]]:
