@@ -193,12 +193,14 @@ class Router:
         o = self.options
         codes = self._codes
         if len(self.groups) < o.max_groups:
+            before = len(self.groups)
             distinct = g.names if g.names is not None else g.values.unique(maintain_order=True).to_list()
             for key in distinct:
                 if key not in codes and len(self.groups) < o.max_groups:
                     codes[key] = len(self.groups)
                     self.groups[key] = f"{o.by}={key}"
-            self._known = pl.Series(list(self.groups), dtype=pl.String)
+            if len(self.groups) > before:
+                self._known = pl.Series(list(self.groups), dtype=pl.String)
         labels = [*self.groups.values(), f"{o.by}={OTHER}"]
         other = len(labels) - 1
         if g.names is not None and g.local is not None:
