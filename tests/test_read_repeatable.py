@@ -132,3 +132,6 @@ def test_memory_budget_is_checked_and_sizes_chunks() -> None:
         assert big >= default
         assert big <= 8 << 20  # no grant buys chunks past the size measured fastest
     assert ScanOptions(memory_budget_mb=1000).chunk_size("text") == 8 << 20 > ScanOptions().chunk_size("text")
+    # More chunks in flight only with a grant that holds them (measured 284-303 MB at 8 MB).
+    assert ScanOptions().parse_ahead("text") < ScanOptions(memory_budget_mb=400).parse_ahead("text")
+    assert ScanOptions(memory_budget_mb=300).parse_ahead("text") == ScanOptions().parse_ahead("text")
