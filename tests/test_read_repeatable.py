@@ -124,7 +124,8 @@ def test_memory_budget_is_checked_and_sizes_chunks() -> None:
     with pytest.raises(OgiveError, match="--memory-budget must be at least 200 MB"):
         ScanOptions(memory_budget_mb=150)
     lean = ScanOptions()
-    for fmt, value_only in (("csv", True), ("csv", False), ("text", False), ("ndjson", False), ("otlp", False)):
+    kinds = (("csv", True), ("csv", False), ("text", False), ("ndjson", False), ("otlp", False))
+    for fmt, value_only in kinds:
         small = ScanOptions(memory_budget_mb=200).chunk_size(fmt, value_only=value_only)
         big = ScanOptions(memory_budget_mb=1000).chunk_size(fmt, value_only=value_only)
         default = lean.chunk_size(fmt, value_only=value_only)
