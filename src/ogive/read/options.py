@@ -28,6 +28,7 @@ FASTEST_CHUNK = {
     "csv-value": 8 << 20,
     "csv-columns": 8 << 20,
     "lines": 8 << 20,
+    "lines-value": 8 << 20,
     "ndjson": 8 << 20,
     "otlp": 2 << 20,
 }
@@ -36,7 +37,7 @@ FASTEST_CHUNK = {
 0.71 s, NDJSON 1.97/1.69/1.70 s, a CSV read for value and ``--by`` group 0.91/0.74/0.76
 s; a CSV value column alone 4/8/16/32 MB 0.49/0.43/0.63/0.66 s (bigger chunks delay the
 first parse and leave the two cores idle at the ends). OTLP: 2 and 4 MB ran alike."""
-PARSE_AHEAD = {"csv-value": 4, "csv-columns": 4, "lines": 2, "ndjson": 4, "otlp": 2}
+PARSE_AHEAD = {"csv-value": 4, "csv-columns": 4, "lines": 2, "lines-value": 3, "ndjson": 4, "otlp": 2}
 """Chunks parsed at once, by kind of chunk (at most ``scan.PARSE_WORKERS``); about
 ahead + 3 chunks are in memory. Measured on 2 cores at 1 GB, whole processes, median of
 4: a CSV value column at 2/3/4 ahead 1.75/1.61/1.54 s (2.58/2.48/2.44 CPU-s) at
@@ -46,9 +47,10 @@ budget: lines and OTLP stay at 2. NDJSON at 2/4 ahead: 4.11/3.77 s (7.21/6.89 CP
 176/187 MB; with a group and a time 5.00/4.63 s at 191/204 MB. A CSV read for its value
 and a group or time column (4 MB chunks), once the groups were coded in the parser
 threads: ``--by host`` 2.64/2.52 s (best 2.31/2.07) at 178/189 MB, ``--time-field
---split-at`` 2.12/1.96 s at 192/209 MB."""
-GRANT_AHEAD = ("lines", 4, 350)
-"""(kind, chunks ahead, least grant in MB): a memory grant that large lets text lines
+--split-at`` 2.12/1.96 s at 192/209 MB. Text lines read for the value alone (no group,
+no time) at 2/3 ahead: 2.99/2.63 s (4.44/4.01 CPU-s) at 203/220 MB, median of 3."""
+GRANT_AHEAD = (("lines", "lines-value"), 4, 350)
+"""(kinds, chunks ahead, least grant in MB): a memory grant that large lets text lines
 parse 4 ahead too. Measured at 1 GB with ``--memory-budget 400`` (8 MB chunks), median
 of 2, at 2/4 ahead: text 2.05/1.83 s (best 2.03/1.61) at 255/284 MB, text with a time
 and ``--split-at`` 3.68/3.58 s at 274/303 MB."""
@@ -56,6 +58,7 @@ PEAK_MODEL = {
     "csv-value": (140.0, 8.5),
     "csv-columns": (170.0, 10.0),
     "lines": (170.0, 7.5),
+    "lines-value": (170.0, 7.5),
     "ndjson": (170.0, 7.5),
     "otlp": (100.0, 46.0),
 }
@@ -213,19 +216,20 @@ class ScanOptions:
         chunk of memory."""
         kind = _kind(fmt, value_only)
         granted, ahead, least = GRANT_AHEAD
-        if kind == granted and self.memory_budget_mb is not None and self.memory_budget_mb >= least:
+        if kind in granted and self.memory_budget_mb is not None and self.memory_budget_mb >= least:
             return ahead
         return PARSE_AHEAD[kind]
 
 
 def _kind(fmt: str | None, value_only: bool) -> str:
     """The kind of chunk, for its size and memory: OTLP documents, NDJSON lines, a CSV
-    read for its value column alone or with more columns, or lines (everything else)."""
+    read for its value column alone or with more columns, or lines (everything else),
+    read for the value alone or with a group or time."""
     if fmt in ("otlp", "ndjson"):
         return fmt
     if fmt in ("csv", "tsv"):
         return "csv-value" if value_only else "csv-columns"
-    return "lines"
+    return "lines-value" if value_only else "lines"
 
 
 @dataclass(frozen=True)
