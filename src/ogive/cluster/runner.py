@@ -38,6 +38,12 @@ POLL_S = 0.05
 FINAL_WAIT_S = 120
 """How long a stopped scan waits for the parts already read to be merged and sent back."""
 
+LOST = ("lost", "pending")
+"""Future states of a task whose result died with its worker after it was reported done
+(no exception to show: ``exception()`` is None). Dask recomputes it from its inputs, so
+it is watched again, not taken for a failure (which once failed a whole scan with
+"a merge of parts failed: NoneType: None" when a worker was killed mid-merge)."""
+
 PENDING, EMPTY, HOLE = "pending", "empty", "hole"
 """A slot waiting for its part; a slot with nothing to merge (its bytes were read by
 another part); a slot whose part failed or was never read."""
@@ -255,6 +261,10 @@ class Runner:
             batch = self.queue.next_batch(block=False) if self.queue.has_ready() else []
             for fut in batch:
                 role, a, b = self.roles.pop(fut.key)
+                if fut.status in LOST:  # its worker died after it finished: Dask computes it again
+                    self.roles[fut.key] = (role, a, b)
+                    self.queue.add(fut)
+                    continue
                 if role == "reach":
                     self.on_reach(fut, a, b)
                 elif fut.status != "finished":
