@@ -15,8 +15,7 @@ import numpy as np
 import pytest
 from textual.widgets import Input
 
-from ogive.sketch import Sketch, SketchSet
-from ogive.store import load_sketches, save_sketches
+from ogive.store import load_sketches
 from ogive.ui import OgiveApp
 from ogive.ui.ask_path import AskPath
 from ogive.ui.fit_panel import ModelRanking
@@ -27,6 +26,7 @@ from ogive.ui.plot_panel import PlotPanel
 from ogive.ui.screen_text import screen_text
 from ogive.ui.shelf import DistributionShelf
 from ogive.ui.workspace import partner
+from ui_pilot import save_each, until_idle
 
 FAST = ("lognormal", "gamma")
 """Two families keep each fit well under a second; the ranking itself is the fit tests' job."""
@@ -42,35 +42,15 @@ def _raw(seed: int, scale: float, n: int = 20_000) -> np.ndarray:
 def pair(tmp_path: Path) -> tuple[Path, Path, np.ndarray, np.ndarray]:
     """Two saved sketches: 'after' is 'before' slowed by 30 % (a clear change)."""
     a, b = _raw(1, 1.0), _raw(2, 1.3)
-    out = []
-    for name, values in (("before", a), ("after", b)):
-        s = Sketch("ms")
-        s.add(values)
-        path = tmp_path / f"{name}.ogive"
-        save_sketches(path, SketchSet({name: s}))
-        out.append(path)
-    return out[0], out[1], a, b
-
-
-async def _idle(app: OgiveApp, pilot: object, limit_s: float = 30.0) -> None:
-    """Until no worker runs (exclusive workers may be cancelled, so no wait_for_complete)."""
-    waited = 0.0
-    while any(w.is_running for w in app.workers) and waited < limit_s:
-        await pilot.pause(0.05)  # type: ignore[attr-defined]
-        waited += 0.05
-
-
-async def _settle(app: OgiveApp, pilot: object) -> None:
-    await pilot.pause(0.2)  # type: ignore[attr-defined]
-    await _idle(app, pilot)
-    await pilot.pause(0.2)  # type: ignore[attr-defined]
+    before, after = save_each(tmp_path, {"before": a, "after": b})
+    return before, after, a, b
 
 
 async def test_roles_shelf_and_ladder(pair: tuple[Path, Path, np.ndarray, np.ndarray]) -> None:
     before, after, _, b = pair
     app = OgiveApp(families=FAST, sources=[str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         # last given is the subject, first the reference ("after against before")
         assert app.ws.subject == "after"
         assert app.ws.reference is not None and app.ws.reference.name == "before"
@@ -100,12 +80,12 @@ async def test_swap_roles_and_refuse_same(pair: tuple[Path, Path, np.ndarray, np
     before, after, _, _ = pair
     app = OgiveApp(families=FAST, sources=[str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         shelf = app.query_one(DistributionShelf)
         assert shelf.has_focus
         shelf.move_cursor(row=0)
         await pilot.press("1")  # 'before' becomes the subject; 'after' takes the reference
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         assert app.ws.subject == "before"
         assert app.ws.reference is not None and app.ws.reference.name == "after"
         await pilot.press("2")  # same row as reference: refused with a message
@@ -113,7 +93,7 @@ async def test_swap_roles_and_refuse_same(pair: tuple[Path, Path, np.ndarray, np
         assert app.ws.reference.name == "after"
         assert "must differ" in screen_text(app)
         await pilot.press("c")
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         p50_line = next(ln for ln in screen_text(app).splitlines() if ln.strip("│ ").startswith("p50"))
         assert "lower" in p50_line
 
@@ -122,7 +102,7 @@ async def test_picture_modes_and_axes(pair: tuple[Path, Path, np.ndarray, np.nda
     before, after, _, _ = pair
     app = OgiveApp(families=FAST, sources=[str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         seen = [app.ws.kind]
         for _ in range(5):
             await pilot.press("v")
@@ -143,7 +123,7 @@ async def test_write_and_export(pair: tuple[Path, Path, np.ndarray, np.ndarray],
     before, after, _, b = pair
     app = OgiveApp(families=FAST, sources=[str(before), str(after)], save_dir=tmp_path)
     async with app.run_test(size=(80, 24)) as pilot:
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         await pilot.press("w")
         await pilot.pause(0.1)
         assert isinstance(app.screen, AskPath)
@@ -175,7 +155,7 @@ async def test_help_lists_every_key(pair: tuple[Path, Path, np.ndarray, np.ndarr
     before, after, _, _ = pair
     app = OgiveApp(families=FAST, sources=[str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         await pilot.press("question_mark")
         await pilot.pause(0.2)
         assert isinstance(app.screen, KeyHelp)
@@ -193,7 +173,7 @@ async def test_open_prompt_previews_and_opens(pair: tuple[Path, Path, np.ndarray
     before, after, _, _ = pair
     app = OgiveApp(families=FAST, sources=[str(before)])
     async with app.run_test(size=(80, 24)) as pilot:
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         # one distribution alone: nothing to compare against yet
         assert app.ws.reference is None or app.ws.reference.kind == "model"
         await pilot.press("o")
@@ -201,11 +181,11 @@ async def test_open_prompt_previews_and_opens(pair: tuple[Path, Path, np.ndarray
         assert isinstance(app.screen, OpenPrompt)
         app.screen.query_one("#open-path", PathInput).value = str(after)
         await pilot.pause(0.6)  # the preview waits 0.3 s for typing to stop
-        await _idle(app, pilot)
+        await until_idle(app, pilot, settle_s=0)
         await pilot.pause(0.1)
         assert "sketch file with 1 sketch" in screen_text(app)
         await pilot.press("enter")
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         assert list(app.ws.dists) == ["before", "after"]
 
 
@@ -215,9 +195,9 @@ async def test_models_rank_and_a_model_becomes_the_reference(
     before, after, _, _ = pair
     app = OgiveApp(families=FAST, sources=[str(before), str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         await pilot.press("f")
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         models = app.query_one(ModelRanking)
         assert models.has_focus
         assert app.ws.fit is not None, app.ws.fit_note
@@ -229,7 +209,7 @@ async def test_models_rank_and_a_model_becomes_the_reference(
         assert all(label in text for label in labels)
         models.move_cursor(row=1)
         await pilot.press("2")
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         assert app.ws.reference is not None and app.ws.reference.kind == "model"
         assert app.ws.reference.name == labels[1]
         # the ladder compares sketches only, and says so
@@ -257,7 +237,7 @@ async def test_fits_in_80x24_and_scales(pair: tuple[Path, Path, np.ndarray, np.n
     for size in ((80, 24), (160, 48)):
         app = OgiveApp(families=FAST, sources=[str(before), str(after)])
         async with app.run_test(size=size) as pilot:
-            await _settle(app, pilot)
+            await until_idle(app, pilot)
             lines = screen_text(app).splitlines()
             assert len(lines) == size[1]
             assert max(len(line) for line in lines) <= size[0]
@@ -286,11 +266,11 @@ async def test_lone_subject_gets_best_model_until_a_sketch_arrives(
     before, after, _, _ = pair
     app = OgiveApp(families=FAST, sources=[str(after)])
     async with app.run_test(size=(80, 24)) as pilot:
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         assert app.ws.reference is not None and app.ws.reference.kind == "model"
         assert app.ws.reference.name == app.ws.fit.ranked[0].label
         app.open(str(before), app.options)
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         assert app.ws.reference is not None and app.ws.reference.kind == "sketch"
         assert (app.ws.subject, app.ws.reference.name) == ("before", "after")
 
@@ -316,7 +296,7 @@ async def test_open_dialog_splits_by_time_and_groups(tmp_path: Path) -> None:
         await pilot.pause(0.5)
         screen.query_one("#open-path", PathInput).focus()
         await pilot.press("enter")
-        await _settle(app, pilot)
+        await until_idle(app, pilot)
         names = sorted(app.ws.dists)
         assert names == ["svc:after/route=a", "svc:after/route=b", "svc:before/route=a", "svc:before/route=b"]
         # Counted by hand from the rows written: hours 10 and 11 are before 12:00.

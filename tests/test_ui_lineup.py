@@ -15,10 +15,9 @@ import pytest
 from textual.pilot import Pilot
 
 from ogive.cli import main
-from ogive.sketch import Sketch, SketchSet
-from ogive.store import save_sketches
 from ogive.ui import OgiveApp
 from ogive.ui.plot_panel import PlotPanel
+from ui_pilot import save_each
 
 os.environ.setdefault("NO_COLOR", "1")
 FAMILIES = ("lognormal", "gamma", "weibull", "exponential", "loglogistic")
@@ -27,14 +26,9 @@ FAMILIES = ("lognormal", "gamma", "weibull", "exponential", "loglogistic")
 @pytest.fixture()
 def saved(tmp_path: Path) -> tuple[Path, Path]:
     rng = np.random.default_rng(19)
-    out = []
-    for name, scale in (("before", 1.0), ("after", 1.3)):
-        s = Sketch("ms")
-        s.add(rng.gamma(2.0, 6.0, 20_000) * scale)
-        path = tmp_path / f"{name}.ogive"
-        save_sketches(path, SketchSet({name: s}))
-        out.append(path)
-    return out[0], out[1]
+    named = {"before": rng.gamma(2.0, 6.0, 20_000) * 1.0, "after": rng.gamma(2.0, 6.0, 20_000) * 1.3}
+    before, after = save_each(tmp_path, named)
+    return before, after
 
 
 async def _settle(app: OgiveApp, pilot: Pilot[int]) -> None:

@@ -15,10 +15,9 @@ import pytest
 
 from ogive.fit.objective import check_objective, parse_objective
 from ogive.render.objectives import objective_cell
-from ogive.sketch import Sketch, SketchSet
-from ogive.store import save_sketches
 from ogive.ui import OgiveApp
 from ogive.ui.screen_text import screen_text
+from ui_pilot import save_each
 
 os.environ.setdefault("NO_COLOR", "1")
 
@@ -30,14 +29,8 @@ def pair(tmp_path: Path) -> tuple[Path, Path, np.ndarray]:
     a = rng.lognormal(3.0, 0.5, 900)  # every value held: exact counts
     b = rng.lognormal(3.0, 0.5, 20_000)
     b[:600] = rng.uniform(300, 600, 600)
-    out = []
-    for name, values in (("before", a), ("after", b)):
-        s = Sketch("ms")
-        s.add(values)
-        path = tmp_path / f"{name}.ogive"
-        save_sketches(path, SketchSet({name: s}))
-        out.append(path)
-    return out[0], out[1], b
+    before, after = save_each(tmp_path, {"before": a, "after": b})
+    return before, after, b
 
 
 async def test_objectives_on_the_shelf_and_in_the_ladder(pair: tuple[Path, Path, np.ndarray]) -> None:

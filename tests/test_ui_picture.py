@@ -15,11 +15,10 @@ import numpy as np
 import pytest
 
 from ogive.cli import main
-from ogive.sketch import Sketch, SketchSet
-from ogive.store import save_sketches
 from ogive.ui import OgiveApp
 from ogive.ui.plot_panel import PlotPanel
 from ogive.ui.workspace import KINDS
+from ui_pilot import save_each
 
 os.environ.setdefault("NO_COLOR", "1")
 
@@ -27,14 +26,9 @@ os.environ.setdefault("NO_COLOR", "1")
 @pytest.fixture()
 def saved(tmp_path: Path) -> tuple[Path, Path]:
     rng = np.random.default_rng(7)
-    out = []
-    for name, scale in (("before", 1.0), ("after", 1.25)):
-        s = Sketch("ms")
-        s.add(rng.lognormal(2.0, 0.6, 30_000) * scale)
-        path = tmp_path / f"{name}.ogive"
-        save_sketches(path, SketchSet({name: s}))
-        out.append(path)
-    return out[0], out[1]
+    named = {"before": rng.lognormal(2.0, 0.6, 30_000) * 1.0, "after": rng.lognormal(2.0, 0.6, 30_000) * 1.25}
+    before, after = save_each(tmp_path, named)
+    return before, after
 
 
 async def _until(app: OgiveApp, pilot: object, ready: object, limit_s: float = 30.0) -> None:

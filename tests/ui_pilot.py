@@ -5,6 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
+from numpy.typing import NDArray
 from textual.pilot import Pilot
 
 from ogive.sketch import Sketch, SketchSet
@@ -13,7 +14,8 @@ from ogive.ui import OgiveApp
 
 
 async def until_idle(app: OgiveApp, pilot: Pilot[int], limit_s: float = 30.0, settle_s: float = 0.2) -> None:
-    """Until no worker runs (at most ``limit_s``), with a pause each side for the redraw."""
+    """Until no worker runs (at most ``limit_s``), with a pause each side for the redraw.
+    Polled, not ``wait_for_complete``: exclusive workers may be cancelled."""
     waited = 0.0
     await pilot.pause(settle_s)
     while any(w.is_running for w in app.workers) and waited < limit_s:
@@ -32,3 +34,16 @@ def pair_file(directory: Path, seed: int, after_mu: float) -> Path:
     path = directory / "pair.ogive"
     save_sketches(path, SketchSet({"before": a, "after": b}))
     return path
+
+
+def save_each(directory: Path, named: dict[str, NDArray[np.float64]]) -> list[Path]:
+    """Each named array of values (ms) as a one-sketch file ``NAME.ogive`` in ``directory``,
+    in the order given."""
+    out = []
+    for name, values in named.items():
+        s = Sketch("ms")
+        s.add(values)
+        path = directory / f"{name}.ogive"
+        save_sketches(path, SketchSet({name: s}))
+        out.append(path)
+    return out
