@@ -94,17 +94,18 @@ class Feed:
 
     def chunk_size(self) -> int:
         """Bytes per read: by format once the layout is known."""
-        layout = self.layout
-        if layout is None:
-            return self.options.chunk_size(None)
-        return self.options.chunk_size(layout.format, value_only=layout.names == ("v",))
+        fmt, value_only = self._kind()
+        return self.options.chunk_size(fmt, value_only=value_only)
 
     def parse_ahead(self) -> int:
         """Chunks to parse at once, by format once the layout is known."""
+        fmt, value_only = self._kind()
+        return self.options.parse_ahead(fmt, value_only=value_only)
+
+    def _kind(self) -> tuple[str | None, bool]:
+        """(format, read for the value alone) of the layout; (None, False) before it is known."""
         layout = self.layout
-        if layout is None:
-            return self.options.parse_ahead(None)
-        return self.options.parse_ahead(layout.format, value_only=layout.names == ("v",))
+        return (None, False) if layout is None else (layout.format, layout.names == ("v",))
 
     def cutting(self) -> str:
         """How to cut: CSV records may hold quoted newlines; before the layout, guess."""
