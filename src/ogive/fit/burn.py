@@ -28,15 +28,12 @@ from dataclasses import dataclass
 from typing import Any
 
 from ..sketch import Distribution
+from .distances import num_or_none
 from .objective import Objective, ObjectiveCheck, ShareOver, compliance, narrowed, share_over
 
 CREDIBLE, ESTIMATE, NONE = "credible", "estimate", ""
 DEFAULT_MARK_RATE = 1.0
 """Mark windows burning faster than the objective allows (1×) unless told otherwise."""
-
-
-def _num(x: float) -> float | None:
-    return float(x) if math.isfinite(x) else None
 
 
 @dataclass(frozen=True)
@@ -61,15 +58,15 @@ class BurnWindow:
             "n": self.share.n,
             "over_low": self.share.over_low,
             "over_high": self.share.over_high,
-            "share": _num(self.share.estimate),
-            "share_low": _num(self.share.low),
-            "share_high": _num(self.share.high),
-            "burn_rate": _num(self.rate),
-            "burn_rate_low": _num(self.rate_low),
-            "burn_rate_high": _num(self.rate_high),
+            "share": num_or_none(self.share.estimate),
+            "share_low": num_or_none(self.share.low),
+            "share_high": num_or_none(self.share.high),
+            "burn_rate": num_or_none(self.rate),
+            "burn_rate_low": num_or_none(self.rate_low),
+            "burn_rate_high": num_or_none(self.rate_high),
             "mark": self.mark,
-            "cumulative_spent_low": _num(self.spent_low),
-            "cumulative_spent_high": _num(self.spent_high),
+            "cumulative_spent_low": num_or_none(self.spent_low),
+            "cumulative_spent_high": num_or_none(self.spent_high),
         }
 
 
@@ -109,7 +106,7 @@ class BurnSeries:
             "mark_rate": self.mark_rate,
             "confidence": self.confidence,
             "whole": self.whole.to_dict(),
-            "budget_spent": [_num(x) for x in self.spent],
+            "budget_spent": [num_or_none(x) for x in self.spent],
             "first_credible_start_us": None if first is None else first.start_us,
             "windows": [w.to_dict() for w in self.windows],
         }

@@ -20,7 +20,13 @@ FloatArray = NDArray[np.float64]
 
 
 def num_or_none(x: float) -> float | None:
+    """JSON has no NaN or infinity: such a number (an unbounded side) is written as null."""
     return float(x) if np.isfinite(x) else None
+
+
+def pair_or_none(pair: tuple[float, float] | None) -> list[float | None] | None:
+    """A (low, high) pair for JSON, each side through :func:`num_or_none`."""
+    return None if pair is None else [num_or_none(pair[0]), num_or_none(pair[1])]
 
 
 def support(s: Distribution) -> FloatArray:

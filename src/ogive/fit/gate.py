@@ -41,6 +41,7 @@ import numpy as np
 from ..numbers import quantity, span
 from ..sketch import Distribution, quantile_label
 from ..sketch.units import SECONDS_PER_UNIT
+from .distances import num_or_none
 from .ladder import QuantileInterval, above, quantile_intervals
 from .limit_states import COARSE, EXCEEDED, HOLDS, STATUSES, TOO_FEW, UNCLEAR
 from .share_limits import ShareCheck, ShareLimit, check_share, is_share_limit, parse_share_limit
@@ -162,16 +163,12 @@ class LimitCheck:
             "status": self.status,
             "a": self.a.to_dict(),
             "b": self.b.to_dict(),
-            "allowed": _num(self.allowed),
-            "allowed_low": _num(self.allowed_low),
-            "allowed_high": _num(self.allowed_high),
+            "allowed": num_or_none(self.allowed),
+            "allowed_low": num_or_none(self.allowed_low),
+            "allowed_high": num_or_none(self.allowed_high),
             "reason": self.reason,
             "note": self.note,
         }
-
-
-def _num(x: float) -> float | None:
-    return x if math.isfinite(x) else None
 
 
 @dataclass(frozen=True)

@@ -46,17 +46,13 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ..sketch import Distribution, is_binned, quantile_label
+from .distances import num_or_none, pair_or_none
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
 LADDER_QS: tuple[float, ...] = (0.5, 0.75, 0.9, 0.95, 0.99, 0.999, 0.9999)
 """The quantiles every comparison reports (the maximum is added as its own row)."""
-
-
-def _num(x: float) -> float | None:
-    """JSON has no infinity: an unbounded side is written as null."""
-    return float(x) if np.isfinite(x) else None
 
 
 @dataclass(frozen=True)
@@ -107,9 +103,9 @@ class QuantileInterval:
         return {
             "q": self.q,
             "label": self.label,
-            "estimate": _num(self.estimate),
-            "low": _num(self.low),
-            "high": _num(self.high),
+            "estimate": num_or_none(self.estimate),
+            "low": num_or_none(self.low),
+            "high": num_or_none(self.high),
             "low_unbounded": bool(not np.isfinite(self.low)),
             "high_unbounded": bool(not np.isfinite(self.high)),
             "confidence": self.confidence,
@@ -117,7 +113,7 @@ class QuantileInterval:
             "rank_low": self.rank_low,
             "rank_high": self.rank_high,
             "sketch_margin": self.sketch_margin,
-            "bucket": None if self.bucket is None else [_num(self.bucket[0]), _num(self.bucket[1])],
+            "bucket": pair_or_none(self.bucket),
             "bucket_limited": self.bucket_limited,
         }
 
@@ -218,14 +214,14 @@ class LadderRow:
         return {
             "label": self.label,
             "q": self.q,
-            "a": self.a.to_dict() if self.a else {"estimate": _num(self.a_value)},
-            "b": self.b.to_dict() if self.b else {"estimate": _num(self.b_value)},
-            "change": _num(self.change),
-            "relative_change": _num(self.relative_change),
-            "change_low": _num(self.change_low),
-            "change_high": _num(self.change_high),
+            "a": self.a.to_dict() if self.a else {"estimate": num_or_none(self.a_value)},
+            "b": self.b.to_dict() if self.b else {"estimate": num_or_none(self.b_value)},
+            "change": num_or_none(self.change),
+            "relative_change": num_or_none(self.relative_change),
+            "change_low": num_or_none(self.change_low),
+            "change_high": num_or_none(self.change_high),
             "verdict": self.verdict,
-            "bucket": None if self.bucket is None else [_num(self.bucket[0]), _num(self.bucket[1])],
+            "bucket": pair_or_none(self.bucket),
         }
 
 
@@ -266,9 +262,13 @@ def verdict_of(a: QuantileInterval, b: QuantileInterval) -> str:
         return HIGHER
     if above(a, b.high):
         return LOWER
-    if a.rank_low is not None and a.rank_high is not None and b.rank_low is not None and (
-        b.rank_high is not None
-    ) and coarse_bucket(a, b) is not None:
+    if (
+        a.rank_low is not None
+        and a.rank_high is not None
+        and b.rank_low is not None
+        and (b.rank_high is not None)
+        and coarse_bucket(a, b) is not None
+    ):
         return COARSE
     if not (a.bounded and b.bounded):
         return TOO_FEW

@@ -18,6 +18,7 @@ from numpy.typing import NDArray
 
 from ..sketch import Binned, Sketch, merge_binned, quantile_label, timekeys
 from ..sketch.distribution import Dist
+from .distances import num_or_none
 from .ladder import LADDER_QS
 from .spans import Change, locate
 from .splits import MIN_TAIL_COUNT
@@ -30,10 +31,6 @@ LADDER_WINDOWS = 500
 """The windows nearest a change merged into its before and after sketches for the
 ladder's estimates (merging costs about 0.3 ms a window; the test of what moved reads
 the whole periods, from counts)."""
-
-
-def _num(x: float) -> float | None:
-    return float(x) if np.isfinite(x) else None
 
 
 @dataclass(frozen=True)
@@ -66,9 +63,9 @@ class QuantileMove:
         return {
             "label": self.label,
             "q": self.q,
-            "before": _num(self.before),
-            "after": _num(self.after),
-            "relative_change": _num(self.relative),
+            "before": num_or_none(self.before),
+            "after": num_or_none(self.after),
+            "relative_change": num_or_none(self.relative),
             "z": self.z,
             "moved": self.moved,
         }

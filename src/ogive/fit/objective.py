@@ -40,6 +40,7 @@ import numpy as np
 
 from ..sketch import Distribution, is_binned
 from ..sketch.units import duration_factor
+from .distances import num_or_none, pair_or_none
 
 MET, MISSED, CANNOT_TELL = "met", "missed", "cannot tell"
 COMPLIANCE = (MET, MISSED, CANNOT_TELL)
@@ -49,10 +50,6 @@ _OBJECTIVE = re.compile(
     r"(?P<target>[0-9]*\.?[0-9]+)\s*%\s*$"
 )
 _THRESHOLD = re.compile(r"^\s*(?P<x>[0-9]*\.?[0-9]+(?:[eE][+-]?[0-9]+)?)\s*(?P<unit>[A-Za-zµμ]+)?\s*$")
-
-
-def _num(x: float) -> float | None:
-    return float(x) if math.isfinite(x) else None
 
 
 @dataclass(frozen=True)
@@ -163,12 +160,12 @@ class ShareOver:
             "n": self.n,
             "over_low": self.over_low,
             "over_high": self.over_high,
-            "estimate": _num(self.estimate),
-            "low": _num(self.low),
-            "high": _num(self.high),
+            "estimate": num_or_none(self.estimate),
+            "low": num_or_none(self.low),
+            "high": num_or_none(self.high),
             "confidence": self.confidence,
             "count_exact": self.count_exact,
-            "bucket": None if self.bucket is None else [_num(self.bucket[0]), _num(self.bucket[1])],
+            "bucket": pair_or_none(self.bucket),
         }
 
 
@@ -283,10 +280,10 @@ class ObjectiveCheck:
             "objective": self.objective.to_dict(),
             "share": self.share.to_dict(),
             "status": self.status,
-            "budget_spent": _num(self.budget),
-            "budget_spent_low": _num(lo),
-            "budget_spent_high": _num(hi),
-            "observed_budget_spent": [_num(olo), _num(ohi)],
+            "budget_spent": num_or_none(self.budget),
+            "budget_spent_low": num_or_none(lo),
+            "budget_spent_high": num_or_none(hi),
+            "observed_budget_spent": [num_or_none(olo), num_or_none(ohi)],
         }
 
 

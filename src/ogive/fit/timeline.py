@@ -25,6 +25,7 @@ from numpy.typing import NDArray
 from ..sketch import Binned, Sketch, SketchSet, merge_binned, timekeys
 from ..sketch.distribution import Dist
 from .changes import ALPHA, GRID_QS, Change, ChangeSearch, find_changes
+from .distances import num_or_none
 from .ladder import QuantileInterval, quantile_intervals
 from .moves import ChangeReport, Counts, Stretch, describe_changes
 from .strip import STRIP_COLUMNS, Strip, density_strip, strip_range
@@ -214,7 +215,7 @@ class StreamTimeline:
             "windows": [r.to_dict() for r in self.rows],
             "chart": {
                 "quantiles": list(chart_qs),
-                "values": [[_num(v) for v in row] for row in self.chart.tolist()],
+                "values": [[num_or_none(v) for v in row] for row in self.chart.tolist()],
             },
             "changes": [c.to_dict() for c in self.changes],
             "search": self.search.to_dict(),
@@ -248,10 +249,6 @@ class Timeline:
             "streams": [s.to_dict(self.chart_qs) for s in self.streams],
             "notes": list(self.notes),
         }
-
-
-def _num(x: float) -> float | None:
-    return float(x) if np.isfinite(x) else None
 
 
 # ---------------------------------------------------------------- building
