@@ -20,8 +20,10 @@ import time
 from pathlib import Path
 
 import pytest
+from rich.segment import Segment
+from textual.color import Color
 
-from ogive.ui.terminal import wants_ascii
+from ogive.ui.terminal import ControlFilter, wants_ascii
 from ui_pilot import pair_file
 
 SRC = Path(__file__).resolve().parents[1] / "src"
@@ -210,3 +212,13 @@ def test_suspend_and_resume_redraw_the_screen(sketches: Path) -> None:
     assert b"\x1b[?1049h" in resumed and b"Quit" in resumed and b"Distributions" in resumed
     tty.press(b"q")
     assert tty.wait() == 0
+
+
+def test_the_last_filter_removes_what_a_terminal_acts_on() -> None:
+    """What reaches the terminal holds no C0/C1 control, no bidirectional override and no
+    lone surrogate (the set ``errors.printable`` escapes; ECMA-48 for the controls,
+    Unicode UAX #9 for the overrides); plain text and textual's own control segments pass."""
+    dirty = "a\x1b[2Jb\x07c\u202ed\udc80e\x9bf"
+    own = Segment("\x1b[?25l", None, [])  # a control segment textual made itself
+    out = ControlFilter().apply([Segment(dirty), Segment("p50 12.3 ms"), own], Color(0, 0, 0))
+    assert [s.text for s in out] == ["a[2Jbcdef", "p50 12.3 ms", "\x1b[?25l"]

@@ -24,7 +24,7 @@ EXIT_INTERRUPTED = 130
 
 
 # ---------------------------------------------------------------- text safe to print
-_UNSAFE = re.compile("[\x00-\x1f\x7f-\x9f\u200e\u200f\u202a-\u202e\u2066-\u2069\ud800-\udfff]")
+UNSAFE = re.compile("[\x00-\x1f\x7f-\x9f\u200e\u200f\u202a-\u202e\u2066-\u2069\ud800-\udfff]")
 """Characters a terminal acts on instead of showing: C0 and C1 controls (ESC starts the
 sequences that move the cursor, recolour, retitle the window or rewrite the clipboard),
 DEL, the bidirectional overrides that reorder what follows, and lone surrogates (bytes
@@ -50,7 +50,7 @@ def printable(text: str) -> str:
     screen, fake a table row or retitle the terminal. Every table, the live line, the
     workspace and every error message print such text through this function.
     """
-    return _UNSAFE.sub(_escape, text) if _UNSAFE.search(text) else text
+    return UNSAFE.sub(_escape, text) if UNSAFE.search(text) else text
 
 
 def excerpt(text: str | bytes, limit: int = 40) -> str:

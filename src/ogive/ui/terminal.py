@@ -19,12 +19,13 @@ Kept apart from the app so the rules can be read (and tested) as plain functions
 from __future__ import annotations
 
 import os
-import re
 from collections.abc import Mapping
 
 from rich.segment import Segment
 from textual.color import Color
 from textual.filter import LineFilter
+
+from ..errors import UNSAFE
 
 ESCAPE_DELAY_MS = 25
 """Our escape delay when ``ESCDELAY`` is not set (see the module text)."""
@@ -90,21 +91,19 @@ def plain(text: str, ascii_only: bool) -> str:
     return text.translate(ASCII_FOR) if ascii_only else text
 
 
-_CONTROLS = re.compile("[\x00-\x1f\x7f-\x9f]")
-
-
 class ControlFilter(LineFilter):
-    """The last guard: no control character in any drawn text reaches the terminal.
+    """The last guard: no character a terminal acts on reaches it from any drawn text.
 
     Text the workspace draws goes through :func:`ogive.errors.printable` where it is made (so widths stay
     right); this filter removes any that came another way (a renderer's label), at the cost of
-    a cell or two of alignment, never the terminal's state.
+    a cell or two of alignment, never the terminal's state. "Acts on" is the one definition,
+    :data:`ogive.errors.UNSAFE`: controls, bidirectional overrides and lone surrogates.
     """
 
     def apply(self, segments: list[Segment], background: Color) -> list[Segment]:
         return [
-            Segment(_CONTROLS.sub("", text), style, control)
-            if control is None and _CONTROLS.search(text)
+            Segment(UNSAFE.sub("", text), style, control)
+            if control is None and UNSAFE.search(text)
             else Segment(text, style, control)
             for text, style, control in segments
         ]
