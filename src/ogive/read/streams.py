@@ -78,13 +78,14 @@ class ZstdStream:
 
     def read(self, n: int) -> bytes:
         while len(self._out) < n:
-            data = self.raw.read(1 << 20)
+            data = self.raw.read(PIECE)
             if not data:
                 if not self._fresh and not self._dobj.eof:
                     raise EOFError("compressed input ended inside a zstd frame")
                 break
             self._feed(data)
-        out = bytes(self._out[:n])
+        with memoryview(self._out) as view:  # one copy out, not a bytearray slice and then bytes()
+            out = bytes(view[:n])
         del self._out[:n]
         return out
 
