@@ -331,3 +331,18 @@ def test_unit_from_the_column_name(tmp_path: Path) -> None:
     assert any("from the name 'latency_s'" in w for w in r.warnings)
     # An explicit --input-unit wins over the name.
     assert scan([str(path)], ScanOptions(column="latency_s", input_unit="ms")).sketches["all"].max == 1.5
+
+
+def test_by_a_field_no_record_has_is_said_not_only_shown(tmp_path: Path) -> None:
+    """Every row in ``host=(missing)`` gets a warning naming how free text gives a group;
+    a file where some rows have the field gets none (their rows count in their groups)."""
+    bare = tmp_path / "bare.log"
+    bare.write_text("".join(f"ck-web-{i % 3} dur={i + 1}ms\n" for i in range(30)))
+    result = scan([str(bare)], ScanOptions(by="host"))
+    assert result.sketches.names() == ["host=(missing)"]
+    assert any("no record had a host value" in w and "(?P<host>" in w for w in result.warnings)
+    paired = tmp_path / "paired.log"
+    paired.write_text("".join(f"host=ck-web-{i % 3} dur={i + 1}ms\n" for i in range(30)) + "dur=5ms\n")
+    result = scan([str(paired)], ScanOptions(by="host"))
+    assert "host=ck-web-0" in result.sketches.names()
+    assert not any("no record had" in w for w in result.warnings)

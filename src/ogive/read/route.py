@@ -227,6 +227,17 @@ class Router:
                 self._overflow = np.sort(np.concatenate((known, unseen)))
         return labels, rows
 
+    def missing_warning(self) -> str | None:
+        """When no row had a ``--by`` value: every row went to ``FIELD=(missing)``, which
+        a user asking for per-host sketches must hear, not find in the table."""
+        if list(self.groups) != [MISSING]:
+            return None
+        by = self.options.by
+        return (
+            f"--by {by}: no record had a {by} value, so every row is in {by}={MISSING}; in free text "
+            f"--by reads {by}=VALUE pairs or a named group (?P<{by}>...) of --pattern."
+        )
+
     def overflow_warning(self) -> str | None:
         if not self._overflow.size:
             return None

@@ -351,6 +351,7 @@ class Pipeline:
         for what, tally in self.fixed.items():
             warnings.append(f"{tally.count:,} lines {FIXED_TEXT[what]} (first at {places(tally.examples)}).")
         for note in (
+            self.router.missing_warning(),
             self.router.overflow_warning(),
             self.decoder.mixed_units_warning(),
             self.order.warning(),
