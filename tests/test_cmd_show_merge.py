@@ -87,23 +87,3 @@ def test_merge_as_refuses_unknown_names_in_one_line(
         assert main(["merge", str(sa), str(sb), "--as", bad, "-o", out]) == 3
         err = capsys.readouterr().err.strip().splitlines()
         assert len(err) == 1 and says in err[0]
-
-
-def test_an_empty_or_cut_short_ogive_file_is_refused_the_same_everywhere(
-    tmp_path: Path, capsys: pytest.CaptureFixture[str]
-) -> None:
-    """A file named ``*.ogive`` that is not a sketch set (empty, or cut short) is not taken
-    for an empty log by any command: one sentence, exit 3, as the workspace's Open prompt
-    says it; ``--format`` reads it as a log on purpose."""
-    empty = tmp_path / "before.ogive"
-    empty.write_bytes(b"")
-    cut = tmp_path / "after.ogive"
-    cut.write_bytes(b'{"format": "ogive-sk')
-    for argv in (["scan", str(empty)], ["fit", str(empty)], ["show", str(empty)], ["scan", str(cut)]):
-        assert main(argv) == 3, argv
-        err = capsys.readouterr().err
-        assert "named as a saved sketch but is" in err and err.count("\n") == 1, (argv, err)
-    empty.write_text("12\n15\n11\n")
-    out = tmp_path / "read.ogive"
-    assert main(["scan", str(empty), "--format", "csv", "--quiet", "-o", str(out)]) == 0
-    assert load_sketches(out)["all"].count == 3

@@ -77,15 +77,13 @@ def sketch_ref(spec: str) -> SketchRef | None:
     return None
 
 
-def misnamed_sketch(spec: str, fmt: str | None = None) -> str:
+def misnamed_sketch(spec: str) -> str:
     """Why a file named as a saved sketch (``*.ogive``) is not one, or '' (a sketch, or a log).
 
     Beside :func:`sketch_ref`: an empty or cut-short ``.ogive`` file fails its sniff and
-    would otherwise be taken for a log to scan. A format chosen (``fmt``, ``--format``)
-    means "read it as a log", and is obeyed. The commands' scans and the workspace's Open
-    prompt both ask this, so they refuse the same names.
+    would otherwise be taken for a log to scan.
     """
-    if fmt is not None or sketch_ref(spec) is not None:
+    if sketch_ref(spec) is not None:
         return ""
     path = split_group(spec)[0] if not spec.endswith(".ogive") else spec
     if not path.endswith(".ogive") or not os.path.isfile(path):

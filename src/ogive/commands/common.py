@@ -373,14 +373,9 @@ def scan_sources(
     the scan's options when a command adds its own to the flags' (``timeline``).
     """
     from ..read import scan
-    from ..store import misnamed_sketch
     from .progress import ProgressLine
 
     options = dataclasses.replace(options or options_from_args(args), keep_partial=keep_partial)
-    for source in sources:  # an empty or cut-short .ogive is not a log to scan (unless --format says so)
-        why = misnamed_sketch(source, options.format)
-        if why:
-            raise OgiveError(why)
     quiet = bool(getattr(args, "quiet", False))
     line = ProgressLine(sys.stderr) if not quiet and sys.stderr.isatty() else None
     address = getattr(args, "cluster", None)

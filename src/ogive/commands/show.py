@@ -92,7 +92,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from ..render.summary import LADDER, MEAN, quantile_lines, summarise, summary_lines
-    from ..store import SketchRef, load_ref, misnamed_sketch, sketch_ref, split_group
+    from ..store import SketchRef, load_ref, sketch_ref, split_group
     from .objectives import objective_text, parse_objectives, set_objectives
 
     objectives = parse_objectives(args.objective)
@@ -102,9 +102,6 @@ def run(args: argparse.Namespace) -> int:
     path, group = split_group(args.sketch)
     ref = SketchRef(path, group) if path == "-" else sketch_ref(args.sketch)
     if ref is None:
-        why = misnamed_sketch(args.sketch)  # an empty or cut-short .ogive: 'ogive scan' refuses it too
-        if why:
-            raise OgiveError(why)
         if os.path.isfile(path):
             raise OgiveError(f"{path} is not a saved sketch; to summarise a log, use 'ogive scan {path}'.")
         ref = SketchRef(path, group)  # loading says the file is missing, in one line

@@ -45,7 +45,7 @@ def not_a_sketch(spec: str, options: ScanOptions) -> str:
     empty or cut-short ``.ogive``: the preview refused it, enter scanned it as a log). A
     format chosen in the prompt means "read it as a log", and is obeyed.
     """
-    return misnamed_sketch(spec, options.format)
+    return "" if options.format is not None else misnamed_sketch(spec)
 
 
 def open_source(
