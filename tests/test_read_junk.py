@@ -55,3 +55,43 @@ def test_timestamps_going_backwards_are_counted(tmp_path: Path, chunk: int | Non
     assert s.provenance.skipped["bad_timestamp"].examples == [f"{f}:6"]
     (note,) = [w for w in res.warnings if "earlier than a row before them" in w]
     assert note.startswith("2 rows") and f"{f}:4" in note and "65 s" in note
+
+
+@pytest.mark.parametrize("chunk", [64, 1 << 20])
+def test_bad_utf8_left_to_the_csv_parser_is_still_counted_where_it_is(tmp_path: Path, chunk: int) -> None:
+    """CSV chunks go to polars unchecked, and only those it refuses as not UTF-8 are
+    cleaned: the lines with bad bytes (in any column, read or not) are still counted at
+    their line numbers. Reference: Python's UTF-8 codec, line by line."""
+    rows = [b"host,latency_ms"]
+    for i in range(1, 200):
+        host = b"h\xff" if i % 37 == 0 else b"caf\xc3\xa9" if i % 5 == 0 else b"h%d" % i
+        rows.append(host + b",%d" % i)
+    f = tmp_path / "mixed.csv"
+    f.write_bytes(b"\n".join(rows) + b"\n")
+    res = scan([str(f)], ScanOptions(column="latency_ms", chunk_bytes=chunk))
+    bad = []
+    for n, line in enumerate(rows, 1):
+        try:
+            line.decode("utf-8")
+        except UnicodeDecodeError:
+            bad.append(n)
+    assert res.sketches["all"].count == 199  # every value read: the bad bytes are in the host
+    (note,) = [w for w in res.warnings if "not UTF-8" in w]
+    assert note.startswith(f"{len(bad)} lines held bytes that are not UTF-8")
+    assert f"{f}:{bad[0]}" in note
+    clean = tmp_path / "clean.csv"  # valid UTF-8 beyond ASCII is no finding at all
+    clean.write_bytes(b"host,latency_ms\n" + b"".join(b"caf\xc3\xa9,%d\n" % i for i in range(50)))
+    assert not [w for w in scan([str(clean)], ScanOptions(column="latency_ms")).warnings if "UTF-8" in w]
+
+
+def test_bad_utf8_in_a_text_log_is_counted_where_it_is(tmp_path: Path) -> None:
+    """Line formats go to polars' line splitter unchecked too; the lines it refuses are
+    cleaned and counted. Reference: Python's UTF-8 codec, line by line."""
+    rows = [(b"GET /caf\xc3\xa9" if i % 3 else b"GET /x\xe9") + b" rt=%dms" % i for i in range(1, 120)]
+    f = tmp_path / "app.log"
+    f.write_bytes(b"\n".join(rows) + b"\n")
+    res = scan([str(f)], ScanOptions(pattern=r"rt=(\d+)ms", chunk_bytes=256))
+    bad = [n for n, line in enumerate(rows, 1) if "\ufffd" in line.decode("utf-8", "replace")]
+    assert res.sketches["all"].count == 119
+    (note,) = [w for w in res.warnings if "not UTF-8" in w]
+    assert note.startswith(f"{len(bad)} lines held bytes that are not UTF-8") and f"{f}:{bad[0]}" in note

@@ -19,6 +19,7 @@ from dataclasses import dataclass
 import polars as pl
 
 from ..errors import OgiveError, excerpt
+from .encoding import NotUtf8, says_not_utf8
 from .layout import Layout
 from .options import ScanOptions
 from .values import looks_numeric
@@ -40,24 +41,26 @@ class CsvLayout(Layout):
     """Fields per record (from the sample, at least the widest column used)."""
     columns: tuple[int, ...] = ()
     """0-based indices of the value, group and time columns, in file order."""
+    validates_utf8: bool = True
 
     def parse(
-        self, data: bytes, *, numeric: bool = False, literal_quotes: object = None
+        self, data: bytes, *, numeric: bool = False, literal_quotes: object = None, strict_utf8: bool = False
     ) -> tuple[pl.DataFrame, bool]:
         """Rows of ``data``; with ``numeric`` the value column is first tried as Float64.
 
         Returns the frame and whether the numeric attempt held (callers stop trying
         once a chunk of durations or other text needed the String path).
         ``literal_quotes`` is called when a chunk's quotes did not balance and it was
-        read with ``"`` as a plain character instead.
+        read with ``"`` as a plain character instead. ``strict_utf8``: bytes that are not
+        UTF-8 raise :class:`NotUtf8` (the caller cleans them) instead of being replaced.
         """
         if numeric:
             try:
-                return self._read(data, numeric=True), True
+                return self._read(data, numeric=True, strict_utf8=strict_utf8), True
             except pl.exceptions.PolarsError:
                 pass
         try:
-            return self._read(data, numeric=False), False
+            return self._read(data, numeric=False, strict_utf8=strict_utf8), False
         except OgiveError:
             if b'"' not in data:
                 raise
@@ -69,7 +72,9 @@ class CsvLayout(Layout):
             literal_quotes()
         return df, False
 
-    def _read(self, data: bytes, *, numeric: bool, quote: str | None = '"') -> pl.DataFrame:
+    def _read(
+        self, data: bytes, *, numeric: bool, quote: str | None = '"', strict_utf8: bool = False
+    ) -> pl.DataFrame:
         # Letting the reader parse floats itself skips a String column and a cast: the
         # fast path for the usual plain-number latency column. Any non-number makes it
         # raise, and the chunk is read again as text (durations, bad rows).
@@ -96,8 +101,10 @@ class CsvLayout(Layout):
             try:
                 df = read("utf8")
             except pl.exceptions.ComputeError as exc:
-                if "utf-8" not in str(exc).lower():
+                if not says_not_utf8(exc):
                     raise
+                if strict_utf8:
+                    raise NotUtf8 from None
                 # Invalid UTF-8 the byte cleaner did not see (a caller that skipped it):
                 # read with such bytes replaced rather than end the scan.
                 df = read("utf8-lossy")

@@ -27,6 +27,7 @@ import polars as pl
 from numpy.typing import NDArray
 
 from ..errors import OgiveError
+from .encoding import NotUtf8, says_not_utf8
 
 LINE_SEP = "\x1f"
 """Unit separator: a byte that does not occur in text logs, so polars' CSV reader can hand
@@ -85,6 +86,11 @@ class Layout:
     """The form of ``t`` when the format fixes it (``clf`` for access logs); None: detect."""
     time_source: str = ""
     """Where the time comes from when no --time-field named it (``the [..] time stamp``)."""
+    validates_utf8: bool = True
+    """``parse`` can be given unchecked bytes (``strict_utf8``): it raises
+    :class:`~.encoding.NotUtf8` instead of reading past bytes that are not UTF-8. True
+    for this class's ``parse`` (polars' line splitter checks every byte); a subclass
+    with a ``parse`` of its own says False unless it does the same."""
     one_row_per_line: bool = True
     """False where a line may hold several records (OTLP spans): polars' own line reader
     (``lazy_files``) then cannot number them, and the chunked reader is used."""
@@ -103,31 +109,41 @@ class Layout:
         *,
         numeric: bool = False,
         literal_quotes: object = None,
+        strict_utf8: bool = False,
     ) -> tuple[pl.DataFrame, bool]:
         """The frame of a chunk of whole lines, and whether a numeric attempt held.
 
         Line formats read lines (``frame``); CSV overrides this to let polars' CSV
         reader do the work.
         """
-        return self.frame(split_lines(data)), False
+        return self.frame(split_lines(data, strict_utf8=strict_utf8)), False
 
     def frame(self, lines: pl.Series) -> pl.DataFrame:
         """The frame for one String per line (null for a blank line)."""
         raise OgiveError(f"{self.format} records are not read line by line.")
 
 
-def split_lines(data: bytes) -> pl.Series:
-    """One String per line (CR of CRLF removed); a blank line gives null."""
+def split_lines(data: bytes, *, strict_utf8: bool = False) -> pl.Series:
+    """One String per line (CR of CRLF removed); a blank line gives null.
+
+    ``strict_utf8``: bytes that are not UTF-8 raise :class:`NotUtf8` (the caller cleans
+    them and counts their lines) instead of being replaced here unseen.
+    """
     if not data:
         return pl.Series("line", [], dtype=pl.String)
     if LINE_SEP.encode() not in data:
         try:
             df = pl.read_csv(data, **AS_LINES)
-        except pl.exceptions.PolarsError:
+        except pl.exceptions.PolarsError as exc:
+            if strict_utf8 and says_not_utf8(exc):
+                raise NotUtf8 from None
             df = None  # invalid UTF-8 that was not cleaned first: split in Python below
         if df is not None and df.width == 1:
             return df.to_series().alias("line")
-    text = data.decode("utf-8", errors="replace")
+    try:
+        text = data.decode("utf-8", errors="strict" if strict_utf8 else "replace")
+    except UnicodeDecodeError:
+        raise NotUtf8 from None
     parts = text.split("\n")
     if parts and parts[-1] == "":
         parts.pop()

@@ -41,6 +41,8 @@ class JsonLayout(L.Layout):
     paths: tuple[tuple[str, tuple[str, ...]], ...] = ()
     """(output name, JSONPaths): the first path that finds the field gives it (a dotted
     name written nested in some records and flat in others)."""
+    validates_utf8: bool = False
+    """Its own ``parse`` wants clean bytes (see :class:`~.layout.Layout`)."""
     null_probe: tuple[str, str] = ("$", "")
     """(JSONPath of the value's parent object, regex that finds the value's key set to
     null in it): tells a null value from a missing one, for the rows without a value."""
@@ -51,7 +53,7 @@ class JsonLayout(L.Layout):
     per field); empty when a path has an index or two paths clash."""
 
     def parse(
-        self, data: bytes, *, numeric: bool = False, literal_quotes: object = None
+        self, data: bytes, *, numeric: bool = False, literal_quotes: object = None, strict_utf8: bool = False
     ) -> tuple[pl.DataFrame, bool]:
         """polars' NDJSON reader on the whole chunk when it can be trusted to give one row
         per line (measured ~4x faster than a line-by-line decode); else line by line.

@@ -251,7 +251,7 @@ class Pipeline:
                 if self.decoder.unit is None:  # the first rows decide the unit and time form
                     job.done = self.parse(piece.data, src.display, here=True)
                 else:
-                    job.future = pool.submit(self.parse, piece.data, src.display)
+                    job.future = pool.submit(self.parse, piece.data, src.display, quoted=piece.quoted)
             self.bytes_seen += piece.nbytes
             consumed += piece.nbytes
             # Compressed: the file offset (what the size measures); plain: bytes consumed
@@ -259,9 +259,10 @@ class Pipeline:
             job.pos = src.raw_pos if src.size and src.compression else consumed
             yield job
 
-    def parse(self, data: bytes, display: str, *, here: bool = False) -> Batch:
-        """A piece's batch; thread-safe unless ``here`` (this thread decides the unit)."""
-        frame = self.feed.parse(data)
+    def parse(self, data: bytes, display: str, *, here: bool = False, quoted: bool = True) -> Batch:
+        """A piece's batch; thread-safe unless ``here`` (this thread decides the unit).
+        ``quoted=False``: the piece is known to hold no double quote."""
+        frame = self.feed.parse(data, quoted=quoted)
         batch = self.prepare_here(frame.df, display) if here else self.decoder.prepare(frame.df, display)
         batch.lines, batch.line_of, batch.fixed = frame.lines, frame.line_of, frame.fixed
         return batch

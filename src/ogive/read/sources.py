@@ -42,6 +42,8 @@ class Chunk:
     data: bytes
     too_long: int
     """Lines dropped just before this chunk's first line for exceeding ``max_line_bytes``."""
+    quoted: bool = True
+    """``data`` may hold a double quote; False when cutting found none (saves a look later)."""
 
 
 _PIECE = 1 << 20
@@ -339,13 +341,16 @@ def hold_limit(chunk: int, max_line_bytes: int) -> int:
     return min(max_line_bytes, max(4 * chunk, 1 << 20))
 
 
-def last_cut(data: bytes, mode: str, *, open_quote: bool = False, may_hold: bool = True) -> int:
+def last_cut(
+    data: bytes, mode: str, *, open_quote: bool = False, may_hold: bool = True, quoted: bool = True
+) -> int:
     """Where to end a chunk: the index of its last record-ending newline, or -1 to wait
     for more bytes. In CSV mode a chunk whose every newline lies inside a quoted field is
     held (``may_hold``) until the field closes; otherwise it is cut at its last newline
-    and the parser reads the quotes as it can."""
+    and the parser reads the quotes as it can. ``quoted=False``: ``data`` is known to
+    hold no quote."""
     cut = data.rfind(b"\n")
-    if cut >= 0 and mode != LINES and (open_quote or b'"' in data):
+    if cut >= 0 and mode != LINES and (open_quote or (quoted and b'"' in data)):
         record = record_end(data, open_quote)
         if record >= 0:
             return record
@@ -390,7 +395,9 @@ class Cutter:
             data = data[nl + 1 :]
             self._skipping = False
         may_hold = self._held + len(data) <= hold_limit(size, self.max_line_bytes)
-        cut = last_cut(data, mode, open_quote=self._open_quote, may_hold=may_hold)
+        # One look for quotes serves the cut here and the parser's line count later.
+        quoted = mode == LINES or b'"' in data
+        cut = last_cut(data, mode, open_quote=self._open_quote, may_hold=may_hold, quoted=quoted)
         if cut < 0:
             self._parts.append(data)
             self._held += len(data)
@@ -412,7 +419,7 @@ class Cutter:
         tail = data[cut + 1 :]
         self._parts, self._held = ([tail], len(tail)) if tail else ([], 0)
         self._open_quote = mode != LINES and bool(tail.count(b'"') & 1)
-        chunk = Chunk(body, self._too_long)
+        chunk = Chunk(body, self._too_long, quoted=quoted or bool(parts))
         self._too_long = 0
         return chunk
 
