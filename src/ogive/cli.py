@@ -20,6 +20,12 @@ from . import __version__
 from .errors import EXIT_ERROR, EXIT_INTERRUPTED, OgiveError, printable
 from .outputs import OUTPUT_ERRNOS, silence_stdout
 
+# numpy's OpenBLAS starts a thread per core when numpy is imported, and on 2 cores that
+# thread spun for ~0.14 CPU-s per process (measured: `import numpy` took 0.26-0.30 CPU-s,
+# 0.10-0.16 with one thread). ogive sorts and sums arrays and fits a few parameters; it
+# never multiplies big matrices. One BLAS thread, unless the user chose otherwise.
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+
 COMMANDS: dict[str, str] = {
     "scan": "read sources once and summarise (and save) a sketch of one numeric field",
     "show": "summarise a saved sketch; any quantiles with -q",

@@ -13,6 +13,7 @@ from __future__ import annotations
 import argparse
 import contextlib
 import dataclasses
+import gc
 import signal
 import sys
 import threading
@@ -375,6 +376,13 @@ def scan_sources(
     from ..read import scan
     from .progress import ProgressLine
 
+    # The modules just imported (polars, numpy) are the bulk of the objects the cyclic
+    # garbage collector would walk again and again during a scan (measured ~2.4% of a
+    # 1 GB scan's CPU, 0.4% once frozen). A command scans once and exits (the workspace
+    # does not come this way); frozen once per process, so a caller that runs many
+    # commands in one process keeps collecting what it makes later.
+    if not gc.get_freeze_count():
+        gc.freeze()
     options = dataclasses.replace(options or options_from_args(args), keep_partial=keep_partial)
     quiet = bool(getattr(args, "quiet", False))
     line = ProgressLine(sys.stderr) if not quiet and sys.stderr.isatty() else None
