@@ -95,3 +95,24 @@ def test_bad_utf8_in_a_text_log_is_counted_where_it_is(tmp_path: Path) -> None:
     assert res.sketches["all"].count == 119
     (note,) = [w for w in res.warnings if "not UTF-8" in w]
     assert note.startswith(f"{len(bad)} lines held bytes that are not UTF-8") and f"{f}:{bad[0]}" in note
+
+
+@pytest.mark.parametrize("chunk", [48, None])
+def test_blank_lines_in_csv_are_blank_lines_not_a_group(tmp_path: Path, chunk: int | None) -> None:
+    """A blank line in a CSV is counted as ``blank_line`` in no sketch, as in every other
+    format; it used to make a ``host=(missing)`` group with a "missing field". A row of
+    empty fields (``,``) is still a record with a missing field. Reference: the lines
+    Python's ``str.splitlines`` finds empty (a CRLF line end included)."""
+    text = "host,latency_ms\r\na,1\r\n\r\nb,2\n\n,\na,3\n\n"
+    f = tmp_path / "b.csv"
+    f.write_bytes(text.encode())
+    lines = text.splitlines()
+    blank = [n for n, line in enumerate(lines, 1) if line == ""]
+    res = scan([str(f)], ScanOptions(column="latency_ms", by="host", chunk_bytes=chunk))
+    assert sorted(res.sketches.sketches) == ["host=(missing)", "host=a", "host=b"]  # the "," row
+    assert res.skipped["blank_line"].count == len(blank) == 3
+    assert res.skipped["blank_line"].examples == [f"{f}:{n}" for n in blank]
+    assert res.sketches["host=(missing)"].provenance.skipped["missing_field"].count == 1
+    plain = scan([str(f)], ScanOptions(column="latency_ms", chunk_bytes=chunk))
+    all_ = plain.sketches["all"]
+    assert all_.count == 3 and all_.provenance.skipped["blank_line"].count == 3

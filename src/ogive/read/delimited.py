@@ -16,11 +16,12 @@ from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass
 
+import numpy as np
 import polars as pl
 
 from ..errors import OgiveError, excerpt
 from .encoding import NotUtf8, says_not_utf8
-from .layout import Layout
+from .layout import BLANK_LINE, Layout
 from .options import ScanOptions
 from .values import looks_numeric
 
@@ -71,6 +72,34 @@ class CsvLayout(Layout):
         if callable(literal_quotes):
             literal_quotes()
         return df, False
+
+    def with_blank_lines(self, df: pl.DataFrame, data: bytes) -> pl.DataFrame:
+        """Blank lines marked ``blank_line``, as every other format marks them.
+
+        polars reads an empty line as a row of nulls, which counted as a record with a
+        missing field and, with ``--by``, made a ``FIELD=(missing)`` group of its own.
+        Looked for only when every column read has a null (a free count per column);
+        then rows null in every column are checked against their lines' bytes (``,,``
+        is a record of empty fields, not a blank line). ``data`` has one row per line.
+        """
+        if df.height == 0 or any(df.get_column(c).null_count() == 0 for c in df.columns):
+            return df
+        empty = np.flatnonzero(df.select(pl.all_horizontal(pl.all().is_null())).to_series().to_numpy())
+        if not empty.size:
+            return df
+        a = np.frombuffer(data, dtype=np.uint8)
+        newlines = np.flatnonzero(a == 0x0A)
+        starts = np.concatenate(([0], newlines + 1))[empty]
+        ends = np.append(newlines, a.size)[: df.height][empty]
+        length = ends - starts
+        cr_only = (length == 1) & (a[np.minimum(starts, max(a.size - 1, 0))] == 0x0D)
+        blank = empty[(length == 0) | cr_only]
+        if not blank.size:
+            return df
+        mask = np.zeros(df.height, dtype=bool)
+        mask[blank] = True
+        r = pl.when(pl.Series(mask)).then(pl.lit(BLANK_LINE)).otherwise(pl.lit(None, dtype=pl.String))
+        return df.with_columns(r.alias("r"))
 
     def _read(
         self, data: bytes, *, numeric: bool, quote: str | None = '"', strict_utf8: bool = False

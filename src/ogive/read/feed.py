@@ -218,6 +218,8 @@ class Feed:
             lines = data.count(b"\n") + (0 if not data or data.endswith(b"\n") else 1)
         else:
             lines, line_of = lines_in(data, df.height, layout.format, quoted=quoted)
+            if line_of is None and lines == df.height:  # one row per line: blank lines findable
+                df = layout.with_blank_lines(df, data)
         fixed = tuple(
             (what, count, at)
             for what, count, at in (

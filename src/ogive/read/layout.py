@@ -118,6 +118,11 @@ class Layout:
         """
         return self.frame(split_lines(data, strict_utf8=strict_utf8)), False
 
+    def with_blank_lines(self, df: pl.DataFrame, data: bytes) -> pl.DataFrame:
+        """``df`` with its blank lines marked (column ``r``), when the parser could not
+        mark them itself; ``data`` holds one row per line. Line formats mark their own."""
+        return df
+
     def frame(self, lines: pl.Series) -> pl.DataFrame:
         """The frame for one String per line (null for a blank line)."""
         raise OgiveError(f"{self.format} records are not read line by line.")
