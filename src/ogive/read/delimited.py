@@ -80,7 +80,8 @@ class CsvLayout(Layout):
         missing field and, with ``--by``, made a ``FIELD=(missing)`` group of its own.
         Looked for only when every column read has a null (a free count per column);
         then rows null in every column are checked against their lines' bytes (``,,``
-        is a record of empty fields, not a blank line). ``data`` has one row per line.
+        is a record of empty fields, not a blank line). Rows are matched to lines only
+        when ``data`` holds exactly one line per row.
         """
         if df.height == 0 or any(df.get_column(c).null_count() == 0 for c in df.columns):
             return df
@@ -89,8 +90,10 @@ class CsvLayout(Layout):
             return df
         a = np.frombuffer(data, dtype=np.uint8)
         newlines = np.flatnonzero(a == 0x0A)
+        if newlines.size + (a.size > 0 and a[-1] != 0x0A) != df.height:
+            return df  # quoted fields span lines here: rows are not lines
         starts = np.concatenate(([0], newlines + 1))[empty]
-        ends = np.append(newlines, a.size)[: df.height][empty]
+        ends = np.append(newlines, a.size)[empty]
         length = ends - starts
         cr_only = (length == 1) & (a[np.minimum(starts, max(a.size - 1, 0))] == 0x0D)
         blank = empty[(length == 0) | cr_only]

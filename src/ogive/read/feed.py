@@ -11,6 +11,7 @@ commit order, from the counts a piece and its frame carry.
 
 from __future__ import annotations
 
+import contextlib
 import queue
 import threading
 from collections.abc import Callable, Iterator
@@ -197,19 +198,18 @@ class Feed:
         """
         layout = self.layout
         assert layout is not None, "parse() before any piece decided the layout"
-        clean: encoding.Cleaned | None = None
+        parsed: tuple[pl.DataFrame, bool] | None = None
         if layout.validates_utf8 and b"\0" not in data:
-            try:
-                clean = encoding.Cleaned(data)
-                df, held = layout.parse(
+            with contextlib.suppress(encoding.NotUtf8):
+                parsed = layout.parse(
                     data, numeric=self.numeric, literal_quotes=self._literal_quotes, strict_utf8=True
                 )
-            except encoding.NotUtf8:
-                clean = None
-        if clean is None:
+        clean = encoding.Cleaned(data)  # as it came, when the parser took it
+        if parsed is None:
             clean = encoding.clean(data)
             data = clean.data
-            df, held = layout.parse(data, numeric=self.numeric, literal_quotes=self._literal_quotes)
+            parsed = layout.parse(data, numeric=self.numeric, literal_quotes=self._literal_quotes)
+        df, held = parsed
         self.numeric = self.numeric and held
         line_of: NDArray[np.int64] | None
         if "line" in df.columns:  # several records on a line (OTLP spans), or lines without one
@@ -218,7 +218,7 @@ class Feed:
             lines = data.count(b"\n") + (0 if not data or data.endswith(b"\n") else 1)
         else:
             lines, line_of = lines_in(data, df.height, layout.format, quoted=quoted)
-            if line_of is None and lines == df.height:  # one row per line: blank lines findable
+            if line_of is None:
                 df = layout.with_blank_lines(df, data)
         fixed = tuple(
             (what, count, at)

@@ -120,7 +120,7 @@ class Layout:
 
     def with_blank_lines(self, df: pl.DataFrame, data: bytes) -> pl.DataFrame:
         """``df`` with its blank lines marked (column ``r``), when the parser could not
-        mark them itself; ``data`` holds one row per line. Line formats mark their own."""
+        mark them itself. Line formats mark their own."""
         return df
 
     def frame(self, lines: pl.Series) -> pl.DataFrame:

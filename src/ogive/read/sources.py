@@ -342,15 +342,16 @@ def hold_limit(chunk: int, max_line_bytes: int) -> int:
 
 
 def last_cut(
-    data: bytes, mode: str, *, open_quote: bool = False, may_hold: bool = True, quoted: bool = True
+    data: bytes, mode: str, *, open_quote: bool = False, may_hold: bool = True, quoted: bool | None = None
 ) -> int:
     """Where to end a chunk: the index of its last record-ending newline, or -1 to wait
     for more bytes. In CSV mode a chunk whose every newline lies inside a quoted field is
     held (``may_hold``) until the field closes; otherwise it is cut at its last newline
-    and the parser reads the quotes as it can. ``quoted=False``: ``data`` is known to
-    hold no quote."""
+    and the parser reads the quotes as it can. ``quoted``: whether ``data`` holds a
+    quote, when the caller already looked (None: look here)."""
     cut = data.rfind(b"\n")
-    if cut >= 0 and mode != LINES and (open_quote or (quoted and b'"' in data)):
+    has_quote = (b'"' in data) if quoted is None else quoted
+    if cut >= 0 and mode != LINES and (open_quote or has_quote):
         record = record_end(data, open_quote)
         if record >= 0:
             return record
