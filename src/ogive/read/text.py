@@ -19,8 +19,8 @@ from dataclasses import dataclass
 import polars as pl
 
 from ..errors import OgiveError
+from . import anchor, times
 from . import layout as L
-from . import times
 from .delimited import MOST, SNIFF_LINES
 from .options import ScanOptions
 from .values import MISSING_FIELD, looks_numeric
@@ -43,14 +43,9 @@ class Extract:
     name: str
     regex: str
     groups: tuple[int, ...]
-
-    def column(self, lines: pl.Series) -> pl.Series:
-        if len(self.groups) == 1:
-            return lines.str.extract(self.regex, self.groups[0]).alias(self.name)
-        found = lines.str.extract_groups(self.regex)
-        fields = found.struct.fields
-        parts = [found.struct.field(fields[g - 1]) for g in self.groups]
-        return pl.select(pl.coalesce(parts)).to_series().alias(self.name)
+    fast: str | None = None
+    """An anchored twin of ``regex`` that finds the same groups at less cost
+    (:mod:`ogive.read.anchor`); lines it misses are read with ``regex`` itself."""
 
 
 def extract_columns(extracts: tuple[Extract, ...] | list[Extract], lines: pl.Series) -> list[pl.Series]:
@@ -60,7 +55,8 @@ def extract_columns(extracts: tuple[Extract, ...] | list[Extract], lines: pl.Ser
     gave two extracts of one regex, each a full regex pass over the chunk; with a
     pattern that is not a plain literal the pass is most of the scan's cost (measured:
     ~0.5 us a line for such a pattern against ~0.13 for ``rt=([0-9.]+)ms``). Extracts
-    sharing a regex now read their groups from one ``str.extract_groups``.
+    sharing a regex now read their groups from one ``str.extract_groups``, through its
+    anchored twin when it has one (``Extract.fast``).
 
     The regexes run as expressions of one ``select`` on the lines as a frame: a Series
     method is a sequential query of its own (measured: ``rt=([0-9.]+)ms`` over a 4 MB
@@ -69,26 +65,44 @@ def extract_columns(extracts: tuple[Extract, ...] | list[Extract], lines: pl.Ser
     shared: dict[str, list[Extract]] = {}
     for e in extracts:
         shared.setdefault(e.regex, []).append(e)
+    runs = [(group, group[0].fast or regex) for regex, group in shared.items()]
+    out = _run(runs, lines)
+    for group, run in runs:
+        if run == group[0].regex:
+            continue
+        # Lines the twin missed may hold a match further on: the pattern itself reads them.
+        names = [e.name for e in group]
+        missed = pl.all_horizontal([out[n].is_null() for n in names]) & lines.is_not_null()
+        idx = L.rows_where(pl.select(missed).to_series())
+        if idx.size:
+            again = _run([(group, group[0].regex)], lines.gather(idx))
+            for n in names:
+                out[n] = out[n].scatter(idx, again[n])
+    return [out[e.name] for e in extracts]
+
+
+def _run(runs: list[tuple[list[Extract], str]], lines: pl.Series) -> dict[str, pl.Series]:
+    """Each group of extracts read with its regex, in one ``select``: name -> column."""
     first = pl.first()
     exprs: list[pl.Expr] = []
-    grouped: list[tuple[str, list[Extract]]] = []
-    for regex, group in shared.items():
+    for i, (group, regex) in enumerate(runs):
         if len(group) == 1 and len(group[0].groups) == 1:
-            e = group[0]
-            exprs.append(first.str.extract(regex, e.groups[0]).alias(e.name))
+            exprs.append(first.str.extract(regex, group[0].groups[0]).alias(group[0].name))
         else:
-            exprs.append(first.str.extract_groups(regex).alias(f"groups {len(grouped)}"))
-            grouped.append((regex, group))
+            exprs.append(first.str.extract_groups(regex).alias(f"groups {i}"))
     frame = lines.to_frame().select(exprs)
     out: dict[str, pl.Series] = {}
-    for i, (_, group) in enumerate(grouped):
+    for i, (group, _) in enumerate(runs):
+        if f"groups {i}" not in frame.columns:
+            out[group[0].name] = frame.get_column(group[0].name)
+            continue
         found = frame.get_column(f"groups {i}")
         fields = found.struct.fields
         for e in group:
             parts = [found.struct.field(fields[g - 1]) for g in e.groups]
             col = parts[0] if len(parts) == 1 else pl.select(pl.coalesce(parts)).to_series()
             out[e.name] = col.alias(e.name)
-    return [out[e.name] if e.name in out else frame.get_column(e.name) for e in extracts]
+    return out
 
 
 @dataclass(frozen=True)
@@ -192,7 +206,8 @@ def value_source(options: ScanOptions, lines: list[str], *, what: str = "free te
                 f"the --pattern regex has {compiled.groups} groups; use exactly one, "
                 "or name the number (?P<value>...)."
             )
-        return ValueSource(Extract("v", pattern, (vidx,)), named, pattern, f"pattern {pattern}", L.NO_MATCH)
+        value = Extract("v", pattern, (vidx,), anchor.anchored_twin(pattern, lines))
+        return ValueSource(value, named, pattern, f"pattern {pattern}", L.NO_MATCH)
     key = options.field or options.column
     note = ""
     if key is None:
@@ -225,14 +240,14 @@ def plan(data: bytes, options: ScanOptions) -> TextLayout:
     starts_with_time = leading_time(lines)
     if options.by is not None:
         if options.by in named:
-            extracts.append(Extract("g", pattern, (named[options.by],)))
+            extracts.append(Extract("g", pattern, (named[options.by],), src.extract.fast))
         else:
             extracts.append(Extract("g", key_value_regex(options.by), (1, 2)))
     spec = options.time_field
     time_source = ""
     if spec is not None:
         if spec in named:
-            extracts.append(Extract("t", pattern, (named[spec],)))
+            extracts.append(Extract("t", pattern, (named[spec],), src.extract.fast))
         elif spec in pairs(lines):
             extracts.append(Extract("t", key_value_regex(spec), (1, 2)))
         elif starts_with_time:
