@@ -144,7 +144,10 @@ def split_lines(data: bytes, *, strict_utf8: bool = False) -> pl.Series:
                 raise NotUtf8 from None
             df = None  # invalid UTF-8 that was not cleaned first: split in Python below
         if df is not None and df.width == 1:
-            return df.to_series().alias("line")
+            # One chunk: polars runs a regex over a many-chunk Series on all its threads
+            # at once, which gained nothing with two chunks parsed side by side and cost
+            # in switching (time and value regex, 1 GB: 5.75 -> 5.53 s, same CPU).
+            return df.to_series().rechunk().alias("line")
     try:
         text = data.decode("utf-8", errors="strict" if strict_utf8 else "replace")
     except UnicodeDecodeError:
