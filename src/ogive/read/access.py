@@ -182,7 +182,7 @@ def plan(data: bytes, options: ScanOptions) -> AccessLayout:
         if s is None:
             continue
         if src is not None and s in src.named:
-            extra.append(Extract(name, src.pattern, (src.named[s],), src.extract.fast))
+            extra.append(src.group(name, s))
         elif s in NAMES:
             wanted.add(s)
             columns.append((name, s))

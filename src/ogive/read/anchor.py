@@ -27,6 +27,7 @@ It is used only when it pays: when the twin matches the sample lines the pattern
 from __future__ import annotations
 
 import importlib
+from collections.abc import Iterator
 from typing import Any
 
 import polars as pl
@@ -73,8 +74,9 @@ def _python_agrees(pattern: str, char: str) -> bool:
     return bool(items) and str(items[0][0]) == "LITERAL" and items[0][1] == ord(char)
 
 
-def _top_level_bar(pattern: str) -> bool:
-    """True when ``pattern`` has a ``|`` outside every group and class."""
+def _outside_classes(pattern: str) -> Iterator[tuple[int, str, int]]:
+    """(index, character, group depth) of every character outside escapes and classes:
+    the one walk over the pattern's syntax that both checks below read."""
     depth = 0
     klass = 0
     i = 0
@@ -95,33 +97,25 @@ def _top_level_bar(pattern: str) -> bool:
             j = i + 1 + (pattern[i + 1 : i + 2] == "^")
             if pattern[j : j + 1] == "]":
                 i = j
-        elif c == "(":
-            depth += 1
-        elif c == ")":
-            depth -= 1
-        elif c == "|" and depth == 0:
-            return True
+        else:
+            if c == "(":
+                depth += 1
+            elif c == ")":
+                depth -= 1
+            yield i, c, depth
         i += 1
-    return False
+
+
+def _top_level_bar(pattern: str) -> bool:
+    """True when ``pattern`` has a ``|`` outside every group and class."""
+    return any(c == "|" and depth == 0 for _, c, depth in _outside_classes(pattern))
 
 
 def repeated_dot(pattern: str) -> bool:
     """True when an unescaped ``.`` outside a class is followed by ``*``, ``+`` or ``{``."""
-    klass = 0
-    i = 0
-    while i < len(pattern):
-        c = pattern[i]
-        if c == "\\":
-            i += 2
-            continue
-        if c == "[":
-            klass += 1
-        elif c == "]" and klass:
-            klass -= 1
-        elif c == "." and not klass and pattern[i + 1 : i + 2] in ("*", "+", "{"):
-            return True
-        i += 1
-    return False
+    return any(
+        c == "." and pattern[i + 1 : i + 2] in ("*", "+", "{") for i, c, _ in _outside_classes(pattern)
+    )
 
 
 def twin(pattern: str) -> str | None:

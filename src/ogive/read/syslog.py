@@ -105,7 +105,7 @@ def plan(data: bytes, options: ScanOptions) -> SyslogLayout:
     by = options.by
     if by is not None:
         if by in src.named:
-            extracts.append(Extract("g", src.pattern, (src.named[by],), src.extract.fast))
+            extracts.append(src.group("g", by))
         elif by in HEADER_FIELDS:
             if by == "msgid" and kind != "rfc5424":
                 raise OgiveError("--by msgid: RFC 3164 lines have no MSGID; use host, app or pid.")

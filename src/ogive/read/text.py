@@ -189,6 +189,11 @@ class ValueSource:
     missing_reason: str
     note: str = ""
 
+    def group(self, name: str, group: str) -> Extract:
+        """Column ``name`` from the pattern's named ``group``: read in the same regex pass
+        as the value (and through the same anchored twin)."""
+        return Extract(name, self.pattern, (self.named[group],), self.extract.fast)
+
 
 def value_source(options: ScanOptions, lines: list[str], *, what: str = "free text") -> ValueSource:
     """The value from --pattern, from --field KEY (``KEY=VALUE`` pairs), or else the one
@@ -236,18 +241,18 @@ def plan(data: bytes, options: ScanOptions) -> TextLayout:
         return TextLayout(format="text", extracts=(Extract("v", NEVER, (1,)),), description="no records")
     src = value_source(options, lines)
     extracts = [src.extract]
-    named, pattern = src.named, src.pattern
+    named = src.named
     starts_with_time = leading_time(lines)
     if options.by is not None:
         if options.by in named:
-            extracts.append(Extract("g", pattern, (named[options.by],), src.extract.fast))
+            extracts.append(src.group("g", options.by))
         else:
             extracts.append(Extract("g", key_value_regex(options.by), (1, 2)))
     spec = options.time_field
     time_source = ""
     if spec is not None:
         if spec in named:
-            extracts.append(Extract("t", pattern, (named[spec],), src.extract.fast))
+            extracts.append(src.group("t", spec))
         elif spec in pairs(lines):
             extracts.append(Extract("t", key_value_regex(spec), (1, 2)))
         elif starts_with_time:
