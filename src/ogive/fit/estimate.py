@@ -101,6 +101,28 @@ def quantile_matching(family: Family, s: DataSummary) -> list[FloatArray]:
     return [t for _, t in scored]
 
 
+SPARSE_PER_CELL = 4.0
+"""Values per exact point or interval below which the data count as sparse (``_differences``)."""
+
+
+def _differences(data: GroupedData) -> str:
+    """How BFGS takes the gradient: central differences when the data are sparse.
+
+    Why: an interval holding about one value (a lattice cell of a small sample, a
+    spacing, a fine bucket) has a mass near 1/n, and its log is the difference of two
+    nearly equal log CDFs, good to ~1e-12. Forward differences (step ~1e-8) turn that
+    into gradient noise of ~1e-4, above the 1e-6 tolerance: BFGS then ended in
+    "precision loss" after its line search had spent ~130 evaluations on the noise
+    (193 of 200 fits of a 500-value lattice sample). Central differences (step ~6e-6)
+    keep the noise near 1e-7 and converge in a third of the evaluations; on a large
+    sketch's buckets (dozens of values each) they only cost more, so forward
+    differences stay there. Measured with all families: 500 values on a 0.001 lattice
+    22.6 s -> 7.8 s, 3000 unrounded values 27.6 s -> 18.3 s; 10^5 values unchanged.
+    """
+    cells = data.points.size + int(np.count_nonzero(data.counts > 0))
+    return "3-point" if data.n < SPARSE_PER_CELL * max(cells, 1) else "2-point"
+
+
 def maximise(family: Family, data: GroupedData, starts: list[FloatArray], *, tries: int = 2) -> Estimate:
     """Maximise the grouped likelihood from the best ``tries`` starts; keep the best."""
     if not starts:
@@ -120,7 +142,9 @@ def maximise(family: Family, data: GroupedData, starts: list[FloatArray], *, tri
             warnings.simplefilter("ignore")
             # BFGS, not L-BFGS-B: with two to five parameters its pure-numpy steps cost
             # far less per iteration than L-BFGS-B's compiled core calls do here.
-            res = optimize.minimize(nll, t0, method="BFGS", options={"maxiter": 400, "gtol": 1e-6})
+            res = optimize.minimize(
+                nll, t0, method="BFGS", jac=_differences(data), options={"maxiter": 400, "gtol": 1e-6}
+            )
             # Status 2 is "precision loss": a flat optimum BFGS cannot polish further,
             # not a failure; Nelder-Mead runs only when BFGS got nowhere or ran out.
             if res.status not in (0, 2) or not math.isfinite(res.fun) or res.fun >= 1e29:

@@ -81,12 +81,19 @@ def _gamma_cdfs(x: FloatArray, t: FloatArray) -> tuple[FloatArray, FloatArray]:
     a, sc = math.exp(t[0]), math.exp(t[1])
     xp, ok = positive_part(x)
     y = xp / sc
+    # One incomplete gamma function per point, the smaller of the two: below the mean
+    # (y < a) the CDF, above it the survival (a gamma's median lies below its mean, so
+    # there the survival is at most 1/2 and its log is well conditioned). The other side
+    # is rebuilt from it with log1mexp, accurate wherever the computed one is not near 1.
+    # Half the special-function work of computing both: that work was most of a gamma
+    # fit's time (each bootstrap replicate refits it).
+    low = y < a
+    lc, ls = np.empty_like(y), np.empty_like(y)
     with np.errstate(divide="ignore"):
-        lc = np.log(special.gammainc(a, y))
-        ls = np.log(special.gammaincc(a, y))
-    # Far in either tail one of the two underflows; rebuild it from the other.
-    lc = np.where(np.isfinite(lc) | (ls == 0), lc, log1mexp(ls))
-    ls = np.where(np.isfinite(ls) | (lc == 0), ls, log1mexp(lc))
+        lc[low] = np.log(special.gammainc(a, y[low]))
+        ls[~low] = np.log(special.gammaincc(a, y[~low]))
+        ls[low] = log1mexp(lc[low])
+        lc[~low] = log1mexp(ls[~low])
     return np.where(ok, lc, NEG_INF), np.where(ok, ls, 0.0)
 
 
