@@ -15,10 +15,12 @@ from typing import Any
 import numpy as np
 import pytest
 import tdigest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from numpy.typing import NDArray
 
 from ogive.sketch import Sketch, SketchFormatError, SketchSet, dumps, from_tdigest_dict, loads, merge
-from ogive.sketch.codec import _canonical
+from ogive.sketch.codec import _canonical, _encode
 from rank_check import rank_error
 
 FloatArray = NDArray[np.float64]
@@ -119,6 +121,27 @@ def test_checksum_mismatch_on_edit() -> None:
     assert edited != data
     with pytest.raises(SketchFormatError, match="checksum does not match: it was edited or damaged"):
         loads(edited)
+
+
+_NUMBERS = st.integers() | st.floats(allow_nan=False, allow_infinity=False)
+_LEAVES = st.none() | st.booleans() | st.text() | _NUMBERS
+_DOCS = st.recursive(
+    _LEAVES,
+    lambda kids: st.lists(kids, max_size=5) | st.dictionaries(st.text(max_size=5), kids, max_size=5),
+    max_leaves=30,
+)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.dictionaries(st.text(max_size=5), _DOCS, max_size=6))
+def test_one_encoding_gives_both_forms(doc: dict[str, Any]) -> None:
+    """The writer encodes each array once for both forms; the checksum's form must still be
+    the standard library's ``json.dumps(sort_keys=True, separators=(",", ":"))`` (the
+    format's definition), and the written form must parse back to the same document."""
+    canonical, pretty = _encode(doc, 0)
+    assert canonical == json.dumps(doc, sort_keys=True, separators=(",", ":"))
+    assert json.loads(pretty) == doc
+    assert pretty == _encode(json.loads(pretty), 0)[1]  # stable: a file read and written again
 
 
 def test_truncated_file() -> None:

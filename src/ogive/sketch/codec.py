@@ -107,8 +107,19 @@ def sketch_to_dict(s: Sketch) -> dict[str, Any]:
 
 
 def _floats(a: np.ndarray) -> list[float | int]:
-    """Integral values as ints: shorter files, same numbers."""
-    return [int(v) if v.is_integer() and abs(v) < 2**53 else v for v in a.tolist()]
+    """Integral values as ints: shorter files, same numbers.
+
+    Decided with numpy, not per value in Python: that loop was a fifth of the time of
+    writing a file of 200 groups.
+    """
+    a = np.asarray(a, dtype=np.float64)
+    whole = (np.floor(a) == a) & (np.abs(a) < 2**53)
+    if whole.all():
+        return a.astype(np.int64).tolist()  # type: ignore[no-any-return]
+    out: list[float | int] = a.tolist()
+    for i in np.flatnonzero(whole).tolist():
+        out[i] = int(out[i])
+    return out
 
 
 def dumps(sketches: SketchSet) -> bytes:
@@ -120,8 +131,9 @@ def dumps(sketches: SketchSet) -> bytes:
     }
     if sketches.unassigned:
         doc["unassigned"] = tallies_to_dict(sketches.unassigned)
-    doc["checksum"] = "sha256:" + hashlib.sha256(_canonical(doc)).hexdigest()
-    return (_pretty(doc, 0) + "\n").encode()
+    canonical, pretty = _encode(doc, 0)
+    checksum = "sha256:" + hashlib.sha256(canonical.encode()).hexdigest()
+    return (pretty[:-2] + f',\n  "checksum": {json.dumps(checksum)}\n}}' + "\n").encode()
 
 
 def _canonical(doc: dict[str, Any]) -> bytes:
@@ -129,13 +141,26 @@ def _canonical(doc: dict[str, Any]) -> bytes:
     return json.dumps(body, sort_keys=True, separators=(",", ":"), allow_nan=False).encode()
 
 
-def _pretty(obj: Any, depth: int) -> str:
-    """Indented objects, arrays on one line: readable in a pager, still compact."""
+def _encode(obj: Any, depth: int) -> tuple[str, str]:
+    """(canonical, pretty) JSON of ``obj``, each array's numbers turned to text once.
+
+    Canonical is ``_canonical``'s form (sorted keys, no spaces: what the checksum
+    covers); pretty has indented objects and arrays on one line, readable in a pager,
+    still compact. Encoding the same ~10^3 floats per sketch twice, once per form, was
+    half the time of writing a file of many groups.
+    """
+    if not (isinstance(obj, dict) and obj):
+        pretty = json.dumps(obj, separators=(",", ":"), allow_nan=False)
+        # Without a "{" in its text it holds no object, so sorting keys changes nothing.
+        if "{" not in pretty:
+            return pretty, pretty
+        return json.dumps(obj, sort_keys=True, separators=(",", ":"), allow_nan=False), pretty
     pad = "  " * (depth + 1)
-    if isinstance(obj, dict) and obj:
-        items = [f"{pad}{json.dumps(k)}: {_pretty(v, depth + 1)}" for k, v in obj.items()]
-        return "{\n" + ",\n".join(items) + "\n" + "  " * depth + "}"
-    return json.dumps(obj, separators=(",", ":"), allow_nan=False)
+    parts = {k: _encode(v, depth + 1) for k, v in obj.items()}
+    keys = {k: json.dumps(k) for k in obj}
+    canonical = "{" + ",".join(f"{keys[k]}:{parts[k][0]}" for k in sorted(obj)) + "}"
+    pretty = "{\n" + ",\n".join(f"{pad}{keys[k]}: {parts[k][1]}" for k in obj) + "\n" + "  " * depth + "}"
+    return canonical, pretty
 
 
 # ---------------------------------------------------------------------- reading
