@@ -205,9 +205,11 @@ class TDigest:
 
     def _merge_first(self, k: int) -> None:
         """Merge the first ``k`` buffered values into the centroids."""
-        buffered = np.concatenate(self._buf) if len(self._buf) > 1 else self._buf[0]
-        # A fresh array: buffered arrays may be shared with a copy of this digest.
-        incoming = buffered[:k].copy()
+        # A fresh array to sort in place: buffered arrays may be shared with a copy of
+        # this digest, a concatenation is not (and copying it again cost 4 ms a flush).
+        parts = self._buf
+        buffered = np.concatenate(parts) if len(parts) > 1 else parts[0]
+        incoming = buffered[:k] if len(parts) > 1 else buffered[:k].copy()
         rest = buffered[k:]
         self._buf = [rest.copy()] if rest.size else []
         self._buf_n = rest.size
