@@ -149,3 +149,28 @@ def test_property_merged_parts_within_bound(
     err = rank_error(whole, top.quantile(qs), qs)
     assert np.all(err <= top.rank_error_bound() + 1.0 / whole.size)
     assert top.min == whole.min() and top.max == whole.max()
+
+
+def test_a_copy_stays_as_it_was_while_the_original_grows() -> None:
+    """The screen reads copies of sketches a scan keeps filling (``Sketch.copy``): the copy
+    must answer for the values it was taken at, whatever the original does next, and be
+    the same sketch, byte for byte, as one built from those values alone."""
+    from ogive.sketch import SketchSet, dumps
+
+    rng = np.random.default_rng(11)
+    first = rng.lognormal(3.0, 1.0, 700_000)  # buffered: fewer than a digest buffer (2^20)
+    later = rng.lognormal(6.0, 0.5, 900_000)
+    s = sketch_of(first)
+    s.provenance.sources = ["a.log"]
+    c = s.copy()
+    s.add(later)  # passes the buffer: the original merges and sorts
+    s.add(np.array([np.nan, -1.0]))
+    s.provenance.sources.append("b.log")
+    s.provenance.skip("not a number", 3, ["b.log:7"])
+    assert (c.count, c.nan_count, c.negative_count) == (first.size, 0, 0)
+    assert c.provenance.sources == ["a.log"] and not c.provenance.skipped
+    alone = sketch_of(first)
+    alone.provenance.sources = ["a.log"]
+    assert dumps(SketchSet({"x": c})) == dumps(SketchSet({"x": alone}))
+    # And it is right: numpy.quantile's ranks on the raw values it holds.
+    assert rank_error(first, c.quantile(QS), QS).max() <= c.rank_error_bound() + 1e-9

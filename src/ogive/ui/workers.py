@@ -41,11 +41,7 @@ def snapshot(sketch: Sketch | Binned) -> Sketch | Binned:
         copy = Binned(sketch.unit, list(sketch.parts))  # parts are frozen: sharing them is safe
         copy.provenance = sketch.provenance
         return copy
-    out = Sketch(
-        sketch.unit, compression=sketch.compression, tail_size=sketch.tail_size, scale=sketch.digest.scale
-    )
-    out.merge(sketch)
-    return out
+    return sketch.copy()
 
 
 @dataclass(frozen=True)
