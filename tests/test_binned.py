@@ -186,3 +186,20 @@ def test_fit_matches_scipy_interval_censored(family: str, scipy_dist: stats.rv_c
     frozen = scipy_dist(*scipy_dist.fit(data, floc=0))
     probs = np.array([0.1, 0.5, 0.9, 0.99])
     np.testing.assert_allclose(model.ppf(probs), frozen.ppf(probs), rtol=0.01)
+
+
+def test_a_copy_stays_as_it_was_while_the_original_grows() -> None:
+    """The screen's copy of a binned distribution (``Binned.copy``, as ``Sketch.copy``)
+    answers for the parts it was taken at, byte for byte, while the original grows."""
+    rng = np.random.default_rng(4)
+    x, y = rng.lognormal(3, 0.6, 5000), rng.lognormal(4, 0.6, 5000)
+    b = Binned("ms", [explicit(x)])
+    b.provenance.sources = ["a.otlp"]
+    c = b.copy()
+    b.add_part(explicit(y))  # same layout: folded into the first part
+    b.add_part(exponential(y, 2))
+    b.provenance.sources.append("b.otlp")
+    alone = Binned("ms", [explicit(x)])
+    alone.provenance.sources = ["a.otlp"]
+    assert c.count == x.size and b.count == x.size + 2 * y.size
+    assert dumps(SketchSet({"x": c})) == dumps(SketchSet({"x": alone}))

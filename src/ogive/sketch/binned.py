@@ -28,6 +28,7 @@ same contract: the bounds are sure, the point estimates are estimates.
 
 from __future__ import annotations
 
+import copy
 import math
 from collections.abc import Sequence
 from functools import cached_property
@@ -67,6 +68,14 @@ class Binned:
         else:
             self.parts.append(part)
         self._forget()
+
+    def copy(self) -> Binned:
+        """An independent copy, like ``Sketch.copy``: parts are frozen, so they are
+        shared; the provenance is copied."""
+        out = Binned(self.unit)
+        out.parts = list(self.parts)
+        out.provenance = copy.deepcopy(self.provenance)
+        return out
 
     def merge_many(self, others: Sequence[Binned]) -> None:
         """Fold other binned distributions in (units checked by the caller)."""

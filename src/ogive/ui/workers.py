@@ -38,10 +38,6 @@ thread; ``Sketch.copy`` costs ~20 us, 30 ms for that day, but a day of seconds s
 
 def snapshot(sketch: Sketch | Binned) -> Sketch | Binned:
     """An independent copy, so the screen and the fit never read a sketch a scan is still filling."""
-    if isinstance(sketch, Binned):
-        copy = Binned(sketch.unit, list(sketch.parts))  # parts are frozen: sharing them is safe
-        copy.provenance = sketch.provenance
-        return copy
     return sketch.copy()
 
 
