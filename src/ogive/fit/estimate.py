@@ -137,15 +137,14 @@ def maximise(family: Family, data: GroupedData, starts: list[FloatArray], *, tri
         v = -log_likelihood(family, data, t) * scale
         return v if math.isfinite(v) else 1e30
 
+    jac = _differences(data)
     best: Estimate | None = None
     for t0 in starts[:tries]:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             # BFGS, not L-BFGS-B: with two to five parameters its pure-numpy steps cost
             # far less per iteration than L-BFGS-B's compiled core calls do here.
-            res = optimize.minimize(
-                nll, t0, method="BFGS", jac=_differences(data), options={"maxiter": 400, "gtol": 1e-6}
-            )
+            res = optimize.minimize(nll, t0, method="BFGS", jac=jac, options={"maxiter": 400, "gtol": 1e-6})
             # Status 2 is "precision loss": a flat optimum BFGS cannot polish further,
             # not a failure; Nelder-Mead runs only when BFGS got nowhere or ran out.
             if res.status not in (0, 2) or not math.isfinite(res.fun) or res.fun >= 1e29:
