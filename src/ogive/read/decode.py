@@ -19,7 +19,7 @@ from numpy.typing import NDArray
 from . import records, times, values
 from .layout import NOT_RECORDS
 from .options import ScanOptions
-from .route import Keys, code_keys
+from .route import KeyCoder, Keys
 from .skips import BAD_TIMESTAMP
 
 _NAME_UNITS = {
@@ -94,6 +94,7 @@ class Decoder:
         self.unsuffixed = 0
         self.other_epoch = 0
         self.years: set[int] = set()
+        self._keys = KeyCoder()
 
     def ready(self, df: pl.DataFrame, layout: records.Layout) -> list[str]:
         """Decide, from the first frame with rows, what later frames are read against.
@@ -182,7 +183,7 @@ class Decoder:
             if bt.any():
                 reasons[BAD_TIMESTAMP] = bt
                 ok = ok & ~bt
-        g = code_keys(df.get_column("g")) if "g" in df.columns else None
+        g = self._keys.code(df.get_column("g")) if "g" in df.columns else None
         batch = Batch(
             n, pv.values, ok, reasons, tus, g, pv.suffixed, pv.unsuffixed, other_epoch, years, fmt, display, n
         )

@@ -7,6 +7,7 @@ with the data (the groups met so far), and that growth is what the caps bound.
 
 from __future__ import annotations
 
+import threading
 from dataclasses import dataclass
 
 import numpy as np
@@ -39,10 +40,14 @@ class Keys:
     ``NAMED_KEYS`` (None: too many to name in Python; the commit maps the rows in polars)."""
     local: NDArray[np.integer] | None = None
     """With ``names``: each row's index into them."""
+    parts: list[NDArray[np.int64]] | None = None
+    """With ``names``: the rows of each, in row order (split here, in the parser threads:
+    the ordered commit then only names them; see :meth:`Router.route`)."""
 
 
 def code_keys(g: pl.Series) -> Keys:
-    """The chunk's group values, coded when they are few.
+    """The chunk's group values, coded when they are few (:class:`KeyCoder` codes them
+    at less cost once earlier chunks have named them).
 
     Why here and not in :meth:`Router.route`: coding touches every row and needs nothing
     from earlier chunks, so it runs in the parser threads, in parallel; the ordered
@@ -62,7 +67,95 @@ def code_keys(g: pl.Series) -> Keys:
         return Keys(values)
     # An Enum of the chunk's own values: its physical codes are the indices into them.
     local = values.cast(pl.Enum(distinct)).to_physical().to_numpy()
-    return Keys(values, distinct.to_list(), local)
+    names = distinct.to_list()
+    parts = [np.empty(0, dtype=np.int64)] * len(names)
+    for code, part in split_rows(local):
+        parts[code] = part
+    return Keys(values, names, local, parts)
+
+
+KNOWN_KEYS = 256
+"""Values a :class:`KeyCoder` remembers (the codes fit a byte)."""
+TABLE_BITS = 16
+"""The largest lookup table a :class:`KeyCoder` builds: 2^16 one-byte entries."""
+
+
+@dataclass(frozen=True)
+class _Known:
+    """The values earlier chunks named, with a table from a hash's low bits to a value."""
+
+    names: list[str]
+    hashes: NDArray[np.uint64]
+    """Each name's 64-bit hash (polars, seed 0)."""
+    table: NDArray[np.uint8]
+    """Entry ``hash & (size - 1)``: the index of the one name with those low bits
+    (0 where there is none: the hash check then fails)."""
+
+
+class KeyCoder:
+    """Codes each chunk's ``--by`` values against the values earlier chunks named, by hash.
+
+    Why: :func:`code_keys` finds a chunk's distinct values and then casts the rows to
+    them, two hash-table passes over the strings (3.9 ms for 45k rows with 12 hosts,
+    with the split into rows per value). Once the values are known, each row's 64-bit
+    hash indexes a small table by its low bits (sized so that the known values' bits
+    differ) and is checked against the value found there: 1.0 ms for the same chunk.
+    A chunk holding any value not seen before is coded by :func:`code_keys`, whose
+    values are then known too (up to ``KNOWN_KEYS``).
+
+    Two distinct values sharing a 64-bit hash would be taken for one: the odds are
+    ~10^-15 for the at most ``KNOWN_KEYS`` values kept (the birthday bound).
+
+    Thread-safe: parser threads read the current :class:`_Known` (never changed, only
+    replaced, under a lock). Which chunk named a value first does not matter: the names
+    a chunk gets are its own values, in order of first appearance, however coded.
+    """
+
+    def __init__(self) -> None:
+        self._lock = threading.Lock()
+        self._known: _Known | None = None
+
+    def code(self, g: pl.Series) -> Keys:
+        values = g.cast(pl.String).fill_null(MISSING)
+        known = self._known
+        if known is not None and values.len():
+            h = values.hash(seed=0).to_numpy()
+            # np.take: fancy indexing by unsigned integers took 3x as long (a cast per index).
+            at = np.take(known.table, h & np.uint64(known.table.size - 1))
+            if bool(np.all(np.take(known.hashes, at) == h)):
+                return _coded(values, at, known.names)
+        keys = code_keys(values)
+        if keys.names is not None and len(keys.names) <= KNOWN_KEYS:
+            self._learn(keys.names)
+        return keys
+
+    def _learn(self, new: list[str]) -> None:
+        with self._lock:
+            old = self._known or _Known([], np.empty(0, dtype=np.uint64), np.zeros(1, dtype=np.uint8))
+            seen = set(old.names)
+            fresh = [k for k in new if k not in seen]
+            if not fresh or len(old.names) + len(fresh) > KNOWN_KEYS:
+                return
+            names = old.names + fresh
+            hashes = np.concatenate((old.hashes, pl.Series(fresh, dtype=pl.String).hash(seed=0).to_numpy()))
+            for bits in range(max(1, len(names) - 1).bit_length(), TABLE_BITS + 1):
+                low = hashes & np.uint64((1 << bits) - 1)
+                if np.unique(low).size == low.size:
+                    table = np.zeros(1 << bits, dtype=np.uint8)
+                    table[low] = np.arange(len(names), dtype=np.uint8)
+                    self._known = _Known(names, hashes, table)
+                    return
+
+
+def _coded(values: pl.Series, at: NDArray[np.uint8], known: list[str]) -> Keys:
+    """Keys from each row's index ``at`` into the ``known`` values: the chunk's own
+    values in order of first appearance, as :func:`code_keys` gives them."""
+    found = split_rows(at)
+    found.sort(key=lambda cp: int(cp[1][0]))  # by first row: order of first appearance
+    remap = np.zeros(len(known), dtype=np.uint8)
+    remap[[code for code, _ in found]] = np.arange(len(found), dtype=np.uint8)
+    names = [known[code] for code, _ in found]
+    return Keys(values, names, np.take(remap, at), [part for _, part in found])
 
 
 class Router:
@@ -107,6 +200,8 @@ class Router:
             halves = tus >= self.split_us  # NaN compares False; such rows are already skipped
         if not o.by and halves is None:
             return "all"
+        if o.by and g is not None and halves is None and g.names is not None and g.parts is not None:
+            return self._named_parts(g.names, g.parts)
         if o.by and g is not None:
             labels, codes = self._group_codes(g)
         else:
@@ -192,40 +287,79 @@ class Router:
         maps the rows; Python touches each distinct value only until the groups are full
         (a Python loop over a chunk's 10^5 values made ``--by`` run at 12 MB/s).
         """
+        if g.names is not None and g.local is not None:
+            labels, mapped = self._name_codes(g.names)
+            return labels, mapped[g.local]
+        full = len(self.groups) >= self.options.max_groups
+        labels = self._labels([] if full else g.values.unique(maintain_order=True).to_list())
+        other = len(labels) - 1
+        rows = g.values.replace_strict(
+            self._known, pl.Series(np.arange(other, dtype=np.int64)), default=other, return_dtype=pl.Int64
+        ).to_numpy()
+        if self._overflow.size < OVERFLOW_KEPT and (rows == other).any():
+            self._count_overflow(g.values.filter(pl.Series(rows == other)).unique())
+        return labels, rows
+
+    def _named_parts(
+        self, names: list[str], parts: list[NDArray[np.int64]]
+    ) -> list[tuple[str, NDArray[np.int64]]]:
+        """(sketch name, rows) pairs of a chunk split by its own values in the parser
+        thread, in the order of the sketches' codes (as :func:`_split_codes` gives them,
+        so the sketches are made, and flushed, in the same order either way).
+
+        Why: splitting the rows by group (a radix argsort of the codes) in this ordered
+        thread held it for a quarter of the scan with 12 hosts, while the parser threads
+        waited; there it runs beside the parsing of other chunks.
+        """
+        labels, mapped = self._name_codes(names)
+        by_code: dict[int, list[NDArray[np.int64]]] = {}
+        for code, part in zip(mapped.tolist(), parts, strict=True):
+            by_code.setdefault(code, []).append(part)
+        # Values sharing (other): their rows merged back into row order.
+        return [
+            (labels[code], rows[0] if len(rows) == 1 else np.sort(np.concatenate(rows)))
+            for code, rows in sorted(by_code.items())
+        ]
+
+    def _name_codes(self, names: list[str]) -> tuple[list[str], NDArray[np.int64]]:
+        """Sketch names and the index into them of each of a chunk's distinct values."""
+        labels = self._labels(names)
+        other = len(labels) - 1
+        codes = self._codes
+        mapped = np.fromiter((codes.get(k, other) for k in names), dtype=np.int64, count=len(names))
+        if self._overflow.size < OVERFLOW_KEPT and (mapped == other).any():
+            self._count_overflow(pl.Series(names, dtype=pl.String).filter(pl.Series(mapped == other)))
+        return labels, mapped
+
+    def _labels(self, distinct: list[str]) -> list[str]:
+        """Give the first ``max_groups`` values met a sketch each; the sketch names, the
+        shared ``(other)`` last."""
         o = self.options
         codes = self._codes
         if len(self.groups) < o.max_groups:
             before = len(self.groups)
-            distinct = g.names if g.names is not None else g.values.unique(maintain_order=True).to_list()
             for key in distinct:
                 if key not in codes and len(self.groups) < o.max_groups:
                     codes[key] = len(self.groups)
                     self.groups[key] = f"{o.by}={key}"
             if len(self.groups) > before:
                 self._known = pl.Series(list(self.groups), dtype=pl.String)
-        labels = [*self.groups.values(), f"{o.by}={OTHER}"]
-        other = len(labels) - 1
-        if g.names is not None and g.local is not None:
-            mapped = np.fromiter((codes.get(k, other) for k in g.names), dtype=np.int64, count=len(g.names))
-            rows = mapped[g.local]
-            past = (mapped == other).any()
-        else:
-            rows = g.values.replace_strict(
-                self._known, pl.Series(np.arange(other, dtype=np.int64)), default=other, return_dtype=pl.Int64
-            ).to_numpy()
-            past = (rows == other).any()
-        if self._overflow.size < OVERFLOW_KEPT and past:
-            # Counted by hash: two distinct values sharing a 64-bit hash (odds ~10^-9 at
-            # 10^5 values) would be counted once. Made distinct by polars, sorted so that
-            # the search walks the known hashes in order.
-            rest = np.sort(g.values.filter(pl.Series(rows == other)).unique().hash(seed=0).to_numpy())
-            known = self._overflow
-            at = np.searchsorted(known, rest)
-            unseen = rest[known[np.minimum(at, max(known.size - 1, 0))] != rest] if known.size else rest
-            unseen = unseen[: OVERFLOW_KEPT - known.size]
-            if unseen.size:
-                self._overflow = np.sort(np.concatenate((known, unseen)))
-        return labels, rows
+        return [*self.groups.values(), f"{o.by}={OTHER}"]
+
+    def _count_overflow(self, rest_values: pl.Series) -> None:
+        """Remember the distinct values (``rest_values``, each once) that share ``(other)``.
+
+        Counted by hash: two distinct values sharing a 64-bit hash (odds ~10^-9 at 10^5
+        values) would be counted once. Sorted, so that the search walks the known
+        hashes in order.
+        """
+        rest = np.sort(rest_values.hash(seed=0).to_numpy())
+        known = self._overflow
+        at = np.searchsorted(known, rest)
+        unseen = rest[known[np.minimum(at, max(known.size - 1, 0))] != rest] if known.size else rest
+        unseen = unseen[: OVERFLOW_KEPT - known.size]
+        if unseen.size:
+            self._overflow = np.sort(np.concatenate((known, unseen)))
 
     def missing_warning(self) -> str | None:
         """When no row had a ``--by`` value: every row went to ``FIELD=(missing)``, which
@@ -286,19 +420,30 @@ def _split_by(
     return [(name, rows[part]) for name, part in _split_codes(labels, codes[rows])]
 
 
-def _split_codes(names: list[str], codes: NDArray[np.int64]) -> list[tuple[str, NDArray[np.int64]]]:
-    """Row indices per code, in row order within each, as (name, rows) pairs by code.
+def _split_codes(names: list[str], codes: NDArray[np.integer]) -> list[tuple[str, NDArray[np.int64]]]:
+    """Row indices per code, in row order within each, as (name, rows) pairs by code."""
+    return [(names[code], part) for code, part in split_rows(codes)]
+
+
+def split_rows(codes: NDArray[np.integer]) -> list[tuple[int, NDArray[np.int64]]]:
+    """Row indices per code that occurs, in row order within each, as (code, rows) pairs
+    by code.
 
     Why not one stable argsort of int64 codes (a merge sort, ~60 ms for a chunk of 10^6
     rows): two codes (before/after) are two ``flatnonzero`` passes, and up to 2^16
-    codes fit ``uint16``, which numpy sorts stably by radix in one linear pass.
+    codes fit ``uint16`` (up to 2^8 ``uint8``), which numpy sorts stably by radix in
+    linear passes; the counts of the codes then say where each part ends.
     """
     if codes.size == 0:
         return []
     top = int(codes.max())
     if top <= 1:
-        return [(names[c], part) for c in (0, 1) if (part := np.flatnonzero(codes == c)).size]
-    small = codes.astype(np.uint16) if top < 1 << 16 else codes
+        return [(c, part) for c in (0, 1) if (part := np.flatnonzero(codes == c)).size]
+    if top >= 1 << 16:
+        order = np.argsort(codes, kind="stable")
+        bounds = np.flatnonzero(np.diff(codes[order])) + 1
+        return [(int(codes[part[0]]), part) for part in np.split(order, bounds)]
+    small = codes.astype(np.uint8 if top < 1 << 8 else np.uint16, copy=False)
     order = np.argsort(small, kind="stable")
-    bounds = np.flatnonzero(np.diff(small[order])) + 1
-    return [(names[int(codes[part[0]])], part) for part in np.split(order, bounds) if part.size]
+    ends = np.cumsum(np.bincount(small, minlength=top + 1))
+    return [(c, part) for c, part in enumerate(np.split(order, ends[:-1])) if part.size]
