@@ -315,7 +315,9 @@ class Pipeline:
             names = [(name, idx[~loose[idx]]) for name, idx in names]
         for name, idx in names:
             if idx.size:
-                self.builder.add(name, batch, idx)
+                # Distinct rows: as many as the batch has means all of them, which the
+                # builder reads without gathering (a chunk wholly before or after --split-at).
+                self.builder.add(name, batch, None if idx.size == batch.rows else idx)
         for name, rows in self.router.also():
             self.builder.add(name, batch, rows, tally=False)
         for name in self.router.dropped():
