@@ -165,3 +165,41 @@ def test_iso_round_trip(moment: dt.datetime, offset_min: int, form: str) -> None
     else:
         text += f"{sign}{hh:02d}:{mm:02d}"
     assert read([text], "iso")[0] == us_of(local)
+
+
+@settings(max_examples=100, deadline=None)
+@given(
+    st.lists(
+        st.tuples(
+            st.datetimes(min_value=dt.datetime(1970, 1, 2), max_value=dt.datetime(2200, 12, 30)),
+            st.integers(-14 * 60, 14 * 60),
+            st.sampled_from(["Z", "offset", "naive", "fraction Z", "fraction offset", "space"]),
+        ),
+        min_size=1,
+        max_size=30,
+    )
+)
+def test_a_batch_of_mixed_iso_forms_reads_as_datetime_says(rows: list[tuple[dt.datetime, int, str]]) -> None:
+    """One batch whose first row fixes polars' format (with or without a fraction, a zone)
+    and whose later rows differ: each row still reads as ``datetime`` says."""
+    texts, want = [], []
+    for moment, offset_min, form in rows:
+        zone = (
+            dt.UTC
+            if form in ("Z", "naive", "fraction Z", "space")
+            else dt.timezone(dt.timedelta(minutes=offset_min))
+        )
+        local = moment.replace(tzinfo=zone, microsecond=moment.microsecond if "fraction" in form else 0)
+        text = f"{local.year:04d}" + local.strftime("-%m-%dT%H:%M:%S")
+        if "fraction" in form:
+            text += f".{local.microsecond:06d}"
+        if form == "space":
+            text = text.replace("T", " ") + "Z"
+        elif "offset" in form:
+            sign, (hh, mm) = ("-" if offset_min < 0 else "+"), divmod(abs(offset_min), 60)
+            text += f"{sign}{hh:02d}:{mm:02d}"
+        elif form != "naive":
+            text += "Z"
+        texts.append(text)
+        want.append(us_of(local))
+    assert read(list(texts), "iso").tolist() == want

@@ -237,29 +237,41 @@ def _fields(s: pl.Series, pattern: str) -> tuple[pl.Series, NDArray[np.bool_]]:
 
 
 def _iso(s: pl.Series) -> NDArray[np.float64]:
-    """ISO 8601 times, read as they are by polars' parser; only the values it could not
-    read are stripped of spaces and read again (stripping every value first cost a
-    third of the time column's reading)."""
-    chrono = _iso_chrono(s)
+    """ISO 8601 times, read as they are by polars' parser in the form of the batch's
+    first value, then in the general form (any fraction); only the values neither
+    could read are stripped of spaces and read again (stripping every value first
+    cost a third of the time column's reading)."""
+    chronos = _iso_chronos(s)
 
-    def rest(r: pl.Series) -> NDArray[np.float64]:
-        return _with_fast_path(r.str.strip_chars(), chrono, _iso_slow)
+    def attempt(x: pl.Series, i: int) -> NDArray[np.float64]:
+        if i < len(chronos):
+            return _with_fast_path(x, chronos[i], lambda r: attempt(r, i + 1))
+        return _with_fast_path(x.str.strip_chars(), chronos[-1] if chronos else None, _iso_slow)
 
-    return _with_fast_path(s, chrono, rest)
+    return attempt(s, 0)
 
 
-def _iso_chrono(s: pl.Series) -> str | None:
-    """A chrono format for polars' own parser that fits the batch's first value, or None."""
+def _iso_chronos(s: pl.Series) -> list[str]:
+    """Chrono formats for polars' own parser: the one that fits the batch's first value
+    exactly, then the general one (``%.f``: a fraction or none); none when polars
+    cannot read that value's form.
+
+    Why two: a format with ``%.f`` read a 47k-row chunk of whole-second stamps in 3.6 ms,
+    one without it in 2.7 (``%.f`` is the slowest item of polars' format parser).
+    """
     head = s.head(64).drop_nulls()  # drop_nulls of the whole batch would copy it all
     first = [v.strip() for v in (head if head.len() else s.drop_nulls()).head(1).to_list()]
     if not first:
-        return None
+        return []
     m = re.match(ISO_RE, first[0])
     if m is None or m[6] is None or (len(first[0]) > 19 and first[0][19] == ","):
-        return None  # no seconds, or a comma fraction: only our parser reads those
+        return []  # no seconds, or a comma fraction: only our parser reads those
     sep = first[0][10]
+    if sep not in "T ":
+        return []
     zone = "Z" if m[8] == "Z" else ("%z" if m[9] else "")
-    return f"%Y-%m-%d{sep}%H:%M:%S%.f{zone}" if sep in "T " else None
+    general = f"%Y-%m-%d{sep}%H:%M:%S%.f{zone}"
+    return [general] if m[7] else [f"%Y-%m-%d{sep}%H:%M:%S{zone}", general]
 
 
 def _with_fast_path(
@@ -276,7 +288,9 @@ def _with_fast_path(
     try:
         out = s.to_frame().select(
             pl.first()
-            .str.to_datetime(chrono, strict=False, time_zone="UTC", time_unit="us")
+            # No time_zone: a stamp with an offset comes out in UTC anyway, one without
+            # is read as UTC; naming the zone cost 0.8 of 3.6 ms a 47k-row chunk.
+            .str.to_datetime(chrono, strict=False, time_unit="us")
             .dt.epoch("us")
             .cast(pl.Float64)
             .fill_null(np.nan)
