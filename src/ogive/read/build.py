@@ -237,8 +237,9 @@ class TimeOrder:
     def warning(self) -> str | None:
         if not self.count:
             return None
+        rows, them = ("row", "it") if self.count == 1 else ("rows", "them")
         return (
-            f"{self.count:,} rows had a timestamp earlier than a row before them (first at "
+            f"{self.count:,} {rows} had a timestamp earlier than a row before {them} (first at "
             f"{self.first}, at most {self.most / 1e6:g} s earlier); each row still counts "
             "by its own time."
         )
