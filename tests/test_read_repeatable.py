@@ -129,11 +129,11 @@ def test_memory_budget_is_checked_and_sizes_chunks() -> None:
     with pytest.raises(OgiveError, match="--memory-budget must be at least 200 MB"):
         ScanOptions(memory_budget_mb=150)
     lean = ScanOptions()
-    kinds = (("csv", True), ("csv", False), ("text", False), ("ndjson", False), ("otlp", False))
-    for fmt, value_only in kinds:
-        small = ScanOptions(memory_budget_mb=200).chunk_size(fmt, value_only=value_only)
-        big = ScanOptions(memory_budget_mb=1000).chunk_size(fmt, value_only=value_only)
-        default = lean.chunk_size(fmt, value_only=value_only)
+    kinds = (("csv", 1), ("csv", 2), ("csv", 3), ("text", 2), ("ndjson", 2), ("otlp", 2))
+    for fmt, columns in kinds:
+        small = ScanOptions(memory_budget_mb=200).chunk_size(fmt, columns=columns)
+        big = ScanOptions(memory_budget_mb=1000).chunk_size(fmt, columns=columns)
+        default = lean.chunk_size(fmt, columns=columns)
         assert 1 << 20 <= small <= default
         assert big >= default
         assert big <= 8 << 20  # no grant buys chunks past the size measured fastest

@@ -97,18 +97,18 @@ class Feed:
 
     def chunk_size(self) -> int:
         """Bytes per read: by format once the layout is known."""
-        fmt, value_only = self._kind()
-        return self.options.chunk_size(fmt, value_only=value_only)
+        fmt, columns = self._kind()
+        return self.options.chunk_size(fmt, columns=columns)
 
     def parse_ahead(self) -> int:
         """Chunks to parse at once, by format once the layout is known."""
-        fmt, value_only = self._kind()
-        return self.options.parse_ahead(fmt, value_only=value_only)
+        fmt, columns = self._kind()
+        return self.options.parse_ahead(fmt, columns=columns)
 
-    def _kind(self) -> tuple[str | None, bool]:
-        """(format, read for the value alone) of the layout; (None, False) before it is known."""
+    def _kind(self) -> tuple[str | None, int]:
+        """(format, columns read) of the layout; (None, 0) before it is known."""
         layout = self.layout
-        return (None, False) if layout is None else (layout.format, layout.names == ("v",))
+        return (None, 0) if layout is None else (layout.format, len(layout.names))
 
     def cutting(self) -> str:
         """How to cut: CSV records may hold quoted newlines; before the layout, guess."""

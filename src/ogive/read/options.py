@@ -17,6 +17,7 @@ from ..sketch.digest import MAX_COMPRESSION
 from ..sketch.units import span_seconds
 
 CSV_CHUNK = 8 << 20
+CSV_PAIR_CHUNK = 6 << 20
 LINE_CHUNK = 4 << 20
 OTLP_CHUNK = 2 << 20
 LEAN_MB = 250
@@ -26,6 +27,7 @@ MIN_BUDGET_MB = 200
 chunks count."""
 FASTEST_CHUNK = {
     "csv-value": 8 << 20,
+    "csv-pair": 8 << 20,
     "csv-columns": 8 << 20,
     "lines": 8 << 20,
     "lines-value": 8 << 20,
@@ -37,7 +39,15 @@ FASTEST_CHUNK = {
 0.71 s, NDJSON 1.97/1.69/1.70 s, a CSV read for value and ``--by`` group 0.91/0.74/0.76
 s; a CSV value column alone 4/8/16/32 MB 0.49/0.43/0.63/0.66 s (bigger chunks delay the
 first parse and leave the two cores idle at the ends). OTLP: 2 and 4 MB ran alike."""
-PARSE_AHEAD = {"csv-value": 4, "csv-columns": 4, "lines": 2, "lines-value": 3, "ndjson": 4, "otlp": 2}
+PARSE_AHEAD = {
+    "csv-value": 4,
+    "csv-pair": 4,
+    "csv-columns": 4,
+    "lines": 2,
+    "lines-value": 3,
+    "ndjson": 4,
+    "otlp": 2,
+}
 """Chunks parsed at once, by kind of chunk (at most ``scan.PARSE_WORKERS``); about
 ahead + 3 chunks are in memory. Measured on 2 cores at 1 GB, whole processes, median of
 4: a CSV value column at 2/3/4 ahead 1.75/1.61/1.54 s (2.58/2.48/2.44 CPU-s) at
@@ -56,6 +66,7 @@ of 2, at 2/4 ahead: text 2.05/1.83 s (best 2.03/1.61) at 255/284 MB, text with a
 and ``--split-at`` 3.68/3.58 s at 274/303 MB."""
 PEAK_MODEL = {
     "csv-value": (140.0, 8.5),
+    "csv-pair": (160.0, 10.0),
     "csv-columns": (170.0, 10.0),
     "lines": (170.0, 7.5),
     "lines-value": (170.0, 7.5),
@@ -69,7 +80,10 @@ string each; OTLP documents nested lists). Fitted to whole-process peaks on 300 
 column at 6/8/50 MB chunks peaked at 174/185/331 MB, text lines at 3.75/4/31 MB at
 194/193/391, a CSV read for value and group at 3.75/31 at 154/360, OTLP at 2/4 MB at
 185/277. The CSV slopes were refitted with 4 chunks ahead (value alone, 8 MB: 211 MB at 1 GB;
-with a group or time column, 4 MB: 209 MB)."""
+with a group or time column, 4 MB: 209 MB). A CSV read for its value and one more column,
+4 ahead, 1 GB (2026-12-03, max of 5-6 runs): 4/6/8 MB peaked at 187/210/234 MB with a
+group (``host``), 199/219/239 (8 MB 3 ahead) with a time; 0.55 GB with a quoted 100-byte
+user agent as the group, 180/203 at 4/6 MB. With a group and a time, 4/6 MB: 204/234."""
 
 
 @dataclass(frozen=True)
@@ -186,23 +200,30 @@ class ScanOptions:
                 f"170 MB before its chunks), got {self.memory_budget_mb}."
             )
 
-    def chunk_size(self, fmt: str | None, *, value_only: bool = False) -> int:
+    def chunk_size(self, fmt: str | None, *, columns: int = 0) -> int:
         """Bytes per chunk for a source of format ``fmt`` (None: not known yet), by the
         lean defaults below, or sized to ``memory_budget_mb`` when one is given.
 
         Measured on 2 cores at 1 GB (``benchmarks/scan_bench.py``): a CSV read for its
         value column alone parses ~20% faster in 8 MB chunks than in 4 MB (polars'
         per-call cost is amortised), at 189 MB peak RSS. With group or time columns
-        8 MB reached 260 MB (``--by host``; 213 MB at 4 MB), and text and NDJSON lines
+        8 MB reached 234-260 MB (``--by host``), and text and NDJSON lines
         become one String each, about twice the working set per byte (8 MB: 236-253
         MB), over the 250 MB budget: those stay at 4 MB. OTLP documents decode into
         nested lists several times their size: 4 MB reached 277 MB at peak, 2 MB 185 MB
-        at the same speed (``benchmarks/formats_bench.py``).
+        at the same speed (``benchmarks/formats_bench.py``). A CSV read for its value and
+        one more column (a group or a time) takes 6 MB: measured 2026-12-03, 1 GB, median
+        of 5-6 runs alternating, 4/6 MB, wall (CPU-s): ``--by host`` 3.42 s (5.22) / 3.10
+        (4.81), ``--time-field --split-at`` 3.43 (5.49) / 3.00 (5.18), at most 219 MB
+        (``PEAK_MODEL``); with both columns 6 MB reached 234 MB, so three stay at 4 MB.
+
+        ``columns``: how many columns the layout reads (the value, a group, a time); 0
+        when not known yet.
         """
         if self.chunk_bytes is not None:
             return self.chunk_bytes
-        kind = _kind(fmt, value_only)
-        lean = CSV_CHUNK if kind == "csv-value" else OTLP_CHUNK if kind == "otlp" else LINE_CHUNK
+        kind = _kind(fmt, columns)
+        lean = {"csv-value": CSV_CHUNK, "csv-pair": CSV_PAIR_CHUNK, "otlp": OTLP_CHUNK}.get(kind, LINE_CHUNK)
         if self.memory_budget_mb is None:
             return lean
         base, slope = PEAK_MODEL[kind]
@@ -210,26 +231,26 @@ class ScanOptions:
         fits = int((0.9 * self.memory_budget_mb - base) / slope * (1 << 20))
         return max(1 << 20, min(FASTEST_CHUNK[kind], fits))
 
-    def parse_ahead(self, fmt: str | None, *, value_only: bool = False) -> int:
+    def parse_ahead(self, fmt: str | None, *, columns: int = 0) -> int:
         """Chunks parsed at once for a source of format ``fmt`` (``PARSE_AHEAD``, more
         with a large grant, ``GRANT_AHEAD``): more keeps both cores busy, each costs a
         chunk of memory."""
-        kind = _kind(fmt, value_only)
+        kind = _kind(fmt, columns)
         granted, ahead, least = GRANT_AHEAD
         if kind in granted and self.memory_budget_mb is not None and self.memory_budget_mb >= least:
             return ahead
         return PARSE_AHEAD[kind]
 
 
-def _kind(fmt: str | None, value_only: bool) -> str:
+def _kind(fmt: str | None, columns: int) -> str:
     """The kind of chunk, for its size and memory: OTLP documents, NDJSON lines, a CSV
-    read for its value column alone or with more columns, or lines (everything else),
-    read for the value alone or with a group or time."""
+    read for its value column alone, with one more column or with more, or lines
+    (everything else), read for the value alone or with a group or time."""
     if fmt in ("otlp", "ndjson"):
         return fmt
     if fmt in ("csv", "tsv"):
-        return "csv-value" if value_only else "csv-columns"
-    return "lines-value" if value_only else "lines"
+        return "csv-value" if columns == 1 else "csv-pair" if columns == 2 else "csv-columns"
+    return "lines-value" if columns == 1 else "lines"
 
 
 @dataclass(frozen=True)
