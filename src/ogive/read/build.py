@@ -20,6 +20,9 @@ from .skips import BAD_TIMESTAMP, Skips
 
 BATCH_VALUES = 500_000
 """Values held (over all sketches) before they are added: 4 MB (8 MB over 64 sketches, below)."""
+CHECK_VALUES = 500_000
+"""The digests' memory is checked after every this many good values, counted in source
+order (``Builder.end_batch``)."""
 MANY_SKETCHES = 64
 BATCH_VALUES_MANY = 1_000_000
 """Held values when there are more than ``MANY_SKETCHES`` sketches (8 MB): with 1000 groups
@@ -47,9 +50,16 @@ class Builder:
         """Sketches are cut by time: a row without a readable time belongs to none."""
         self._held: dict[str, list[NDArray[np.float64]]] = {}
         self._held_n = 0
-        self._since_budget = 0
-        """Good values given since the digest budget was last checked (counted, not held:
-        a progress report adding the held values early must not move the check)."""
+        self._pending: list[tuple[str, NDArray[np.float64], NDArray[np.int64] | None, NDArray[np.bool_]]] = []
+        """This batch's good values by sketch, with what places their rows: (name,
+        values, the rows given or None for all, which of those were good)."""
+        self._pending_n = 0
+        self._buffered = 0
+        """Values buffered in the digests, over all sketches (kept as they change, so that
+        a check under budget needs no walk over 10^5 sketches)."""
+        self._since_check = 0
+        """Good values given since the digests' memory was last checked (counted, not
+        held: a progress report adding the held values early must not move the check)."""
         self._spans: dict[str, list[float]] = {}
 
     def sketch(self, name: str) -> Sketch:
@@ -68,7 +78,8 @@ class Builder:
     def add(self, name: str, batch: Batch, idx: NDArray[np.int64] | None, *, tally: bool = True) -> None:
         """Rows ``idx`` of ``batch`` (all when None) to sketch ``name``: good values to its
         buffer, bad rows counted (scan-wide unless ``tally`` is off, because the rows
-        were counted with another sketch, and in its provenance), its time span widened."""
+        were counted with another sketch, and in its provenance), its time span widened.
+        The values are held once the batch ends (:meth:`end_batch`)."""
         s = self.sketch(name)
         prov = s.provenance
         vals, ok = batch.values, batch.ok
@@ -82,15 +93,8 @@ class Builder:
             rows = idx.size
         prov.rows_read += rows
         if good.size:
-            self._held.setdefault(name, []).append(good)
-            self._held_n += good.size
-            self._since_budget += good.size
-            batch_values = BATCH_VALUES if len(self.sketches) <= MANY_SKETCHES else BATCH_VALUES_MANY
-            if self._since_budget >= batch_values:
-                self._since_budget = 0
-                self.flush()
-            elif self._held_n >= batch_values:
-                self._add_held()
+            self._pending.append((name, good, idx, sel_ok))
+            self._pending_n += good.size
         if tally:
             self.values += good.size
         for reason, count, examples in self.skips.found(batch, idx):
@@ -110,45 +114,110 @@ class Builder:
 
     def drop(self, name: str) -> None:
         """Let go of a sketch and whatever of it is still held (an old window of a followed timeline)."""
-        self.sketches.pop(name, None)
+        self.end_batch()
+        gone = self.sketches.pop(name, None)
+        if gone is not None:
+            self._buffered -= gone.digest.buffered
         self._spans.pop(name, None)
         held = self._held.pop(name, [])
         self._held_n -= sum(part.size for part in held)
+
+    def end_batch(self) -> None:
+        """Hold the batch's values, checking the digests' memory at every ``CHECK_VALUES``-th
+        good value in source order, wherever the batches begin and end.
+
+        Why at a row and not at the batch's end: the check compresses the fullest digests
+        early, which shapes them, so where it falls must not depend on the chunk size (a
+        memory grant, a larger chunk for a CSV read with a group) or on how many rows a
+        chunk held; otherwise ``--by`` sketches differed in their last digits between
+        chunk sizes. A batch that crosses a check is split at the row where the count
+        reaches it: the values up to that row are held, the check runs, then the rest.
+        """
+        pending, n = self._pending, self._pending_n
+        self._pending, self._pending_n = [], 0
+        if len(pending) == 1 and len(self.sketches) == 1:
+            # One sketch, each row once: a check could compress nothing (it needs two),
+            # and it would fall after exactly ``need`` of these values.
+            self._hold(pending[0][0], pending[0][1])
+            self._since_check = (self._since_check + n) % CHECK_VALUES
+            pending, n = [], 0
+        while n and self._since_check + n >= CHECK_VALUES:
+            need = CHECK_VALUES - self._since_check
+            rows = [np.flatnonzero(ok) if idx is None else idx[ok] for _, _, idx, ok in pending]
+            last = np.partition(np.concatenate(rows), need - 1)[need - 1]  # the row reaching the count
+            rest = []
+            for (name, vals, _, _), at in zip(pending, rows, strict=True):
+                early = at <= last
+                self._hold(name, vals[early])
+                if not early.all():
+                    rest.append((name, vals[~early], at[~early]))
+            self._check()
+            self._since_check = 0
+            # What is left is placed by its rows alone: rows given, all good.
+            pending = [(name, vals, at, np.ones(at.size, dtype=bool)) for name, vals, at in rest]
+            n = sum(vals.size for _, vals, _, _ in pending)
+        for name, vals, _, _ in pending:
+            self._hold(name, vals)
+        self._since_check += n
+        batch_values = BATCH_VALUES if len(self.sketches) <= MANY_SKETCHES else BATCH_VALUES_MANY
+        if self._held_n >= batch_values:
+            self._add_held()  # when held values are added changes no digest, only memory
+
+    def _hold(self, name: str, vals: NDArray[np.float64]) -> None:
+        if vals.size:
+            self._held.setdefault(name, []).append(vals)
+            self._held_n += vals.size
 
     def _add_held(self) -> None:
         """Add the held values: one batch per sketch of ~BATCH_VALUES costs less per value
         than one per chunk (fewer tail merges). When they are added does not change the
         sketches (``TDigest.add`` merges at fixed counts), only when memory is freed."""
         for name, parts in self._held.items():
-            self.sketches[name].add(parts[0] if len(parts) == 1 else np.concatenate(parts))
+            self._add(self.sketches[name], parts)
         self._held.clear()
         self._held_n = 0
 
-    def flush(self) -> None:
-        """Add the held values, then keep the digests' buffers within the budget.
+    def _add(self, s: Sketch, parts: list[NDArray[np.float64]]) -> None:
+        before = s.digest.buffered
+        s.add(parts[0] if len(parts) == 1 else np.concatenate(parts))
+        self._buffered += s.digest.buffered - before
 
-        Called at fixed counts of values (and at the end), never by the clock: the
-        budget's early merges shape the digests, so they must fall at the same rows in
-        every run (a progress report only adds the held values, :meth:`sset`).
+    def _check(self) -> None:
+        """Keep the digests' unmerged values within the budget (at fixed counts of values,
+        :meth:`end_batch`, and at the end; never by the clock).
+
+        Each digest buffers up to ~10^6 values before it compresses them: alone that is
+        8 MB, but over 24 hosts it was 88 MB, and over 1000 groups it could grow to
+        gigabytes. Once the unmerged values of two or more sketches together pass the
+        budget, the fullest are compressed; memory then no longer grows with the number
+        of groups. Unmerged = buffered in the digest or still held here; only the
+        compressed sketches' held values are added first, so this costs nothing when
+        under budget.
         """
-        self._add_held()
-        if len(self.sketches) > 1:
-            # Each digest buffers up to ~10^6 values before it compresses them: alone that
-            # is 8 MB, but over 24 hosts it was 88 MB, and over 1000 groups it could grow
-            # to gigabytes. Compress the fullest buffers once all of them together pass
-            # the budget; memory then no longer grows with the number of groups.
-            held = [(s.digest.buffered, s) for s in self.sketches.values() if s.digest.buffered]
-            total = sum(n for n, _ in held)
-            # A timeline's window digests are small (compression ~200): compressing them
-            # often costs little, and closed windows stop holding raw values (a week of
-            # 1-minute windows, 2.3 GB of CSV: 212 MB peak against 182 MB without windows).
-            budget = DIGEST_BUDGET // 8 if self.options.timeline else DIGEST_BUDGET
-            if total > budget:
-                for n, sk in sorted(held, key=lambda t: -t[0]):
-                    sk.digest.flush()
-                    total -= n
-                    if total <= budget // 2:
-                        break
+        # A timeline's window digests are small (compression ~200): compressing them
+        # often costs little, and closed windows stop holding raw values (a week of
+        # 1-minute windows, 2.3 GB of CSV: 212 MB peak against 182 MB without windows).
+        budget = DIGEST_BUDGET // 8 if self.options.timeline else DIGEST_BUDGET
+        total = self._buffered + self._held_n
+        if total <= budget:
+            return
+        unmerged = []
+        for name, s in self.sketches.items():
+            n = s.digest.buffered + sum(part.size for part in self._held.get(name, ()))
+            if n:
+                unmerged.append((n, name, s))
+        if len(unmerged) < 2:
+            return
+        for n, name, s in sorted(unmerged, key=lambda t: -t[0]):
+            parts = self._held.pop(name, [])
+            if parts:
+                self._held_n -= sum(part.size for part in parts)
+                self._add(s, parts)
+            self._buffered -= s.digest.buffered
+            s.digest.flush()
+            total -= n
+            if total <= budget // 2:
+                break
 
     def sset(self) -> SketchSet:
         """The sketches as they stand, every held value added (for progress reports:
@@ -161,7 +230,9 @@ class Builder:
 
         A scan that met no row still answers with the sketches it was asked for, empty.
         """
-        self.flush()
+        self.end_batch()
+        self._check()
+        self._add_held()
         if not self.sketches:
             if halves:
                 for half in ("before", "after"):

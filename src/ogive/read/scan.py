@@ -304,6 +304,7 @@ class Pipeline:
                 self.skips.count(reason, count, examples)
         if isinstance(names, str):
             self.builder.add(names, batch, None)
+            self.builder.end_batch()
             return
         loose = batch.loose
         if loose is not None and loose.any() and self.router.window_us is None:
@@ -320,6 +321,7 @@ class Pipeline:
                 self.builder.add(name, batch, None if idx.size == batch.rows else idx)
         for name, rows in self.router.also():
             self.builder.add(name, batch, rows, tally=False)
+        self.builder.end_batch()
         for name in self.router.dropped():
             self.builder.drop(name)
 
