@@ -59,7 +59,7 @@ def code_keys(g: pl.Series) -> Keys:
     than one polars mapping of the rows at commit against the at most ``max_groups``
     groups (~1 ms), so those chunks are left as they are.
     """
-    values = g.cast(pl.String).fill_null(MISSING)
+    values = as_keys(g)
     if values.head(2 * NAMED_KEYS).n_unique() > NAMED_KEYS:
         return Keys(values)  # many: told by the chunk's head, without the whole unique
     distinct = values.unique(maintain_order=True)
@@ -92,6 +92,14 @@ class _Known:
     (0 where there is none: the hash check then fails)."""
 
 
+def as_keys(g: pl.Series) -> pl.Series:
+    """The group column as text, a missing value named ``MISSING``. Filling only when
+    there is a null: ``fill_null`` copies every string even when there is none
+    (0.16 ms a 45k-row chunk)."""
+    values = g.cast(pl.String)
+    return values.fill_null(MISSING) if values.has_nulls() else values
+
+
 class KeyCoder:
     """Codes each chunk's ``--by`` values against the values earlier chunks named, by hash.
 
@@ -116,7 +124,7 @@ class KeyCoder:
         self._known: _Known | None = None
 
     def code(self, g: pl.Series) -> Keys:
-        values = g.cast(pl.String).fill_null(MISSING)
+        values = as_keys(g)
         known = self._known
         if known is not None and values.len():
             h = values.hash(seed=0).to_numpy()
