@@ -208,6 +208,11 @@ class Router:
             halves = tus >= self.split_us  # NaN compares False; such rows are already skipped
         if not o.by and halves is None:
             return "all"
+        if not o.by and halves is not None:
+            # Most chunks of a time-ordered log lie wholly on one side: no codes to split.
+            if halves.all() or not halves.any():
+                return [("after" if halves.size and halves[0] else "before", np.arange(n))]
+            return [("before", np.flatnonzero(~halves)), ("after", np.flatnonzero(halves))]
         if o.by and g is not None and halves is None and g.names is not None and g.parts is not None:
             return self._named_parts(g.names, g.parts)
         if o.by and g is not None:
