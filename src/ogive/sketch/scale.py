@@ -25,6 +25,7 @@ already small for the larger n that comes later.
 
 from __future__ import annotations
 
+import itertools
 from collections.abc import Callable
 from typing import TypeAlias
 
@@ -69,19 +70,50 @@ _FOCUS_SD = np.sqrt(_FOCUS_P * (1.0 - _FOCUS_P))
 
 
 def _k1_ladder(q: FloatArray, compression: float, n: float) -> FloatArray:
-    """``k_1`` plus one smooth step per focus quantile (slope 1 / (weight * sd) inside)."""
+    """``k_1`` plus one smooth step per focus quantile (slope 1 / (weight * sd) inside).
+
+    Input in a few ascending stretches (a digest's tie runs by rank, then a few more)
+    is read stretch by stretch, each by binary search (:func:`_ladder`): on 8*10^4
+    sorted points 6.2 -> 2.0 ms, the same numbers to the bit.
+    """
     qa = np.asarray(q, dtype=np.float64)
+    if qa.ndim == 1 and qa.size > 64:
+        breaks = np.flatnonzero(~(qa[1:] >= qa[:-1])) + 1  # NaN breaks a stretch too
+        if breaks.size <= 4:
+            ends = [0, *breaks.tolist(), qa.size]
+            pieces = [
+                _ladder(qa[a:b], compression, n, ascending=b - a > 64) for a, b in itertools.pairwise(ends)
+            ]
+            return pieces[0] if len(pieces) == 1 else np.concatenate(pieces)
+    return _ladder(qa, compression, n, ascending=False)
+
+
+def _ladder(qa: FloatArray, compression: float, n: float, *, ascending: bool) -> FloatArray:
     out = _k1(qa, compression, n)
     # Far from a focus quantile its step is flat at +-(reach + fade) / weight; only the
     # few points near one (the windows are narrow in q) need the exact shape.
     full = (FOCUS_REACH + FOCUS_FADE) / FOCUS_WEIGHT
-    above = np.searchsorted(_FOCUS_P, qa, side="right")
+    if ascending:
+        # Each focus quantile's place and window by binary search, not a pass over every
+        # point per quantile (the seven passes were two thirds of the time).
+        cuts = np.searchsorted(qa, _FOCUS_P, side="left")  # points below each focus quantile
+        above = np.repeat(np.arange(_FOCUS_P.size + 1), np.diff(cuts, prepend=0, append=qa.size))
+    else:
+        above = np.searchsorted(_FOCUS_P, qa, side="right")
     out = out + (2.0 * above - _FOCUS_P.size) * full
     sd_q = _FOCUS_SD / np.sqrt(max(n, 1.0))
     flat = FOCUS_REACH + 40.0 * FOCUS_FADE  # exp(-40): the step is flat to double precision
     for p, sd in zip(_FOCUS_P, sd_q, strict=True):
-        near = np.abs(qa - p) < flat * sd
-        if not near.any():
+        near: NDArray[np.intp] | NDArray[np.bool_]
+        if ascending:
+            # |q - p| < r holds on one unbroken stretch of sorted q (rounded subtraction
+            # is monotone): found by search with a margin, then tested exactly.
+            r = flat * sd
+            lo, hi = np.searchsorted(qa, [p - 2.0 * r, p + 2.0 * r], side="left")
+            near = lo + np.flatnonzero(np.abs(qa[lo:hi] - p) < r)
+        else:
+            near = np.abs(qa - p) < flat * sd
+        if not near.any() if near.dtype == bool else not near.size:
             continue
         z = (qa[near] - p) / sd
         az = np.abs(z)
