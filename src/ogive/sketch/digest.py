@@ -325,13 +325,13 @@ class TDigest:
         if n > 1:
             eq = x[1:] == x[:-1]
             if eq.any():
-                # Runs of >= 2 equal values, read off the tie mask (+1 where a run of ties
-                # begins, -1 just after it ends; they alternate): no search, no sort.
-                d = np.flatnonzero(np.diff(eq.view(np.int8), prepend=np.int8(0), append=np.int8(0)))
-                run_l = d[0::2]
-                vs.append(x[run_l])
-                ls.append(run_l)
-                rs.append(d[1::2] + 1)
+                # Runs of >= 2 equal values: stretches between value changes, longer than one.
+                cut = np.flatnonzero(~eq) + 1
+                starts, ends = np.concatenate(([0], cut)), np.concatenate((cut, [n]))
+                long = ends - starts >= 2
+                ls.append(starts[long])
+                vs.append(x[ls[-1]])
+                rs.append(ends[long])
         if k_n:
             link = np.zeros(k_n, dtype=bool)
             link[:-1] |= (m[1:] == m[:-1]) & p[1:] & p[:-1]
