@@ -17,7 +17,7 @@ from ..sketch.digest import MAX_COMPRESSION
 from ..sketch.units import span_seconds
 
 CSV_CHUNK = 8 << 20
-CSV_PAIR_CHUNK = 6 << 20
+CSV_PAIR_CHUNK = 5 << 20
 LINE_CHUNK = 4 << 20
 OTLP_CHUNK = 2 << 20
 LEAN_MB = 250
@@ -212,10 +212,12 @@ class ScanOptions:
         MB), over the 250 MB budget: those stay at 4 MB. OTLP documents decode into
         nested lists several times their size: 4 MB reached 277 MB at peak, 2 MB 185 MB
         at the same speed (``benchmarks/formats_bench.py``). A CSV read for its value and
-        one more column (a group or a time) takes 6 MB: measured 2026-12-03, 1 GB, median
+        one more column (a group or a time) takes 5 MB. Measured 2026-12-03, 1 GB, median
         of 5-6 runs alternating, 4/6 MB, wall (CPU-s): ``--by host`` 3.42 s (5.22) / 3.10
-        (4.81), ``--time-field --split-at`` 3.43 (5.49) / 3.00 (5.18), at most 219 MB
-        (``PEAK_MODEL``); with both columns 6 MB reached 234 MB, so three stay at 4 MB.
+        (4.81), ``--time-field --split-at`` 3.43 (5.49) / 3.00 (5.18), at most 219 MB; but
+        at 8 GB, on one malloc arena (``cli``), the time scan peaked at 236-237 MB with
+        6 MB and 219-223 with 5 MB, so 5 keeps a margin under the 250 MB budget. With both
+        columns 6 MB reached 234 MB at 1 GB, so three stay at 4 MB.
 
         ``columns``: how many columns the layout reads (the value, a group, a time); 0
         when not known yet.
