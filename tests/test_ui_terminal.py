@@ -183,16 +183,28 @@ def test_ascii_is_chosen_by_terminal_and_locale() -> None:
 
 def test_escape_then_a_key_50_ms_later_is_two_keys(sketches: Path) -> None:
     """Issue 21: Escape followed within ~50 ms by a key was read as Alt+key (the key landed in the
-    path field). Escape closes the Write prompt; the q after it quits (status 0)."""
-    tty = Tty(["view", str(sketches)], {})
-    tty.started()
-    tty.press(b"w")
-    tty.read(0.8)
-    tty.press(b"\x1b")
-    time.sleep(0.05)
-    tty.press(b"q")
-    assert tty.wait(8.0) == 0
-    _restored(tty.out)
+    path field). Escape closes the Write prompt; the q after it quits (status 0).
+
+    Up to three tries: on a loaded machine (the whole suite, other jobs) the app's input
+    thread can be kept from running for the 50 ms, and then both bytes are waiting when
+    it reads, which no program can tell from Alt+q (seen in one CI run of the suite and
+    in one of eight runs of this file). The bug itself failed every try."""
+    for _ in range(3):
+        tty = Tty(["view", str(sketches)], {})
+        tty.started()
+        tty.press(b"w")
+        tty.read(0.8)
+        tty.press(b"\x1b")
+        time.sleep(0.05)
+        tty.press(b"q")
+        try:
+            status = tty.wait(8.0)
+        except subprocess.TimeoutExpired:
+            continue  # q went to the prompt: try again
+        assert status == 0
+        _restored(tty.out)
+        return
+    pytest.fail("Escape then q 50 ms later never closed the prompt and quit in three tries")
 
 
 def test_suspend_and_resume_redraw_the_screen(sketches: Path) -> None:
