@@ -125,7 +125,7 @@ def test_grouped_and_split_scans_repeat_byte_for_byte(
 @pytest.mark.parametrize(
     "extra",
     [
-        {"by": "client", "max_groups": 200},
+        {"by": "host"},
         {"time_field": "ts", "window": "1h", "timeline": True},
     ],
 )
@@ -151,7 +151,7 @@ def test_digest_budget_falls_at_the_same_rows_whatever_the_chunks(
     options = ScanOptions(column="latency_ms", **extra)  # type: ignore[arg-type]
     first = _scan_bytes(path := table[0], options, workers=2, seed=None)
     assert compressed > 20  # the check did compress digests during the scan
-    for chunk in (1 << 20, 3_000_001, 5 << 20):
+    for chunk in (1 << 20, 3_000_001):
         again = _scan_bytes(path, dataclasses.replace(options, chunk_bytes=chunk), workers=2, seed=None)
         assert again == first, chunk
     budgeted = dataclasses.replace(options, memory_budget_mb=1000)
