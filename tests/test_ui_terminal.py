@@ -188,7 +188,7 @@ def test_escape_then_a_key_50_ms_later_is_two_keys(sketches: Path) -> None:
     Up to three tries: on a loaded machine (the whole suite, other jobs) the app's input
     thread can be kept from running for the 50 ms, and then both bytes are waiting when
     it reads, which no program can tell from Alt+q (seen in one CI run of the suite and
-    in one of eight runs of this file). The bug itself failed every try."""
+    in one of seven runs of this file). The bug itself failed every try."""
     for _ in range(3):
         tty = Tty(["view", str(sketches)], {})
         tty.started()
