@@ -135,30 +135,32 @@ class Builder:
         """
         pending, n = self._pending, self._pending_n
         self._pending, self._pending_n = [], 0
-        if len(pending) == 1 and len(self.sketches) == 1:
-            # One sketch, each row once: a check could compress nothing (it needs two),
-            # and it would fall after exactly ``need`` of these values.
-            self._hold(pending[0][0], pending[0][1])
-            self._since_check = (self._since_check + n) % CHECK_VALUES
-            pending, n = [], 0
-        while n and self._since_check + n >= CHECK_VALUES:
-            need = CHECK_VALUES - self._since_check
-            rows = [np.flatnonzero(ok) if idx is None else idx[ok] for _, _, idx, ok in pending]
-            last = np.partition(np.concatenate(rows), need - 1)[need - 1]  # the row reaching the count
-            rest = []
-            for (name, vals, _, _), at in zip(pending, rows, strict=True):
-                early = at <= last
-                self._hold(name, vals[early])
-                if not early.all():
-                    rest.append((name, vals[~early], at[~early]))
-            self._check()
-            self._since_check = 0
-            # What is left is placed by its rows alone: rows given, all good.
-            pending = [(name, vals, at, np.ones(at.size, dtype=bool)) for name, vals, at in rest]
-            n = sum(vals.size for _, vals, _, _ in pending)
-        for name, vals, _, _ in pending:
+        # Rows matter only in a batch that crosses a check among two or more sketches (one
+        # sketch alone, each row once: the check could compress nothing; it needs two).
+        left: list[tuple[str, NDArray[np.float64]]]
+        if self._since_check + n >= CHECK_VALUES and not (len(pending) == 1 and len(self.sketches) == 1):
+            placed = [
+                (name, vals, np.flatnonzero(ok) if idx is None else idx[ok])
+                for name, vals, idx, ok in pending
+            ]
+            while n and self._since_check + n >= CHECK_VALUES:
+                need = CHECK_VALUES - self._since_check
+                last = np.partition(np.concatenate([at for _, _, at in placed]), need - 1)[need - 1]
+                rest = []
+                for name, vals, at in placed:
+                    early = at <= last  # up to the row reaching the count
+                    self._hold(name, vals[early])
+                    if not early.all():
+                        rest.append((name, vals[~early], at[~early]))
+                self._check()
+                self._since_check = 0
+                placed, n = rest, sum(vals.size for _, vals, _ in rest)
+            left = [(name, vals) for name, vals, _ in placed]
+        else:
+            left = [(name, vals) for name, vals, _, _ in pending]
+        for name, vals in left:
             self._hold(name, vals)
-        self._since_check += n
+        self._since_check = (self._since_check + n) % CHECK_VALUES
         batch_values = BATCH_VALUES if len(self.sketches) <= MANY_SKETCHES else BATCH_VALUES_MANY
         if self._held_n >= batch_values:
             self._add_held()  # when held values are added changes no digest, only memory
