@@ -23,9 +23,17 @@ import polars as pl
 
 from ..errors import OgiveError
 from . import layout as L
-from .delimited import MOST
+from .delimited import DECIMAL_COMMA_NOTE, MOST
 from .options import ScanOptions
-from .text import Extract, choose_key, extract_columns, key_value_regex, sample_lines, value_source
+from .text import (
+    Extract,
+    choose_key,
+    extract_columns,
+    field_value,
+    key_value_regex,
+    sample_lines,
+    value_source,
+)
 from .values import MISSING_FIELD
 
 _Q = r'(?:[^"\\]|\\.)*'
@@ -165,7 +173,7 @@ def plan(data: bytes, options: ScanOptions) -> AccessLayout:
                     "say otherwise with --input-unit."
                 )
         else:
-            key, _ = choose_key(rests, set())
+            key, _, _ = choose_key(rests, set())
             if key is None:
                 raise OgiveError(
                     f"the lines are in the {kind} with no latency field at the end; choose the value "
@@ -186,6 +194,11 @@ def plan(data: bytes, options: ScanOptions) -> AccessLayout:
         elif s in NAMES:
             wanted.add(s)
             columns.append((name, s))
+        elif name == "v":
+            value = field_value(s, rests)
+            extra.append(value)
+            if value.decimal_comma:
+                notes.append(DECIMAL_COMMA_NOTE)
         else:
             extra.append(Extract(name, key_value_regex(s), (1, 2)))
     time_source = f"the [...] time stamp of the {kind}"

@@ -12,9 +12,11 @@ import csv
 import dataclasses
 import functools
 import io
+import re
 from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import TypeVar
 
 import numpy as np
 import polars as pl
@@ -31,6 +33,7 @@ TIME_NAMES = frozenset(
     {"time", "timestamp", "ts", "@timestamp", "date", "datetime", "epoch", "when", "start", "end"}
 )
 """Column names taken for times, never for the value, when the value column is chosen."""
+_Col = TypeVar("_Col", pl.Expr, pl.Series)
 MOST = 0.8
 """Share of sampled rows that must agree (a few junk rows among 50 are tolerated)."""
 
@@ -43,6 +46,9 @@ class CsvLayout(Layout):
     columns: tuple[int, ...] = ()
     """0-based indices of the value, group and time columns, in file order."""
     validates_utf8: bool = True
+    decimal_comma: bool = False
+    """The value column writes its numbers with a decimal comma (``12,5``): see
+    :func:`decimal_comma`."""
 
     def parse(
         self, data: bytes, *, numeric: bool = False, literal_quotes: object = None, strict_utf8: bool = False
@@ -55,7 +61,8 @@ class CsvLayout(Layout):
         read with ``"`` as a plain character instead. ``strict_utf8``: bytes that are not
         UTF-8 raise :class:`NotUtf8` (the caller cleans them) instead of being replaced.
         """
-        if numeric:
+        if numeric and not (self.decimal_comma and self.separator == ","):
+            # (polars reads a decimal comma itself unless the comma separates fields.)
             try:
                 return self._read(data, numeric=True, strict_utf8=strict_utf8), True
             except pl.exceptions.PolarsError:
@@ -127,6 +134,7 @@ class CsvLayout(Layout):
                 truncate_ragged_lines=True,
                 raise_if_empty=False,
                 encoding=encoding,  # type: ignore[arg-type]
+                decimal_comma=numeric and self.decimal_comma,
             )
 
         try:
@@ -148,7 +156,8 @@ class CsvLayout(Layout):
                 f"cannot read the lines as {fmt} records; check that the file is {fmt} (or name its format "
                 f"with --format) and that its quotes are balanced (the parser said: {excerpt(str(exc), 80)})."
             ) from None
-        return df.rename(dict(zip(df.columns, self.names, strict=True)))
+        df = df.rename(dict(zip(df.columns, self.names, strict=True)))
+        return df.with_columns(comma_to_point(pl.col("v"))) if self.decimal_comma and not numeric else df
 
     def lazy(self, path: str, skip: int, *, numeric: bool) -> pl.LazyFrame:
         """The same columns from polars' streaming reader, after ``skip`` lines."""
@@ -162,12 +171,64 @@ class CsvLayout(Layout):
             truncate_ragged_lines=True,
             skip_rows=skip,
             raise_if_empty=False,
+            decimal_comma=numeric and self.decimal_comma,
         )
         width = len(lf.collect_schema())
-        return lf.select(
+        lf = lf.select(
             (pl.col(_csv_name(c)) if c < width else pl.lit(None, dtype=pl.String)).alias(n)
             for c, n in zip(self.columns, self.names, strict=True)
         )
+        return lf.with_columns(comma_to_point(pl.col("v"))) if self.decimal_comma and not numeric else lf
+
+
+DECIMAL_COMMA_NOTE = (
+    "value: numbers are written with a decimal comma (12,5 is read as 12.5); "
+    "a value that also holds a point (1.234,5) is not read and is counted."
+)
+
+
+def comma_to_point(v: _Col) -> _Col:
+    """Text values of a decimal-comma column as the value parser reads them (``12,5ms`` ->
+    ``12.5ms``). A point is read as a decimal point too, as polars' own decimal-comma
+    reader does on the fast path, so both paths agree; a value with two marks
+    (``1.234,5``, digit grouping) reads as no number and is counted."""
+    return v.str.replace_all(",", ".", literal=True)
+
+
+def comma_number(text: str) -> bool:
+    """One field that reads as a number (or duration) with a decimal comma: ``12,5``,
+    ``-0,25``, ``12,5ms``."""
+    t = text.strip().strip('"').strip()
+    return t.count(",") == 1 and looks_numeric(t.replace(",", "."))
+
+
+def decimal_comma(values: list[str], separator: str) -> bool:
+    """Whether a column's sample values write numbers with a decimal comma (``12,5``).
+
+    Why: spreadsheets in much of Europe export ``;``-separated files with ``12,5``. Read
+    with a point only, every value was ``not_a_number``; worse, the sniffer took the
+    comma for the separator and summarised the digits after it.
+
+    Reading a comma as the decimal mark reads every value the point reading reads (a
+    point still counts as one), so one value written so is enough, unless the comma may
+    be digit grouping instead: a value with two commas (``1,234,567``), or, in a
+    comma-separated file (quoted fields), every comma followed by exactly three digits
+    (``"1,234"``). Those columns are read as before: such values are counted, not read.
+    """
+    vals = [v.strip().strip('"').strip() for v in values]
+    commas = [v for v in vals if comma_number(v)]
+    if not commas or any(_GROUPED.match(v) for v in vals):
+        return False
+    return separator != "," or any(_digits_after_comma(v) != 3 for v in commas)
+
+
+_GROUPED = re.compile(r"^[-+]?\d{1,3}(?:,\d{3}){2,}(?:\.\d*)?$")
+"""Digit grouping with commas, beyond doubt (two commas or more)."""
+
+
+def _digits_after_comma(text: str) -> int:
+    after = text.split(",", 1)[1]
+    return len(after) - len(after.lstrip("0123456789"))
 
 
 @functools.cache
@@ -207,7 +268,7 @@ def sniff(data: bytes, *, want_column: bool = False) -> str | None:
     have one comma is not a table). With ``want_column`` (``--column`` was given) the
     second condition is dropped. A file of one number per line is one-column CSV.
     """
-    best: tuple[int, str] | None = None
+    best: tuple[int, int, str] | None = None
     loose: tuple[int, str] | None = None  # ragged rows, for when --column says it is a table
     for sep in SEPARATORS:
         rows = sample_rows(data, sep)
@@ -219,12 +280,14 @@ def sniff(data: bytes, *, want_column: bool = False) -> str | None:
             loose = (count, sep)
         if width < 2 or count < MOST * len(rows):
             continue
-        if not want_column and not numeric_columns(rows[1:] or rows, width):
+        if not want_column and not numeric_columns(rows[1:] or rows, width, sep):
             continue
-        if best is None or width > best[0]:
-            best = (width, sep)
+        # The widest wins; at equal width, the one more rows agree with (a decimal comma
+        # splits ``host;12,5`` in two at the comma too, but not the header ``host;dur``).
+        if best is None or (width, count) > best[:2]:
+            best = (width, count, sep)
     if best is not None:
-        return best[1]
+        return best[2]
     if want_column:
         return loose[1] if loose is not None else ","
     rows = sample_rows(data, ",")
@@ -235,12 +298,16 @@ def sniff(data: bytes, *, want_column: bool = False) -> str | None:
     return None
 
 
-def numeric_columns(rows: list[list[str]], width: int) -> list[int]:
-    """Columns whose non-empty values are numbers (or durations) in most rows."""
+def numeric_columns(rows: list[list[str]], width: int, separator: str) -> list[int]:
+    """Columns whose non-empty values are numbers (or durations) in most rows, read with
+    a decimal comma where the column writes one (:func:`decimal_comma`)."""
     out = []
     for c in range(width):
         vals = [r[c].strip() for r in rows if c < len(r) and r[c].strip()]
-        if vals and sum(looks_numeric(v) for v in vals) >= MOST * len(vals):
+        if not vals:
+            continue
+        comma = decimal_comma(vals, separator)
+        if sum(looks_numeric(v) or (comma and comma_number(v)) for v in vals) >= MOST * len(vals):
             out.append(c)
     return out
 
@@ -259,7 +326,7 @@ def plan(data: bytes, options: ScanOptions, fmt: str, sep: str) -> CsvLayout:
         if any(not c.isdigit() for c in wanted):
             header = True
         else:
-            later_numeric = bool(numeric_columns(rows[1:], width)) if len(rows) > 1 else False
+            later_numeric = bool(numeric_columns(rows[1:], width, sep)) if len(rows) > 1 else False
             header = bool(first) and not any(looks_numeric(f) for f in first if f.strip()) and later_numeric
     names = [f.strip() for f in first] if header else []
     header_line = data.split(b"\n", 1)[0] if header else b""
@@ -271,7 +338,7 @@ def plan(data: bytes, options: ScanOptions, fmt: str, sep: str) -> CsvLayout:
         if spec is not None:
             taken.append(resolve(spec, what))
     if options.column is None:
-        vcol, note = _choose_value(rows[1:] if header else rows, width, names, taken)
+        vcol, note = _choose_value(rows[1:] if header else rows, width, names, taken, sep)
         notes.append(note)
     else:
         vcol = resolve(options.column, "--column")
@@ -286,6 +353,9 @@ def plan(data: bytes, options: ScanOptions, fmt: str, sep: str) -> CsvLayout:
             outs.append(out)
     order = sorted(range(len(cols)), key=lambda i: cols[i])
     label = names[vcol] if names and vcol < len(names) and names[vcol] else str(vcol + 1)
+    comma = decimal_comma([r[vcol] for r in (rows[1:] if header else rows) if vcol < len(r)], sep)
+    if comma:
+        notes.append(DECIMAL_COMMA_NOTE)
     return CsvLayout(
         format=fmt,
         separator=sep,
@@ -296,6 +366,7 @@ def plan(data: bytes, options: ScanOptions, fmt: str, sep: str) -> CsvLayout:
         names=tuple(outs[i] for i in order),
         description=f"column {label}",
         notes=tuple(n for n in notes if n),
+        decimal_comma=comma,
     )
 
 
@@ -320,7 +391,9 @@ def _resolver(names: list[str], header: bool) -> Callable[[str, str], int]:
     return resolve
 
 
-def _choose_value(rows: list[list[str]], width: int, names: list[str], taken: list[int]) -> tuple[int, str]:
+def _choose_value(
+    rows: list[list[str]], width: int, names: list[str], taken: list[int], separator: str
+) -> tuple[int, str]:
     """The only column that holds numbers (times, group and time columns aside), and a
     note saying it was taken; an error naming the candidates otherwise."""
     if width <= 1:
@@ -331,7 +404,7 @@ def _choose_value(rows: list[list[str]], width: int, names: list[str], taken: li
 
     numeric = [
         c
-        for c in numeric_columns(rows, width)
+        for c in numeric_columns(rows, width, separator)
         if c not in taken and not (c < len(names) and names[c].strip().lower() in TIME_NAMES)
     ]
     if len(numeric) == 1:

@@ -121,7 +121,7 @@ def plan(data: bytes, options: ScanOptions) -> SyslogLayout:
             "used without --time-field."
         )
     fields.append(("t", "time"))
-    notes = [src.note] if src.note else []  # the RFC 3164 year rule is told with the years used
+    notes = list(src.notes)  # the RFC 3164 year rule is told with the years used
     names = tuple(
         n for n in ("v", "g", "t") if any(n == c.name for c in extracts) or any(n == h for h, _ in fields)
     )

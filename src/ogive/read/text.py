@@ -21,19 +21,32 @@ import polars as pl
 from ..errors import OgiveError
 from . import anchor, times
 from . import layout as L
-from .delimited import MOST, SNIFF_LINES
+from .delimited import DECIMAL_COMMA_NOTE, MOST, SNIFF_LINES, comma_to_point, decimal_comma
 from .options import ScanOptions
 from .values import MISSING_FIELD, looks_numeric
 
 LEADING_TIME = rf"^\[?\s*({times.ISO_LEADING}|{times.EPOCH_LEADING})\]?(?:[\s,;|]|$)"
 """A time stamp at the very start of a line, as one group."""
-_PAIR = r"(?:^|[^\w.@-])([A-Za-z_@][\w.@-]*)=(\"[^\"]*\"|[^\s,;\"\]\)}]*)"
-_VALUE_CHARS = r"(?:\"([^\"]*)\"|([^\s,;\"\]\)}]+))"
+_BARE = r"[^\s,;\"\]\)}]"
+"""A character of an unquoted value: a space, comma or semicolon ends it (pairs are
+separated so), as does a closing bracket or quote around the pair."""
+_DECIMAL = rf",\d{_BARE}*"
+"""...except a comma followed by a digit: a decimal comma (``dur=12,5ms``) or an ISO 8601
+fraction (``ts=10:00:00,123Z``). Cut there, ``12,5ms`` was read as 12 without a word."""
+_PAIR = rf"(?:^|[^\w.@-])([A-Za-z_@][\w.@-]*)=(\"[^\"]*\"|{_BARE}*(?:{_DECIMAL})?)"
+_VALUE_CHARS = rf"(?:\"([^\"]*)\"|({_BARE}+(?:{_DECIMAL})?))"
 
 
 def key_value_regex(key: str) -> str:
     """A regex whose groups 1 (quoted) or 2 (bare) capture the value of ``key=``."""
     return rf"(?:^|[^\w.@-]){re.escape(key)}={_VALUE_CHARS}"
+
+
+def field_value(key: str, lines: list[str]) -> Extract:
+    """The value column from ``key=`` pairs, read with a decimal comma when the sample
+    lines write it so (``dur=12,5ms``; the rule of :func:`ogive.read.delimited.decimal_comma`)."""
+    comma = decimal_comma([v.strip('"') for v in pairs(lines).get(key, [])], ";")
+    return Extract("v", key_value_regex(key), (1, 2), decimal_comma=comma)
 
 
 @dataclass(frozen=True)
@@ -46,6 +59,8 @@ class Extract:
     fast: str | None = None
     """An anchored twin of ``regex`` that finds the same groups at less cost
     (:mod:`ogive.read.anchor`); lines it misses are read with ``regex`` itself."""
+    decimal_comma: bool = False
+    """The column's numbers are written with a decimal comma: read with a point."""
 
 
 def extract_columns(extracts: tuple[Extract, ...] | list[Extract], lines: pl.Series) -> list[pl.Series]:
@@ -78,7 +93,7 @@ def extract_columns(extracts: tuple[Extract, ...] | list[Extract], lines: pl.Ser
             again = _run([(group, group[0].regex)], lines.gather(idx))
             for n in names:
                 out[n] = out[n].scatter(idx, again[n])
-    return [out[e.name] for e in extracts]
+    return [comma_to_point(out[e.name]) if e.decimal_comma else out[e.name] for e in extracts]
 
 
 def _run(runs: list[tuple[list[Extract], str]], lines: pl.Series) -> dict[str, pl.Series]:
@@ -146,16 +161,20 @@ def pairs(lines: list[str]) -> dict[str, list[str]]:
     return seen
 
 
-def choose_key(lines: list[str], exclude: set[str]) -> tuple[str | None, list[str]]:
+def choose_key(lines: list[str], exclude: set[str]) -> tuple[str | None, list[str], bool]:
     """The one key whose values are durations (``12ms``) wherever it appears, in at least
     a tenth of the lines (syslog mixes many programs); else the one key that holds
-    numbers in most lines. Also the numeric keys seen, for an error message."""
+    numbers in most lines. Also the numeric keys seen, for an error message, and whether
+    the key chosen holds durations (for the note). Values with a decimal comma
+    (``12,5ms``) count as numbers where the key writes them so."""
     found = pairs(lines)
     durations: list[str] = []
     numbers: list[str] = []
     for key, vals in found.items():
         if key in exclude or key.lower() in ("ts", "time", "timestamp"):
             continue
+        if decimal_comma(vals, ";"):
+            vals = [v.replace(",", ".") for v in vals]
         numeric = [v for v in vals if looks_numeric(v)]
         if len(numeric) >= MOST * len(lines):
             numbers.append(key)
@@ -163,10 +182,10 @@ def choose_key(lines: list[str], exclude: set[str]) -> tuple[str | None, list[st
         if suffixed >= MOST * len(vals) and len(vals) >= max(2, 0.1 * len(lines)):
             durations.append(key)
     if len(durations) == 1:
-        return durations[0], numbers
+        return durations[0], numbers, True
     if not durations and len(numbers) == 1:
-        return numbers[0], numbers
-    return None, sorted(set(numbers) | set(durations))
+        return numbers[0], numbers, False
+    return None, sorted(set(numbers) | set(durations)), False
 
 
 def _plain_number(text: str) -> bool:
@@ -187,7 +206,8 @@ class ValueSource:
     pattern: str
     description: str
     missing_reason: str
-    note: str = ""
+    notes: tuple[str, ...] = ()
+    """What the user must hear of the choices made (the key taken, a decimal comma)."""
 
     def group(self, name: str, group: str) -> Extract:
         """Column ``name`` from the pattern's named ``group``: read in the same regex pass
@@ -216,17 +236,18 @@ def value_source(options: ScanOptions, lines: list[str], *, what: str = "free te
     key = options.field or options.column
     note = ""
     if key is None:
-        key, numeric = choose_key(lines, {k for k in (options.by, options.time_field) if k})
+        key, numeric, durations = choose_key(lines, {k for k in (options.by, options.time_field) if k})
         if key is None:
             found = f" (keys with numbers: {', '.join(numeric[:8])})" if numeric else ""
             raise OgiveError(
                 f"the records look like {what}; give --field KEY for KEY=VALUE pairs{found}, or "
                 "--pattern with a regex whose group captures the number (or --format to say what they are)."
             )
-        note = f"value: the {key}= pairs, the only ones that hold durations (choose another with --field)."
-    return ValueSource(
-        Extract("v", key_value_regex(key), (1, 2)), {}, "", f"field {key}", MISSING_FIELD, note
-    )
+        held = "durations" if durations else "numbers"
+        note = f"value: the {key}= pairs, the only ones that hold {held} (choose another with --field)."
+    value = field_value(key, lines)
+    notes = tuple(n for n in (note, DECIMAL_COMMA_NOTE if value.decimal_comma else "") if n)
+    return ValueSource(value, {}, "", f"field {key}", MISSING_FIELD, notes)
 
 
 NEVER = r"$x(x)"
@@ -272,7 +293,7 @@ def plan(data: bytes, options: ScanOptions) -> TextLayout:
         missing_reason=src.missing_reason,
         description=src.description,
         time_source=time_source,
-        notes=(src.note,) if src.note else (),
+        notes=src.notes,
     )
 
 
