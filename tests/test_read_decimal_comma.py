@@ -166,3 +166,53 @@ def test_pairs_separated_by_commas_still_end_at_the_comma(tmp_path: Path) -> Non
     s = scan([str(path)], ScanOptions(field="dur")).sketches["all"]
     # Reference: the values written, 0.5 to 49.5 (numpy.quantile of them).
     np.testing.assert_allclose(s.quantile(Q), np.quantile(np.arange(50) + 0.5, Q), rtol=1e-12)
+
+
+# ----------------------------------------------------------------- the sep= line
+
+
+def _sep_export(path: Path, raw: np.ndarray, *, bom: bool = False, header: bool = True) -> None:
+    """A spreadsheet export that names its separator on a first ``sep=;`` line, CRLF line
+    ends, a decimal comma, and one bad cell at the end."""
+    lines = ["sep=;"] + (["host;dauer_ms"] if header else [])
+    lines += [f"h{i % 2};{_comma(v)}" for i, v in enumerate(raw)] + ["h0;kaputt"]
+    path.write_bytes((b"\xef\xbb\xbf" if bom else b"") + "\r\n".join(lines).encode() + b"\r\n")
+
+
+@pytest.mark.parametrize("lazy", [False, True])
+@pytest.mark.parametrize("bom", [False, True])
+def test_a_sep_line_names_the_separator_and_is_no_record(tmp_path: Path, bom: bool, lazy: bool) -> None:
+    raw = np.round(np.random.default_rng(9).lognormal(2.0, 0.7, 600), 2)
+    path = tmp_path / "sep.csv"
+    _sep_export(path, raw, bom=bom)
+    result = scan([str(path)], ScanOptions(lazy_files=lazy))
+    s = result.sketches["all"]
+    assert s.unit == "ms"  # from the header's name, dauer_ms: the header was read as one
+    assert s.count == 600 and result.lines_read == 603
+    assert result.skipped["not_a_number"].examples == [f"{path}:603"]  # as an editor numbers it
+    # Reference: numpy.quantile of the values written (600 values: held exactly).
+    np.testing.assert_allclose(s.quantile(Q), np.quantile(raw, Q), rtol=1e-12)
+
+
+def test_every_source_loses_its_own_sep_line(tmp_path: Path) -> None:
+    rng = np.random.default_rng(10)
+    a, b = np.round(rng.exponential(5.0, 200), 2), np.round(rng.exponential(9.0, 300), 2)
+    _sep_export(tmp_path / "a.csv", a)
+    _sep_export(tmp_path / "b.csv", b)
+    result = scan([str(tmp_path / "a.csv"), str(tmp_path / "b.csv")], ScanOptions(column="dauer_ms"))
+    assert result.sketches["all"].count == 500
+    assert result.skipped["not_a_number"].count == 2
+    both = np.concatenate([a, b])
+    # Reference: numpy.quantile of the values written.
+    np.testing.assert_allclose(result.sketches["all"].quantile(Q), np.quantile(both, Q), rtol=1e-12)
+
+
+def test_a_sep_line_without_a_header(tmp_path: Path) -> None:
+    raw = np.round(np.random.default_rng(12).uniform(1, 50, 100), 1)
+    path = tmp_path / "plain.csv"
+    _sep_export(path, raw, header=False)
+    result = scan([str(path)], ScanOptions(column="2", header=False))
+    assert result.sketches["all"].count == 100
+    assert result.skipped["not_a_number"].examples == [f"{path}:102"]
+    # Reference: numpy.quantile of the values written.
+    np.testing.assert_allclose(result.sketches["all"].quantile(Q), np.quantile(raw, Q), rtol=1e-12)

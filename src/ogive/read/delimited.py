@@ -260,14 +260,33 @@ def sample_rows(data: bytes, sep: str) -> list[list[str]]:
     return rows
 
 
+SEP_LINE = re.compile(rb"^(?:\xef\xbb\xbf)?sep=([^\r\n])\r?(?:\n|$)", re.IGNORECASE)
+"""A spreadsheet's first line naming the separator (``sep=;``), before the header: a
+convention of spreadsheet programs, not of RFC 4180 (common practice)."""
+
+
+def separator_line(data: bytes) -> str | None:
+    """The separator a leading ``sep=X`` line names, or None."""
+    m = SEP_LINE.match(data)
+    return m[1].decode("latin-1") if m else None
+
+
+def _after_first_line(data: bytes) -> bytes:
+    return data.partition(b"\n")[2]
+
+
 def sniff(data: bytes, *, want_column: bool = False) -> str | None:
     """The separator when the first lines are delimited records, else None.
 
     Delimited means: most rows have the same number (>= 2) of fields, counted by a CSV
     parser, and at least one column holds numbers in most rows (a log whose lines each
     have one comma is not a table). With ``want_column`` (``--column`` was given) the
-    second condition is dropped. A file of one number per line is one-column CSV.
+    second condition is dropped. A file of one number per line is one-column CSV. A
+    ``sep=X`` first line says the separator outright.
     """
+    named = separator_line(data)
+    if named is not None:
+        return named
     best: tuple[int, int, str] | None = None
     loose: tuple[int, str] | None = None  # ragged rows, for when --column says it is a table
     for sep in SEPARATORS:
@@ -317,6 +336,11 @@ def plan(data: bytes, options: ScanOptions, fmt: str, sep: str) -> CsvLayout:
     if options.column is None and options.field is not None:
         # --field on a CSV: take it as the column rather than refusing.
         options = dataclasses.replace(options, column=options.field)
+    preamble = b""
+    if separator_line(data) is not None:
+        # ``sep=;`` above the header: the separator was read from it; the header (or the
+        # first record) is the next line, and both lines come off each source's top.
+        preamble, data = data.partition(b"\n")[0], _after_first_line(data)
     rows = sample_rows(data, sep)
     first = rows[0] if rows else []
     width = max((len(r) for r in rows), default=0)
@@ -330,6 +354,8 @@ def plan(data: bytes, options: ScanOptions, fmt: str, sep: str) -> CsvLayout:
             header = bool(first) and not any(looks_numeric(f) for f in first if f.strip()) and later_numeric
     names = [f.strip() for f in first] if header else []
     header_line = data.split(b"\n", 1)[0] if header else b""
+    if preamble:
+        header_line = preamble + b"\n" + header_line if header else preamble
     resolve = _resolver(names, header)
 
     taken: list[int] = []
@@ -359,7 +385,7 @@ def plan(data: bytes, options: ScanOptions, fmt: str, sep: str) -> CsvLayout:
     return CsvLayout(
         format=fmt,
         separator=sep,
-        header=header,
+        header=header or bool(preamble),
         header_line=header_line,
         width=max(width, max(cols) + 1),
         columns=tuple(cols[i] for i in order),

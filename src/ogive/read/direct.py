@@ -31,11 +31,11 @@ class LazyFile:
     The layout still comes from the feeder, decided from the file's head.
     """
 
-    def __init__(self, src: sources.Opened, feed: Feed, header: bool, avg_line: float) -> None:
+    def __init__(self, src: sources.Opened, feed: Feed, header: int, avg_line: float) -> None:
         self.src = src
         self.feed = feed
         self.header = header
-        """The first line is the header: the frames start at line 2."""
+        """Header lines at the top (0, 1, or 2 with a ``sep=`` line): the frames start after them."""
         self.avg_line = avg_line
 
     @classmethod
@@ -57,7 +57,7 @@ class LazyFile:
         """(frame, about how far into the file it reaches in bytes), in order."""
         layout, feed, src = self.feed.layout, self.feed, self.src
         assert layout is not None
-        skip = int(self.header)
+        skip = self.header
         done_rows = 0
         while True:
             try:

@@ -37,8 +37,9 @@ class Piece:
     """Bytes of the source this piece covers, header line included."""
     too_long: int = 0
     """Lines skipped just before this piece for being too long."""
-    header: bool = False
-    """The source's header line came off the front of ``data``."""
+    header: int = 0
+    """Lines that came off the front of ``data``: the source's header line, and a
+    spreadsheet's ``sep=;`` line before it (0: none)."""
     quoted: bool = True
     """``data`` may hold a double quote (False: known not to)."""
 
@@ -117,14 +118,20 @@ class Feed:
             return sources.GUESS if self.options.format in (None, "csv", "tsv") else sources.LINES
         return sources.CSV if layout.format in ("csv", "tsv") else sources.LINES
 
-    def starts_with_header(self, data: bytes) -> bool:
-        """True when the first line of ``data`` is the layout's header line."""
+    def starts_with_header(self, data: bytes) -> int:
+        """The number of header lines (the layout's ``header_line``, one line or a
+        ``sep=`` line and one) that begin ``data``; 0 when it does not begin with them."""
         layout = self.layout
         if layout is None or not layout.header:
-            return False
-        nl = data.find(b"\n")
-        head = data if nl < 0 else data[:nl]  # not split(): that would copy the whole chunk
-        return head.rstrip(b"\r") == layout.header_line.rstrip(b"\r")
+            return 0
+        want = layout.header_line.split(b"\n")
+        end = -1
+        for _ in want:  # not data.split(): that would copy the whole chunk
+            nl = data.find(b"\n", end + 1)
+            end = len(data) if nl < 0 else nl
+        got = data[:end].split(b"\n")
+        same = [g.rstrip(b"\r") for g in got] == [w.rstrip(b"\r") for w in want]
+        return len(want) if same else 0
 
     # ----------------------------------------------------------------- pieces
     def start_source(self, name: str = "", *, at_start: bool = True) -> None:
@@ -183,8 +190,12 @@ class Feed:
             self.plan(data)
             if self._header_pending:
                 self._header_pending = False
-                if self.starts_with_header(data):
-                    piece.data, piece.header = data.partition(b"\n")[2], True
+                lines = self.starts_with_header(data)
+                if lines:
+                    cut = -1
+                    for _ in range(lines):
+                        cut = data.find(b"\n", cut + 1)
+                    piece.data, piece.header = (data[cut + 1 :] if cut >= 0 else b""), lines
         return piece
 
     # ----------------------------------------------------------------- frames

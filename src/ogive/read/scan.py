@@ -159,8 +159,8 @@ class Job:
     display: str
     too_long: int = 0
     """Lines skipped just before this piece for being too long."""
-    header: bool = False
-    """The piece's first line was the header and was taken off."""
+    header: int = 0
+    """Header lines taken off the front of the piece (a ``sep=`` line and the header)."""
     pos: int | None = None
     """How far into the source (bytes) this piece reaches, for progress; None: unknown."""
     future: Future[Batch] | None = None
@@ -236,7 +236,7 @@ class Pipeline:
             lazy = direct.LazyFile.open(src, self.feed)
             if lazy is not None:
                 if lazy.header:
-                    yield Job(src.display, header=True)
+                    yield Job(src.display, header=lazy.header)
                 seen = 0
                 for df, pos in lazy.frames():
                     self.bytes_seen += pos - seen
@@ -282,7 +282,7 @@ class Pipeline:
             first = self.lines.take(job.too_long)
             self.unassigned(TOO_LONG, job.display, range(first, first + job.too_long))
         if job.header:
-            self.lines.take(1)
+            self.lines.take(job.header)
         batch = job.result()
         if batch is None:
             return
