@@ -33,6 +33,14 @@ FORMAT_CHOICES = (
 TIME_FORMAT_CHOICES = ("iso", "epoch_s", "epoch_ms", "epoch_us", "epoch_ns", "clf", "rfc3164")
 
 
+def _time_format(text: str) -> str:
+    if text in TIME_FORMAT_CHOICES or "%" in text:
+        return text
+    raise argparse.ArgumentTypeError(
+        f"{text!r} is neither one of {', '.join(TIME_FORMAT_CHOICES)} nor a strftime pattern (%d.%m.%Y ...)"
+    )
+
+
 def add_source_options(parser: argparse.ArgumentParser) -> None:
     """The flags that say how to read raw sources; harmless when a sketch file is given."""
     g = parser.add_argument_group("reading sources (ignored for saved sketches)")
@@ -123,9 +131,11 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
     )
     g.add_argument(
         "--time-format",
-        choices=TIME_FORMAT_CHOICES,
+        type=_time_format,
+        metavar="FORM",
         default=None,
-        help="how timestamps are written; by default guessed from the values",
+        help=f"how timestamps are written: {', '.join(TIME_FORMAT_CHOICES)}, or a strftime pattern "
+        "such as '%%d.%%m.%%Y %%H:%%M:%%S' (UTC unless it reads %%z); by default guessed from the values",
     )
     g.add_argument(
         "--split-at",

@@ -94,6 +94,10 @@ class Decoder:
         self.unsuffixed = 0
         self.other_epoch = 0
         self.years: set[int] = set()
+        self.times_read = 0
+        """Rows whose time was read; with ``times_bad``, tells a form nobody guessed."""
+        self.times_bad = 0
+        """Rows skipped as ``bad_timestamp``."""
         self._keys = KeyCoder()
 
     def ready(self, df: pl.DataFrame, layout: records.Layout) -> list[str]:
@@ -196,6 +200,10 @@ class Decoder:
         self.unsuffixed += batch.unsuffixed
         self.other_epoch += batch.other_epoch
         self.years.update(batch.years)
+        if batch.tus is not None:
+            self.times_read += int(np.isfinite(batch.tus).sum())
+            bad = batch.reasons.get(BAD_TIMESTAMP)
+            self.times_bad += 0 if bad is None else int(bad.sum())
         if self.time_format is None:
             self.time_format = batch.time_format
 
@@ -213,6 +221,14 @@ class Decoder:
     def time_notes(self) -> list[str]:
         """What reading the times assumed or found: RFC 3164 years, mixed epoch units."""
         out = []
+        if self.times_bad and not self.times_read:
+            given = self.options.time_format
+            out.append(
+                f"no time could be read with --time-format {given!r}; check the pattern against the field."
+                if given is not None
+                else "no time could be read: the field is not ISO 8601, epoch, Common Log Format or RFC "
+                "3164; name its form with --time-format, a strftime pattern such as '%d.%m.%Y %H:%M:%S'."
+            )
         if self.time_format == "rfc3164" and self.years:
             shown = ", ".join(str(y) for y in sorted(self.years))
             out.append(f"{times.RFC3164_YEAR_RULE}; here: {shown}.")

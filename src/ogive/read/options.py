@@ -16,6 +16,9 @@ from ..sketch import DEFAULT_COMPRESSION, DEFAULT_TAIL, SketchSet, SkipTally
 from ..sketch.digest import MAX_COMPRESSION
 from ..sketch.units import span_seconds
 
+TIME_FORMS = ("iso", "epoch_s", "epoch_ms", "epoch_us", "epoch_ns", "clf", "rfc3164")
+"""The time forms read by name (``times`` reads them; a strftime pattern names any other)."""
+
 CSV_CHUNK = 8 << 20
 CSV_PAIR_CHUNK = 5 << 20
 LINE_CHUNK = 4 << 20
@@ -122,8 +125,8 @@ class ScanOptions:
     time_field: str | None = None
     """Where each record's time is; None: the time the format carries, if any."""
     time_format: str | None = None
-    """One of ``times.FORMATS``, or None to detect (epoch numbers then read per value by
-    their magnitude)."""
+    """One of ``TIME_FORMS``, a strftime pattern (``%d.%m.%Y %H:%M:%S``), or None to detect
+    (epoch numbers then read per value by their magnitude)."""
     split_at: str | None = None
     """A timestamp: values before it go to sketch 'before', the rest to 'after'."""
     window: str | None = None
@@ -173,6 +176,12 @@ class ScanOptions:
             )
         if (self.chunk_bytes is not None and self.chunk_bytes < 1) or self.max_groups < 1:
             raise OgiveError("chunk_bytes and max_groups must be at least 1.")
+        fmt = self.time_format
+        if fmt is not None and fmt not in TIME_FORMS and "%" not in fmt:
+            raise OgiveError(
+                f"unknown time format {self.time_format!r}; use one of {', '.join(TIME_FORMS)}, "
+                "or a strftime pattern such as '%d.%m.%Y %H:%M:%S'."
+            )
         # Whether there is a time to split or window by is known once the records are:
         # access logs, syslog, OTLP and text lines that begin with one carry their own
         # (``records.plan`` refuses a layout without one).

@@ -12,6 +12,9 @@ Accepted forms:
 - The Common Log Format's ``[10/Oct/2026:13:55:36 -0700]``.
 - RFC 3164 (BSD syslog) ``Mar  4 13:00:01``: no year and no zone. Read as UTC, in the
   latest year that does not put the moment more than a day after the scan began.
+- Any other form, named by the user as a strftime pattern (``%d.%m.%Y %H:%M:%S``, the
+  C library's conversion specifications as polars' chrono-based parser reads them):
+  UTC unless the pattern reads an offset (``%z``).
 
 Dates are turned into days with the civil-from-days algorithm of H. Hinnant ("chrono-
 Compatible Low-Level Date Algorithms", days_from_civil), in numpy, so that the checks
@@ -33,8 +36,9 @@ import polars as pl
 from numpy.typing import NDArray
 
 from ..errors import OgiveError
+from .options import TIME_FORMS
 
-FORMATS = ("iso", "epoch_s", "epoch_ms", "epoch_us", "epoch_ns", "clf", "rfc3164")
+FORMATS = TIME_FORMS
 EPOCH_US = {"epoch_s": 1e6, "epoch_ms": 1e3, "epoch_us": 1.0, "epoch_ns": 1e-3}
 """Microseconds per unit of each epoch form."""
 _EPOCH_BOUNDS = (1e11, 1e14, 1e17, 1e20)
@@ -124,6 +128,8 @@ def read_times(
     if fmt in EPOCH_US:
         return _epoch(col, fmt, by_magnitude)
     s = col.cast(pl.String)
+    if is_pattern(fmt):
+        return TimeColumn(_with_fast_path(s.str.strip_chars(), fmt, _unread))
     if fmt == "iso":
         return TimeColumn(_iso(s))  # strips only what polars' parser could not read
     s = s.str.strip_chars()
@@ -131,7 +137,31 @@ def read_times(
         return TimeColumn(_clf(s))
     if fmt == "rfc3164":
         return _rfc3164(s, now_us if now_us is not None else _time.time() * 1e6)
-    raise OgiveError(f"unknown time format {fmt!r}; use one of {', '.join(FORMATS)}.")
+    raise _unknown(fmt)
+
+
+def is_pattern(fmt: str) -> bool:
+    """Whether a time format is the user's strftime pattern rather than a named form."""
+    return "%" in fmt
+
+
+def check_format(fmt: str) -> str:
+    """``fmt`` when it is a named form or a strftime pattern; else OgiveError."""
+    if fmt in FORMATS or is_pattern(fmt):
+        return fmt
+    raise _unknown(fmt)
+
+
+def _unknown(fmt: str) -> OgiveError:
+    return OgiveError(
+        f"unknown time format {fmt!r}; use one of {', '.join(FORMATS)}, or a strftime pattern "
+        "such as '%d.%m.%Y %H:%M:%S'."
+    )
+
+
+def _unread(s: pl.Series) -> NDArray[np.float64]:
+    """What a pattern did not read stays unread (NaN): no other form is guessed."""
+    return np.full(len(s), np.nan)
 
 
 def parse_times(col: pl.Series, fmt: str, *, by_magnitude: bool = False) -> NDArray[np.float64]:
