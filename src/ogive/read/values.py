@@ -37,6 +37,17 @@ _COMPOUND = (
 )
 _COMPOUND_SECONDS = (3600.0, 60.0, 1.0, 1e-3, 60.0, 1.0, 1e-3, 1.0, 1e-3, 1e-6, 1e-3, 1e-6)
 """Seconds per capture group of ``_COMPOUND``, in group order."""
+_FIG = r"(\d+(?:[.,]\d+)?)"
+_ISO_DURATION = rf"^P(?:{_FIG}D)?(?:T(?:{_FIG}H)?(?:{_FIG}M)?(?:{_FIG}S)?)?$"
+"""ISO 8601 durations as Java's ``Duration.toString()`` and .NET's ``XmlConvert`` write
+them: ``PT0.123S``, ``PT2M3.5S``, ``P1DT2H`` (days, hours, minutes, seconds; a point or
+a comma before the fraction). Years, months and weeks have no fixed length: not read
+(``P5M`` is five months, counted as not a number)."""
+_CLOCK = r"^(?:(\d+)[.:])?(\d{1,2}):([0-5]\d):([0-5]\d(?:\.\d+)?)$"
+"""A duration on a clock face, as .NET's ``TimeSpan`` writes it: ``00:00:01.5``,
+``1.02:00:00`` (days first). Read only where the value was named or chosen: a time of
+day looks the same, so the sniffer never takes such a column for the value by itself."""
+_SPELLED_SECONDS = ((_ISO_DURATION, (86400.0, 3600.0, 60.0, 1.0)), (_CLOCK, (86400.0, 3600.0, 60.0, 1.0)))
 
 MISSING_FIELD = "missing_field"
 NOT_A_NUMBER = "not_a_number"
@@ -70,6 +81,7 @@ class ParsedValues:
 
 _SINGLE_RE = re.compile(_SINGLE)
 _COMPOUND_RE = re.compile(_COMPOUND)
+_ISO_DURATION_RE = re.compile(_ISO_DURATION)
 
 
 def looks_numeric(text: str) -> bool:
@@ -80,7 +92,11 @@ def looks_numeric(text: str) -> bool:
         float(t)
     except ValueError:
         m = _SINGLE_RE.match(t)
-        return bool(m and canonical_unit(m[2]) in TIME_UNITS) or bool(_COMPOUND_RE.match(t))
+        return (
+            bool(m and canonical_unit(m[2]) in TIME_UNITS)
+            or bool(_COMPOUND_RE.match(t))
+            or (bool(_ISO_DURATION_RE.match(t)) and len(t) > 2)
+        )
     return t.lower().lstrip("+-") not in ("nan", "inf", "infinity")
 
 
@@ -92,7 +108,8 @@ def has_suffix(sample: pl.Series) -> bool:
     if rest.is_empty():
         return False
     single = rest.str.extract(_SINGLE, 2).is_in(list(TIME_UNITS))
-    return bool(single.any()) or bool(rest.str.contains(_COMPOUND).any())
+    spelled = rest.str.contains(_ISO_DURATION) & (rest.str.len_chars() > 2) | rest.str.contains(_CLOCK)
+    return bool(single.any()) or bool(rest.str.contains(_COMPOUND).any()) or bool(spelled.any())
 
 
 def parse_values(
@@ -212,8 +229,31 @@ def _any_suffix(rest: pl.Series) -> Durations:
         comp_any |= present
         comp_secs += np.where(present, part.fill_null(0.0).to_numpy(), 0.0) * _COMPOUND_SECONDS[i]
     comp_ok = comp_any & ~single_ok
+    secs = np.where(single_ok, secs, comp_secs)
+    for pattern, seconds in _SPELLED_SECONDS:
+        s_secs, s_ok = _spelled(rest, pattern, seconds)
+        s_ok &= ~(single_ok | comp_ok)
+        secs[s_ok] = s_secs[s_ok]
+        comp_ok |= s_ok
     unknown &= ~comp_ok
-    return np.where(single_ok, secs, comp_secs), single_ok | comp_ok, unknown
+    return secs, single_ok | comp_ok, unknown
+
+
+def _spelled(
+    rest: pl.Series, pattern: str, seconds: tuple[float, ...]
+) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
+    """Seconds of the rows written in ``pattern``'s form (an ISO 8601 or clock-face
+    duration), whose groups count ``seconds`` each; and which rows those are."""
+    groups = rest.str.extract_groups(pattern)
+    total = np.zeros(rest.len())
+    found = np.zeros(rest.len(), dtype=bool)
+    for i, field in enumerate(groups.struct.fields):
+        text = groups.struct.field(field).str.replace(",", ".", literal=True)
+        part = text.cast(pl.Float64, strict=False)
+        present = part.is_not_null().to_numpy()
+        found |= present
+        total += np.where(present, part.fill_null(0.0).to_numpy(), 0.0) * seconds[i]
+    return total, found
 
 
 def _mask(n: int, idx: NDArray[np.intp]) -> NDArray[np.bool_]:
