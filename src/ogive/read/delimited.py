@@ -412,6 +412,12 @@ def _resolver(names: list[str], header: bool) -> Callable[[str, str], int]:
                 f", … ({len(names) - 8} more)" if len(names) > 8 else ""
             )
             raise OgiveError(f"no column named {excerpt(spec, 40)!r} (the header has: {shown}).")
+        same = [str(i + 1) for i, n in enumerate(names) if n == spec]
+        if len(same) > 1:
+            raise OgiveError(
+                f"{len(same)} columns are named {excerpt(spec, 40)!r} (positions {', '.join(same)}); "
+                f"give {what} the position of the one meant."
+            )
         return names.index(spec)
 
     return resolve

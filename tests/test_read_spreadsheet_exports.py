@@ -1,4 +1,5 @@
-"""Numbers written with a decimal comma (read/delimited.py: ``decimal_comma``).
+"""Spreadsheet exports and their habits (read/delimited.py): a decimal comma, a ``sep=;``
+first line, two columns of one name; and the decimal comma in ``KEY=VALUE`` logs.
 
 A spreadsheet set to a European locale exports ``;``-separated records with ``12,5``
 (the separator is ``;`` because the comma is taken, common practice of such exports).
@@ -18,6 +19,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from ogive.errors import OgiveError
 from ogive.read import ScanOptions, scan
 from ogive.read.delimited import decimal_comma
 
@@ -216,3 +218,12 @@ def test_a_sep_line_without_a_header(tmp_path: Path) -> None:
     assert result.skipped["not_a_number"].examples == [f"{path}:102"]
     # Reference: numpy.quantile of the values written.
     np.testing.assert_allclose(result.sketches["all"].quantile(Q), np.quantile(raw, Q), rtol=1e-12)
+
+
+def test_a_name_two_columns_share_is_refused_not_guessed(tmp_path: Path) -> None:
+    """Spreadsheets let two columns carry one name; taking the first was a silent guess."""
+    path = tmp_path / "dup.csv"
+    _write(path, ["host", "latency", "latency"], [["a", "1", "100"], ["b", "2", "200"]], ",")
+    with pytest.raises(OgiveError, match=r"2 columns are named 'latency' \(positions 2, 3\)"):
+        scan([str(path)], ScanOptions(column="latency"))
+    assert scan([str(path)], ScanOptions(column="3")).sketches["all"].max == 200.0
