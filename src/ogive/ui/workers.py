@@ -137,7 +137,7 @@ def run_scan(
         notes.append(f"the file was rotated or truncated {rotations} time(s) while followed")
     return ScanEnd(
         dict(result.sketches.sketches),
-        "; ".join(notes),
+        " ".join(n if n.endswith(".") else f"{n}." for n in notes),  # sentences, not ".;"
         failed=False,
         bytes_read=result.bytes_read,
         elapsed_s=result.elapsed_s,
