@@ -12,6 +12,11 @@ names one.
 
 Lines that give no value are counted by why: blank, not JSON, JSON but not an object,
 the field null, the field absent, or an array/object where a number should be.
+
+The value may also be text inside a field, as container runtimes wrap each line a
+program printed (``{"log": "GET /x dur=12ms\n", "time": ...}``): a ``KEY=`` pair in it
+that holds durations is found as in free text (also without ``--field`` when no field
+holds numbers), or ``--field log --pattern REGEX`` reads it with a regex.
 """
 
 from __future__ import annotations
@@ -30,6 +35,7 @@ from . import layout as L
 from .delimited import MOST, SNIFF_LINES, TIME_NAMES
 from .fieldpath import Part, groupings, json_path, parse_path, shown
 from .options import ScanOptions
+from .text import Extract, choose_key, extract_columns, field_value, value_source
 from .values import MISSING_FIELD, looks_numeric
 
 ECS_DURATION = "event.duration"
@@ -51,6 +57,10 @@ class JsonLayout(L.Layout):
     """(output name, key paths) when every path is keys only: then one ``json_decode``
     of the line reads all fields at once (measured 1.5-2x faster than a JSONPath match
     per field); empty when a path has an index or two paths clash."""
+    inner: Extract | None = None
+    """The value is text inside the field, read there by this regex (a ``KEY=`` pair or
+    ``--pattern``); rows whose text it does not find give ``inner_reason``."""
+    inner_reason: str = MISSING_FIELD
 
     def parse(
         self, data: bytes, *, numeric: bool = False, literal_quotes: object = None, strict_utf8: bool = False
@@ -66,6 +76,7 @@ class JsonLayout(L.Layout):
         """
         df = None
         held = False
+        numeric = numeric and self.inner is None
         if self.decode and numeric:
             df = self._read_ndjson(data, numeric=True)
             held = df is not None
@@ -73,6 +84,10 @@ class JsonLayout(L.Layout):
             df = self._read_ndjson(data)
         if df is None:
             return self.frame(L.split_lines(data)), False
+        return self._inner_value(self._checked(df, data)), held
+
+    def _checked(self, df: pl.DataFrame, data: bytes) -> pl.DataFrame:
+        """``df`` with the reasons of the rows that gave no value (read line by line)."""
         v = df.get_column("v")
         numbers = v.dtype == pl.Float64  # a number is never an array or object
         nonscalar = (
@@ -85,7 +100,20 @@ class JsonLayout(L.Layout):
             r = self._reasons(L.split_lines(data), v, scalars_checked=numbers)
             if r is not None:
                 df = df.with_columns(r)
-        return df, held
+        return df
+
+    def _inner_value(self, df: pl.DataFrame) -> pl.DataFrame:
+        """The value read from the text inside the field, when the layout says so."""
+        if self.inner is None:
+            return df
+        text = df.get_column("v").cast(pl.String)
+        (v,) = extract_columns((self.inner,), text)
+        df = df.with_columns(v.alias("v"))
+        lost = L.rows_where(v.is_null() & text.is_not_null())
+        r = L.reason_column(df.height, [(lost, self.inner_reason)])
+        if r is None:
+            return df
+        return df.with_columns(pl.coalesce(df.get_column("r"), r) if "r" in df.columns else r)
 
     def _read_ndjson(self, data: bytes, *, numeric: bool = False) -> pl.DataFrame | None:
         """The fields by ``pl.read_ndjson`` with a declared schema; None when the chunk
@@ -118,7 +146,7 @@ class JsonLayout(L.Layout):
                 [_first([lines.str.json_path_match(p) for p in ps]).alias(n) for n, ps in self.paths]
             )
         r = self._reasons(lines, df.get_column("v"), scalars_checked=checked)
-        return df if r is None else df.with_columns(r)
+        return self._inner_value(df if r is None else df.with_columns(r))
 
     def _every(self) -> list[tuple[str, ...]]:
         return [keys for _, ways in self.decode for keys in ways]
@@ -279,10 +307,20 @@ def plan(data: bytes, options: ScanOptions) -> JsonLayout:
     notes: list[str] = []
     input_unit = None
     spec = options.field or options.column
+    inner: Inside | None = None
     if spec:
         vways = _ways(spec, objects)
+        inner = _inside(spec, _texts(objects, vways), options)
+        notes.append(inner.note if inner else "")
     else:
-        vways, note, input_unit = _choose_value(objects, options)
+        try:
+            vways, note, input_unit = _choose_value(objects, options)
+        except OgiveError:
+            found = _text_field(objects, options)
+            if found is None:
+                raise
+            vways, inner = found
+            note = inner.note
         notes.append(note)
     chosen: list[tuple[str, list[list[Part]]]] = [("v", vways)]
     if options.by:
@@ -305,11 +343,82 @@ def plan(data: bytes, options: ScanOptions) -> JsonLayout:
         paths=tuple(paths),
         decode=_decodable(chosen),
         null_probe=(json_path(parent), null_re),
-        description=f"field {shown(vparts)}",
+        description=f"field {shown(vparts)}" + (f", {inner.label}" if inner else ""),
         time_source=time_source,
         input_unit=input_unit,
-        notes=tuple(notes),
+        notes=tuple(n for n in notes if n),
+        inner=None if inner is None else inner.extract,
+        inner_reason=MISSING_FIELD if inner is None else inner.reason,
     )
+
+
+@dataclass(frozen=True)
+class Inside:
+    """How the value is read inside a text field."""
+
+    extract: Extract
+    reason: str
+    """Why a row whose text does not hold the value gives none."""
+    note: str
+    label: str
+    """For the source line: ``dur= in its text``, ``pattern REGEX``."""
+
+
+def _texts(objects: list[dict[str, Any]], ways: list[list[Part]]) -> list[str]:
+    """The field's sampled values that are text, not numbers."""
+    out = []
+    for o in objects:
+        for w in ways:
+            found = _lookup(o, w)
+            if found is not _MISSING:
+                if isinstance(found, str) and not looks_numeric(found):
+                    out.append(found.rstrip("\n"))
+                break
+    return out
+
+
+def _inside(spec: str, texts: list[str], options: ScanOptions) -> Inside | None:
+    """How the value is read inside the text of field ``spec``: by ``--pattern``, or by the
+    one ``KEY=`` in it that holds durations when the field is text; else not (None)."""
+    if options.pattern:
+        src = value_source(options, texts, what="NDJSON text")
+        return Inside(src.extract, L.NO_MATCH, "", src.description)
+    if not texts:
+        return None
+    key, _, durations = choose_key(texts, set())
+    if key is None or not durations:
+        return None
+    note = (
+        f"value: the {key}= pairs in the text of field {spec}, the only ones that hold durations "
+        "(or read it with --field and --pattern)."
+    )
+    return Inside(field_value(key, texts), MISSING_FIELD, note, f"{key}= in its text")
+
+
+def _text_field(
+    objects: list[dict[str, Any]], options: ScanOptions
+) -> tuple[list[list[Part]], Inside] | None:
+    """When no field holds numbers: the one text field (a wrapped log line) holding a
+    ``KEY=`` of durations, as (readings, how it is read); None if not exactly one."""
+    counts: Counter[tuple[Part, ...]] = Counter()
+    for o in objects:
+        counts.update(set(_text_leaves(o)))
+    found = []
+    for path, count in counts.items():
+        if count < MOST * len(objects):
+            continue
+        ways = [list(path)]
+        inner = _inside(shown(ways[0]), _texts(objects, ways), options)
+        if inner is not None:
+            found.append((ways, inner))
+    return found[0] if len(found) == 1 else None
+
+
+def _text_leaves(obj: Any, prefix: tuple[Part, ...] = ()) -> list[tuple[Part, ...]]:
+    """Paths to the strings in a parsed object that are not numbers."""
+    if isinstance(obj, dict):
+        return [p for k, v in obj.items() for p in _text_leaves(v, (*prefix, str(k)))]
+    return [prefix] if isinstance(obj, str) and not looks_numeric(obj) else []
 
 
 def _choose_value(

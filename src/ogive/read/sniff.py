@@ -38,8 +38,10 @@ def detect(data: bytes, options: ScanOptions) -> tuple[str, str]:
         )
     lines = sample_lines(data)
     if options.pattern:
+        if (options.field or options.column) and _objects(lines):
+            return "ndjson", ","  # --field names the JSON text the regex reads
         return _pattern_home(lines), ","
-    if lines and sum(ln.lstrip().startswith("{") for ln in lines) >= MOST * len(lines):
+    if _objects(lines):
         signal = otlp.looks_like(lines)
         if signal == "traces":
             return "otlp", ","
@@ -67,6 +69,11 @@ def detect(data: bytes, options: ScanOptions) -> tuple[str, str]:
     if found is not None:
         return ("tsv" if found == "\t" else "csv"), found
     return "text", ","
+
+
+def _objects(lines: list[str]) -> bool:
+    """Most lines are JSON objects (or start as one)."""
+    return bool(lines) and sum(ln.lstrip().startswith("{") for ln in lines) >= MOST * len(lines)
 
 
 def _pattern_home(lines: list[str]) -> str:
