@@ -22,7 +22,7 @@ from ogive.ui.help_overlay import KeyHelp, MessageLog
 from ogive.ui.open_prompt import OpenPrompt
 from ogive.ui.screen_text import screen_text
 from ogive.ui.status_line import MORE, fit_lines
-from ui_pilot import pair_file, until_idle
+from ui_pilot import NO_BOOTSTRAP_N, pair_file, until_idle, until_shown
 
 FAST = ("lognormal", "gamma")
 os.environ.setdefault("NO_COLOR", "1")
@@ -36,7 +36,7 @@ def pair(tmp_path: Path) -> Path:
 @pytest.fixture()
 def log(tmp_path: Path) -> Path:
     path = tmp_path / "svc.log"
-    values = np.random.default_rng(3).lognormal(3.0, 0.4, 3000)
+    values = np.random.default_rng(3).lognormal(3.0, 0.4, NO_BOOTSTRAP_N)
     path.write_text("".join(f"GET /x dur={v:.3f}\n" for v in values))
     return path
 
@@ -343,8 +343,8 @@ async def test_preview_and_open_agree_on_a_damaged_sketch(tmp_path: Path, conten
         await pilot.press("o")
         await pilot.pause(0.2)
         app.screen.query_one("#open-path").value = str(path)  # type: ignore[attr-defined]
-        await pilot.pause(1.0)  # the preview's debounce and its worker
-        previewed = " ".join(screen_text(app).split())
+        # the preview's debounce and its worker
+        previewed = await until_shown(app, pilot, "named as a saved sketch but is")
         assert "named as a saved sketch but is" in previewed
         await pilot.press("enter")
         await pilot.pause(0.3)
@@ -364,14 +364,17 @@ async def test_the_preview_keeps_the_values_line_in_sight(tmp_path: Path) -> Non
         await pilot.pause(0.2)
         app.screen.query_one("#open-path").value = str(path)  # type: ignore[attr-defined]
         app.screen.query_one("#open-pattern").value = r"dur=(\S+)"  # type: ignore[attr-defined]
-        await pilot.pause(1.5)
+        assert "200 values from 200 rows" in await until_shown(app, pilot, "200 values from 200 rows")
+        await pilot.pause(0.2)  # and it stays in sight
         assert "200 values from 200 rows" in " ".join(screen_text(app).split())
 
 
 async def test_escape_sequences_in_group_names_are_shown_not_obeyed(tmp_path: Path) -> None:
     """Issue 12: terminal escapes in group keys are printed neutralised (ECMA-48: ESC 0x1b, BEL 0x07)."""
     path = tmp_path / "esc.csv"
-    path.write_text("host,v\n" + "".join(f"\x1b]0;title\x07h{i % 3},{i + 1}\n" for i in range(60)))
+    # Each group just above the bootstrap's size: the fit the panes wait for skips p-values.
+    rows = range(3 * NO_BOOTSTRAP_N)
+    path.write_text("host,v\n" + "".join(f"\x1b]0;title\x07h{i % 3},{i + 1}\n" for i in rows))
     app = OgiveApp([str(path)], ScanOptions(format="csv", column="v", by="host"), families=FAST)
     async with app.run_test(size=(80, 24)) as pilot:
         await _quiet(app, pilot)

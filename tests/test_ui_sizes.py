@@ -22,7 +22,7 @@ from ogive.ui import OgiveApp
 from ogive.ui.screen_text import screen_text
 from ogive.ui.shelf import DistributionShelf
 from ogive.ui.terminal import ESCAPE_DELAY_MS, set_escape_delay
-from ui_pilot import until_idle
+from ui_pilot import NO_BOOTSTRAP_N, until_idle
 
 FAST = ("lognormal", "gamma")
 os.environ.setdefault("NO_COLOR", "1")
@@ -47,7 +47,8 @@ def groups(tmp_path: Path) -> Path:
     with path.open("w") as fh:
         fh.write("route,latency_ms\n")
         for i in range(1001):
-            for v in rng.lognormal(3, 0.5, 500 if i in (7, 500) else 3):
+            # The two large groups just above the bootstrap's size: their fits skip p-values.
+            for v in rng.lognormal(3, 0.5, NO_BOOTSTRAP_N if i in (7, 500) else 3):
                 fh.write(f"/r{i},{v:.3f}\n")
     return path
 
@@ -112,7 +113,9 @@ async def test_compact_window_shows_the_list_on_d(pair: tuple[Path, np.ndarray])
 
 async def test_many_groups_filter_pages_and_pairing(groups: Path) -> None:
     options = ScanOptions(format="csv", column="latency_ms", by="route", unit="ms")
-    app = OgiveApp([str(groups)], options, families=FAST)
+    # One family: /r421's three values get bootstrap p-values, which the test waits for and
+    # never reads (half the wait of two families).
+    app = OgiveApp([str(groups)], options, families=FAST[:1])
     async with app.run_test(size=(80, 24)) as pilot:
         await _quiet(app, pilot)
         shelf = app.query_one(DistributionShelf)
