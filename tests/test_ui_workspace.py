@@ -62,11 +62,30 @@ def test_a_followed_subject_is_refitted_at_its_pace() -> None:
     sched = Scheduler()
     assert sched.plan(ws, 100.0).fit  # nothing fitted yet
     sched.fit.claim()
-    sched.fit_started_at(100.0)
+    sched.fit_started_at(100.0, ws)
     sched.fit_ended_at(110.0)  # a 10 s fit
+    ws.dists["live"].sketch.add(np.array([101.0]))  # the followed file grew
     wait = max(FOLLOW_FIT_S, FOLLOW_FIT_DUTY * 10.0)
     assert not sched.plan(ws, 110.0 + wait - 1).fit
     assert sched.plan(ws, 110.0 + wait).fit
+
+
+def test_values_fitted_once_are_not_fitted_again_unless_asked() -> None:
+    """A scan's end asked for a fit twice (its rows taken, then its end told): the second
+    request, while the first fit ran, made the same seconds-long fit run again."""
+    ws = Workspace()
+    ws.add_rows([_row("a", 0), _row("b", 1)])
+    sched = Scheduler()
+    assert sched.plan(ws, 0.0).fit and sched.fit.claim()
+    sched.fit_started_at(0.0, ws)
+    assert not sched.plan(ws, 1.0).fit  # the same values, the fit running
+    assert not sched.fit.release()  # and no second run was queued behind it
+    assert not sched.plan(ws, 2.0).fit  # nor once it is done
+    assert sched.plan(ws, 3.0, force_fit=True).fit  # unless asked for
+    ws.dists[ws.subject or ""].sketch.add(np.array([7.0]))
+    assert sched.plan(ws, 4.0).fit  # new values: a new fit
+    ws.set_subject("b" if ws.subject == "a" else "a")
+    assert sched.plan(ws, 5.0).fit  # another subject (a new generation)
 
 
 def test_headline_keeps_the_end_of_both_names() -> None:

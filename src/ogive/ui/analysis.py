@@ -40,7 +40,7 @@ class AnalysisMixin(WorkspaceBase):
         subj = self.ws.subject_dist
         if subj is None or not self.schedule.fit.claim():
             return
-        self.schedule.fit_started_at(time.monotonic())
+        self.schedule.fit_started_at(time.monotonic(), self.ws)
         self.ws.fit_n = subj.sketch.count
         self.fit_worker(subj.sketch, self.ws.generation, subj.name)
 

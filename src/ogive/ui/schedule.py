@@ -5,7 +5,9 @@ models moves slowly next to the quantiles; a comparison takes a fraction of a se
 So a request that comes while one runs is remembered and run once afterwards (never
 queued twice), a subject still being scanned is fitted when its scan ends, and a
 followed subject is refitted at most every FOLLOW_FIT_S, and never sooner than
-FOLLOW_FIT_DUTY times the last fit's own length (a fifth of one core at most).
+FOLLOW_FIT_DUTY times the last fit's own length (a fifth of one core at most). A subject
+whose values have not changed since its last fit is not fitted again unless asked (a
+scan's end asked twice, and the same seconds-long fit ran twice).
 No textual here: the app asks :meth:`Scheduler.plan` and starts what it says.
 """
 
@@ -42,6 +44,16 @@ class OneAtATime:
         return self.pending
 
 
+def fit_key(ws: Workspace) -> tuple[object, ...] | None:
+    """The subject as a fit sees it: which one (the generation changes with it), and its
+    values' count, total and range, which change whenever its values do."""
+    subj = ws.subject_dist
+    if subj is None:
+        return None
+    s = subj.sketch
+    return (ws.generation, subj.name, s.count, s.total, s.min, s.max)
+
+
 @dataclass(frozen=True)
 class Plan:
     fit: bool = False
@@ -58,6 +70,8 @@ class Scheduler:
     """When a followed subject may be refitted next."""
     timeline_free_at: float = 0.0
     """When a followed timeline may be rebuilt next."""
+    fitted: tuple[object, ...] | None = None
+    """What the last fit started was of (:func:`fit_key`): the same again needs no fit."""
 
     def plan_timeline(self, ws: Workspace, now: float) -> bool:
         """True when the timeline should be (re)built now from the windows at hand."""
@@ -78,7 +92,9 @@ class Scheduler:
         if subj is None or subj.sketch.count == 0:
             return Plan()
         fit = False
-        if force_fit or subj.state not in ("scanning", "following"):
+        if not force_fit and fit_key(ws) == self.fitted:
+            fit = False  # that fit is running or done; its result (or note) stands
+        elif force_fit or subj.state not in ("scanning", "following"):
             fit = True
         elif subj.state == "following":
             fit = not self.fit.busy and now >= self.fit_free_at
@@ -86,8 +102,9 @@ class Scheduler:
             ws.fit_note = "the fit runs when the subject's scan ends"
         return Plan(fit=fit, compare=ws.compare_key() is not None)
 
-    def fit_started_at(self, now: float) -> None:
+    def fit_started_at(self, now: float, ws: Workspace) -> None:
         self.fit_started = now
+        self.fitted = fit_key(ws)
 
     def fit_ended_at(self, now: float) -> bool:
         """Record the end of a fit; True when another was asked for meanwhile."""
