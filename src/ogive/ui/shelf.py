@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import ClassVar
 
+from rich.cells import cell_len
 from rich.text import Text
 from textual import events
 from textual.binding import Binding, BindingType
@@ -89,8 +90,12 @@ class DistributionShelf(DataTable[str | Text]):
             t = table((*t.header, *(o.text for o in ws.objectives)), rows, (*t.right, *extra))
         self._fit_height(len(marked))
         self.clear(columns=True)
-        for title in t.header:
-            self.add_column(title, key=title or "role")
+        # Widths given, not left to the table: it sized auto columns when idle, and a
+        # refill soon after (a scan's end, its fit) sometimes kept the header's width,
+        # cutting 8k to 8 and 16.2 ms to 16. (seen under test, 1 run in 5).
+        for i, title in enumerate(t.header):
+            width = max([cell_len(title), *(cell_len(r[i]) for r in t.rows)])
+            self.add_column(title, key=title or "role", width=width)
         for (_, name, _), cells in zip(marked, t.rows, strict=True):
             self.add_row(
                 *(Text(c, justify="right") if i in t.right else c for i, c in enumerate(cells)), key=name
