@@ -137,26 +137,15 @@ def read_times(
         return TimeColumn(_clf(s))
     if fmt == "rfc3164":
         return _rfc3164(s, now_us if now_us is not None else _time.time() * 1e6)
-    raise _unknown(fmt)
+    raise OgiveError(
+        f"unknown time format {fmt!r}; use one of {', '.join(FORMATS)}, or a strftime pattern "
+        "such as '%d.%m.%Y %H:%M:%S'."
+    )
 
 
 def is_pattern(fmt: str) -> bool:
     """Whether a time format is the user's strftime pattern rather than a named form."""
     return "%" in fmt
-
-
-def check_format(fmt: str) -> str:
-    """``fmt`` when it is a named form or a strftime pattern; else OgiveError."""
-    if fmt in FORMATS or is_pattern(fmt):
-        return fmt
-    raise _unknown(fmt)
-
-
-def _unknown(fmt: str) -> OgiveError:
-    return OgiveError(
-        f"unknown time format {fmt!r}; use one of {', '.join(FORMATS)}, or a strftime pattern "
-        "such as '%d.%m.%Y %H:%M:%S'."
-    )
 
 
 def _unread(s: pl.Series) -> NDArray[np.float64]:
