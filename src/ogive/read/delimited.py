@@ -271,10 +271,6 @@ def separator_line(data: bytes) -> str | None:
     return m[1].decode("latin-1") if m else None
 
 
-def _after_first_line(data: bytes) -> bytes:
-    return data.partition(b"\n")[2]
-
-
 def sniff(data: bytes, *, want_column: bool = False) -> str | None:
     """The separator when the first lines are delimited records, else None.
 
@@ -340,7 +336,7 @@ def plan(data: bytes, options: ScanOptions, fmt: str, sep: str) -> CsvLayout:
     if separator_line(data) is not None:
         # ``sep=;`` above the header: the separator was read from it; the header (or the
         # first record) is the next line, and both lines come off each source's top.
-        preamble, data = data.partition(b"\n")[0], _after_first_line(data)
+        preamble, _, data = data.partition(b"\n")
     rows = sample_rows(data, sep)
     first = rows[0] if rows else []
     width = max((len(r) for r in rows), default=0)

@@ -121,9 +121,14 @@ class Feed:
     def starts_with_header(self, data: bytes) -> int:
         """The number of header lines (the layout's ``header_line``, one line or a
         ``sep=`` line and one) that begin ``data``; 0 when it does not begin with them."""
+        return self._header(data)[0]
+
+    def _header(self, data: bytes) -> tuple[int, int]:
+        """(header lines that begin ``data``, the offset where the records after them
+        start); (0, 0) when ``data`` does not begin with the layout's header lines."""
         layout = self.layout
         if layout is None or not layout.header:
-            return 0
+            return 0, 0
         want = layout.header_line.split(b"\n")
         end = -1
         for _ in want:  # not data.split(): that would copy the whole chunk
@@ -131,7 +136,7 @@ class Feed:
             end = len(data) if nl < 0 else nl
         got = data[:end].split(b"\n")
         same = [g.rstrip(b"\r") for g in got] == [w.rstrip(b"\r") for w in want]
-        return len(want) if same else 0
+        return (len(want), end + 1) if same else (0, 0)
 
     # ----------------------------------------------------------------- pieces
     def start_source(self, name: str = "", *, at_start: bool = True) -> None:
@@ -190,12 +195,9 @@ class Feed:
             self.plan(data)
             if self._header_pending:
                 self._header_pending = False
-                lines = self.starts_with_header(data)
+                lines, start = self._header(data)
                 if lines:
-                    cut = -1
-                    for _ in range(lines):
-                        cut = data.find(b"\n", cut + 1)
-                    piece.data, piece.header = (data[cut + 1 :] if cut >= 0 else b""), lines
+                    piece.data, piece.header = data[start:], lines
         return piece
 
     # ----------------------------------------------------------------- frames
