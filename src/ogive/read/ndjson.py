@@ -289,17 +289,15 @@ def sample_objects(data: bytes) -> list[dict[str, Any]]:
     return out
 
 
-def numeric_leaves(obj: Any, prefix: tuple[Part, ...] = ()) -> list[tuple[Part, ...]]:
-    """Paths to the numbers (or numeric strings, durations) in a parsed object."""
-    out: list[tuple[Part, ...]] = []
+def leaves(obj: Any, *, text: bool = False, prefix: tuple[Part, ...] = ()) -> list[tuple[Part, ...]]:
+    """Paths to the numbers (or numeric strings, durations) in a parsed object; with
+    ``text``, to the strings that are not numbers instead (a wrapped log line)."""
     if isinstance(obj, dict):
-        for k, v in obj.items():
-            out += numeric_leaves(v, (*prefix, str(k)))
-    elif isinstance(obj, bool) or obj is None:
-        pass
-    elif isinstance(obj, int | float) or (isinstance(obj, str) and looks_numeric(obj)):
-        out.append(prefix)
-    return out
+        return [p for k, v in obj.items() for p in leaves(v, text=text, prefix=(*prefix, str(k)))]
+    if isinstance(obj, str):
+        return [prefix] if looks_numeric(obj) != text else []
+    number = isinstance(obj, int | float) and not isinstance(obj, bool)
+    return [prefix] if number and not text else []
 
 
 def plan(data: bytes, options: ScanOptions) -> JsonLayout:
@@ -402,7 +400,7 @@ def _text_field(
     ``KEY=`` of durations, as (readings, how it is read); None if not exactly one."""
     counts: Counter[tuple[Part, ...]] = Counter()
     for o in objects:
-        counts.update(set(_text_leaves(o)))
+        counts.update(set(leaves(o, text=True)))
     found = []
     for path, count in counts.items():
         if count < MOST * len(objects):
@@ -412,13 +410,6 @@ def _text_field(
         if inner is not None:
             found.append((ways, inner))
     return found[0] if len(found) == 1 else None
-
-
-def _text_leaves(obj: Any, prefix: tuple[Part, ...] = ()) -> list[tuple[Part, ...]]:
-    """Paths to the strings in a parsed object that are not numbers."""
-    if isinstance(obj, dict):
-        return [p for k, v in obj.items() for p in _text_leaves(v, (*prefix, str(k)))]
-    return [prefix] if isinstance(obj, str) and not looks_numeric(obj) else []
 
 
 def _choose_value(
@@ -439,7 +430,7 @@ def _choose_value(
             )
     counts: Counter[tuple[Part, ...]] = Counter()
     for o in objects:
-        counts.update(set(numeric_leaves(o)))
+        counts.update(set(leaves(o)))
     skip = {options.by, options.time_field}
     candidates = [
         list(p)
