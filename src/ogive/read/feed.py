@@ -11,6 +11,7 @@ commit order, from the counts a piece and its frame carry.
 
 from __future__ import annotations
 
+import codecs
 import contextlib
 import queue
 import threading
@@ -191,6 +192,10 @@ class Feed:
         data = chunk.data
         # Transcoded text (UTF-16) is not as long as the source: count the source's bytes.
         piece = Piece(data, round(len(data) * self._recode.ratio), chunk.too_long, quoted=chunk.quoted)
+        if self._header_pending and data.startswith(codecs.BOM_UTF8):
+            # A UTF-8 byte-order mark (Windows programs write one) is no text of the first
+            # line: left there, it hid a first line's "#Fields:" or time stamp from the sniffer.
+            data = piece.data = data[len(codecs.BOM_UTF8) :]
         if data:
             self.plan(data)
             if self._header_pending:
