@@ -3,12 +3,13 @@
 Generates (once, cached by size) one invented log per format ogive recognises — the
 Saltmarsh Ferries scenario of ``tests/formats`` at scale: ECS-shaped NDJSON, combined
 access log with a latency, RFC 3164 and RFC 5424 syslog, free text with a leading ISO
-time, CSV with quoted fields, OTLP JSON traces — and runs, each in its own subprocess:
+time, CSV with quoted fields, OTLP JSON traces, IIS's W3C extended log — and runs, each in its own subprocess:
 
 * ``ogive``: ``scan`` with no options beyond what the format needs (the value found
   from the file; times read where the format carries them);
 * ``polars``: polars' own parse of the same value (and time, where ogive reads one):
-  ``scan_ndjson`` + struct fields, ``scan_csv``, ``str.extract``/``extract_groups`` over
+  ``scan_ndjson`` + struct fields, ``scan_csv`` (space-separated, ``#`` lines as comments
+  for the W3C log), ``str.extract``/``extract_groups`` over
   the lines, or ``scan_ndjson`` + explode for OTLP — the parse cost alone, no sketch.
 
 Each child reports wall seconds, CPU seconds (user + system, ``getrusage``), its peak
@@ -187,6 +188,35 @@ def block_otlp(rng: np.random.Generator, start: int, n: int) -> pl.Series:
     ).to_series()
 
 
+W3C_FIELDS = (
+    "date time s-ip cs-method cs-uri-stem cs-uri-query s-port c-ip cs(User-Agent) sc-status time-taken"
+)
+W3C_HEAD = "\n".join(
+    (
+        "#Software: Microsoft Internet Information Services 10.0",
+        "#Version: 1.0",
+        "#Date: 2026-03-04 09:00:00",
+        f"#Fields: {W3C_FIELDS}",
+    )
+)
+
+
+def block_w3c(rng: np.random.Generator, start: int, n: int) -> pl.Series:
+    """IIS's W3C extended log: single spaces, time-taken in whole milliseconds."""
+    df = pl.DataFrame(
+        {
+            "t": _times(rng, start, n).dt.strftime("%Y-%m-%d %H:%M:%S"),
+            "s": HOSTS[rng.integers(0, 3, n)],
+            "r": ROUTES[rng.integers(0, 6, n)],
+            "i": start + np.arange(n),
+            "c": rng.integers(1, 250, n),
+            "d": np.round(_ms(rng, n)).astype(np.int64),
+        }
+    )
+    template = "{} {} GET {} id={} 443 172.16.0.{} Saltmarsh-App/3.1+(iOS) 200 {}"
+    return df.select(_fmt(template, "t", "s", "r", "i", "c", "d")).to_series()
+
+
 FORMATS: dict[str, tuple[str, Callable[[np.random.Generator, int, int], pl.Series], str]] = {
     # name: (file suffix, block maker, header line)
     "ndjson": ("ndjson", block_ndjson, ""),
@@ -196,6 +226,7 @@ FORMATS: dict[str, tuple[str, Callable[[np.random.Generator, int, int], pl.Serie
     "text": ("log", block_text, ""),
     "csv": ("csv", block_csv, '"Request, path","Vessel ""name""",When,Latency (ms)'),
     "otlp": ("jsonl", block_otlp, ""),
+    "w3c": ("log", block_w3c, W3C_HEAD),
 }
 
 
@@ -253,6 +284,15 @@ else:
         )
     elif fmt == "csv":
         lf = pl.scan_csv(path).select("Latency (ms)")
+    elif fmt == "w3c":
+        # polars' CSV reader on the space-separated entries, directives as comments.
+        schema = {f"c{i}": pl.String for i in range(11)}
+        lf = pl.scan_csv(
+            path, has_header=False, separator=" ", comment_prefix="#", quote_char=None, schema=schema
+        ).select(
+            pl.col("c10").cast(pl.Float64),
+            pl.concat_str("c0", "c1", separator=" ").str.to_datetime("%Y-%m-%d %H:%M:%S"),
+        )
     elif fmt == "otlp":
         # The same decoding ogive does: a declared schema, then one row per span.
         span = pl.Struct({"startTimeUnixNano": pl.String, "endTimeUnixNano": pl.String})

@@ -330,6 +330,41 @@ def ref_otlp(path: Path) -> Expected:
 
 # ----------------------------------------------------------------- cases
 
+def ref_w3c(unit_ms: float, sep: str) -> Callable[[Path], Expected]:
+    """W3C extended log (W3C Working Draft WD-logfile-960323): ``#`` lines are directives,
+    ``#Fields:`` names the fields of each entry, ``-`` is a field without a value, date
+    and time are UTC; entries split with the ``csv`` module (the draft's quoted strings)."""
+
+    def ref(path: Path) -> Expected:
+        e = Expected()
+        raw = path.read_bytes().removeprefix(b"\xef\xbb\xbf").replace(b"\r\n", b"\n")
+        fields: list[str] = []
+        for line in raw.decode().split("\n")[:-1]:
+            e.rows += 1
+            if line.startswith("#"):
+                e.skip("w3c_directive")
+                if line.startswith("#Fields:"):
+                    fields = line.split()[1:]
+                continue
+            if not line.strip():
+                e.skip("blank_line")
+                continue
+            row = next(csv.reader([line], delimiter=sep, quotechar='"'))
+            if len(row) != len(fields):
+                e.skip("bad_record")
+                continue
+            entry = dict(zip(fields, row, strict=True))
+            if entry["time-taken"] == "-":
+                e.skip("missing_field")
+                continue
+            when = dt.datetime.strptime(f"{entry['date']} {entry['time']}", "%Y-%m-%d %H:%M:%S")
+            e.keep(float(entry["time-taken"]) * unit_ms, when.replace(tzinfo=UTC), entry["sc-status"])
+        e.lines = e.rows
+        return e
+
+    return ref
+
+
 CASES: dict[str, tuple[list[str], Callable[[Path], Expected], str]] = {
     "ecs.ndjson": ([], ref_ecs, "NDJSON, Elastic Common Schema"),
     "access_combined.log": ([], ref_access(1000.0), "Common Log Format, combined, latency in s"),
@@ -341,6 +376,8 @@ CASES: dict[str, tuple[list[str], Callable[[Path], Expected], str]] = {
     "quoted.csv": ([], ref_quoted, "RFC 4180"),
     "quoted.tsv": ([], lambda p: ref_quoted(p, "\t"), "tab-separated, RFC 4180 quoting"),
     "traces.otlp.jsonl": ([], ref_otlp, "OTLP JSON encoding"),
+    "iis_w3c.log": ([], ref_w3c(1.0, " "), "W3C extended log as IIS writes it (time-taken in ms)"),
+    "cdn_w3c.log": ([], ref_w3c(1000.0, "\t"), "W3C extended log, tab-separated, time-taken in s"),
     "latin1.log": ([], lambda p: ref_leading(p, "latin-1", "dur"), "free text, Latin-1 bytes"),
     "utf16.log": ([], lambda p: ref_leading(p, "utf-16", "dur"), "free text, UTF-16 with BOM"),
     "cr_only.log": (

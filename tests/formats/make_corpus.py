@@ -350,6 +350,69 @@ def nul_text(d: Draw) -> bytes:
     return b"\n".join(lines) + b"\n" + b"\x00" * 4096 + b"\n"
 
 
+def _w3c_stamp(t: dt.datetime, sep: str) -> str:
+    return t.strftime(f"%Y-%m-%d{sep}%H:%M:%S")
+
+
+def iis_w3c(d: Draw) -> bytes:
+    """A W3C extended log as IIS writes it: a UTF-8 byte-order mark, CRLF line ends, the
+    directive block again after a restart, single spaces, ``+`` for a space inside a
+    field, ``time-taken`` in whole milliseconds; one entry without a time-taken, one cut
+    short, one blank line."""
+    fields = (
+        "date time s-ip cs-method cs-uri-stem cs-uri-query s-port c-ip cs(User-Agent) sc-status time-taken"
+    )
+    agents = ("Mozilla/5.0+(Windows+NT+10.0;+Win64;+x64)", "Saltmarsh-App/3.1+(iOS)", "curl/8.5.0")
+
+    def block(t: dt.datetime) -> list[str]:
+        return [
+            "#Software: Microsoft Internet Information Services 10.0",
+            "#Version: 1.0",
+            f"#Date: {_w3c_stamp(t, ' ')}",
+            f"#Fields: {fields}",
+        ]
+
+    out = block(START)
+    t = START
+    for i in range(400):
+        t += dt.timedelta(milliseconds=int(d.u() * 1500))
+        route = d.pick(ROUTES)
+        ms = "0" if route == "/healthz" else str(int(d.lognormal(14.0, 0.9)))
+        status = "200" if d.u() > 0.05 else "503"
+        query = "-" if route == "/healthz" else f"id={i}"
+        server, client = f"10.7.0.{1 + i % 2}", f"172.16.{int(d.u() * 4)}.{int(d.u() * 250)}"
+        out.append(
+            f"{_w3c_stamp(t, ' ')} {server} {METHODS[route]} {route} {query} 443 {client} "
+            f"{d.pick(agents)} {status} {ms}"
+        )
+        if i == 200:
+            out.extend(block(t))  # the server restarted
+    out[120] = out[120].rsplit(" ", 1)[0] + " -"  # no time-taken
+    out.insert(250, out[249].split(" 443 ")[0])  # cut short
+    out.insert(300, "")
+    return ("\ufeff" + "\r\n".join(out) + "\r\n").encode()
+
+
+def cdn_w3c(d: Draw) -> list[str]:
+    """A W3C extended log as CDN exports write it: tab-separated, ``#Version:`` and
+    ``#Fields:`` only, ``time-taken`` in seconds with three decimals (the draft's unit)."""
+    out = [
+        "#Version: 1.0",
+        "#Fields: date time x-site sc-bytes c-ip cs-method cs-uri-stem sc-status cs(User-Agent) time-taken",
+    ]
+    t = START
+    for i in range(300):
+        t += dt.timedelta(milliseconds=int(d.u() * 2000))
+        route = d.pick(ROUTES)
+        secs = d.lognormal(0.030, 1.1)
+        site = d.pick(("LHR-3", "AMS-1", "DUB-2"))
+        client, agent = f"192.0.2.{i % 200}", "Saltmarsh-App/3.1%20(iOS)"
+        row = [t.strftime("%Y-%m-%d"), t.strftime("%H:%M:%S"), site, str(int(d.u() * 9000)), client,
+               METHODS[route], route, "200", agent, f"{secs:.3f}"]  # fmt: skip
+        out.append("\t".join(row))
+    return out
+
+
 TEXT_FILES: dict[str, tuple[Callable[[Draw], list[str]], int]] = {
     "ecs.ndjson": (ecs_ndjson, 11),
     "access_combined.log": (access_combined, 12),
@@ -361,12 +424,14 @@ TEXT_FILES: dict[str, tuple[Callable[[Draw], list[str]], int]] = {
     "quoted.csv": (quoted_csv, 18),
     "quoted.tsv": (quoted_tsv, 18),
     "traces.otlp.jsonl": (otlp_traces, 19),
+    "cdn_w3c.log": (cdn_w3c, 25),
 }
 BYTE_FILES: dict[str, tuple[Callable[[Draw], bytes], int]] = {
     "latin1.log": (latin1_text, 21),
     "utf16.log": (utf16_text, 22),
     "cr_only.log": (cr_only_text, 23),
     "nul.log": (nul_text, 24),
+    "iis_w3c.log": (iis_w3c, 26),
 }
 
 

@@ -28,7 +28,8 @@ if TYPE_CHECKING:
     from ..sketch import Binned, Sketch, SketchSet
 
 FORMAT_CHOICES = (
-    "csv", "tsv", "ndjson", "text", "access", "syslog", "otlp", "parquet", "otlp-metrics", "openmetrics",
+    "csv", "tsv", "ndjson", "text", "access", "syslog", "w3c", "otlp", "parquet", "otlp-metrics",
+    "openmetrics",
 )  # fmt: skip
 TIME_FORMAT_CHOICES = ("iso", "epoch_s", "epoch_ms", "epoch_us", "epoch_ns", "clf", "rfc3164")
 
@@ -49,8 +50,9 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         choices=FORMAT_CHOICES,
         default=None,
         help="how the records are laid out (access: Common Log Format and combined; syslog: RFC 3164 "
-        "and 5424; otlp: OTLP JSON traces; otlp-metrics: OTLP JSON metric histograms; openmetrics: "
-        "OpenMetrics/Prometheus text histograms); by default it is worked out from the first bytes",
+        "and 5424; w3c: W3C extended log, as IIS writes it; otlp: OTLP JSON traces; otlp-metrics: "
+        "OTLP JSON metric histograms; openmetrics: OpenMetrics/Prometheus text histograms); by default "
+        "it is worked out from the first bytes",
     )
     g.add_argument(
         "--metric",
@@ -65,7 +67,8 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         default=None,
         help="NDJSON: dotted path to the number, e.g. timing.total_ms (a dot inside a key: "
         'labels.k\\.dot or labels["k.dot"]); text and syslog: the KEY of KEY=VALUE pairs; '
-        "access logs: latency, bytes, status; OTLP: duration or a span attribute",
+        "access logs: latency, bytes, status; W3C logs: a field of #Fields: (time-taken by default); "
+        "OTLP: duration or a span attribute",
     )
     g.add_argument(
         "--column",
@@ -126,7 +129,7 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         metavar="FIELD",
         default=None,
         help="column/field holding each record's timestamp (for --split-at and the time range); "
-        "not needed where the format carries one (access logs, syslog, OTLP, NDJSON @timestamp, "
+        "not needed where the format carries one (access logs, syslog, W3C logs, OTLP, NDJSON @timestamp, "
         "text lines that begin with a time stamp)",
     )
     g.add_argument(

@@ -53,9 +53,13 @@ NO_MATCH = "no_match"
 BAD_RECORD = "bad_record"
 NO_SPANS = "no_spans"
 BAD_SPAN = "bad_span"
+W3C_DIRECTIVE = "w3c_directive"
 
-NOT_RECORDS = (BLANK_LINE, NOT_JSON, NOT_AN_OBJECT, BAD_RECORD, NO_SPANS)
+NOT_RECORDS = (BLANK_LINE, NOT_JSON, NOT_AN_OBJECT, BAD_RECORD, NO_SPANS, W3C_DIRECTIVE)
 """Reasons that say a line is no record at all (so it has no group and no time either)."""
+FORMAT_LINES = (W3C_DIRECTIVE,)
+"""Reasons for lines the format itself writes between its records: counted like any
+skip, but no fault of the data, so ``--strict`` does not stop at them."""
 
 REASON_TEXT = {
     BLANK_LINE: "the line is blank",
@@ -67,6 +71,7 @@ REASON_TEXT = {
     BAD_RECORD: "the line does not have the layout of the rest of the file",
     NO_SPANS: "the line is an OTLP document without spans (or of another signal)",
     BAD_SPAN: "the span lacks a start or end time",
+    W3C_DIRECTIVE: "the line is a directive of the W3C extended log format (#Fields:, #Date:), not an entry",
 }
 """One phrase per reason, for ``--strict`` messages and the docs."""
 

@@ -13,7 +13,7 @@ from collections.abc import Iterator
 import polars as pl
 
 from ..errors import OgiveError
-from . import access, delimited, ndjson, otlp, sniff, syslog, text
+from . import access, delimited, ndjson, otlp, sniff, syslog, text, w3c
 from .delimited import SNIFF_LINES, CsvLayout
 from .layout import AS_LINES, Layout, split_lines
 from .options import ScanOptions
@@ -40,6 +40,7 @@ def plan(data: bytes, options: ScanOptions) -> Layout:
         "text": text.plan,
         "access": access.plan,
         "syslog": syslog.plan,
+        "w3c": w3c.plan,
         "otlp": otlp.plan,
     }
     planner = planners.get(fmt)

@@ -50,8 +50,9 @@ class Skips:
 
     def check(self, batch: Batch) -> None:
         """Under ``strict``: stop at the batch's first bad row, naming its place and reason."""
-        if self.strict and batch.reasons:
-            row, reason = min((int(np.argmax(m)), r) for r, m in batch.reasons.items())
+        faults = {r: m for r, m in batch.reasons.items() if r not in layout.FORMAT_LINES}
+        if self.strict and faults:
+            row, reason = min((int(np.argmax(m)), r) for r, m in faults.items())
             stop(reason, batch.where(row))
 
     def unassigned(self, reason: str, display: str, line_numbers: range) -> list[str]:

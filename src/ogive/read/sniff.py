@@ -3,7 +3,8 @@
 Looked at in this order, each on the first 50 non-blank lines (most of them must agree,
 so a few junk lines at the top do not mislead): binary data (refused), OTLP JSON
 (``resourceSpans``), NDJSON (objects, one per line), RFC 5424 and RFC 3164 syslog
-headers, Common Log Format time stamps, delimited records (a CSV parser's field count,
+headers, Common Log Format time stamps, a W3C extended log's ``#Fields:`` directive,
+delimited records (a CSV parser's field count,
 see ``delimited.sniff``), and free text. Each rule is a property of the format's own
 grammar, so the order only matters for lines that fit two (a CSV whose first column is
 a syslog-looking date would be read as syslog).
@@ -12,13 +13,14 @@ a syslog-looking date would be read as syslog).
 from __future__ import annotations
 
 from ..errors import OgiveError
-from . import access, delimited, encoding, otlp, syslog
+from . import access, delimited, encoding, otlp, syslog, w3c
 from .delimited import MOST
 from .options import ScanOptions
 from .text import sample_lines
 
 FORMATS = (
-    "csv", "tsv", "ndjson", "text", "access", "syslog", "otlp", "parquet", "otlp-metrics", "openmetrics",
+    "csv", "tsv", "ndjson", "text", "access", "syslog", "w3c", "otlp", "parquet", "otlp-metrics",
+    "openmetrics",
 )  # fmt: skip
 """What ``--format`` accepts (``csv;`` and ``csv|`` name other CSV separators)."""
 
@@ -65,6 +67,8 @@ def detect(data: bytes, options: ScanOptions) -> tuple[str, str]:
         return "syslog", ","
     if access.looks_like(lines):
         return "access", ","
+    if w3c.looks_like(lines):
+        return "w3c", ","
     found = delimited.sniff(data, want_column=options.column is not None)
     if found is not None:
         return ("tsv" if found == "\t" else "csv"), found

@@ -23,7 +23,7 @@ from . import preview
 from .ask_path import OnceScreen
 from .path_input import PathInput
 
-FORMATS = ("auto", "csv", "tsv", "ndjson", "text", "access", "syslog", "otlp", "parquet")
+FORMATS = ("auto", "csv", "tsv", "ndjson", "text", "access", "syslog", "w3c", "otlp", "parquet")
 HINT = "enter: open · tab: complete/next · escape: cancel"
 
 
@@ -51,7 +51,7 @@ class OpenPrompt(OnceScreen[OpenRequest | None]):
     BINDINGS: ClassVar[list[BindingType]] = [Binding("escape", "cancel", "Cancel")]
 
     FIELDS: ClassVar[list[list[tuple[str, str, str]]]] = [
-        [("format", "format", "auto, csv, tsv, ndjson, text, access, syslog, otlp, parquet"),
+        [("format", "format", "auto, csv, tsv, ndjson, text, access, syslog, w3c, otlp, parquet"),
          ("unit", "unit", "ms, s, us, ns, or a label")],
         [("field", "field", "NDJSON: dotted path (timing.total_ms); text: KEY of KEY=VALUE"),
          ("column", "column", "CSV/TSV: the value's column, by name or 1-based number")],
