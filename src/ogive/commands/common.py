@@ -130,7 +130,7 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         default=None,
         help="column/field holding each record's timestamp (for --split-at and the time range); "
         "not needed where the format carries one (access logs, syslog, W3C logs, OTLP, NDJSON @timestamp, "
-        "text lines that begin with a time stamp)",
+        "text lines that begin with a time stamp or carry a ts=/time= pair)",
     )
     g.add_argument(
         "--time-format",

@@ -16,6 +16,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
+import numpy as np
 import polars as pl
 
 from ..errors import OgiveError
@@ -161,6 +162,29 @@ def pairs(lines: list[str]) -> dict[str, list[str]]:
     return seen
 
 
+TIME_KEYS = ("ts", "time", "timestamp", "@timestamp")
+"""Keys that name a record's time in ``KEY=VALUE`` logs (logfmt writes ``ts=``)."""
+
+
+def time_key(lines: list[str]) -> str | None:
+    """The one key of :data:`TIME_KEYS` that holds a readable time in most sample lines
+    (``ts=2026-03-04T10:00:00Z``, ``time="2026-03-04 10:00:00"``, epoch seconds), else
+    None. Why the reading test: ``time=12ms`` is a duration, not a moment."""
+    found = pairs(lines)
+    hits = []
+    for key, vals in found.items():
+        if key.lower() not in TIME_KEYS or len(vals) < MOST * len(lines):
+            continue
+        sample = pl.Series(vals, dtype=pl.String)
+        form = times.detect_format(sample)
+        if form is None:
+            continue
+        read = times.parse_times(sample, form, by_magnitude=form in times.EPOCH_US)
+        if np.isfinite(read).mean() >= MOST:
+            hits.append(key)
+    return hits[0] if len(hits) == 1 else None
+
+
 def choose_key(lines: list[str], exclude: set[str]) -> tuple[str | None, list[str], bool]:
     """The one key whose values are durations (``12ms``) wherever it appears, in at least
     a tenth of the lines (syslog mixes many programs); else the one key that holds
@@ -286,6 +310,9 @@ def plan(data: bytes, options: ScanOptions) -> TextLayout:
     elif starts_with_time:
         extracts.append(Extract("t", LEADING_TIME, (1,)))
         time_source = "the time stamp that begins each line"
+    elif not options.pattern and (key := time_key(lines)) is not None:
+        extracts.append(Extract("t", key_value_regex(key), (1, 2)))
+        time_source = f"the {key}= pairs"
     return TextLayout(
         format="text",
         names=tuple(e.name for e in extracts),
