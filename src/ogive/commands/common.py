@@ -129,8 +129,8 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         metavar="FIELD",
         default=None,
         help="column/field holding each record's timestamp (for --split-at and the time range); "
-        "not needed where the format carries one (access logs, syslog, W3C logs, OTLP, NDJSON @timestamp, "
-        "text lines that begin with a time stamp or carry a ts=/time= pair)",
+        "not needed where the format carries one (access logs, syslog, W3C logs, OTLP, NDJSON @timestamp "
+        "or a time/ts field of moments, text lines that begin with a time stamp or carry a ts=/time= pair)",
     )
     g.add_argument(
         "--time-format",

@@ -32,6 +32,7 @@ import polars as pl
 
 from ..errors import OgiveError
 from . import layout as L
+from . import times
 from .delimited import MOST, SNIFF_LINES, TIME_NAMES
 from .fieldpath import Part, groupings, json_path, parse_path, shown
 from .options import ScanOptions
@@ -329,6 +330,9 @@ def plan(data: bytes, options: ScanOptions) -> JsonLayout:
     elif objects and sum(ECS_TIMESTAMP in o for o in objects) >= MOST * len(objects):
         chosen.append(("t", [[ECS_TIMESTAMP]]))
         time_source = f"field {ECS_TIMESTAMP}"
+    elif (key := _time_key(objects, vways)) is not None:
+        chosen.append(("t", [[key]]))
+        time_source = f"field {key}"
     paths = [(name, tuple(json_path(p) for p in ways)) for name, ways in chosen]
     vparts = vways[0]
     *parent, last = vparts
@@ -410,6 +414,20 @@ def _text_field(
         if inner is not None:
             found.append((ways, inner))
     return found[0] if len(found) == 1 else None
+
+
+def _time_key(objects: list[dict[str, Any]], value: list[list[Part]]) -> str | None:
+    """The one top-level key of ``times.TIME_KEYS`` (``time``, ``ts``: what bunyan, pino,
+    zap and container runtimes write) holding a moment of this century in most objects;
+    None when none does, or two do (--time-field chooses), or it is the value itself."""
+    hits = []
+    for key in times.TIME_KEYS:
+        vals = [o[key] for o in objects if o.get(key) is not None]
+        if [key] in value or len(vals) < MOST * len(objects) or not objects:
+            continue
+        if times.holds_moments(vals, MOST):
+            hits.append(key)
+    return hits[0] if len(hits) == 1 else None
 
 
 def _choose_value(

@@ -16,7 +16,6 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
-import numpy as np
 import polars as pl
 
 from ..errors import OgiveError
@@ -162,26 +161,18 @@ def pairs(lines: list[str]) -> dict[str, list[str]]:
     return seen
 
 
-TIME_KEYS = ("ts", "time", "timestamp", "@timestamp")
-"""Keys that name a record's time in ``KEY=VALUE`` logs (logfmt writes ``ts=``)."""
-
-
 def time_key(lines: list[str]) -> str | None:
-    """The one key of :data:`TIME_KEYS` that holds a readable time in most sample lines
+    """The one key of ``times.TIME_KEYS`` that holds a readable time in most sample lines
     (``ts=2026-03-04T10:00:00Z``, ``time="2026-03-04 10:00:00"``, epoch seconds), else
     None. Why the reading test: ``time=12ms`` is a duration, not a moment."""
     found = pairs(lines)
-    hits = []
-    for key, vals in found.items():
-        if key.lower() not in TIME_KEYS or len(vals) < MOST * len(lines):
-            continue
-        sample = pl.Series(vals, dtype=pl.String)
-        form = times.detect_format(sample)
-        if form is None:
-            continue
-        read = times.parse_times(sample, form, by_magnitude=form in times.EPOCH_US)
-        if np.isfinite(read).mean() >= MOST:
-            hits.append(key)
+    hits = [
+        key
+        for key, vals in found.items()
+        if key.lower() in times.TIME_KEYS
+        and len(vals) >= MOST * len(lines)
+        and times.holds_moments(list(vals), MOST)
+    ]
     return hits[0] if len(hits) == 1 else None
 
 

@@ -116,6 +116,27 @@ def detect_format(sample: pl.Series) -> str | None:
     return None
 
 
+TIME_KEYS = ("ts", "time", "timestamp", "@timestamp")
+"""Names a record's time goes by in KEY=VALUE and JSON logs (logfmt and zap write ``ts``,
+bunyan, logrus, pino and container runtimes ``time``)."""
+LIKELY_US = (946_684_800e6, 4_102_444_800e6)
+"""2000-01-01 to 2100-01-01: where the moments of a time key nobody named must fall."""
+
+
+def holds_moments(values: list[object], share: float) -> bool:
+    """Whether at least ``share`` of ``values`` read, in one form, as moments of this
+    century. For choosing a time key nobody named: a ``time`` field may hold a duration
+    (``12ms``) or a small count (``12``, which reads as a moment of 1970)."""
+    sample = pl.Series([str(v) for v in values], dtype=pl.String)
+    form = detect_format(sample)
+    if form is None or not len(sample):
+        return False
+    us = parse_times(sample, form, by_magnitude=form in EPOCH_US)
+    with np.errstate(invalid="ignore"):
+        likely = (us >= LIKELY_US[0]) & (us < LIKELY_US[1])
+    return float(likely.mean()) >= share
+
+
 def read_times(
     col: pl.Series, fmt: str, *, by_magnitude: bool = False, now_us: float | None = None
 ) -> TimeColumn:
