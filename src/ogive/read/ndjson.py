@@ -423,9 +423,12 @@ def _time_key(objects: list[dict[str, Any]], value: list[list[Part]]) -> str | N
     hits = []
     for key in times.TIME_KEYS:
         vals = [o[key] for o in objects if o.get(key) is not None]
-        if [key] in value or len(vals) < MOST * len(objects) or not objects:
-            continue
-        if times.holds_moments(vals, MOST):
+        if (
+            vals
+            and [key] not in value
+            and len(vals) >= MOST * len(objects)
+            and times.holds_moments(vals, MOST)
+        ):
             hits.append(key)
     return hits[0] if len(hits) == 1 else None
 

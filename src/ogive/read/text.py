@@ -171,7 +171,7 @@ def time_key(lines: list[str]) -> str | None:
         for key, vals in found.items()
         if key.lower() in times.TIME_KEYS
         and len(vals) >= MOST * len(lines)
-        and times.holds_moments(list(vals), MOST)
+        and times.holds_moments(vals, MOST)
     ]
     return hits[0] if len(hits) == 1 else None
 

@@ -28,7 +28,7 @@ from __future__ import annotations
 import datetime as dt
 import re
 import time as _time
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -123,13 +123,13 @@ LIKELY_US = (946_684_800e6, 4_102_444_800e6)
 """2000-01-01 to 2100-01-01: where the moments of a time key nobody named must fall."""
 
 
-def holds_moments(values: list[object], share: float) -> bool:
+def holds_moments(values: Sequence[object], share: float) -> bool:
     """Whether at least ``share`` of ``values`` read, in one form, as moments of this
     century. For choosing a time key nobody named: a ``time`` field may hold a duration
     (``12ms``) or a small count (``12``, which reads as a moment of 1970)."""
     sample = pl.Series([str(v) for v in values], dtype=pl.String)
     form = detect_format(sample)
-    if form is None or not len(sample):
+    if form is None:
         return False
     us = parse_times(sample, form, by_magnitude=form in EPOCH_US)
     with np.errstate(invalid="ignore"):
