@@ -99,3 +99,31 @@ def test_headline_keeps_the_end_of_both_names() -> None:
     assert s_part.endswith("/api/shipping/quote") or s_part.endswith("quote")
     assert r_part.endswith("quote") and "R " in r_part
     assert headline("after", "before", 78) == "subject: after · reference: before"
+
+
+def _sketch(n: int) -> Sketch:
+    s = Sketch("ms")
+    s.add(np.arange(1.0, n + 1.0))
+    return s
+
+
+def test_a_split_scan_names_its_first_half_before_the_second_arrives() -> None:
+    """A log in time order brings 'before' alone on the first ticks. Named after the whole
+    file then, the row kept that name (names are stable across ticks) beside 'after', and
+    the reference read as the whole file. Same for groups arriving one by one."""
+    from ogive.read import ScanOptions
+    from ogive.ui.state import ScanJob
+
+    for options, first, second in (
+        (ScanOptions(split_at="2026-11-30T12:00:00Z"), "before", "after"),
+        (ScanOptions(by="host"), "host=a", "host=b"),
+    ):
+        ws = Workspace()
+        job = ScanJob("/var/log/web.log", options)
+        ws.take_scan(job, {first: _sketch(10)}, state="scanning", note="", window=None)
+        ws.take_scan(job, {first: _sketch(20), second: _sketch(5)}, state="ready", note="", window=None)
+        assert list(ws.dists) == [f"web:{first}", f"web:{second}"]
+    ws = Workspace()  # one sketch and no split: the row is the file
+    job = ScanJob("/var/log/web.log", ScanOptions())
+    ws.take_scan(job, {"all": _sketch(10)}, state="ready", note="", window=None)
+    assert list(ws.dists) == ["web"]

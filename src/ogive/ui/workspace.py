@@ -284,7 +284,12 @@ class Workspace:
     def _name_for(self, job: ScanJob, group: str, groups: int) -> str:
         if group not in job.names:
             # A follow with a recent window always has two rows, even before 'all' has values.
-            alone = groups == 1 and job.recent is None
+            # A scan that splits (by groups, at a moment) names each row by its sketch even
+            # while one alone has values: a log in time order brings 'before' first, and a
+            # row named after the whole file kept that name beside 'after' (names are stable).
+            # (Time windows are no rows: the timeline takes them, the row is the whole.)
+            splits = job.options.by is not None or job.options.split_at is not None
+            alone = groups == 1 and job.recent is None and not splits
             stem = source_stem(job.source)
             job.names[group] = self._unique(stem if alone else f"{stem}:{group}", job)
         return job.names[group]
