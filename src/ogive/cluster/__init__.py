@@ -66,7 +66,7 @@ def scan(
     decisions = head.decide(names, options)
     if decisions is None:  # every source is empty: nothing to hand out
         return local_scan(names, options)
-    specs = plan.cut(files, decisions, part_bytes or plan.PART_BYTES)
+    specs = plan.cut(files, decisions, part_bytes or plan.PART_BYTES, named=options.encoding)
     with connect(cluster) as client:
         runner = Runner(
             client, specs, options, decisions,

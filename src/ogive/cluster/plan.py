@@ -73,8 +73,11 @@ def list_sources(names: list[str]) -> list[Source]:
     return [s for s in out if s is not None]
 
 
-def cut(files: list[Source], decisions: Decisions, part_bytes: int = PART_BYTES) -> list[PartSpec]:
-    """The parts of ``files``, in source order (``slot`` and ``leaf`` number them)."""
+def cut(
+    files: list[Source], decisions: Decisions, part_bytes: int = PART_BYTES, *, named: str | None = None
+) -> list[PartSpec]:
+    """The parts of ``files``, in source order (``slot`` and ``leaf`` number them).
+    ``named``: the ``--encoding`` given; a file decoded from it is read whole."""
     specs: list[PartSpec] = []
 
     def add(f: Source, **kw: object) -> None:
@@ -92,6 +95,7 @@ def cut(files: list[Source], decisions: Decisions, part_bytes: int = PART_BYTES)
             or f.size is None
             or f.size <= part_bytes
             or encoding.sniff(f.head)[0] != encoding.UTF8
+            or encoding.transcoded(named)
             or decisions.layout.format == "parquet"
         ):
             add(f, kind=WHOLE, nbytes=f.size or 0)

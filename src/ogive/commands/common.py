@@ -55,6 +55,14 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         "it is worked out from the first bytes",
     )
     g.add_argument(
+        "--encoding",
+        metavar="NAME",
+        default=None,
+        help="the sources' text encoding, when not UTF-8: cp1252 (most Windows exports), latin-1, "
+        "shift_jis, utf-16, ... (any Python codec name). Without it UTF-8 is read, UTF-16 where "
+        "the bytes say so, and bytes that are not UTF-8 become U+FFFD, counted in a warning",
+    )
+    g.add_argument(
         "--metric",
         metavar="NAME",
         default=None,
@@ -219,6 +227,7 @@ def options_from_args(args: argparse.Namespace) -> ScanOptions:
         "input_unit",
         "by",
         "metric",
+        "encoding",
         "max_groups",
         "time_field",
         "time_format",

@@ -105,6 +105,12 @@ def _lines_of(data: bytes, positions: np.ndarray) -> np.ndarray:
     return np.unique(np.searchsorted(newlines, positions))
 
 
+def transcoded(named: str | None) -> bool:
+    """Whether sources in the encoding the user named are decoded as they are read (and
+    so are read whole, never from a byte offset: a part must start on a character)."""
+    return named is not None and named != UTF8
+
+
 def is_binary(head: bytes) -> bool:
     """Whether the head looks like binary data rather than text in any encoding we read."""
     if not head or sniff(head)[0] in (UTF16LE, UTF16BE):
@@ -151,7 +157,9 @@ class Transcoder:
     copies), so ordinary files cost nothing here.
     """
 
-    def __init__(self) -> None:
+    def __init__(self, named: str | None = None) -> None:
+        self.named = named
+        """The encoding the user named (``--encoding``, a codec's canonical name), or None."""
         self.encoding: str | None = None
         self.note: str | None = None
         """What was done to the stream, to tell the user once; None when nothing."""
@@ -164,7 +172,7 @@ class Transcoder:
     @property
     def ratio(self) -> float:
         """Source bytes per byte handed on (1 for UTF-8; about 2 for UTF-16)."""
-        return self._raw / self._out if self._out and self.encoding in (UTF16LE, UTF16BE) else 1.0
+        return self._raw / self._out if self._out and self._decoder is not None else 1.0
 
     def push(self, raw: bytes) -> bytes:
         if self.encoding is None:
@@ -184,8 +192,12 @@ class Transcoder:
         return self._convert(raw, final=True)
 
     def _decide(self, head: bytes) -> None:
-        self.encoding, self.note = sniff(head)
-        if self.encoding in (UTF16LE, UTF16BE):
+        if transcoded(self.named):
+            # Named by the user: decoded as such (bytes it cannot read become U+FFFD).
+            self.encoding, self.note = self.named, None
+        else:
+            self.encoding, self.note = sniff(head)
+        if self.encoding not in (UTF8, CR_ONLY):
             self._decoder = codecs.getincrementaldecoder(self.encoding)(errors="replace")
 
     def _convert(self, raw: bytes, *, final: bool) -> bytes:

@@ -62,7 +62,10 @@ class Frame:
 BAD_UTF8 = "bad_utf8"
 NUL_BYTES = "nul_bytes"
 FIXED_TEXT = {
-    BAD_UTF8: "held bytes that are not UTF-8; each bad sequence was read as U+FFFD",
+    BAD_UTF8: (
+        "held bytes that are not UTF-8; each bad sequence was read as U+FFFD (a file in "
+        "another encoding is read right with --encoding, cp1252 for most Windows exports)"
+    ),
     NUL_BYTES: "held NUL bytes, which were removed before reading",
 }
 
@@ -85,7 +88,7 @@ class Feed:
         self._quote_lock = threading.Lock()
         self._cutter = sources.Cutter(options.max_line_bytes)
         self._header_pending = True
-        self._recode = encoding.Transcoder()
+        self._recode = encoding.Transcoder(self.options.encoding)
         self._source = ""
         self.notes: list[str] = []
         """What was done to whole sources (UTF-16 decoded, CR line ends), once each."""
@@ -147,7 +150,7 @@ class Feed:
         (a source in another encoding is never split)."""
         self._cutter = sources.Cutter(self.options.max_line_bytes)
         self._header_pending = at_start
-        self._recode = encoding.Transcoder()
+        self._recode = encoding.Transcoder(self.options.encoding)
         if not at_start:
             self._recode.encoding = encoding.UTF8
         self._source = name

@@ -7,6 +7,7 @@ either.
 
 from __future__ import annotations
 
+import codecs
 import dataclasses
 from dataclasses import dataclass, field
 from typing import Any
@@ -158,6 +159,9 @@ class ScanOptions:
     ``ScanResult.error`` set and the sketches marked partial) instead of raising."""
     max_line_bytes: int = 64 << 20
     """A line longer than this (no newline within it) is skipped as ``too_long``."""
+    encoding: str | None = None
+    """The sources' text encoding (``--encoding``, a Python codec name such as ``cp1252``),
+    decoded to UTF-8 as they are read. None: UTF-8, or UTF-16 where the bytes say so."""
     memory_budget_mb: int | None = None
     """Memory the user grants the scan (``--memory-budget``), in MB. None: the lean default
     (peak RSS <= ``LEAN_MB`` at any size), for a scan beside the service being looked at.
@@ -170,6 +174,15 @@ class ScanOptions:
     name in this class body, hence ``dataclasses.field``)."""
 
     def __post_init__(self) -> None:
+        if self.encoding is not None:
+            try:
+                name = codecs.lookup(self.encoding).name
+            except LookupError:
+                raise OgiveError(
+                    f"--encoding {self.encoding!r}: no such text encoding (cp1252, latin-1, utf-16, "
+                    "shift_jis, ... any Python codec name)."
+                ) from None
+            object.__setattr__(self, "encoding", name)
         if not 10 <= self.compression <= MAX_COMPRESSION:
             raise OgiveError(
                 f"--compression must lie between 10 and {MAX_COMPRESSION:g}, got {self.compression:g}."

@@ -31,7 +31,29 @@ def detect_format(data: bytes, options: ScanOptions) -> str:
 
 
 def plan(data: bytes, options: ScanOptions) -> Layout:
-    """The layout for this scan, from the first chunk's bytes and the options."""
+    """The layout for this scan, from the first chunk's bytes and the options; a layout
+    that cannot be worked out from bytes that are not UTF-8 says to name the encoding."""
+    try:
+        return _plan(data, options)
+    except OgiveError as exc:
+        head = data[: 1 << 16]
+        if options.encoding is None and not head.isascii() and _not_utf8(head):
+            raise OgiveError(
+                f"{str(exc).rstrip('.')}. The first lines hold bytes that are not UTF-8: if the file is in "
+                "another encoding, name it with --encoding (cp1252 for most Windows exports)."
+            ) from None
+        raise
+
+
+def _not_utf8(head: bytes) -> bool:
+    try:
+        head.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        return exc.start < len(head) - 3  # not a character cut at the end of the sample
+    return False
+
+
+def _plan(data: bytes, options: ScanOptions) -> Layout:
     fmt, sep = sniff.detect(data, options)
     if fmt in ("csv", "tsv"):
         return needs_time(delimited.plan(data, options, fmt, sep), options)

@@ -25,7 +25,7 @@ import polars as pl
 from ..errors import OgiveError
 from ..outputs import repeated
 from ..sketch import SketchSet, SkipTally
-from . import direct, heap, metrics, sources, urls
+from . import direct, encoding, heap, metrics, sources, urls
 from .build import Builder, TimeOrder
 from .decode import Batch, Decoder
 from .feed import FIXED_TEXT, Feed, prefetch
@@ -232,7 +232,12 @@ class Pipeline:
             for df in direct.parquet_frames(src, o, self.feed, self.decoder):
                 yield Job(display, done=self.prepare_here(df, display))
             return
-        if o.lazy_files and src.compression is None and src.size is not None:
+        if (
+            o.lazy_files
+            and src.compression is None
+            and src.size is not None
+            and not encoding.transcoded(o.encoding)
+        ):
             lazy = direct.LazyFile.open(src, self.feed)
             if lazy is not None:
                 if lazy.header:
