@@ -192,13 +192,14 @@ class Transcoder:
         return self._convert(raw, final=True)
 
     def _decide(self, head: bytes) -> None:
-        if transcoded(self.named):
+        if self.named is not None and transcoded(self.named):
             # Named by the user: decoded as such (bytes it cannot read become U+FFFD).
-            self.encoding, self.note = self.named, None
+            chosen, self.note = self.named, None
         else:
-            self.encoding, self.note = sniff(head)
-        if self.encoding not in (UTF8, CR_ONLY):
-            self._decoder = codecs.getincrementaldecoder(self.encoding)(errors="replace")
+            chosen, self.note = sniff(head)
+        self.encoding = chosen
+        if chosen not in (UTF8, CR_ONLY):
+            self._decoder = codecs.getincrementaldecoder(chosen)(errors="replace")
 
     def _convert(self, raw: bytes, *, final: bool) -> bytes:
         if self.encoding == UTF8:
