@@ -261,3 +261,25 @@ def test_the_csv_path_and_the_line_regex_read_alike(tmp_path: Path, monkeypatch:
         "u.log:901",
         "u.log:1301",
     ]
+
+
+def test_by_date_beside_the_time_and_the_time_as_the_value(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """One field may feed two columns: ``--by date`` splits per day while date and time
+    still give each entry's moment (it used to end in an internal error)."""
+    rows = _rows(600, 11)
+    path = _iis(tmp_path / "u.log", [(sec * 300, s, r, ms) for sec, s, r, ms in rows])  # 50 h
+    code, doc, err = _scan(capsys, str(path), "--by", "date")
+    assert code == 0, err
+    per_day: dict[str, list[int]] = {}
+    for sec, _, _, ms in rows:
+        day = (START + dt.timedelta(seconds=sec * 300)).date().isoformat()
+        per_day.setdefault(day, []).append(ms)
+    assert {k: v["n"] for k, v in doc["sketches"].items()} == {
+        f"date={d}": len(v) for d, v in per_day.items()
+    }
+    for day, values in per_day.items():
+        s = doc["sketches"][f"date={day}"]
+        np.testing.assert_allclose(s["p50"], np.quantile(values, 0.5), rtol=1e-9)
+        assert s["time_first"].startswith(day)

@@ -101,10 +101,10 @@ class W3cLayout(L.Layout):
     regex: str = ""
     plain: str = ""
     """``regex`` without captures: the match test for rows that gave no value."""
-    columns: tuple[tuple[str, tuple[str, ...]], ...] = ()
-    """(output name, capture groups): two groups (``date``, ``time``) are joined by a space."""
-    positions: tuple[tuple[str, int], ...] = ()
-    """(capture group, field position) of each field read."""
+    columns: tuple[tuple[str, tuple[int, ...]], ...] = ()
+    """(output name, field positions): two fields (``date``, ``time``) are joined by a
+    space. A field may feed two columns (``--by date`` beside the time); the regex
+    captures field ``i`` as group ``f{i}``."""
     separator: str = " "
 
     def parse(
@@ -140,11 +140,13 @@ class W3cLayout(L.Layout):
         many, is a bad record, as for the regex).
         """
         n = len(self.fields)
-        at = dict(self.positions)
-        read = sorted({0, *at.values(), n - 1, n})
+        used = {i for _, at in self.columns for i in at}
+        vi = dict(self.columns)["v"][0]
+        numeric = numeric and sum(vi in at for _, at in self.columns) == 1  # no text column shares it
+        read = sorted({0, *used, n - 1, n})
         schema: dict[str, pl.DataType] = {f"c{i}": pl.String() for i in range(n + 1)}
         if numeric:
-            schema[f"c{at['v']}"] = pl.Float64()
+            schema[f"c{vi}"] = pl.Float64()
         df = pl.read_csv(
             data,
             has_header=False,
@@ -161,14 +163,14 @@ class W3cLayout(L.Layout):
         whole = pl.all_horizontal(f.is_not_null() for f in fields) & pl.col(f"c{n}").is_null()
         odd = pl.col("c0").str.starts_with("#") | pl.all_horizontal(pl.col(f"c{i}").is_null() for i in read)
 
-        def field(group: str) -> pl.Expr:
-            col = pl.col(f"c{at[group]}")
-            kept = col if numeric and group == "v" else pl.when(col != "-").then(col)
+        def field(i: int) -> pl.Expr:
+            col = pl.col(f"c{i}")
+            kept = col if numeric and i == vi else pl.when(col != "-").then(col)
             return pl.when(whole).then(kept)
 
         out = []
-        for name, groups in self.columns:
-            parts = [field(g) for g in groups]
+        for name, at in self.columns:
+            parts = [field(i) for i in at]
             out.append((parts[0] if len(parts) == 1 else pl.concat_str(parts, separator=" ")).alias(name))
         frame = df.select(*out, whole.alias("whole"), odd.any().alias("odd"))
         if frame.height and frame.item(0, "odd"):
@@ -185,13 +187,13 @@ class W3cLayout(L.Layout):
 
     def frame(self, lines: pl.Series) -> pl.DataFrame:
         directive = lines.str.starts_with("#").fill_null(False)
-        at = L.rows_where(directive)
-        if at.size:
-            self._check_fields(lines.gather(at))
+        directives = L.rows_where(directive)
+        if directives.size:
+            self._check_fields(lines.gather(directives))
         found = lines.str.extract_groups(self.regex)
         cols = []
-        for name, groups in self.columns:
-            parts = [found.struct.field(g) for g in groups]
+        for name, at in self.columns:
+            parts = [found.struct.field(f"f{i}") for i in at]
             col = parts[0] if len(parts) == 1 else pl.select(pl.concat_str(parts, separator=" ")).to_series()
             cols.append(unquote(col).alias(name))
         df = pl.DataFrame(cols).select(self.names)
@@ -203,7 +205,12 @@ class W3cLayout(L.Layout):
         empty = unmatched[L.rows_where(L.blank(lines.gather(unmatched)))] if unmatched.size else unmatched
         r = L.reason_column(
             len(lines),
-            [(empty, L.BLANK_LINE), (at, DIRECTIVE), (unmatched, L.BAD_RECORD), (missing, MISSING_FIELD)],
+            [
+                (empty, L.BLANK_LINE),
+                (directives, DIRECTIVE),
+                (unmatched, L.BAD_RECORD),
+                (missing, MISSING_FIELD),
+            ],
         )
         return df if r is None else df.with_columns(r)
 
@@ -247,8 +254,7 @@ def plan(data: bytes, options: ScanOptions) -> W3cLayout:
     entries = [ln for ln in lines if not ln.startswith("#")]
     tabs = bool(entries) and sum("\t" in ln for ln in entries) >= MOST * len(entries)
     notes: list[str] = []
-    wanted: dict[int, str] = {}
-    columns: list[tuple[str, tuple[str, ...]]] = []
+    columns: list[tuple[str, tuple[int, ...]]] = []
     spec = options.field or options.column
     if spec is None:
         if VALUE_FIELD not in fields:
@@ -258,8 +264,7 @@ def plan(data: bytes, options: ScanOptions) -> W3cLayout:
             )
         spec = VALUE_FIELD
     vi = _find(spec, fields, "--field")
-    wanted[vi] = "v"
-    columns.append(("v", ("v",)))
+    columns.append(("v", (vi,)))
     input_unit = None
     if fields[vi] == VALUE_FIELD and options.input_unit is None:
         iis = any(ln.startswith("#Software:") and IIS in ln for ln in head)
@@ -274,8 +279,7 @@ def plan(data: bytes, options: ScanOptions) -> W3cLayout:
         gi = _find(options.by, fields, "--by")
         if gi == vi:
             raise OgiveError(f"--by {options.by!r} is the value's own field.")
-        wanted[gi] = "g"
-        columns.append(("g", ("g",)))
+        columns.append(("g", (gi,)))
     tf = options.time_field
     if tf is not None and tf.lower() not in TIME_NAMES:
         raise OgiveError(
@@ -284,14 +288,12 @@ def plan(data: bytes, options: ScanOptions) -> W3cLayout:
         )
     time_source = ""
     if "date" in fields and "time" in fields:
-        wanted[fields.index("date")], wanted[fields.index("time")] = "d", "t"
-        columns.append(("t", ("d", "t")))
+        columns.append(("t", (fields.index("date"), fields.index("time"))))
         time_source = "the date and time fields (UTC)"
     elif tf is not None:
         raise OgiveError("--time-field: the W3C extended log has no date and time fields to give times.")
     names = tuple(n for n in ("v", "g", "t") if any(n == c for c, _ in columns))
-    regex = line_regex(len(fields), wanted, tabs=tabs)
-    positions = tuple((group, i) for i, group in wanted.items())
+    regex = line_regex(len(fields), {i: f"f{i}" for _, at in columns for i in at}, tabs=tabs)
     sep = "tab" if tabs else "space"
     return W3cLayout(
         format="w3c",
@@ -300,7 +302,6 @@ def plan(data: bytes, options: ScanOptions) -> W3cLayout:
         regex=regex,
         plain=re.sub(r"\(\?P<\w+>", "(?:", regex),
         columns=tuple(columns),
-        positions=positions,
         separator="\t" if tabs else " ",
         description=f"field {fields[vi]} (W3C extended log, {sep}-separated)",
         time_format="iso" if time_source else None,
