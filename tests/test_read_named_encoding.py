@@ -109,3 +109,18 @@ def test_a_decoded_file_is_read_whole_on_a_cluster(tmp_path: Path) -> None:
     assert decisions is not None
     assert [s.kind for s in plan.cut(files, decisions, 4096, named=options.encoding)] == [WHOLE]
     assert len(plan.cut(files, decisions, 4096)) > 1  # the same file as UTF-8 bytes is cut
+
+
+def test_utf16_named_without_a_byte_order_mark(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """Python's ``utf-16`` decoder refuses bytes without a byte-order mark (it ended in an
+    internal error); the order is then read from the bytes. A wrong name gives garbage
+    text, and the usual one-line error about it, never a traceback."""
+    big = tmp_path / "be.csv"
+    big.write_bytes(("ms\n" + "".join(f"{i}\n" for i in range(1, 21))).encode("utf-16-be"))
+    code, doc, err = _scan(capsys, str(big), "--encoding", "utf-16")
+    assert code == 0, err
+    assert doc["sketches"]["all"]["n"] == 20 and doc["sketches"]["all"]["p50"] == 10.5
+    plain = tmp_path / "a.log"
+    plain.write_text("".join(f"2026-03-04T10:00:{i:02d}Z dur={i}ms\n" for i in range(40)))
+    code, _, err = _scan(capsys, str(plain), "--encoding", "utf-16")
+    assert code == 3 and err.count("\n") == 1 and "internal error" not in err

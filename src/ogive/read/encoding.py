@@ -22,6 +22,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..errors import OgiveError
+
 HEAD_BYTES = 4096
 """Bytes looked at to decide a source's encoding."""
 EXAMPLES = 5
@@ -147,6 +149,12 @@ def sniff(head: bytes) -> tuple[str, str | None]:
     return UTF8, None
 
 
+_BOMS = {
+    "utf-16": (codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE),
+    "utf-32": (codecs.BOM_UTF32_LE, codecs.BOM_UTF32_BE),
+}
+
+
 class Transcoder:
     """Bytes of one source pushed in as they are read, handed on as UTF-8 with ``\\n``
     line ends.
@@ -195,6 +203,11 @@ class Transcoder:
         if self.named is not None and transcoded(self.named):
             # Named by the user: decoded as such (bytes it cannot read become U+FFFD).
             chosen, self.note = self.named, None
+            if chosen in ("utf-16", "utf-32") and not head.startswith(_BOMS[chosen]):
+                # Python's decoder refuses these without a byte-order mark: the order is
+                # read from the bytes as when nothing is named, little-endian by default.
+                guess = sniff(head)[0]
+                chosen = f"{chosen}-be" if guess == UTF16BE else f"{chosen}-le"
         else:
             chosen, self.note = sniff(head)
         self.encoding = chosen
@@ -207,7 +220,10 @@ class Transcoder:
         if self.encoding == CR_ONLY:
             return raw.replace(b"\r", b"\n")
         assert self._decoder is not None
-        text = self._decoder.decode(raw, final)
+        try:
+            text = self._decoder.decode(raw, final)
+        except UnicodeError as exc:  # a codec that refuses rather than replaces
+            raise OgiveError(f"the bytes cannot be read as {self.encoding}: {exc}.") from None
         if not self._bom_seen and text:
             self._bom_seen = True
             text = text.removeprefix("\ufeff")
