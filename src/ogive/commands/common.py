@@ -75,7 +75,8 @@ def add_source_options(parser: argparse.ArgumentParser) -> None:
         default=None,
         help="NDJSON: dotted path to the number, e.g. timing.total_ms (a dot inside a key: "
         'labels.k\\.dot or labels["k.dot"]); text and syslog: the KEY of KEY=VALUE pairs; '
-        "access logs: latency, bytes, status; W3C logs: a field of #Fields: (time-taken by default); "
+        "access logs: latency, bytes, status (ingress-nginx: request_time, upstream_response_time, "
+        "...); W3C logs: a field of #Fields: (time-taken by default); "
         "OTLP: duration or a span attribute",
     )
     g.add_argument(

@@ -45,9 +45,29 @@ _FIELDS = (
 _REQUEST = r"(?P<method>[A-Za-z]+) (?P<path>\S+)(?: (?P<protocol>[A-Za-z]+/[\d.]+))?"
 
 
-def line_regex(wanted: set[str]) -> str:
+_LIST = r"[^\s,]+(?:, [^\s,]+)*"
+"""An upstream field of ingress-nginx: one value, or one per try (``a, b``) on retries."""
+INGRESS = (
+    ("request_length", r"\d+", False),
+    ("request_time", r"\d+(?:\.\d+)?", False),
+    ("upstream", r"[^\]]*", True),
+    ("alternative_upstream", r"[^\]]*", True),
+    ("upstream_addr", _LIST, False),
+    ("upstream_response_length", _LIST, False),
+    ("upstream_response_time", _LIST, False),
+    ("upstream_status", _LIST, False),
+    ("req_id", r"\S+", False),
+)
+"""The fields ingress-nginx (the Kubernetes ingress controller) writes after the combined
+format by default (its ``log-format-upstream``: ``$request_length $request_time
+[$proxy_upstream_name] [$proxy_alternative_upstream_name] $upstream_addr ...``): name,
+body, whether written in brackets. ``$request_time`` is in seconds."""
+
+
+def line_regex(wanted: set[str], *, ingress: bool = False) -> str:
     """The access-log line as a regex in which only the ``wanted`` fields capture
-    (captures cost time; the rest are non-capturing)."""
+    (captures cost time; the rest are non-capturing); with ``ingress``, the line as
+    ingress-nginx writes it (:data:`INGRESS`), whose ``-`` is no value (a null group)."""
 
     def grp(name: str, body: str) -> str:
         return f"(?P<{name}>{body})" if name in wanted else f"(?:{body})"
@@ -58,6 +78,10 @@ def line_regex(wanted: set[str]) -> str:
     agents = f'(?: "{grp("referer", _Q)}" "{grp("user_agent", _Q)}")?'
     latency = grp("latency", r"[-+]?\d+(?:\.\d+)?(?:[a-zµμ]+)?")
     start = rf"^{head} \[{time}\] {request} {status} {size}"
+    if ingress:
+        tail = [f"(?:-|{grp(n, b)})" for n, b, _ in INGRESS]
+        tail = [rf"\[{t}\]" if brackets else t for t, (_, _, brackets) in zip(tail, INGRESS, strict=True)]
+        return rf"{start}{agents} {' '.join(tail)}\s*$"
     if "rest" in wanted:
         return rf"{start}{agents}(?:\s+{latency})?(?:\s+{grp('rest', '.*?')})?\s*$"
     if "latency" in wanted:
@@ -68,6 +92,9 @@ def line_regex(wanted: set[str]) -> str:
 
 NAMES = ("client", "ident", "user", "method", "path", "protocol", "status", "bytes", "referer",
          "user_agent", "latency")  # fmt: skip
+INGRESS_NAMES = tuple(n for n, _, _ in INGRESS)
+_PAIRS_ONLY = re.compile(r'^(?:[\w.@-]+=(?:"[^"]*"|\S*)\s*)*$')
+"""What may follow the latency of a CLF line: nothing, or ``KEY=VALUE`` pairs."""
 SNIFF_RE = re.compile(r'^\S+ \S+ \S+ \[\d{1,2}/[A-Za-z]{3}/\d{4}:\d{2}:\d{2}:\d{2} [-+]\d{4}\] "')
 
 
@@ -145,20 +172,41 @@ def _label(spec: str) -> str:
 def plan(data: bytes, options: ScanOptions) -> AccessLayout:
     lines = sample_lines(data)
     sample = pl.Series(lines, dtype=pl.String)
-    full = sample.str.extract_groups(line_regex(set(NAMES) | {"time", "rest"}))
     notes: list[str] = []
+    by_ingress = sample.str.contains(_plain(line_regex({"time"}, ingress=True)))
+    ingress = bool(lines) and int(by_ingress.sum()) >= MOST * len(lines)
+    full = sample.str.extract_groups(line_regex(set(NAMES) | {"time", "rest"}))
     combined = bool(full.struct.field("user_agent").is_not_null().any())
-    kind = "combined log format" if combined else "Common Log Format"
+    kind = (
+        "ingress-nginx log format" if ingress else "combined log format" if combined else "Common Log Format"
+    )
+    names_read = (*NAMES[:-1], *INGRESS_NAMES) if ingress else NAMES
     matched = full.struct.field("time").is_not_null()
-    rests = [r or "" for r in full.struct.field("rest").filter(matched).to_list()]
+    rests = [] if ingress else [r or "" for r in full.struct.field("rest").filter(matched).to_list()]
     input_unit = None
     spec = options.field or options.column
-    src = value_source(options, rests, what=f"{kind} lines") if options.pattern else None
+    src = value_source(options, rests or lines, what=f"{kind} lines") if options.pattern else None
     if src is not None:
         spec = "pattern"
+    elif spec is None and ingress:
+        spec = "request_time"
+        if options.input_unit is None:
+            input_unit = "s"
+            notes.append(
+                "value: request_time of the ingress-nginx log format, in seconds; choose another "
+                "with --field (upstream_response_time, request_length, ...)."
+            )
     elif spec is None:
         lat = [x for x in full.struct.field("latency").filter(matched).to_list() if x]
         if lat and len(lat) >= MOST * len(rests):
+            if sum(not _PAIRS_ONLY.match(r) for r in rests) > (1 - MOST) * len(rests):
+                # Fields after the number: which one is the latency cannot be told (the
+                # request length in bytes has been read as microseconds that way).
+                raise OgiveError(
+                    f"the {kind} lines go on after the number that follows the standard fields; "
+                    "which field is the latency cannot be told: give --pattern with a regex whose "
+                    "group captures it."
+                )
             spec = "latency"
             if options.input_unit is None:
                 seconds = any("." in x for x in lat)
@@ -191,9 +239,13 @@ def plan(data: bytes, options: ScanOptions) -> AccessLayout:
             continue
         if src is not None and s in src.named:
             extra.append(src.group(name, s))
-        elif s in NAMES:
+        elif s in names_read:
             wanted.add(s)
             columns.append((name, s))
+        elif ingress:
+            raise OgiveError(
+                f"{s!r}: the ingress-nginx log format has no such field (it has: {', '.join(names_read)})."
+            )
         elif name == "v":
             value = field_value(s, rests)
             extra.append(value)
@@ -212,12 +264,12 @@ def plan(data: bytes, options: ScanOptions) -> AccessLayout:
         n for n in ("v", "g", "t") if any(n == c for c, _ in columns) or any(n == e.name for e in extra)
     )
     # The quick way needs the latency to end every line that has one (no pairs after it).
-    quick = src is None and spec == "latency" and options.by is None and not any(rests)
+    quick = src is None and spec == "latency" and options.by is None and not any(rests) and not ingress
     return AccessLayout(
         format="access",
         quick=quick,
         names=names,
-        regex=line_regex(wanted),
+        regex=line_regex(wanted, ingress=ingress),
         columns=tuple(columns),
         pairs=tuple(extra),
         description=f"{src.description if src else _label(spec)} ({kind})",
