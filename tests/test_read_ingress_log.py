@@ -93,9 +93,10 @@ def test_upstream_fields_retries_and_dashes(tmp_path: Path, capsys: pytest.Captu
 
 
 def test_fields_after_the_number_are_not_guessed(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
-    """A combined line that goes on past the number after the standard fields, in no shape
-    ogive knows: one line says so instead of taking the first number for the latency.
-    KEY=VALUE pairs after it are still fine (the number is the latency)."""
+    """A combined line that goes on past a whole number after the standard fields, in no
+    shape ogive knows: one line says so instead of taking it for microseconds. KEY=VALUE
+    pairs after it are still fine, and so is a first number with a decimal point (nginx's
+    ``$request_time $upstream_response_time``: the first is the request's, in seconds)."""
     odd = tmp_path / "odd.log"
     line = '10.0.0.1 - - [04/Mar/2026:10:00:{s:02d} +0000] "GET / HTTP/1.1" 200 5 "-" "c" {n} 0.0{s} up=a b\n'
     odd.write_text("".join(line.format(s=s, n=100 + s) for s in range(1, 30)))
@@ -109,4 +110,12 @@ def test_fields_after_the_number_are_not_guessed(tmp_path: Path, capsys: pytest.
     assert doc["sketches"]["all"]["n"] == 29
     np.testing.assert_allclose(
         doc["sketches"]["all"]["p50"], np.quantile([float(f"0.0{s}") * 1000 for s in range(1, 30)], 0.5)
+    )
+    two = tmp_path / "two.log"
+    line = '10.0.0.1 - - [04/Mar/2026:10:00:{s:02d} +0000] "GET / HTTP/1.1" 200 5 "-" "c" 0.0{s} 0.00{t}\n'
+    two.write_text("".join(line.format(s=s, t=s % 10) for s in range(10, 40)))
+    code, doc, err = _scan(capsys, str(two))
+    assert code == 0, err
+    np.testing.assert_allclose(
+        doc["sketches"]["all"]["p90"], np.quantile([float(f"0.0{s}") * 1000 for s in range(10, 40)], 0.9)
     )

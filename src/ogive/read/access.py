@@ -199,9 +199,12 @@ def plan(data: bytes, options: ScanOptions) -> AccessLayout:
     elif spec is None:
         lat = [x for x in full.struct.field("latency").filter(matched).to_list() if x]
         if lat and len(lat) >= MOST * len(rests):
-            if sum(not _PAIRS_ONLY.match(r) for r in rests) > (1 - MOST) * len(rests):
-                # Fields after the number: which one is the latency cannot be told (the
-                # request length in bytes has been read as microseconds that way).
+            seconds = any("." in x for x in lat)
+            if not seconds and sum(not _PAIRS_ONLY.match(r) for r in rests) > (1 - MOST) * len(rests):
+                # A whole number with fields after it: which is the latency cannot be told
+                # (a request length in bytes was read as microseconds that way). A number
+                # with a decimal point first is nginx's $request_time, as custom formats put
+                # it (``$request_time $upstream_response_time``): taken, in seconds.
                 raise OgiveError(
                     f"the {kind} lines go on after the number that follows the standard fields; "
                     "which field is the latency cannot be told: give --pattern with a regex whose "
@@ -209,7 +212,6 @@ def plan(data: bytes, options: ScanOptions) -> AccessLayout:
                 )
             spec = "latency"
             if options.input_unit is None:
-                seconds = any("." in x for x in lat)
                 input_unit = "s" if seconds else "us"
                 how = (
                     "in seconds (the values have a decimal point)"
