@@ -47,7 +47,12 @@ _CLOCK = r"^(?:(\d+)[.:])?(\d{1,2}):([0-5]\d):([0-5]\d(?:\.\d+)?)$"
 """A duration on a clock face, as .NET's ``TimeSpan`` writes it: ``00:00:01.5``,
 ``1.02:00:00`` (days first). Read only where the value was named or chosen: a time of
 day looks the same, so the sniffer never takes such a column for the value by itself."""
-_SPELLED_SECONDS = ((_ISO_DURATION, (86400.0, 3600.0, 60.0, 1.0)), (_CLOCK, (86400.0, 3600.0, 60.0, 1.0)))
+_GROUPED_SECONDS = (
+    (_COMPOUND, _COMPOUND_SECONDS),
+    (_ISO_DURATION, (86400.0, 3600.0, 60.0, 1.0)),
+    (_CLOCK, (86400.0, 3600.0, 60.0, 1.0)),
+)
+"""Duration forms read group by group: (regex, seconds per group), tried in this order."""
 
 MISSING_FIELD = "missing_field"
 NOT_A_NUMBER = "not_a_number"
@@ -212,37 +217,29 @@ def _one_suffix(rest: pl.Series) -> Durations:
 
 
 def _any_suffix(rest: pl.Series) -> Durations:
-    """Rows with any suffix we know, or a compound duration (``1m30.5s``), by regex."""
+    """Rows with any suffix we know, or a duration in a form read group by group
+    (``1m30.5s``, ``PT0.5S``, ``00:00:01.5``), by regex."""
     number = rest.str.extract(_SINGLE, 1).cast(pl.Float64, strict=False)
     unit = rest.str.extract(_SINGLE, 2)
     factor = unit.replace_strict(TIME_UNITS, default=None, return_dtype=pl.Float64)
     single_ok = (number.is_not_null() & factor.is_not_null()).to_numpy()
     unknown = (number.is_not_null() & factor.is_null()).to_numpy()
-    secs = (number * factor).fill_null(np.nan).to_numpy()
-    # Compound forms for what the single-suffix form did not take.
-    groups = rest.str.extract_groups(_COMPOUND)
-    comp_secs = np.zeros(rest.len())
-    comp_any = np.zeros(rest.len(), dtype=bool)
-    for i, field in enumerate(groups.struct.fields):
-        part = groups.struct.field(field).cast(pl.Float64, strict=False)
-        present = part.is_not_null().to_numpy()
-        comp_any |= present
-        comp_secs += np.where(present, part.fill_null(0.0).to_numpy(), 0.0) * _COMPOUND_SECONDS[i]
-    comp_ok = comp_any & ~single_ok
-    secs = np.where(single_ok, secs, comp_secs)
-    for pattern, seconds in _SPELLED_SECONDS:
-        s_secs, s_ok = _spelled(rest, pattern, seconds)
-        s_ok &= ~(single_ok | comp_ok)
-        secs[s_ok] = s_secs[s_ok]
-        comp_ok |= s_ok
-    unknown &= ~comp_ok
-    return secs, single_ok | comp_ok, unknown
+    secs = (number * factor).fill_null(np.nan).to_numpy().astype(np.float64, copy=True)
+    # Compound (``1m30.5s``), ISO 8601 and clock-face forms for what the single-suffix
+    # form did not take, the first form that reads a row winning.
+    ok = single_ok.copy()
+    for pattern, seconds in _GROUPED_SECONDS:
+        g_secs, g_ok = _grouped(rest, pattern, seconds)
+        g_ok &= ~ok
+        secs[g_ok] = g_secs[g_ok]
+        ok |= g_ok
+    return secs, ok, unknown & ~ok
 
 
-def _spelled(
+def _grouped(
     rest: pl.Series, pattern: str, seconds: tuple[float, ...]
 ) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
-    """Seconds of the rows written in ``pattern``'s form (an ISO 8601 or clock-face
+    """Seconds of the rows written in ``pattern``'s form (compound, ISO 8601 or clock-face
     duration), whose groups count ``seconds`` each; and which rows those are."""
     groups = rest.str.extract_groups(pattern)
     total = np.zeros(rest.len())
