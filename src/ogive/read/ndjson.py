@@ -330,7 +330,8 @@ def plan(data: bytes, options: ScanOptions) -> JsonLayout:
     elif objects and sum(ECS_TIMESTAMP in o for o in objects) >= MOST * len(objects):
         chosen.append(("t", [[ECS_TIMESTAMP]]))
         time_source = f"field {ECS_TIMESTAMP}"
-    elif (key := _time_key(objects, vways)) is not None:
+    elif (key := times.time_key(_top_level(objects, vways), len(objects), MOST)) is not None:
+        # bunyan, pino, zap and container runtimes write "time" or "ts" at the top.
         chosen.append(("t", [[key]]))
         time_source = f"field {key}"
     paths = [(name, tuple(json_path(p) for p in ways)) for name, ways in chosen]
@@ -416,21 +417,15 @@ def _text_field(
     return found[0] if len(found) == 1 else None
 
 
-def _time_key(objects: list[dict[str, Any]], value: list[list[Part]]) -> str | None:
-    """The one top-level key of ``times.TIME_KEYS`` (``time``, ``ts``: what bunyan, pino,
-    zap and container runtimes write) holding a moment of this century in most objects;
-    None when none does, or two do (--time-field chooses), or it is the value itself."""
-    hits = []
+def _top_level(objects: list[dict[str, Any]], value: list[list[Part]]) -> dict[str, list[object]]:
+    """The sampled non-null values of the top-level keys named exactly as in
+    ``times.TIME_KEYS``, the value's own key left out."""
+    found: dict[str, list[object]] = {}
     for key in times.TIME_KEYS:
         vals = [o[key] for o in objects if o.get(key) is not None]
-        if (
-            vals
-            and [key] not in value
-            and len(vals) >= MOST * len(objects)
-            and times.holds_moments(vals, MOST)
-        ):
-            hits.append(key)
-    return hits[0] if len(hits) == 1 else None
+        if vals and [key] not in value:
+            found[key] = vals
+    return found
 
 
 def _choose_value(

@@ -161,21 +161,6 @@ def pairs(lines: list[str]) -> dict[str, list[str]]:
     return seen
 
 
-def time_key(lines: list[str]) -> str | None:
-    """The one key of ``times.TIME_KEYS`` that holds a readable time in most sample lines
-    (``ts=2026-03-04T10:00:00Z``, ``time="2026-03-04 10:00:00"``, epoch seconds), else
-    None. Why the reading test: ``time=12ms`` is a duration, not a moment."""
-    found = pairs(lines)
-    hits = [
-        key
-        for key, vals in found.items()
-        if key.lower() in times.TIME_KEYS
-        and len(vals) >= MOST * len(lines)
-        and times.holds_moments(vals, MOST)
-    ]
-    return hits[0] if len(hits) == 1 else None
-
-
 def choose_key(lines: list[str], exclude: set[str]) -> tuple[str | None, list[str], bool]:
     """The one key whose values are durations (``12ms``) wherever it appears, in at least
     a tenth of the lines (syslog mixes many programs); else the one key that holds
@@ -301,7 +286,8 @@ def plan(data: bytes, options: ScanOptions) -> TextLayout:
     elif starts_with_time:
         extracts.append(Extract("t", LEADING_TIME, (1,)))
         time_source = "the time stamp that begins each line"
-    elif not options.pattern and (key := time_key(lines)) is not None:
+    elif not options.pattern and (key := times.time_key(pairs(lines), len(lines), MOST)) is not None:
+        # logfmt's ts=: a time=12ms is no moment (times.holds_moments tells).
         extracts.append(Extract("t", key_value_regex(key), (1, 2)))
         time_source = f"the {key}= pairs"
     return TextLayout(

@@ -28,7 +28,7 @@ from __future__ import annotations
 import datetime as dt
 import re
 import time as _time
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -121,6 +121,19 @@ TIME_KEYS = ("ts", "time", "timestamp", "@timestamp")
 bunyan, logrus, pino and container runtimes ``time``)."""
 LIKELY_US = (946_684_800e6, 4_102_444_800e6)
 """2000-01-01 to 2100-01-01: where the moments of a time key nobody named must fall."""
+
+
+def time_key(found: Mapping[str, Sequence[object]], records: int, share: float) -> str | None:
+    """The one key of ``found`` (the sampled values per key) named as in
+    :data:`TIME_KEYS` whose values are there in at least ``share`` of the ``records``
+    and are moments (:func:`holds_moments`); None when none is, or two are (the user
+    then chooses)."""
+    hits = [
+        key
+        for key, vals in found.items()
+        if key.lower() in TIME_KEYS and vals and len(vals) >= share * records and holds_moments(vals, share)
+    ]
+    return hits[0] if len(hits) == 1 else None
 
 
 def holds_moments(values: Sequence[object], share: float) -> bool:
