@@ -19,6 +19,7 @@ Each format lives in its own module (``delimited``, ``ndjson``, ``text``, ``acce
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 from typing import Any
 
@@ -161,6 +162,12 @@ def split_lines(data: bytes, *, strict_utf8: bool = False) -> pl.Series:
     if parts and parts[-1] == "":
         parts.pop()
     return pl.Series("line", [p.removesuffix("\r") or None for p in parts], dtype=pl.String)
+
+
+def uncaptured(regex: str) -> str:
+    """``regex`` with its named groups made non-capturing: a match test runs much faster
+    than an extract, and tells whether a line has the format's shape."""
+    return re.sub(r"\(\?P<\w+>", "(?:", regex)
 
 
 def blank(lines: pl.Series) -> pl.Series:

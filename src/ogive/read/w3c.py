@@ -23,7 +23,6 @@ with a one-line error instead.
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 
 import polars as pl
@@ -300,7 +299,7 @@ def plan(data: bytes, options: ScanOptions) -> W3cLayout:
         names=names,
         fields=fields,
         regex=regex,
-        plain=re.sub(r"\(\?P<\w+>", "(?:", regex),
+        plain=L.uncaptured(regex),
         columns=tuple(columns),
         separator="\t" if tabs else " ",
         description=f"field {fields[vi]} (W3C extended log, {sep}-separated)",
