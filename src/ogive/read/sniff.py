@@ -5,9 +5,9 @@ so a few junk lines at the top do not mislead): binary data (refused), OTLP JSON
 (``resourceSpans``), NDJSON (objects, one per line), RFC 5424 and RFC 3164 syslog
 headers, Common Log Format time stamps, a W3C extended log's ``#Fields:`` directive,
 delimited records (a CSV parser's field count, see ``delimited.sniff``), and free
-text. Each rule is a property of the format's own
-grammar, so the order only matters for lines that fit two (a CSV whose first column is
-a syslog-looking date would be read as syslog).
+text. Each rule is a property of the format's own grammar, so the order only matters
+for lines that fit two (a CSV whose first column is a syslog-looking date would be read
+as syslog).
 """
 
 from __future__ import annotations
